@@ -1,0 +1,93 @@
+"""The ``stationcheck`` command: one subcommand per job, each in ``stationcheck.commands``.
+
+Exit codes: 0 success; 1 findings or a failed check (e.g. ``check`` found errors); 2 config
+error; 3 unreadable input file; 4 model error; 5 PLC link error; 6 step-log error; 7 missing
+optional extra; 64 usage error; 70 internal error (a bug: please report the traceback).
+"""
+
+from __future__ import annotations
+
+import argparse
+import importlib
+import logging
+import sys
+from collections.abc import Sequence
+
+from stationcheck import __version__
+from stationcheck.errors import StationcheckError
+
+EXIT_USAGE = 64
+EXIT_INTERNAL = 70
+
+# Each module in stationcheck.commands provides ``register(subparsers)``; imports of heavy
+# libraries happen inside the command's handler so ``--help`` stays instant.
+COMMAND_MODULES = (
+    "demo",
+    "replay",
+    "run",
+    "simulate",
+    "check",
+    "setup",
+    "review",
+    "eval",
+    "train",
+    "bench",
+    "render",
+    "teach",
+)
+
+SAFETY_NOTE = (
+    "Tool enable/inhibit is an error-proofing aid for quality, not a safety function: never rely "
+    "on it to protect people; follow local codes and your plant's qualified safety practice."
+)
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = argparse.ArgumentParser(
+        prog="stationcheck",
+        description=(
+            "Watches a manual assembly station with one camera, finds the fastening tool's tip, "
+            "enables the tool only at the correct next fastener position and logs every step "
+            "of every unit."
+        ),
+        epilog=SAFETY_NOTE,
+    )
+    parser.add_argument("--version", action="version", version=f"stationcheck {__version__}")
+    parser.add_argument(
+        "-v", "--verbose", action="count", default=0, help="more log output (-vv for debug)"
+    )
+    subparsers = parser.add_subparsers(dest="command", metavar="COMMAND")
+    for name in COMMAND_MODULES:
+        try:
+            module = importlib.import_module(f"stationcheck.commands.{name}")
+        except ModuleNotFoundError as exc:
+            if exc.name == f"stationcheck.commands.{name}":
+                continue  # not built yet
+            raise
+        module.register(subparsers)
+    return parser
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    parser = build_parser()
+    try:
+        args = parser.parse_args(argv)
+    except SystemExit as exc:
+        code = exc.code if isinstance(exc.code, int) else EXIT_USAGE
+        return EXIT_USAGE if code == 2 else code
+    logging.basicConfig(
+        level=logging.WARNING - 10 * min(args.verbose, 2),
+        format="%(levelname)s %(name)s: %(message)s",
+    )
+    handler = getattr(args, "handler", None)
+    if handler is None:
+        parser.print_help()
+        return EXIT_USAGE
+    try:
+        return int(handler(args))
+    except StationcheckError as exc:
+        print(f"stationcheck {args.command}: error: {exc}", file=sys.stderr)
+        return exc.exit_code
+    except KeyboardInterrupt:
+        print(f"stationcheck {args.command}: interrupted", file=sys.stderr)
+        return 130

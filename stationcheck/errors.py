@@ -1,0 +1,49 @@
+"""The exception tree. Third-party errors are wrapped at the edge with ``raise ... from exc``.
+
+The CLI turns any :class:`StationcheckError` into one line on stderr and the exit code of its
+class; a traceback means a bug, not a user mistake.
+"""
+
+from __future__ import annotations
+
+
+class StationcheckError(Exception):
+    """Root of every error stationcheck raises on purpose."""
+
+    exit_code = 1
+
+
+class ConfigError(StationcheckError):
+    """A station config (or another input file) is malformed or inconsistent."""
+
+    exit_code = 2
+
+
+class InputFileError(StationcheckError):
+    """A video, sidecar, dataset or other input file is missing, unreadable or corrupt."""
+
+    exit_code = 3
+
+
+class ModelError(StationcheckError):
+    """A model file is missing, unreadable, or does not keep the model contract."""
+
+    exit_code = 4
+
+
+class SignalLinkError(StationcheckError):
+    """The PLC link is down, frozen or answered wrongly."""
+
+    exit_code = 5
+
+
+class StoreError(StationcheckError):
+    """The step log cannot be written or read (full disk, locked or damaged file)."""
+
+    exit_code = 6
+
+
+class MissingExtraError(StationcheckError):
+    """An optional extra (e.g. ``train``) is needed for this command but not installed."""
+
+    exit_code = 7
