@@ -8,6 +8,13 @@ from dataclasses import dataclass
 import numpy as np
 import numpy.typing as npt
 
+from stationcheck.core.validation import (
+    require_at_least,
+    require_bool,
+    require_finite,
+    require_point,
+)
+
 
 @dataclass(frozen=True)
 class Frame:
@@ -72,3 +79,41 @@ class Keypoints:
             if point.name == name:
                 return point
         return None
+
+
+@dataclass(frozen=True)
+class ToolPose:
+    """The tracker's belief about the tool in one frame.
+
+    ``tip_px``/``rear_px`` are smoothed positions; during the lost-track grace period they hold
+    the last smoothed position and ``visible`` stays true while ``seen`` is false. After the grace
+    period ``visible`` is false and both positions are None.
+    """
+
+    t_s: float
+    frame_index: int
+    tip_px: tuple[float, float] | None
+    rear_px: tuple[float, float] | None
+    visible: bool
+    seen: bool
+    score: float
+    track_age_s: float = 0.0
+    unseen_ms: float = 0.0
+
+    def __post_init__(self) -> None:
+        require_finite("ToolPose", "t_s", self.t_s)
+        if self.frame_index < 0:
+            raise ValueError(f"ToolPose.frame_index must be >= 0, got {self.frame_index}")
+        require_point("ToolPose", "tip_px", self.tip_px)
+        require_point("ToolPose", "rear_px", self.rear_px)
+        require_bool("ToolPose", "visible", self.visible)
+        require_bool("ToolPose", "seen", self.seen)
+        if self.visible and self.tip_px is None:
+            raise ValueError("ToolPose.tip_px must be set when visible is true, got None")
+        if self.seen and not self.visible:
+            raise ValueError("ToolPose.visible must be true when seen is true, got false")
+        require_finite("ToolPose", "score", self.score)
+        if not 0.0 <= self.score <= 1.0:
+            raise ValueError(f"ToolPose.score must be in [0, 1], got {self.score}")
+        require_at_least("ToolPose", "track_age_s", self.track_age_s, 0.0)
+        require_at_least("ToolPose", "unseen_ms", self.unseen_ms, 0.0)

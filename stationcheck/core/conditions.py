@@ -1,0 +1,152 @@
+"""What is settled after every input, whatever it was: timers, condition alarms, the enable output.
+
+Enable (fail towards inhibit) is on only when, in this order:
+1. the PLC link is up and a fasten step has a target position; then
+2. a tightening granted at that position is running (kept on through vision faults and tip
+   wobble so a tightening is never cut in half; ends at the result or when the tool stops), or
+3. no camera move, no detector fault, a fresh frame, a visible tip that has arrived (dwelled) in
+   the target zone, and no post-reset hold.
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+from stationcheck.core.events import RESULT_OK
+from stationcheck.core.flow import complete_step
+from stationcheck.core.plan import PickStep
+from stationcheck.core.state import ActiveAlarm, SequencerState
+from stationcheck.core.timing import elapsed_ms, exceeded, reached
+from stationcheck.core.transaction import PlanIndex, Transaction
+
+Details = dict[str, Any]
+
+
+def frame_is_fresh(state: SequencerState, index: PlanIndex) -> bool:
+    tool, now = state.tool, state.now_t_s
+    if state.health.frame_stale or tool.last_frame_t_s is None or now is None:
+        return False
+    age_ms = max(elapsed_ms(tool.last_frame_t_s, now), tool.frame_age_ms)
+    return not exceeded(age_ms, index.stale_frame_ms)
+
+
+def complete_pick_if_due(tx: Transaction) -> None:
+    """Activity in the step's bin for ``min_time_ms`` (counted from the step's start)."""
+    step, unit = tx.plan_step(), tx.unit
+    if not isinstance(step, PickStep) or unit is None or tx.state.health.camera_moved:
+        return
+    since = tx.state.bin_active_since(step.zone)
+    if since is None or unit.step_started_t_s is None:
+        return
+    active_ms = elapsed_ms(max(since, unit.step_started_t_s), tx.now_t_s)
+    if reached(active_ms, step.min_time_ms):
+        complete_step(tx, RESULT_OK, zone=step.zone, active_ms=active_ms)
+
+
+def _station_conditions(tx: Transaction) -> list[tuple[ActiveAlarm, Details]]:
+    state, found = tx.state, []
+    health = state.health
+    if not health.link_ok:
+        found.append((ActiveAlarm("link_lost"), {"message": "the PLC link is down"}))
+    if health.camera_moved:
+        message = f"the camera moved by about {health.shift_px:.1f} px"
+        found.append((ActiveAlarm("camera_moved"), {"message": message}))
+    if health.detector_fault is not None:
+        message = f"the keypoint detector failed: {health.detector_fault}"
+        found.append((ActiveAlarm("detector_fault"), {"message": message}))
+    if state.tool.last_frame_t_s is not None and not frame_is_fresh(state, tx.index):
+        found.append((ActiveAlarm("frame_stale"), {"message": "no fresh camera frame"}))
+    return found
+
+
+def _unit_conditions(tx: Transaction) -> list[tuple[ActiveAlarm, Details]]:
+    state, index, found = tx.state, tx.index, []
+    tool, phase, target = state.tool, tx.phase, tx.target()
+    if phase == "fasten" and tool.seen_once and not tool.visible:
+        found.append((ActiveAlarm("tool_lost"), {"message": "the tool is out of view"}))
+    wrong = tool.arrived_zone
+    if (
+        target is not None
+        and index.is_kind(wrong, "fastener")
+        and wrong != target.ref.zone
+        and tool.visit != state.control.quiet_visit
+    ):
+        assert wrong is not None
+        message = (
+            f"tool at {index.label(wrong)}; the next position is {index.label(target.ref.zone)}"
+        )
+        details = {"message": message, "expected": target.ref.zone}
+        found.append((ActiveAlarm("wrong_position", wrong), details))
+    step, unit = tx.plan_step(), tx.unit
+    if isinstance(step, PickStep) and unit is not None and unit.step_started_t_s is not None:
+        started_t_s = unit.step_started_t_s
+        for zone, since in state.active_bins:
+            # a reach that began before this step (e.g. the previous pick) is not a wrong one
+            if zone != step.zone and index.is_kind(zone, "bin") and since >= started_t_s:
+                message = f"activity in {index.label(zone)}; take from {index.label(step.zone)}"
+                found.append(
+                    (ActiveAlarm("wrong_bin", zone), {"message": message, "expected": step.zone})
+                )
+    return found
+
+
+def update_alarms(tx: Transaction) -> None:
+    """Condition alarms are raised once when they start and cleared once when they end."""
+    current = _station_conditions(tx) + _unit_conditions(tx)
+    active = [alarm for alarm, _ in current]
+    for alarm in tx.state.alarms:
+        if alarm not in active:
+            tx.emit("alarm_cleared", code=alarm.code, subject=alarm.subject)
+    for alarm, details in current:
+        if alarm not in tx.state.alarms:
+            tx.alarm(alarm.code, alarm.subject, **details)
+    tx.set(alarms=tuple(active))
+
+
+def decide_enable(tx: Transaction) -> tuple[bool, str]:
+    """(enable, reason); the reason names the first rule that decided."""
+    state, target = tx.state, tx.target()
+    health, tool, control = state.health, state.tool, state.control
+    if not health.link_ok:
+        return False, "link_lost"
+    if tx.unit is None:
+        return False, "no_unit"
+    if target is None:
+        return False, f"{tx.phase}_step"
+    if control.running_for == target.ref:
+        return True, "tightening_running"
+    if health.camera_moved:
+        return False, "camera_moved"
+    if health.detector_fault is not None:
+        return False, "detector_fault"
+    if not frame_is_fresh(state, tx.index):
+        return False, "frame_stale"
+    if not tool.visible:
+        return False, "tool_not_visible"
+    if tool.arrived_zone != target.ref.zone:
+        return False, "dwelling" if tool.zone == target.ref.zone else "tip_not_at_target"
+    hold_off = control.hold_off_until_t_s
+    if hold_off is not None and exceeded(elapsed_ms(tx.now_t_s, hold_off), 0.0):
+        return False, "reset_hold"
+    return True, "tip_at_target"
+
+
+def update_enable(tx: Transaction) -> None:
+    enabled, reason = decide_enable(tx)
+    control, target = tx.state.control, tx.target()
+    if enabled and target is not None and control.enabled_for != target.ref:
+        tx.set_control(enabled_for=target.ref, attempt_started_t_s=tx.now_t_s)
+    if enabled != control.enabled:
+        where = {"step": target.ref.step, "zone": target.ref.zone} if target is not None else {}
+        if enabled and target is not None:
+            attempt = target.attempts + 1
+            tx.emit("tool_enabled", **where, position=target.number, attempt=attempt, reason=reason)
+        else:
+            tx.emit("tool_inhibited", **where, reason=reason)
+    tx.set_control(enabled=enabled, reason=reason)
+
+
+def settle(tx: Transaction) -> None:
+    complete_pick_if_due(tx)
+    update_alarms(tx)
+    update_enable(tx)
