@@ -39,6 +39,7 @@ from stationcheck.core.plan import (
     Thresholds,
     ZoneSpec,
 )
+from stationcheck.judgements import settings as judgement_defaults
 
 FORMAT_VERSION = 1
 BUNDLED_MODEL = "bundled"
@@ -301,6 +302,43 @@ class LogSection(_Section):
     retention_days: Whole = Field(default=90, ge=1)
 
 
+class BinActivitySection(_Section):
+    changed_fraction: Number = Field(
+        default=judgement_defaults.BinActivitySettings.changed_fraction, gt=0, le=1)
+    settle_ms: Number = Field(default=judgement_defaults.BinActivitySettings.settle_ms, ge=0)
+    release_ms: Number = Field(default=judgement_defaults.BinActivitySettings.release_ms, ge=0)
+
+
+class PresenceSection(_Section):
+    min_match: Number = Field(default=judgement_defaults.PresenceSettings.min_match, ge=0, le=1)
+    min_margin: Number = Field(default=judgement_defaults.PresenceSettings.min_margin, ge=0, le=2)
+    confirm_ms: Number = Field(default=judgement_defaults.PresenceSettings.confirm_ms, ge=0)
+    search_px: Whole = Field(default=judgement_defaults.PresenceSettings.search_px, ge=0, le=32)
+
+
+class CameraShiftSection(_Section):
+    tolerance_px: Number = Field(
+        default=judgement_defaults.CameraShiftSettings.tolerance_px, ge=0.5)
+    interval_ms: Number = Field(default=judgement_defaults.CameraShiftSettings.interval_ms, ge=0)
+    confirm_checks: Whole = Field(
+        default=judgement_defaults.CameraShiftSettings.confirm_checks, ge=1, le=20)
+
+
+class JudgementsSection(_Section):
+    """Image judgements: pick activity in bins, check-zone presence, camera shift."""
+
+    bin_activity: BinActivitySection = BinActivitySection()
+    presence: PresenceSection = PresenceSection()
+    camera_shift: CameraShiftSection = CameraShiftSection()
+
+    def to_settings(self) -> judgement_defaults.JudgementSettings:
+        return judgement_defaults.JudgementSettings(
+            bin_activity=judgement_defaults.BinActivitySettings(**self.bin_activity.model_dump()),
+            presence=judgement_defaults.PresenceSettings(**self.presence.model_dump()),
+            camera_shift=judgement_defaults.CameraShiftSettings(**self.camera_shift.model_dump()),
+        )
+
+
 class StationConfig(_Section):
     """One station. Build it with :func:`stationcheck.config.load_config`, which also lints it."""
 
@@ -313,6 +351,7 @@ class StationConfig(_Section):
     steps: list[StepEntry] = Field(min_length=1)
     plc: PlcSection = PlcSection()
     log: LogSection = LogSection()
+    judgements: JudgementsSection = JudgementsSection()
 
     _base_dir: Path = PrivateAttr(default_factory=Path.cwd)
 

@@ -41,6 +41,11 @@ GOOD: list[Any] = [
         "serial": {"table": "input_register", "address": 0, "count": 10},
         "heartbeat": {"table": "holding_register", "address": 0},
         "step": {"table": "holding_register", "address": 1}})], id="address map"),
+    pytest.param([("judgements", {
+        "bin_activity": {"changed_fraction": 0.1, "settle_ms": 0, "release_ms": 250},
+        "presence": {"min_match": 0.8, "min_margin": 0.5, "confirm_ms": 200, "search_px": 0},
+        "camera_shift": {"tolerance_px": 6, "interval_ms": 500, "confirm_checks": 3}})],
+        id="image judgements tuned"),
 ]
 
 BAD: list[Any] = [
@@ -184,6 +189,15 @@ BAD: list[Any] = [
         id="quoted yes"),
     pytest.param([("log", {"retention_days": 0})], [
         ("error", "log.retention_days", "must be at least 1, got 0")], id="zero retention"),
+    pytest.param([("judgements", {"camera_shift": {"tolerance_px": 0}})], [
+        ("error", "judgements.camera_shift.tolerance_px", "must be at least 0.5, got 0")],
+        id="camera tolerance zero"),
+    pytest.param([("judgements", {"bin_activity": {"changed_fraction": 1.5}})], [
+        ("error", "judgements.bin_activity.changed_fraction", "must be at most 1, got 1.5")],
+        id="bin share above 1"),
+    pytest.param([("judgements", {"presence": {"margin": 0.2}})], [
+        ("error", "judgements.presence.margin", "did you mean 'min_margin'?")],
+        id="misspelt presence margin"),
 ]
 
 
