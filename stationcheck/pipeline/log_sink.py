@@ -1,0 +1,65 @@
+"""The step log as a pipeline sink: every step's events committed before the next step, the
+rework look-up, and the inhibit record written when a run stops on an error."""
+
+from __future__ import annotations
+
+import logging
+import time
+from collections.abc import Callable
+
+from stationcheck.core.events import Event
+from stationcheck.core.observations import PositionRef
+from stationcheck.errors import StoreError
+from stationcheck.pipeline.decisions import DecisionStep
+from stationcheck.store.step_log import StepLog
+
+logger = logging.getLogger(__name__)
+
+STOPPED_ON_ERROR = "stopped_on_error"
+
+
+def rework_positions_from_log(log: StepLog, serial: str) -> tuple[PositionRef, ...]:
+    """Failed and unfinished positions of the unit's last closed pass (empty if none)."""
+    for stored in reversed(log.events(serial=serial)):
+        event = stored.event
+        if event.kind == "unit_ended":
+            refs = list(event.data.get("failed_positions", []))
+            refs += list(event.data.get("unfinished_positions", []))
+            return tuple(PositionRef(step=r["step"], zone=r["zone"]) for r in refs)
+    return ()
+
+
+class StepLogSink:
+    """Appends each step's events as one atomic batch; ``clock`` stamps ``recorded_at_s``."""
+
+    def __init__(self, log: StepLog, clock: Callable[[], float] = time.time) -> None:
+        self.log = log
+        self.clock = clock
+        self.events_written = 0
+        self._last_t_s = 0.0
+        self._last_serial: str | None = None
+        self._enabled = False
+
+    def on_step(self, step: DecisionStep) -> None:
+        if step.events:
+            self.log.append(step.events, recorded_at_s=self.clock())
+            self.events_written += len(step.events)
+        self._last_t_s = step.output.t_s
+        self._last_serial = step.output.serial if step.output.unit_status == "running" else None
+        self._enabled = step.output.tool_enabled
+
+    def on_stop(self, error: BaseException | None) -> None:
+        """After a failure the log says the tool went off and why (unless the log itself is
+        what failed)."""
+        if error is None or isinstance(error, StoreError):
+            return
+        message = str(error).strip().splitlines()[0] if str(error).strip() else type(error).__name__
+        event = Event(
+            t_s=self._last_t_s,
+            kind="tool_inhibited",
+            serial=self._last_serial,
+            data={"reason": STOPPED_ON_ERROR, "was_enabled": self._enabled, "error": message[:300]},
+        )
+        self.log.append([event], recorded_at_s=self.clock())
+        self.events_written += 1
+        logger.info("run stopped on an error; tool inhibited and recorded in the log")

@@ -1,0 +1,12 @@
+"""Where frames come from: a protocol, a video file read with OpenCV, and an in-memory fake.
+
+The frame loop takes any :class:`FrameSource`; it never knows whether frames come from a file,
+a camera or a test.
+"""
+
+from __future__ import annotations
+
+from stationcheck.sources.frame_source import FrameSource
+from stationcheck.sources.memory_source import MemoryFrameSource
+
+__all__ = ["FrameSource", "MemoryFrameSource"]
