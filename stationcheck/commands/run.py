@@ -1,0 +1,60 @@
+"""``stationcheck run``: the live station loop (camera -> decisions -> PLC signals -> step log).
+
+Exit codes: 0 stopped (Ctrl-C, or a video file ended); 2 bad config; 3 camera or file cannot be
+opened; 4 bad model file; 5 signal link error; 6 step-log error; 64 bad command line.
+"""
+
+from __future__ import annotations
+
+import argparse
+import signal
+from pathlib import Path
+from types import FrameType
+
+
+def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
+    p = subparsers.add_parser(
+        "run",
+        help="run the station live: camera, decisions, PLC signals, step log",
+        description=(
+            "Runs the live loop on the config's camera (or --source): newest frame -> keypoint "
+            "detector -> tracker -> zones -> image judgements -> sequencer -> tool enable and "
+            "status to the PLC, step log. Watchdogs drop the enable on stale frames, detector "
+            "faults, lost track, PLC link loss or a frozen PLC, camera movement and any error."
+        ),
+    )
+    p.add_argument("--config", required=True, type=Path, help="station config (.yaml)")
+    p.add_argument("--source", default=None,
+                   help="camera index, stream URL or video file (default: the config's camera)")
+    p.add_argument("--link", choices=("console", "client", "server"), default=None,
+                   help="signal link (default: the config's plc.mode)")
+    p.add_argument("--host", default=None, help="PLC address (default: the config's)")
+    p.add_argument("--port", type=int, default=None, help="PLC port (default: the config's)")
+    p.add_argument("--log", type=Path, default=None, help="step log (default: the config's)")
+    p.add_argument("--no-pace", action="store_true",
+                   help="read a video file as fast as possible instead of at its frame rate")
+    p.add_argument("--frames", type=int, default=None, help="stop after this many file frames")
+    p.set_defaults(handler=run)
+
+
+def run(args: argparse.Namespace) -> int:
+    from stationcheck.cli import SAFETY_NOTE
+    from stationcheck.live.session import LiveSettings, run_live
+
+    print(f"Safety: {SAFETY_NOTE}", flush=True)
+    settings = LiveSettings(config_path=args.config, log_path=args.log, source=args.source,
+                            link=args.link, host=args.host, port=args.port,
+                            pace=not args.no_pace, max_frames=args.frames)
+
+    def stop(signum: int, frame: FrameType | None) -> None:
+        raise KeyboardInterrupt
+
+    signal.signal(signal.SIGTERM, stop)
+    try:
+        stats = run_live(settings)
+    except KeyboardInterrupt:
+        print("stopped; tool enable written off", flush=True)
+        return 0
+    print(f"run ended: {stats.frames} frames at {stats.fps:.1f} frames/s, "
+          f"heartbeat {stats.heartbeat}; tool enable written off", flush=True)
+    return 0

@@ -1,0 +1,151 @@
+"""The live loop: newest frame -> frame path -> outputs to the link worker, with watchdogs.
+
+The loop never waits on the PLC (the link worker does the I/O) and waits for a frame at most
+one watchdog cycle. Observations from the PLC are applied before the next frame, stamped with
+the loop's current time, so time never runs backwards for the sequencer. Whatever ends the
+loop, the ``finally`` block publishes the enable off and stops the link worker, whose last act
+is writing it.
+"""
+
+from __future__ import annotations
+
+import logging
+import statistics
+import time
+from collections.abc import Callable
+from dataclasses import dataclass, field, replace
+
+from stationcheck.core.observations import LinkStatus, Observation
+from stationcheck.core.outputs import Output
+from stationcheck.live.grabber import FrameGrabber
+from stationcheck.live.watchdog import WatchdogLimits, Watchdogs
+from stationcheck.pipeline.frame_path import FramePath, FrameResult
+from stationcheck.pipeline.loop import FrameSink
+from stationcheck.plc.signals import OutputEncoder
+from stationcheck.plc.worker import LinkWorker
+
+logger = logging.getLogger(__name__)
+
+
+@dataclass
+class LiveStats:
+    frames: int = 0
+    cycles: int = 0
+    wall_s: float = 0.0
+    process_ms: list[float] = field(default_factory=list)
+    heartbeat: int = 0
+
+    @property
+    def fps(self) -> float:
+        return self.frames / self.wall_s if self.wall_s > 0 else 0.0
+
+    def process_ms_median(self) -> float:
+        return statistics.median(self.process_ms) if self.process_ms else 0.0
+
+
+class LiveLoop:
+    def __init__(self, path: FramePath, grabber: FrameGrabber, worker: LinkWorker, *,
+                 limits: WatchdogLimits | None = None,
+                 frame_sinks: tuple[FrameSink, ...] = ()) -> None:
+        self.path = path
+        self.decisions = path.decisions
+        self.grabber = grabber
+        self.worker = worker
+        self.watchdogs = Watchdogs(limits or WatchdogLimits())
+        self.encoder = OutputEncoder(path.plan)
+        self.frame_sinks = frame_sinks
+        self.stats = LiveStats()
+        self.t_s = 0.0  # the loop's time: the newest frame's, moved on by waiting
+        self._last_frame_at = time.perf_counter()
+        self._last_frame_t_s: float | None = None
+
+    def run(self, should_stop: Callable[[], bool] = lambda: False) -> LiveStats:
+        started = time.perf_counter()
+        self._last_frame_at = started
+        error: BaseException | None = None
+        try:
+            self._apply(LinkStatus(t_s=0.0, ok=False))  # until the worker proves the link
+            self.watchdogs.link_ok = False
+            while not should_stop():
+                grabbed = self.grabber.take(self.watchdogs.limits.cycle_s)
+                if grabbed is None and self.grabber.ended:
+                    break
+                self.stats.cycles += 1
+                now = time.perf_counter()
+                self._advance_clock(now)
+                healthy = False
+                for observation in self._link_observations(now):
+                    self._apply(observation)
+                if grabbed is None:
+                    for observation in self.watchdogs.check_frames(now - self._last_frame_at,
+                                                                  self.t_s):
+                        self._apply(observation)
+                    since_s = None
+                else:
+                    healthy = self._process(grabbed.frame)
+                    since_s = grabbed.grabbed_at_s
+                    self._last_frame_at = grabbed.grabbed_at_s
+                self._publish(healthy, since_s)
+        except BaseException as exc:
+            error = exc
+            logger.error("live loop stopped: %s", exc)
+            raise
+        finally:
+            self.stats.wall_s = time.perf_counter() - started
+            self._publish(False, None, force_inhibit=True)
+            self.worker.stop()
+            self.grabber.stop()
+            self.decisions.stop(error)
+            for sink in self.frame_sinks:
+                try:
+                    sink.on_stop(error)
+                except Exception:
+                    logger.exception("a frame sink failed while stopping")
+        return self.stats
+
+    def _advance_clock(self, now: float) -> None:
+        if self._last_frame_t_s is not None:
+            waited = now - self._last_frame_at
+            self.t_s = max(self.t_s, self._last_frame_t_s + max(0.0, waited))
+
+    def _link_observations(self, now: float) -> list[Observation]:
+        found = [replace(o, t_s=self.t_s) for o in self.worker.take()
+                 if not isinstance(o, LinkStatus)]
+        return self.watchdogs.check_link(self.worker.up, self.worker.silent_s(),
+                                         self.t_s) + found
+
+    def _process(self, frame: object) -> bool:
+        from stationcheck.core.records import Frame
+
+        assert isinstance(frame, Frame)
+        if frame.t_s < self.t_s:
+            frame = replace(frame, t_s=self.t_s)
+        self.watchdogs.frame_arrived()
+        t0 = time.perf_counter()
+        result: FrameResult = self.path.process(frame)
+        self.stats.process_ms.append((time.perf_counter() - t0) * 1e3)
+        self.stats.frames += 1
+        self.t_s = frame.t_s
+        self._last_frame_t_s = frame.t_s
+        for sink in self.frame_sinks:
+            sink.on_frame(result)
+        return result.keypoints is not None
+
+    def _apply(self, observation: Observation) -> None:
+        self.decisions.apply(observation)
+
+    def _publish(self, healthy: bool, since_s: float | None,
+                 force_inhibit: bool = False) -> None:
+        output: Output | None = self.decisions.last_output
+        if healthy and self.watchdogs.link_ok:
+            self.stats.heartbeat = (self.stats.heartbeat + 1) & 0xFFFF
+        unit_ack, result_ack = self.worker.acks
+        if output is None:
+            from stationcheck.plc.signals import OutputSignals
+
+            self.worker.publish(OutputSignals(heartbeat=self.stats.heartbeat,
+                                              unit_ack=unit_ack, result_ack=result_ack), since_s)
+            return
+        self.worker.publish(self.encoder.encode(output, heartbeat=self.stats.heartbeat,
+                                                unit_ack=unit_ack, result_ack=result_ack,
+                                                force_inhibit=force_inhibit), since_s)

@@ -1,0 +1,141 @@
+"""A live run put together from a station config: frame source, detector, image judgements,
+step log, signal link and watchdogs. Used by ``stationcheck run``."""
+
+from __future__ import annotations
+
+import logging
+import time
+from collections.abc import Callable
+from contextlib import ExitStack
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Literal
+
+from stationcheck.config import StationConfig, load_config
+from stationcheck.live.grabber import FrameGrabber, SourceOpener
+from stationcheck.live.loop import LiveLoop, LiveStats
+from stationcheck.live.watchdog import WatchdogLimits
+from stationcheck.plc.address_map import address_map_from
+from stationcheck.plc.link import ConsoleLink, SignalLink
+from stationcheck.plc.worker import LinkWorker
+
+logger = logging.getLogger(__name__)
+
+LinkChoice = Literal["console", "client", "server"]
+
+
+@dataclass(frozen=True)
+class LiveSettings:
+    config_path: Path
+    log_path: Path | None = None
+    source: str | None = None  # camera index, URL or video file; None: the config's
+    link: LinkChoice | None = None  # None: the config's plc.mode
+    host: str | None = None
+    port: int | None = None
+    timeout_ms: float | None = None  # None: the config's plc.timeout_ms
+    pace: bool = True  # a video file plays at its own frame rate
+    max_frames: int | None = None
+    model_path: Path | None = None
+
+
+def parse_source(text: str) -> int | str | Path:
+    if text.isdigit():
+        return int(text)
+    if "://" in text:
+        return text
+    return Path(text)
+
+
+def make_link(config: StationConfig, settings: LiveSettings) -> SignalLink:
+    plc = config.plc
+    if settings.timeout_ms is not None:
+        plc = plc.model_copy(update={"timeout_ms": settings.timeout_ms})
+    mode = settings.link or plc.mode
+    if mode == "console":
+        return ConsoleLink()
+    if mode == "server":
+        from stationcheck.plc.modbus_server import ModbusServerLink
+
+        # the PLC must poll at least every (retries + 1) x timeout, like a client's answer
+        return ModbusServerLink(settings.host or plc.host, settings.port or plc.port,
+                                device_id=plc.device_id,
+                                silence_ms=(plc.retries + 1) * plc.timeout_ms,
+                                address_map=address_map_from(plc.address_map, server=True))
+    from stationcheck.plc.modbus_client import ModbusClientLink
+
+    return ModbusClientLink(settings.host or plc.host, settings.port or plc.port,
+                            device_id=plc.device_id, timeout_ms=plc.timeout_ms,
+                            retries=plc.retries, address_map=address_map_from(plc.address_map))
+
+
+def source_opener(config: StationConfig, settings: LiveSettings,
+                  clock: Callable[[], float]) -> tuple[SourceOpener, bool, str]:
+    """How to (re)open the frame source, whether it is a file, and its name."""
+    where = parse_source(settings.source) if settings.source is not None \
+        else config.camera_source
+    if isinstance(where, Path):
+        from stationcheck.sources.video_file import VideoFileSource
+
+        path, frames = where, settings.max_frames
+        return (lambda: VideoFileSource(path, max_frames=frames)), True, str(path)
+    from stationcheck.live.capture import CaptureSource
+
+    camera = where
+    return (lambda: CaptureSource(camera, clock)), False, str(camera)
+
+
+def link_limits(config: StationConfig, timeout_ms: float | None = None) -> WatchdogLimits:
+    """A frozen PLC blocks one request for (retries + 1) x timeout; the loop calls the link
+    lost once no full exchange happened for that long plus a margin of two requests."""
+    plc = config.plc
+    request_s = (timeout_ms if timeout_ms is not None else plc.timeout_ms) / 1000.0
+    stale_s = min(config.to_plan().thresholds.stale_frame_ms / 1000.0, 0.08)
+    return WatchdogLimits(frame_timeout_s=stale_s,
+                          link_timeout_s=(plc.retries + 1) * request_s + 2 * request_s)
+
+
+def run_live(settings: LiveSettings, should_stop: Callable[[], bool] = lambda: False,
+             on_ready: Callable[[LiveLoop], None] | None = None) -> LiveStats:
+    from stationcheck.judgements.station import StationJudgements
+    from stationcheck.pipeline.decisions import DecisionCore
+    from stationcheck.pipeline.frame_path import FramePath
+    from stationcheck.pipeline.judging import StationImageJudge
+    from stationcheck.pipeline.log_sink import StepLogSink, rework_positions_from_log
+    from stationcheck.store.sqlite_log import SqliteStepLog
+    from stationcheck.vision.detector import load_detector
+
+    config = load_config(settings.config_path)
+    plan = config.to_plan()
+    link = make_link(config, settings)
+    started = time.perf_counter()
+
+    def clock() -> float:
+        return time.perf_counter() - started
+
+    opener, is_file, source_name = source_opener(config, settings, clock)
+    log_path = settings.log_path or config.resolve(config.log.path)
+    with ExitStack() as stack:
+        detector = load_detector(settings.model_path or config.model_path,
+                                 threads=config.model.threads)
+        judges = [StationImageJudge(StationJudgements.from_config(config))]
+        log = SqliteStepLog(log_path)
+        stack.callback(log.close)
+        open_unit = log.open_unit_events()  # a unit left open by a stopped run continues
+        if open_unit:
+            logger.info("continuing the open unit from the step log (%d events)", len(open_unit))
+        decisions = DecisionCore(plan, sinks=[StepLogSink(log)], resume_from=open_unit,
+                                 rework_lookup=lambda serial: rework_positions_from_log(log, serial))
+        path = FramePath(plan, detector, decisions, judges)
+        grabber = FrameGrabber(opener, pace=is_file and settings.pace,
+                               retry=not is_file).start()
+        stack.callback(grabber.stop)
+        shutdown = getattr(link, "shutdown", None)
+        if shutdown is not None:
+            stack.callback(shutdown)  # a server link serves until the run ends
+        worker = LinkWorker(link, clock).start()
+        stack.callback(worker.stop)
+        loop = LiveLoop(path, grabber, worker, limits=link_limits(config, settings.timeout_ms))
+        if on_ready is not None:
+            on_ready(loop)
+        logger.info("live run: %s, link %s, log %s", source_name, link.name, log_path)
+        return loop.run(should_stop)

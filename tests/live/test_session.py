@@ -1,0 +1,70 @@
+from __future__ import annotations
+
+import re
+from pathlib import Path
+
+import pytest
+
+from stationcheck.cli import main
+from stationcheck.config import load_config
+from stationcheck.live.session import LiveSettings, link_limits, make_link, parse_source
+from stationcheck.plc.link import ConsoleLink
+from stationcheck.plc.modbus_client import ModbusClientLink
+from stationcheck.plc.modbus_server import ModbusServerLink
+
+REPO = Path(__file__).resolve().parents[2]
+CONFIG = REPO / "configs" / "demo_station.yaml"
+VIDEO = REPO / "sample_video" / "demo_station.mp4"
+
+
+@pytest.mark.parametrize(
+    ("text", "expected"),
+    [("0", 0), ("12", 12), ("rtsp://cam.local/stream", "rtsp://cam.local/stream"),
+     ("http://10.0.0.5/video", "http://10.0.0.5/video"), ("clip.mp4", Path("clip.mp4")),
+     ("-1", Path("-1"))],
+)
+def test_parse_source(text: str, expected: object) -> None:
+    assert parse_source(text) == expected
+
+
+def test_make_link_by_mode() -> None:
+    config = load_config(CONFIG)
+    assert isinstance(make_link(config, LiveSettings(CONFIG, link="console")), ConsoleLink)
+    client = make_link(config, LiveSettings(CONFIG, link="client", port=1502, timeout_ms=20))
+    assert isinstance(client, ModbusClientLink)
+    assert (client.host, client.port, client.timeout_ms) == ("127.0.0.1", 1502, 20)
+    server = make_link(config, LiveSettings(CONFIG, link="server", port=1503))
+    assert isinstance(server, ModbusServerLink)
+    assert server.address_map["tool_running"].table == "coil"  # the PLC writes input bits
+    assert server.silence_ms == pytest.approx(50.0)
+
+
+def test_link_timeout_covers_a_blocked_request() -> None:
+    config = load_config(CONFIG)  # timeout_ms 50, retries 0
+    limits = link_limits(config)
+    assert limits.link_timeout_s == pytest.approx(0.15)
+    assert limits.frame_timeout_s <= 0.08
+    assert link_limits(config, timeout_ms=100).link_timeout_s == pytest.approx(0.3)
+
+
+@pytest.mark.skipif(not VIDEO.is_file(), reason="no sample video")
+def test_run_command_dry_run_with_console_link(tmp_path: Path,
+                                               capsys: pytest.CaptureFixture[str]) -> None:
+    code = main(["run", "--config", str(CONFIG), "--source", str(VIDEO), "--link", "console",
+                 "--log", str(tmp_path / "log.sqlite"), "--frames", "20", "--no-pace"])
+    out = capsys.readouterr().out
+    assert code == 0
+    assert out.startswith("Safety: ")
+    found = re.search(r"run ended: (\d+) frames", out)
+    assert found is not None and 1 <= int(found.group(1)) <= 20  # unpaced: the grabber may drop
+    assert "tool enable written off" in out
+    assert (tmp_path / "log.sqlite").is_file()
+
+
+def test_run_command_bad_config_is_one_line(tmp_path: Path,
+                                            capsys: pytest.CaptureFixture[str]) -> None:
+    code = main(["run", "--config", str(tmp_path / "missing.yaml"), "--link", "console"])
+    err = capsys.readouterr().err
+    assert code != 0
+    assert err.count("\n") == 1 and "Traceback" not in err
+    assert "missing.yaml" in err
