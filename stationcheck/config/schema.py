@@ -404,4 +404,4 @@ class StationConfig(_Section):
         )
         steps: list[Step] = [step.to_step() for step in self.steps]
         return StationPlan(zones=tuple(self.zone_specs()), steps=tuple(steps),
-                           thresholds=thresholds)
+                           thresholds=thresholds, station=self.station.name)

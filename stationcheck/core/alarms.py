@@ -38,4 +38,5 @@ ALARMS: dict[str, AlarmInfo] = {
     "duplicate_result": AlarmInfo(14, "warning", False, "a result was reported twice"),
     "result_outside_limits": AlarmInfo(15, "warning", False, "OK result outside the limits"),
     "run_without_result": AlarmInfo(16, "warning", False, "a tightening run gave no result"),
+    "check_failed": AlarmInfo(17, "alarm", False, "a check was acknowledged without passing"),
 }

@@ -5,7 +5,8 @@ Enable (fail towards inhibit) is on only when, in this order:
 2. a tightening granted at that position is running (kept on through vision faults and tip
    wobble so a tightening is never cut in half; ends at the result or when the tool stops), or
 3. no camera move, no detector fault, a fresh frame, a visible tip that has arrived (dwelled) in
-   the target zone, and no post-reset hold.
+   the target zone, and no hold after a reset or a result (the tip dwells again from then:
+   ``reset_hold`` / ``new_attempt_dwell``).
 """
 
 from __future__ import annotations
@@ -77,16 +78,36 @@ def _unit_conditions(tx: Transaction) -> list[tuple[ActiveAlarm, Details]]:
         )
         details = {"message": message, "expected": target.ref.zone}
         found.append((ActiveAlarm("wrong_position", wrong), details))
-    step, unit = tx.plan_step(), tx.unit
-    if isinstance(step, PickStep) and unit is not None and unit.step_started_t_s is not None:
-        started_t_s = unit.step_started_t_s
-        for zone, since in state.active_bins:
-            # a reach that began before this step (e.g. the previous pick) is not a wrong one
-            if zone != step.zone and index.is_kind(zone, "bin") and since >= started_t_s:
-                message = f"activity in {index.label(zone)}; take from {index.label(step.zone)}"
-                found.append(
-                    (ActiveAlarm("wrong_bin", zone), {"message": message, "expected": step.zone})
-                )
+    return found + _wrong_bins(tx)
+
+
+def _picked_just_before(tx: Transaction) -> str | None:
+    """The bin of the step before the current one, if that step was a pick."""
+    unit = tx.unit
+    if unit is None or unit.step_index < 1:
+        return None
+    previous = tx.index.steps.get(unit.steps[unit.step_index - 1].id)
+    return previous.zone if isinstance(previous, PickStep) else None
+
+
+def _wrong_bins(tx: Transaction) -> list[tuple[ActiveAlarm, Details]]:
+    """Activity in another bin for the pick's ``min_time_ms`` (counted from the later of the
+    activity's start and the step's start); a graze on the way to the right bin is not one."""
+    step, unit, index, found = tx.plan_step(), tx.unit, tx.index, []
+    if not isinstance(step, PickStep) or unit is None or unit.step_started_t_s is None:
+        return found
+    if tx.state.health.camera_moved:
+        return found  # the bin zones are in the wrong place
+    started_t_s, picked = unit.step_started_t_s, _picked_just_before(tx)
+    for zone, since in tx.state.active_bins:
+        if zone == step.zone or not index.is_kind(zone, "bin"):
+            continue
+        if zone == picked and since < started_t_s:
+            continue  # the bin just picked from, until activity there has ended
+        if not reached(elapsed_ms(max(since, started_t_s), tx.now_t_s), step.min_time_ms):
+            continue
+        message = f"activity in {index.label(zone)}; take from {index.label(step.zone)}"
+        found.append((ActiveAlarm("wrong_bin", zone), {"message": message, "expected": step.zone}))
     return found
 
 
@@ -127,7 +148,7 @@ def decide_enable(tx: Transaction) -> tuple[bool, str]:
         return False, "dwelling" if tool.zone == target.ref.zone else "tip_not_at_target"
     hold_off = control.hold_off_until_t_s
     if hold_off is not None and exceeded(elapsed_ms(tx.now_t_s, hold_off), 0.0):
-        return False, "reset_hold"
+        return False, control.hold_off_reason
     return True, "tip_at_target"
 
 

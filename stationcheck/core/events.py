@@ -29,7 +29,7 @@ EVENT_KINDS: dict[str, str] = {
     "position_completed": "a fastener position got its OK result",
     "position_failed": "a fastener position used up its attempts and needs rework",
     "check_verdict": "the presence judgement of the current check step changed",
-    "unit_ended": "the unit closed: result, failed positions, times, how it ended",
+    "unit_ended": "the unit closed: result, failed positions and checks, times, how it ended",
     "alarm_raised": "an alarm or warning; conditions also get alarm_cleared",
     "alarm_cleared": "a condition alarm stopped",
     "station_reset": "an explicit reset, with its reason",

@@ -52,6 +52,7 @@ def open_unit(tx: Transaction, started: UnitStarted) -> None:
         tx.emit(
             "unit_started",
             serial=started.serial,
+            station=tx.index.plan.station,
             rework=started.rework,
             steps=steps,
             positions=positions,
@@ -135,11 +136,21 @@ def next_position(tx: Transaction) -> None:
     complete_step(tx, RESULT_NOK if failed else RESULT_OK)
 
 
-def end_unit(tx: Transaction, result: str, ended_by: str, reason: str = "") -> None:
+def end_unit(
+    tx: Transaction,
+    result: str,
+    ended_by: str,
+    reason: str = "",
+    failed_checks: tuple[dict[str, str], ...] = (),
+    **step_extra: Any,
+) -> None:
+    """Close the unit; when it ends early its current step is closed first (``step_extra``
+    goes into that step's ``step_completed``)."""
     unit = tx.unit
     assert unit is not None
     if ended_by != "completed":
-        finish_step(tx, RESULT_NOK if result == RESULT_NOK else RESULT_UNDECIDED, ended_by)
+        step_result = RESULT_NOK if result == RESULT_NOK else RESULT_UNDECIDED
+        finish_step(tx, step_result, ended_by, **step_extra)
     unit = tx.unit
     assert unit is not None
     tx.emit(
@@ -151,6 +162,7 @@ def end_unit(tx: Transaction, result: str, ended_by: str, reason: str = "") -> N
         rework=unit.rework,
         failed_positions=_refs(unit.failed_positions),
         unfinished_positions=_refs(unit.unfinished_positions),
+        failed_checks=list(failed_checks),
         started_t_s=unit.started_t_s,
         cycle_time_s=tx.now_t_s - unit.started_t_s,
         alarms=list(unit.alarms),

@@ -32,6 +32,10 @@ def unit_status(unit: UnitProgress | None) -> UnitStatus:
 def _finished(index: PlanIndex, unit: UnitProgress) -> Guidance:
     if unit.result == RESULT_OK:
         words = f"Unit {unit.serial} done: OK. Waiting for the next unit."
+    elif unit.result == RESULT_NOK and unit.ended_by == "check_failed":
+        step = index.steps.get(unit.steps[unit.step_index].id)
+        where = index.label(step.zone) if isinstance(step, CheckStep) else "a check"
+        words = f"Unit {unit.serial} not released: the check at {where} failed."
     elif unit.result == RESULT_NOK:
         labels = ", ".join(index.label(ref.zone) for ref in unit.failed_positions) or "none"
         words = f"Unit {unit.serial} not released: rework needed at {labels}."

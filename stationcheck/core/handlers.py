@@ -76,6 +76,7 @@ def reset_station(tx: Transaction, obs: Reset) -> None:
         attempt_started_t_s=None,
         result_pending=False,
         hold_off_until_t_s=tx.now_t_s + tx.index.dwell_ms / 1000.0,
+        hold_off_reason="reset_hold",
         quiet_visit=tx.state.tool.visit,
     )
 
@@ -160,8 +161,14 @@ def take_result(tx: Transaction, obs: TighteningResult) -> None:
             subject=target.ref.zone,
             message="the controller said OK but torque or angle is outside the configured limits",
         )
+    # every attempt is granted on its own: enable drops at the result and the tip dwells again
     tx.set_control(
-        enabled_for=None, running_for=None, result_pending=False, attempt_started_t_s=None
+        enabled_for=None,
+        running_for=None,
+        result_pending=False,
+        attempt_started_t_s=None,
+        hold_off_until_t_s=tx.now_t_s + tx.index.dwell_ms / 1000.0,
+        hold_off_reason="new_attempt_dwell",
     )
     if obs.ok:
         tx.emit("position_completed", **where, attempts=attempt, rework=unit.rework)
@@ -248,7 +255,41 @@ def judge_check(tx: Transaction, obs: CheckVerdict) -> None:
         )
         tx.set(check_verdict=obs.verdict)
     if obs.verdict == step.expect and not tx.state.health.camera_moved:
-        complete_step(tx, RESULT_OK, verdict=obs.verdict, margin=obs.margin)
+        complete_step(
+            tx, RESULT_OK, zone=step.zone, expect=step.expect, verdict=obs.verdict,
+            margin=obs.margin,
+        )
+
+
+def fail_check(tx: Transaction, obs: OperatorAck) -> None:
+    """An acknowledge while the check has not said what it must (no verdict yet, undecided or
+    the wrong one): the check fails and the unit ends not released. A passing verdict completes
+    the step as it arrives, so an acknowledge can only meet one while the camera is moved; then
+    it is ignored and the unit stays open and inhibited."""
+    step = tx.plan_step()
+    if not isinstance(step, CheckStep):
+        return
+    verdict = tx.state.check_verdict
+    if verdict == step.expect:
+        return
+    tx.alarm(
+        "check_failed",
+        subject=step.zone,
+        message=f"check {step.id} acknowledged while {step.zone} did not show {step.expect}",
+        step=step.id,
+        expect=step.expect,
+        verdict=verdict,
+    )
+    end_unit(
+        tx,
+        RESULT_NOK,
+        ended_by="check_failed",
+        reason=f"check {step.id} failed",
+        failed_checks=({"step": step.id, "zone": step.zone},),
+        zone=step.zone,
+        expect=step.expect,
+        verdict=verdict,
+    )
 
 
 def confirm_step(tx: Transaction, obs: OperatorAck) -> None:

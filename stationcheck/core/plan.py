@@ -96,6 +96,7 @@ class StationPlan:
     zones: tuple[ZoneSpec, ...]
     steps: tuple[Step, ...]
     thresholds: Thresholds = Thresholds()
+    station: str = ""  # the station's name, for the log
 
     def zone(self, zone_id: str) -> ZoneSpec:
         for zone in self.zones:

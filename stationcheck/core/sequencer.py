@@ -9,7 +9,7 @@ table and :mod:`conditions` for the enable rules.
 from __future__ import annotations
 
 from collections.abc import Iterable
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 from stationcheck.core.conditions import settle
 from stationcheck.core.events import Event
@@ -70,8 +70,21 @@ class Sequencer:
         station starts over inhibited and is re-learned from the next observations."""
         events = tuple(events)
         sequences = [e.data["sequence"] for e in events if isinstance(e.data.get("sequence"), int)]
+        control = ToolControl(last_sequence=sequences[-1] if sequences else None)
         return SequencerState(
             now_t_s=events[-1].t_s if events else None,
             unit=rebuild_unit(events),
-            control=ToolControl(last_sequence=sequences[-1] if sequences else None),
+            control=self._rebuild_hold_off(events, control),
+        )
+
+    def _rebuild_hold_off(self, events: tuple[Event, ...], control: ToolControl) -> ToolControl:
+        """The dwell after the last result or reset still holds after a restart."""
+        reasons = {"tightening_result": "new_attempt_dwell", "station_reset": "reset_hold"}
+        last = next((e for e in reversed(events) if e.kind in reasons), None)
+        if last is None:
+            return control
+        return replace(
+            control,
+            hold_off_until_t_s=last.t_s + self._index.dwell_ms / 1000.0,
+            hold_off_reason=reasons[last.kind],
         )

@@ -52,7 +52,8 @@ class ToolControl:
     running: bool = False
     running_for: PositionRef | None = None  # a tightening in progress here keeps enable on
     result_pending: bool = False
-    hold_off_until_t_s: float | None = None  # after a reset, dwell again before enabling
+    hold_off_until_t_s: float | None = None  # after a reset or a result, dwell again first
+    hold_off_reason: str = "reset_hold"  # the enable reason while the hold lasts
     last_sequence: int | None = None
     quiet_visit: tuple[str, float] | None = None  # a visit not to flag as wrong position
 

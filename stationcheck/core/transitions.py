@@ -30,8 +30,8 @@ ANY: tuple[Phase, ...] = IDLE + OPEN
 PHASES: tuple[Phase, ...] = get_args(Phase)
 
 
-def all_but(excluded: Phase) -> tuple[Phase, ...]:
-    return tuple(phase for phase in ANY if phase != excluded)
+def all_but(*excluded: Phase) -> tuple[Phase, ...]:
+    return tuple(phase for phase in ANY if phase not in excluded)
 
 
 @dataclass(frozen=True)
@@ -58,7 +58,8 @@ TABLE: tuple[Row, ...] = (
     Row(CHECK,               "check_verdict",     h.judge_check,          "same/next step/idle"),
     Row(all_but("check"),    "check_verdict",     h.ignore,               "same"),
     Row(CONFIRM,             "operator_ack",      h.confirm_step,         "next step/idle"),
-    Row(all_but("confirm"),  "operator_ack",      h.ignore,               "same"),
+    Row(CHECK,               "operator_ack",      h.fail_check,           "idle (not released)"),
+    Row(all_but("confirm", "check"), "operator_ack", h.ignore,            "same"),
     Row(ANY,                 "camera_moved",      h.note_camera,          "same"),
     Row(ANY,                 "link_status",       h.note_link,            "same"),
     Row(ANY,                 "detector_fault",    h.note_detector_fault,  "same"),

@@ -11,6 +11,14 @@ from stationcheck.core.events import RESULT_NOK, RESULT_OK, Event
 RESULT_WORDS = {RESULT_OK: "OK", RESULT_NOK: "NOK"}
 
 
+def _result_word(result: str, failed_positions: list[Any]) -> str:
+    """OK; NOK when positions are left for rework; anything else (e.g. a failed check) is not
+    released."""
+    if result == RESULT_NOK and not failed_positions:
+        return "not released"
+    return RESULT_WORDS.get(result, "not released")
+
+
 @dataclass(frozen=True)
 class UnitPass:
     serial: str
@@ -80,7 +88,7 @@ def summarise_units(events: Iterable[Event], end_t_s: float | None = None) -> li
                 serial=current.serial,
                 rework=current.rework,
                 started_t_s=current.started_t_s,
-                result=RESULT_WORDS.get(str(data["result"]), "not released"),
+                result=_result_word(str(data["result"]), data["failed_positions"]),
                 released=bool(data["released"]),
                 ended_by=str(data["ended_by"]),
                 failed_positions=tuple(r["zone"] for r in data["failed_positions"]),

@@ -108,3 +108,7 @@ def test_the_commented_bolt_circle_writes_out_the_demo_screws(
     assert [(z.id, z.label) for z in rebuilt.zones] == [(z.id, z.label) for z in plan.zones]
     for ours, demo in zip(rebuilt.zones, plan.zones, strict=True):
         assert flat(ours.polygon_px) == pytest.approx(flat(demo.polygon_px), abs=0.11)
+
+
+def test_the_plan_carries_the_station_name(plan: StationPlan, raw: dict[str, Any]) -> None:
+    assert plan.station == raw["station"]["name"]

@@ -220,9 +220,15 @@ class Scenario:
         return self.add(TighteningResult(self.t_s, ok, torque_nm, angle_deg, number))
 
     def run_tightening(self, ok: bool = True, **values: Any) -> Scenario:
-        """Running on, a frame later the result, then running off (the usual order)."""
+        """Running on, a frame later the result, then running off (the usual order). After a
+        NOK the tip stays where it is for a new dwell, so a retry there can be granted."""
         self.running(True).wait(34)
-        return self.result(ok, **values).running(False)
+        self.result(ok, **values).running(False)
+        return self if ok else self.redwell()
+
+    def redwell(self) -> Scenario:
+        """The tip stays where it is until a dwell counted from now has passed (one frame more)."""
+        return self.wait(self.plan.thresholds.dwell_ms + 2 * FRAME_PERIOD_S * 1000.0)
 
     def ack(self) -> Scenario:
         return self.add(OperatorAck(self.t_s))

@@ -122,9 +122,11 @@ def property_plan(default_plan: StationPlan) -> StationPlan:
 def test_enable_only_at_the_target_after_dwell_or_while_a_tightening_runs(
     default_plan: StationPlan, steps: list[tuple[int, tuple[Any, ...]]]
 ) -> None:
-    sequencer = Sequencer(property_plan(default_plan))
+    plan = property_plan(default_plan)
+    sequencer = Sequencer(plan)
     state = sequencer.initial_state()
     arrived, visible, running, link_ok = None, False, False, True
+    last_result_t_s: float | None = None
     for observation in build_stream(steps):
         if isinstance(observation, ZoneObservation):
             arrived, visible = observation.arrived_zone, observation.visible
@@ -132,7 +134,10 @@ def test_enable_only_at_the_target_after_dwell_or_while_a_tightening_runs(
             running = observation.on
         elif isinstance(observation, LinkStatus):
             link_ok = observation.ok
-        state, output, _ = sequencer.step(state, observation)
+        state, output, new_events = sequencer.step(state, observation)
+        for logged in new_events:
+            if logged.kind == "tightening_result":
+                last_result_t_s = logged.t_s
         if output.tool_enabled:
             event("enabled")
             assert output.target is not None and output.unit_status == "running"
@@ -141,6 +146,12 @@ def test_enable_only_at_the_target_after_dwell_or_while_a_tightening_runs(
             assert at_target or running, (
                 f"enabled with the tip at {arrived!r}, target {output.target}"
             )
+            # every attempt is granted on its own: a new dwell counted from the last result
+            if last_result_t_s is not None:
+                since_ms = (output.t_s - last_result_t_s) * 1000.0
+                assert since_ms >= plan.thresholds.dwell_ms - 1e-6, (
+                    f"enabled {since_ms:.1f} ms after a result"
+                )
 
 
 @settings(max_examples=100, deadline=None, suppress_health_check=[HealthCheck.too_slow])
@@ -172,6 +183,8 @@ def test_rebuilding_from_the_events_gives_the_same_unit(
         rebuilt = sequencer.rebuild(events)
         assert rebuilt.unit == state.unit
         assert rebuilt.control.last_sequence == state.control.last_sequence
+        assert rebuilt.control.hold_off_until_t_s == state.control.hold_off_until_t_s
+        assert rebuilt.control.hold_off_reason == state.control.hold_off_reason
         assert not rebuilt.control.enabled
 
 

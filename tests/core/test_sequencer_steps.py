@@ -146,9 +146,9 @@ def test_a_full_unit_walks_every_step_and_is_released(scenario: Any) -> None:
 
 def test_a_hand_still_in_the_previous_bin_is_not_a_wrong_bin(scenario: Any) -> None:
     """take_a completes while the hand is still in bin_a; take_b starts; no wrong_bin alarm.
-    A new reach into bin_a during take_b is one."""
+    A new reach into bin_a during take_b is one once it lasts take_b's min_time_ms."""
     sc = scenario(PICKS).unit("U-1").bin("bin_a", True).wait(500).mark("still_in_a")
-    run = sc.bin("bin_a", False).wait(100).bin("bin_a", True).wait(34).run()
+    run = sc.bin("bin_a", False).wait(100).bin("bin_a", True).wait(334).run()
     assert run.at("still_in_a").step_id == "take_b"
     assert "wrong_bin" not in run.at("still_in_a").alarms
     assert run.raised() == ["wrong_bin"]

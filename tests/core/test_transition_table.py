@@ -34,6 +34,8 @@ def test_handlers_are_plain_functions_of_the_handlers_module() -> None:
         ("check", "check_verdict", handlers.judge_check),
         ("fasten", "check_verdict", handlers.ignore),
         ("confirm", "operator_ack", handlers.confirm_step),
+        ("check", "operator_ack", handlers.fail_check),
+        ("fasten", "operator_ack", handlers.ignore),
         ("idle", "abort", handlers.ignore),
         ("pick", "abort", handlers.abort_unit),
     ],

@@ -8,7 +8,7 @@ from contextlib import closing
 from pathlib import Path
 
 import pytest
-from hypothesis import given
+from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from stationcheck.core.observations import (
@@ -43,6 +43,7 @@ observations = st.one_of(
 )
 
 
+@settings(deadline=None)  # loads a config on each example: slow on a busy machine
 @given(st.lists(observations, max_size=8))
 def test_any_recorded_stream_reads_back_equal(tmp_path_factory: pytest.TempPathFactory,
                                               stream: list[Observation]) -> None:

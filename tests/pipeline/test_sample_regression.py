@@ -4,7 +4,7 @@ Two runs of the whole video: with the ground-truth keypoints and judgements (the
 and the glue, no model), and the ``stationcheck demo`` run (the bundled model and the image
 judgements; the ground-truth keypoints only if the model file is missing, which the run says).
 The expected decisions come from ``stationcheck/demo_station/decisions.py``, written apart from
-the sequencer; where the two disagree on purpose the difference is listed in KNOWN_DIFFERENCES.
+the sequencer; the two must agree on every decision.
 """
 
 from __future__ import annotations
@@ -24,26 +24,6 @@ from tests.pipeline.conftest import CONFIG, EXPECTED, INPUTS, TRUTH, VIDEO, need
 pytestmark = [needs_sample, pytest.mark.slow]
 
 Run = tuple[dict[str, Any], Path]
-
-# (kind, problem, serial, expected frame) of every mismatch the current rules produce:
-# - a NOK with an attempt left: the expected rule drops enable at the result and grants the
-#   retry after a new dwell; the sequencer keeps the tool enabled through the retry;
-# - an operator acknowledge during a failing check: the expected rule ends the unit not
-#   released with a check_failed alarm; the sequencer ignores the acknowledge, and the unit
-#   ends (not released) only when the next serial arrives, with a unit_interrupted alarm;
-# - activity in another bin: the expected rule raises wrong_bin after the pick's min_time_ms;
-#   the sequencer at once, so the tool grazing the cover bin's corner for one frame on its way
-#   to the gasket bin (PC-000106, frame 2632) raises it (the image judgement's settle time
-#   hides that graze; the ground-truth judgement does not).
-KNOWN_DIFFERENCES = {
-    ("enable", "missing", "PC-000103", 1321),
-    ("enable", "missing", "PC-000103", 1327),
-    ("enable", "missing", "PC-000104", 1880),
-    ("enable", "missing", "PC-000104", 1886),
-    ("alarm", "missing", "PC-000105", 2599),
-    ("alarm", "extra", "PC-000105", None),
-    ("alarm", "extra", "PC-000106", None),
-}
 
 
 @pytest.fixture(scope="module")
@@ -85,20 +65,11 @@ def test_no_enable_away_from_the_target(run: Run) -> None:
     assert summary["false_enable_episodes"] == 0
 
 
-def test_only_the_known_rule_differences_remain(run: Run) -> None:
-    summary, _ = run
-    found = {(m["kind"], m["problem"], m["serial"], m["expected_frame"])
-             for m in summary["mismatch_details"]}
-    assert found <= KNOWN_DIFFERENCES
-    assert summary["mismatches"] == len(found)
-    assert summary["edge_offset_frames_max"] <= 3
-
-
-@pytest.mark.xfail(strict=True, reason="expected-decision rules and sequencer differ on NOK "
-                   "retries, acknowledged failing checks and brief wrong-bin activity "
-                   "(KNOWN_DIFFERENCES)")
 def test_decisions_match_the_expected_ones_exactly(run: Run) -> None:
-    assert run[0]["mismatches"] == 0
+    summary, _ = run
+    assert summary["mismatch_details"] == []
+    assert summary["mismatches"] == 0
+    assert summary["edge_offset_frames_max"] <= 3
 
 
 def test_every_unit_ends_as_the_sample_says(run: Run) -> None:
@@ -115,6 +86,29 @@ def test_every_unit_ends_as_the_sample_says(run: Run) -> None:
         ("PC-000107", "first"): ("not released", []),
     }
     assert not units[("PC-000105", "first")]["released"]
+
+
+def test_the_nok_retry_is_granted_as_a_new_attempt(run: Run) -> None:
+    """PC-000103: screw_5 NOK, enable drops at the result, back after a new dwell."""
+    events = [(kind, data) for kind, serial, data in _events(run[1]) if serial == "PC-000103"]
+    edges = [(kind, data.get("attempt"), data.get("reason")) for kind, data in events
+             if kind in ("tool_enabled", "tool_inhibited") and data.get("zone") == "screw_5"]
+    first = edges.index(("tool_enabled", 1, "tip_at_target"))
+    assert edges[first:first + 3] == [
+        ("tool_enabled", 1, "tip_at_target"),
+        ("tool_inhibited", None, "new_attempt_dwell"),
+        ("tool_enabled", 2, "tip_at_target"),
+    ]
+
+
+def test_the_acknowledged_missing_pin_fails_the_check(run: Run) -> None:
+    """PC-000105: the operator acknowledges with the locking pin left out."""
+    events = [(kind, data) for kind, serial, data in _events(run[1]) if serial == "PC-000105"]
+    codes = [data["code"] for kind, data in events if kind == "alarm_raised"]
+    assert "check_failed" in codes and "unit_interrupted" not in codes
+    end = next(data for kind, data in events if kind == "unit_ended")
+    assert (end["result"], end["released"], end["ended_by"]) == ("NotOK", False, "check_failed")
+    assert [check["step"] for check in end["failed_checks"]] == ["pin_engaged"]
 
 
 def test_the_rework_pass_enables_only_the_failed_position(run: Run) -> None:

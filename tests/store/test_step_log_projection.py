@@ -90,7 +90,7 @@ def test_attempts_carry_values_limits_and_the_deciding_result(logged: Logged) ->
     assert first.within_limits is False and first.max_attempts == 2
     assert first.started_t_s is not None and first.started_t_s < first.ended_t_s
     rework_pass = [s.position or s.step for s in steps if s.is_rework]
-    assert rework_pass == ["p3", "locking_pin"]
+    assert rework_pass == ["p3", "pin"]  # the check row is placed at its zone
     assert [s.ended_t_s for s in steps] == sorted(s.ended_t_s for s in steps)
 
 
@@ -99,9 +99,10 @@ def test_fasten_order_and_pick_and_check_rows(logged: Logged) -> None:
     assert [(s.kind, s.position) for s in steps] == (
         [("pick", "bin_gasket"), ("pick", "bin_cover")]
         + [("fasten", z) for z in POSITIONS]
-        + [("check", None)]
+        + [("check", "pin")]
     )
     assert steps[-1].detail["verdict"] == "present"
+    assert steps[-1].detail["expect"] == "present"
     assert [s.position_number for s in steps if s.kind == "fasten"] == [1, 2, 3, 4, 5, 6]
 
 
