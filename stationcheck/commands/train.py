@@ -1,0 +1,105 @@
+"""``stationcheck train``: trains the two-stage tool keypoint model and writes the bundle."""
+
+from __future__ import annotations
+
+import argparse
+import sys
+from pathlib import Path
+
+from stationcheck.errors import InputFileError
+
+
+def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
+    p = subparsers.add_parser(
+        "train",
+        help="train the tool keypoint model on the CPU and export it to ONNX",
+        description=(
+            "Trains the coarse and refine keypoint networks (tip, rear) together, by default on "
+            "the demo renderer's random training frames, or on your own COCO keypoint dataset "
+            "(--coco/--images). Stops at --steps or --minutes, checkpoints as it goes, and "
+            "writes <name>.coarse.onnx and <name>.refine.onnx with calibrated scores. Needs the "
+            "'train' extra (torch)."
+        ),
+    )
+    p.add_argument(
+        "--out",
+        type=Path,
+        default=Path("trained_model"),
+        help="directory for the ONNX files and the checkpoint (default: %(default)s)",
+    )
+    p.add_argument("--steps", type=int, default=3000, help="step budget (default: %(default)s)")
+    p.add_argument(
+        "--minutes",
+        type=float,
+        default=None,
+        help="time budget in minutes (stops at whichever budget comes first)",
+    )
+    p.add_argument("--seed", type=int, default=0, help="random seed (default: %(default)s)")
+    p.add_argument("--batch-size", type=int, default=32, help="default: %(default)s")
+    p.add_argument(
+        "--coco",
+        type=Path,
+        default=None,
+        help="COCO keypoint JSON with a category naming 'tip' and 'rear'",
+    )
+    p.add_argument("--images", type=Path, default=None, help="image directory for --coco")
+    p.add_argument(
+        "--checkpoint", type=Path, default=None, help="checkpoint file (default: OUT/checkpoint.pt)"
+    )
+    p.add_argument("--resume", action="store_true", help="continue from the checkpoint")
+    p.add_argument("--threads", type=int, default=1, help="torch threads (default: %(default)s)")
+    p.add_argument(
+        "--workers", type=int, default=1, help="data worker processes (default: %(default)s)"
+    )
+    p.add_argument(
+        "--calibration-frames",
+        type=int,
+        default=400,
+        help="held-out frames for score calibration (default: %(default)s)",
+    )
+    p.add_argument("--name", default="tool_tip", help="model file name stem (default: %(default)s)")
+    p.set_defaults(handler=run)
+
+
+def run(args: argparse.Namespace) -> int:
+    import stationcheck.training  # noqa: F401  (raises the install hint without torch)
+    from stationcheck.training.bundle import write_bundle
+    from stationcheck.training.loop import Progress, TrainConfig, train
+    from stationcheck.training.sources import coco_sources, demo_sources
+
+    if (args.coco is None) != (args.images is None):
+        raise InputFileError("--coco and --images go together")
+    if args.coco is not None:
+        source, holdout = coco_sources(args.coco, args.images, args.seed)
+    else:
+        source, holdout = demo_sources()
+    config = TrainConfig(
+        seed=args.seed,
+        max_steps=args.steps,
+        max_minutes=args.minutes,
+        batch_size=args.batch_size,
+        threads=args.threads,
+        workers=args.workers,
+        model_name=args.name,
+    )
+    checkpoint = args.checkpoint or args.out / "checkpoint.pt"
+
+    def show(p: Progress) -> None:
+        left = p.elapsed_s / max(p.step, 1) * (p.max_steps - p.step)
+        print(
+            f"step {p.step}/{p.max_steps}  loss {p.loss:.2f}  {p.images_per_s:.0f} img/s  "
+            f"{p.elapsed_s / 60:.1f} min  (~{left / 60:.0f} min left)",
+            file=sys.stderr,
+            flush=True,
+        )
+
+    result = train(source, config, checkpoint=checkpoint, resume=args.resume, on_progress=show)
+    print(
+        f"trained {result.steps} steps in {result.elapsed_s / 60:.1f} min; calibrating scores "
+        f"on {args.calibration_frames} held-out frames",
+        file=sys.stderr,
+        flush=True,
+    )
+    path = write_bundle(result, config, args.out, holdout, args.calibration_frames)
+    print(f"wrote {path} and {path.parent / config.coarse_info().refine_model}")
+    return 0

@@ -1,0 +1,1 @@
+"""Bundled model files (package data): the demo tool-tip keypoint model in ONNX."""

@@ -1,0 +1,187 @@
+"""Frame-level augmentation for keypoint training: geometry, lighting, blur, noise, video
+compression and partial occlusion. Keypoints are ``K x 3`` rows of (x_px, y_px, v) with COCO
+visibility v (0 not labelled/outside, 1 labelled but hidden, 2 visible).
+
+Everything is drawn from the caller's ``numpy.random.Generator`` so a seed reproduces a batch.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import cv2
+import numpy as np
+import numpy.typing as npt
+
+ImageU8 = npt.NDArray[np.uint8]
+FloatArray = npt.NDArray[np.float64]
+
+
+@dataclass(frozen=True)
+class AugmentSettings:
+    """Probabilities and ranges; the defaults are what the bundled model was trained with."""
+
+    p_affine: float = 0.7
+    scale_range: tuple[float, float] = (0.85, 1.2)
+    rotation_deg: float = 12.0
+    shift_px: float = 24.0
+    p_blur: float = 0.2
+    p_motion_blur: float = 0.3
+    motion_blur_px: tuple[float, float] = (4.0, 34.0)
+    p_noise: float = 0.7
+    noise_sigma_max: float = 7.0
+    p_compress: float = 0.6
+    jpeg_quality_range: tuple[int, int] = (25, 90)
+    p_occlusion: float = 0.3
+
+
+def _u8(image: object) -> ImageU8:
+    """OpenCV's results typed as the uint8 images they are (no copy)."""
+    return np.asarray(image, dtype=np.uint8)
+
+
+class NoiseBank:
+    """Pre-made sensor noise: a random window per frame costs a copy, not a fresh draw."""
+
+    def __init__(self, rng: np.random.Generator, size_px: int = 1024) -> None:
+        noise = rng.normal(128.0, 32.0, size=(size_px, size_px, 3))
+        self._bank = np.clip(noise, 0, 255).astype(np.uint8)
+
+    def window(self, rng: np.random.Generator, h: int, w: int) -> ImageU8:
+        bh, bw = self._bank.shape[:2]
+        if h > bh or w > bw:
+            reps = (h // bh + 1, w // bw + 1, 1)
+            return np.tile(self._bank, reps)[:h, :w]
+        y = int(rng.integers(0, bh - h + 1))
+        x = int(rng.integers(0, bw - w + 1))
+        return self._bank[y : y + h, x : x + w]
+
+
+def augment_frame(
+    rng: np.random.Generator,
+    image: ImageU8,
+    keypoints: FloatArray,
+    noise: NoiseBank,
+    settings: AugmentSettings = AugmentSettings(),
+) -> tuple[ImageU8, FloatArray]:
+    """One randomly augmented copy of a labelled frame."""
+    kps = np.array(keypoints, dtype=np.float64, copy=True)
+    out = image
+    if rng.random() < settings.p_affine:
+        out, kps = random_affine(rng, out, kps, settings)
+    if rng.random() < settings.p_occlusion:
+        out, kps = occlude(rng, out, kps)
+    out = adjust_lighting(rng, out)
+    if rng.random() < settings.p_motion_blur:
+        out = motion_blur_tool(rng, out, kps, settings)
+    if rng.random() < settings.p_blur:
+        out = blur(rng, out)
+    if rng.random() < settings.p_noise:
+        sigma = rng.uniform(1.0, settings.noise_sigma_max)
+        window = noise.window(rng, out.shape[0], out.shape[1])
+        out = _u8(cv2.addWeighted(out, 1.0, window, sigma / 32.0, -128.0 * sigma / 32.0))
+    if rng.random() < settings.p_compress:
+        quality = int(rng.integers(settings.jpeg_quality_range[0], settings.jpeg_quality_range[1]))
+        ok, data = cv2.imencode(".jpg", out, [cv2.IMWRITE_JPEG_QUALITY, quality])
+        if ok:
+            out = _u8(cv2.imdecode(data, cv2.IMREAD_COLOR))
+    return np.ascontiguousarray(out), kps
+
+
+def random_affine(
+    rng: np.random.Generator, image: ImageU8, kps: FloatArray, settings: AugmentSettings
+) -> tuple[ImageU8, FloatArray]:
+    h, w = image.shape[:2]
+    scale = rng.uniform(*settings.scale_range)
+    angle = rng.uniform(-settings.rotation_deg, settings.rotation_deg)
+    centre = (rng.uniform(0.3 * w, 0.7 * w), rng.uniform(0.3 * h, 0.7 * h))
+    matrix = np.asarray(cv2.getRotationMatrix2D(centre, angle, scale), dtype=np.float64)
+    matrix[:, 2] += rng.uniform(-settings.shift_px, settings.shift_px, size=2)
+    out = _u8(
+        cv2.warpAffine(
+            image, matrix, (w, h), flags=cv2.INTER_LINEAR, borderMode=cv2.BORDER_REFLECT_101
+        )
+    )
+    labelled = kps[:, 2] > 0
+    xy = kps[:, :2] @ matrix[:, :2].T + matrix[:, 2]
+    kps[:, :2] = np.where(labelled[:, None], xy, kps[:, :2])
+    inside = (xy[:, 0] >= 0) & (xy[:, 0] <= w - 1) & (xy[:, 1] >= 0) & (xy[:, 1] <= h - 1)
+    kps[labelled & ~inside, 2] = 0
+    return out, kps
+
+
+def adjust_lighting(rng: np.random.Generator, image: ImageU8) -> ImageU8:
+    """Per-channel gain, contrast, gamma and brightness in one lookup table."""
+    levels = np.arange(256, dtype=np.float64) / 255.0
+    gamma = rng.uniform(0.7, 1.4)
+    contrast = rng.uniform(0.65, 1.35)
+    brightness = rng.uniform(-0.15, 0.15)
+    lut = np.empty((1, 256, 3), np.uint8)
+    for c in range(3):
+        gain = rng.uniform(0.88, 1.12)
+        v = (levels**gamma - 0.5) * contrast + 0.5 + brightness
+        lut[0, :, c] = np.clip(v * gain * 255.0, 0, 255).astype(np.uint8)
+    return _u8(cv2.LUT(image, lut))
+
+
+def blur(rng: np.random.Generator, image: ImageU8) -> ImageU8:
+    return _u8(cv2.GaussianBlur(image, (0, 0), rng.uniform(0.5, 1.4)))
+
+
+def trailing_kernel(length_px: float, angle_rad: float) -> npt.NDArray[np.float32]:
+    """A correlation kernel that smears each feature *behind* its position along the motion
+    direction (uniform weights from the anchor back ``length_px``), so the sharp label stays at
+    the leading end of the streak, where the object is at the end of the exposure."""
+    half = int(np.ceil(length_px)) + 1
+    kernel = np.zeros((2 * half + 1, 2 * half + 1), np.float32)
+    end = (half + length_px * np.cos(angle_rad), half + length_px * np.sin(angle_rad))
+    cv2.line(kernel, (half, half), (round(end[0]), round(end[1])), 1.0, 1, cv2.LINE_AA)
+    return kernel / max(float(kernel.sum()), 1e-6)
+
+
+def motion_blur_tool(
+    rng: np.random.Generator, image: ImageU8, kps: FloatArray, settings: AugmentSettings
+) -> ImageU8:
+    """Motion blur on the tool and its surroundings only (the bench stays sharp), trailing
+    behind a random motion direction as a moving object's streak does."""
+    labelled = kps[kps[:, 2] > 0, :2]
+    if len(labelled) == 0:
+        return image
+    length = rng.uniform(*settings.motion_blur_px)
+    kernel = trailing_kernel(length, rng.uniform(0, 2 * np.pi))
+    smeared = _u8(cv2.filter2D(image, -1, kernel, borderType=cv2.BORDER_REFLECT_101))
+    mask = np.zeros(image.shape[:2], np.float32)
+    points = [tuple(int(v) for v in p) for p in labelled]
+    width = int(40 + 2 * length)
+    cv2.line(mask, points[0], points[-1], 1.0, width)
+    cv2.circle(mask, points[0], width // 2, 1.0, -1)
+    soft = np.asarray(cv2.GaussianBlur(mask, (0, 0), 8.0), dtype=np.float32)[..., None]
+    out = image.astype(np.float32) * (1.0 - soft) + smeared.astype(np.float32) * soft
+    return _u8(np.clip(out + 0.5, 0, 255))
+
+
+def occlude(
+    rng: np.random.Generator, image: ImageU8, kps: FloatArray
+) -> tuple[ImageU8, FloatArray]:
+    """Paints a hand-like blob over part of the tool (mostly the rear half); a tip it covers
+    keeps its label with v=1 (labelled but hidden), as COCO does."""
+    out = image.copy()
+    h, w = out.shape[:2]
+    labelled = kps[:, 2] > 0
+    if labelled.all():
+        t = rng.uniform(0.35, 1.1)  # along the tool from tip (0) to rear (1)
+        cx, cy = kps[0, :2] + t * (kps[1, :2] - kps[0, :2])
+    else:
+        cx, cy = rng.uniform(0, w), rng.uniform(0, h)
+    axes = (int(rng.uniform(12, 40)), int(rng.uniform(10, 28)))
+    skin = np.array([rng.uniform(90, 170), rng.uniform(110, 190), rng.uniform(150, 230)])
+    colour = tuple(float(c) for c in skin * rng.uniform(0.7, 1.05))
+    angle_deg = rng.uniform(0, 180)
+    cv2.ellipse(out, (int(cx), int(cy)), axes, angle_deg, 0, 360, colour, -1, cv2.LINE_AA)
+    mask = np.zeros((h, w), np.uint8)
+    cv2.ellipse(mask, (int(cx), int(cy)), axes, angle_deg, 0, 360, 255, -1)
+    for i in np.flatnonzero(kps[:, 2] == 2):
+        x, y = round(kps[i, 0]), round(kps[i, 1])
+        if 0 <= x < w and 0 <= y < h and mask[y, x]:
+            kps[i, 2] = 1
+    return out, kps
