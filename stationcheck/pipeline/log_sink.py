@@ -11,6 +11,7 @@ from stationcheck.core.events import Event
 from stationcheck.core.observations import PositionRef
 from stationcheck.errors import StoreError
 from stationcheck.pipeline.decisions import DecisionStep
+from stationcheck.pipeline.evidence import EvidenceWriter
 from stationcheck.store.step_log import StepLog
 
 logger = logging.getLogger(__name__)
@@ -30,11 +31,14 @@ def rework_positions_from_log(log: StepLog, serial: str) -> tuple[PositionRef, .
 
 
 class StepLogSink:
-    """Appends each step's events as one atomic batch; ``clock`` stamps ``recorded_at_s``."""
+    """Appends each step's events as one atomic batch; ``clock`` stamps ``recorded_at_s``;
+    ``evidence`` (if given) attaches an image to each tightening result before it is saved."""
 
-    def __init__(self, log: StepLog, clock: Callable[[], float] = time.time) -> None:
+    def __init__(self, log: StepLog, clock: Callable[[], float] = time.time,
+                 evidence: EvidenceWriter | None = None) -> None:
         self.log = log
         self.clock = clock
+        self.evidence = evidence
         self.events_written = 0
         self._last_t_s = 0.0
         self._last_serial: str | None = None
@@ -42,7 +46,8 @@ class StepLogSink:
 
     def on_step(self, step: DecisionStep) -> None:
         if step.events:
-            self.log.append(step.events, recorded_at_s=self.clock())
+            events = step.events if self.evidence is None else self.evidence.attach(step.events)
+            self.log.append(events, recorded_at_s=self.clock())
             self.events_written += len(step.events)
         self._last_t_s = step.output.t_s
         self._last_serial = step.output.serial if step.output.unit_status == "running" else None

@@ -15,6 +15,7 @@ from dataclasses import dataclass, field
 from typing import Protocol
 
 from stationcheck.core.observations import Observation
+from stationcheck.core.records import Frame
 from stationcheck.pipeline.decisions import stop_safely
 from stationcheck.pipeline.frame_path import FramePath, FrameResult
 from stationcheck.sources.frame_source import FrameSource
@@ -78,9 +79,11 @@ def run_loop(
     schedule: InputFeed,
     frame_sinks: Sequence[FrameSink] = (),
     progress: Progress | None = None,
+    on_read: Callable[[Frame], None] | None = None,
 ) -> LoopStats:
     """Runs until the source ends; inputs stamped up to one frame period after the last frame
-    are applied after it, later ones (beyond the frames given) are left out and counted."""
+    are applied after it, later ones (beyond the frames given) are left out and counted.
+    ``on_read`` sees each frame as soon as it is read, before the inputs due at it."""
     stats = LoopStats()
     decisions = path.decisions
     started = time.perf_counter()
@@ -95,6 +98,8 @@ def run_loop(
             if frame is None:
                 break
             last_t_s = frame.t_s
+            if on_read is not None:
+                on_read(frame)
             for observation in schedule.due(frame.t_s):
                 decisions.apply(observation)
             t2 = time.perf_counter()

@@ -26,6 +26,7 @@ from stationcheck.pipeline.comparison import (
     restrict_to_frames,
 )
 from stationcheck.pipeline.decisions import DecisionCore, StepSink
+from stationcheck.pipeline.evidence import EvidenceWriter, prune_evidence
 from stationcheck.pipeline.expected import Decision, decisions_from_events, read_expected
 from stationcheck.pipeline.frame_path import FramePath
 from stationcheck.pipeline.judging import ImageJudge
@@ -129,7 +130,7 @@ def _replay_video(settings: ReplaySettings, prepared: _Prepared,
         stack.callback(source.close)
         detector = _detector(settings, config, prepared.truth)
         judges = _judges(settings, config, plan, prepared.truth)
-        outputs = _open_outputs(stack, settings, plan, source.fps)
+        outputs = _open_outputs(stack, settings, plan, source.fps, config)
         log = outputs.log
         frame_sinks: list[FrameSink] = []
         writer = None
@@ -149,7 +150,9 @@ def _replay_video(settings: ReplaySettings, prepared: _Prepared,
         schedule = InputSchedule(inputs)
         if settings.first_frame > 0:
             schedule.skip_before(settings.first_frame / source.fps)
-        stats = run_loop(source, path, schedule, frame_sinks, progress)
+        evidence = outputs.log_sink.evidence
+        stats = run_loop(source, path, schedule, frame_sinks, progress,
+                         on_read=evidence.see if evidence is not None else None)
         if writer is not None:
             writer.raise_if_failed()
         return _report(settings, prepared, outputs, stats, settings.first_frame,
@@ -199,10 +202,17 @@ class _Outputs:
 
 
 def _open_outputs(stack: ExitStack, settings: ReplaySettings, plan: StationPlan,
-                  fps: float | None) -> _Outputs:
+                  fps: float | None, config: StationConfig | None = None) -> _Outputs:
+    """``config`` given (a replay with frames): evidence images as the config's log section
+    says, old ones pruned first."""
     log = open_fresh_log(settings.log_path)
     stack.callback(log.close)
-    log_sink, trace = StepLogSink(log), RunTrace()
+    evidence = None
+    if config is not None:
+        prune_evidence(log, config.log.retention_days)
+        if config.log.evidence_images:
+            evidence = EvidenceWriter(plan, settings.log_path.parent)
+    log_sink, trace = StepLogSink(log, evidence=evidence), RunTrace()
     sinks: list[StepSink] = [log_sink, trace]
     if settings.record_observations is not None:
         recorder = ObservationRecorder(settings.record_observations, plan, fps)

@@ -71,3 +71,18 @@ def write_video(path: Path, frames: int, size: tuple[int, int] = (64, 48), fps: 
         images.append(image)
     writer.release()
     return images
+
+
+def demo_config_copy(folder: Path, evidence_images: bool) -> Path:
+    """The demo config written into ``folder`` with ``log.evidence_images`` set; its relative
+    paths still resolve (the station folder is linked, the video path made absolute)."""
+    text = CONFIG.read_text(encoding="utf-8")
+    flag = "evidence_images: false"
+    assert text.count(flag) == 1
+    text = text.replace(flag, f"evidence_images: {'true' if evidence_images else 'false'}")
+    text = text.replace("../sample_video/", f"{SAMPLE.as_posix()}/")
+    station = CONFIG.parent / CONFIG.stem
+    (folder / station.name).symlink_to(station, target_is_directory=True)
+    path = folder / CONFIG.name
+    path.write_text(text, encoding="utf-8")
+    return path
