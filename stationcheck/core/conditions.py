@@ -93,7 +93,8 @@ def _picked_just_before(tx: Transaction) -> str | None:
 def _wrong_bins(tx: Transaction) -> list[tuple[ActiveAlarm, Details]]:
     """Activity in another bin for the pick's ``min_time_ms`` (counted from the later of the
     activity's start and the step's start); a graze on the way to the right bin is not one."""
-    step, unit, index, found = tx.plan_step(), tx.unit, tx.index, []
+    step, unit, index = tx.plan_step(), tx.unit, tx.index
+    found: list[tuple[ActiveAlarm, Details]] = []
     if not isinstance(step, PickStep) or unit is None or unit.step_started_t_s is None:
         return found
     if tx.state.health.camera_moved:
