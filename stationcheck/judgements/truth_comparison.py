@@ -8,17 +8,16 @@ Ground truth columns used (``sample_video/README.md``): ``hand_in_<bin zone>`` p
 from __future__ import annotations
 
 import argparse
-import csv
 import sys
 from collections.abc import Mapping, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, fields
 from pathlib import Path
 
 import numpy as np
 import numpy.typing as npt
 
 from stationcheck.core.plan import ZoneSpec
-from stationcheck.errors import InputFileError
+from stationcheck.demo_station.ground_truth import TruthRow, read_truth_csv
 from stationcheck.judgements.trace import JudgementTrace
 
 BoolArray = npt.NDArray[np.bool_]
@@ -208,15 +207,12 @@ def read_truth_columns(path: Path) -> dict[str, npt.NDArray[np.float64]]:
     """The numeric columns of a ground-truth CSV (one row per frame).
 
     Raises:
-        InputFileError: the file cannot be read or a number cannot be parsed.
+        InputFileError: the file cannot be read or a row cannot be parsed.
     """
-    try:
-        with open(path, newline="", encoding="utf-8") as handle:
-            rows = list(csv.DictReader(handle))
-        names = [name for name in (rows[0] if rows else {}) if name not in TEXT_COLUMNS]
-        return {name: np.asarray([float(row[name]) for row in rows]) for name in names}
-    except (OSError, ValueError) as exc:
-        raise InputFileError(f"{path}: cannot read the ground truth ({exc})") from exc
+    rows = read_truth_csv(path)
+    names = [f.name for f in fields(TruthRow) if f.name not in TEXT_COLUMNS]
+    return {name: np.asarray([getattr(row, name) for row in rows], dtype=np.float64)
+            for name in names}
 
 
 def main(argv: Sequence[str] | None = None) -> int:
