@@ -8,8 +8,9 @@ at the top (12 o'clock), as bolt patterns are numbered.
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass
+
+from stationcheck.core.bolt_pattern import bolt_centres_px
 
 FRAME_WIDTH_PX = 640
 FRAME_HEIGHT_PX = 480
@@ -22,7 +23,7 @@ BOLT_CIRCLE_RADIUS_PX = 68.0
 BOLT_COUNT = 6
 BOLT_START_ANGLE_DEG = -90.0  # 12 o'clock; angles grow clockwise on screen (y down)
 SCREW_HEAD_RADIUS_PX = 8.0
-FASTENER_ZONE_HALF_SIZE_PX = 17.0  # zone is a square-ish octagon of this half size
+FASTENER_ZONE_HALF_SIZE_PX = 17.0  # fastener zones are octagons 34 px across their flats
 
 # Part bins (axis-aligned rectangles: x0, y0, x1, y1)
 LEFT_BIN_PX = (22.0, 150.0, 150.0, 330.0)  # gaskets
@@ -41,32 +42,7 @@ class ScrewPosition:
 
 def screw_positions() -> tuple[ScrewPosition, ...]:
     """The screw centres on the bolt circle, numbered clockwise from the top."""
-    cx, cy = COVER_CENTRE_PX
-    out = []
-    for i in range(BOLT_COUNT):
-        a = math.radians(BOLT_START_ANGLE_DEG + 360.0 * i / BOLT_COUNT)
-        out.append(
-            ScrewPosition(
-                i + 1,
-                cx + BOLT_CIRCLE_RADIUS_PX * math.cos(a),
-                cy + BOLT_CIRCLE_RADIUS_PX * math.sin(a),
-            )
-        )
-    return tuple(out)
-
-
-def octagon_px(cx: float, cy: float, half_size_px: float) -> list[tuple[float, float]]:
-    """A regular octagon around a centre, clockwise on screen, rounded to 0.1 px."""
-    r = half_size_px / math.cos(math.pi / 8)
-    return [
-        (
-            round(cx + r * math.cos(math.radians(22.5 + 45 * k)), 1),
-            round(cy + r * math.sin(math.radians(22.5 + 45 * k)), 1),
-        )
-        for k in range(8)
-    ]
-
-
-def rectangle_px(box: tuple[float, float, float, float]) -> list[tuple[float, float]]:
-    x0, y0, x1, y1 = box
-    return [(x0, y0), (x1, y0), (x1, y1), (x0, y1)]
+    centres = bolt_centres_px(
+        COVER_CENTRE_PX, BOLT_CIRCLE_RADIUS_PX, BOLT_COUNT, BOLT_START_ANGLE_DEG
+    )
+    return tuple(ScrewPosition(i + 1, x, y) for i, (x, y) in enumerate(centres))
