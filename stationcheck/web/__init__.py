@@ -1,0 +1,1 @@
+"""Local web screens (setup, review, operator) on a small standard-library server."""

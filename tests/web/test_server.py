@@ -1,0 +1,146 @@
+"""The shared web server: routing, static files kept inside their folder, access tokens."""
+
+from __future__ import annotations
+
+import http.client
+import json
+import os
+from collections.abc import Iterator
+from pathlib import Path
+
+import pytest
+
+from stationcheck.web.access import AccessRule, is_loopback
+from stationcheck.web.server import Request, Response, Router, WebError, WebServer, resolve_static
+
+
+@pytest.fixture
+def site(tmp_path: Path) -> Path:
+    root = tmp_path / "site"
+    root.mkdir()
+    (root / "index.html").write_text("<h1>home</h1>")
+    (root / "app.js").write_text("let x = 1;")
+    (tmp_path / "secret.txt").write_text("outside")
+    os.symlink(tmp_path / "secret.txt", root / "link.txt")
+    return root
+
+
+def serve(site: Path, token: str | None = None) -> WebServer:
+    router = Router(site)
+    router.add("GET", "/api/echo", lambda r: Response.json({"q": r.query}))
+    router.add("POST", "/api/echo", lambda r: Response.json(r.json()))
+
+    def boom(request: Request) -> Response:
+        raise RuntimeError("bug")
+
+    router.add("GET", "/api/boom", boom)
+    return WebServer(router, "127.0.0.1", 0, AccessRule(token)).start()
+
+
+@pytest.fixture
+def server(site: Path) -> Iterator[WebServer]:
+    srv = serve(site)
+    yield srv
+    srv.close()
+
+
+def fetch(srv: WebServer, method: str, path: str, body: bytes | None = None,
+          headers: dict[str, str] | None = None) -> tuple[int, bytes, dict[str, str]]:
+    host, port = srv.server_address[:2]
+    conn = http.client.HTTPConnection(str(host), int(port), timeout=5)
+    try:
+        conn.request(method, path, body=body, headers=headers or {})
+        resp = conn.getresponse()
+        return resp.status, resp.read(), dict(resp.getheaders())
+    finally:
+        conn.close()
+
+
+@pytest.mark.parametrize(("path", "status", "needle"), [
+    ("/", 200, b"home"),
+    ("/index.html", 200, b"home"),
+    ("/app.js", 200, b"let x"),
+    ("/missing.js", 404, b"no such page"),
+    ("/../secret.txt", 403, b"outside the app"),
+    ("/%2e%2e/secret.txt", 403, b"outside the app"),
+    ("/static/%2e%2e/%2e%2e/secret.txt", 403, b"outside the app"),
+    ("/..%5csecret.txt", 403, b"outside the app"),
+    ("/link.txt", 403, b"outside the app"),
+    ("/app.js%00.png", 403, b"outside the app"),
+])
+def test_static_files_stay_inside_their_folder(server: WebServer, path: str, status: int,
+                                              needle: bytes) -> None:
+    code, body, _ = fetch(server, "GET", path)
+    assert code == status
+    assert needle in body
+    assert b"outside\n" not in body and body != b"outside"
+
+
+def test_json_routes_and_errors(server: WebServer) -> None:
+    code, body, _ = fetch(server, "GET", "/api/echo?a=1&b=two")
+    assert (code, json.loads(body)) == (200, {"q": {"a": "1", "b": "two"}})
+    code, body, _ = fetch(server, "POST", "/api/echo", b'{"x": [1, 2]}',
+                          {"Content-Type": "application/json"})
+    assert (code, json.loads(body)) == (200, {"x": [1, 2]})
+    code, body, _ = fetch(server, "POST", "/api/echo", b"{not json")
+    assert code == 400 and b"not JSON" in body
+    code, body, _ = fetch(server, "GET", "/api/boom")
+    assert code == 500 and b"internal error" in body
+    code, _, _ = fetch(server, "DELETE", "/api/echo")
+    assert code == 405  # a known path, a method it does not take
+
+
+@pytest.mark.parametrize(("headers", "path", "status"), [
+    ({}, "/", 401),
+    ({}, "/?token=wrong-token-xyz", 401),
+    ({"X-Access-Token": "wrong-token-xyz"}, "/api/echo", 401),
+    ({}, "/?token=correct-token-123", 200),
+    ({"X-Access-Token": "correct-token-123"}, "/api/echo", 200),
+    ({"Cookie": "other=1; stationcheck_token=correct-token-123"}, "/api/echo", 200),
+    ({"Cookie": "stationcheck_token=nope"}, "/api/echo", 401),
+])
+def test_token_required_when_set(site: Path, headers: dict[str, str], path: str,
+                                 status: int) -> None:
+    srv = serve(site, token="correct-token-123")
+    try:
+        code, body, got = fetch(srv, "GET", path, headers=headers)
+        assert code == status
+        if status == 401:
+            assert b"home" not in body and b"access token" in body
+        if "token=correct" in path:
+            assert "stationcheck_token=correct-token-123" in got.get("Set-Cookie", "")
+    finally:
+        srv.close()
+
+
+@pytest.mark.parametrize(("host", "token", "needs_token"), [
+    ("127.0.0.1", None, False),
+    ("localhost", None, False),
+    ("::1", None, False),
+    ("0.0.0.0", None, True),
+    ("192.168.10.5", None, True),
+    ("127.0.0.1", "given-token-abc", True),
+])
+def test_token_is_mandatory_beyond_loopback(host: str, token: str | None,
+                                            needs_token: bool) -> None:
+    rule = AccessRule.for_host(host, token)
+    assert (rule.token is not None) == needs_token
+    assert is_loopback(host) == (host in ("127.0.0.1", "localhost", "::1"))
+
+
+def test_short_token_is_refused() -> None:
+    with pytest.raises(Exception, match="12 characters"):
+        AccessRule.for_host("0.0.0.0", "short")
+
+
+def test_resolve_static_direct(site: Path) -> None:
+    assert resolve_static(site, "/app.js") == (site / "app.js").resolve()
+    with pytest.raises(WebError) as err:
+        resolve_static(site, "/sub/../../secret.txt")
+    assert err.value.status == 403
+
+
+def test_port_in_use_is_one_line_error(server: WebServer, site: Path) -> None:
+    port = int(server.server_address[1])
+    with pytest.raises(Exception, match=f"cannot listen on 127.0.0.1:{port}"):
+        WebServer(Router(site), "127.0.0.1", port, AccessRule(None))
