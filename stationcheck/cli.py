@@ -79,6 +79,8 @@ def main(argv: Sequence[str] | None = None) -> int:
         level=logging.WARNING - 10 * min(args.verbose, 2),
         format="%(levelname)s %(name)s: %(message)s",
     )
+    if args.verbose < 2:  # our own link reports its failures in one line
+        logging.getLogger("pymodbus").setLevel(logging.CRITICAL)
     handler = getattr(args, "handler", None)
     if handler is None:
         parser.print_help()

@@ -1,7 +1,9 @@
 """``stationcheck bench``: per-stage timings and memory, one section per part of the pipeline.
 
 Sections are modules listed in :data:`SECTION_MODULES`; each defines ``SECTION_NAME`` (str),
-``SECTION_HELP`` (str) and ``measure(options: BenchOptions) -> list[BenchRow]``. To add one,
+``SECTION_HELP`` (str) and ``measure(options: BenchOptions) -> list[BenchRow]``. A row's
+``headline`` figures become top-level keys of ``--json`` (e.g. ``full_path_fps``,
+``detector_ms_median``, ``decision_latency_p99_ms``, ``rss_mb``). To add one,
 write the module and append its dotted name here. Benchmarks measure; they never assert (timed
 tests are flaky on a shared machine), so targets are printed beside the figures instead.
 """
@@ -20,15 +22,22 @@ from stationcheck.errors import InputFileError
 
 SECTION_MODULES: tuple[str, ...] = (
     "stationcheck.vision.detector_bench",
+    "stationcheck.pipeline.bench",
     "stationcheck.store.bench",
+    "stationcheck.quality.bench",
     "stationcheck.judgements.bench",
     "stationcheck.live.bench",
+    "stationcheck.web.operator.bench",
 )
 
 
 @dataclass(frozen=True)
 class BenchOptions:
-    frames: int = 300
+    frames: int | None = None  # None: each section's own default
+
+    def frames_or(self, default: int) -> int:
+        return self.frames if self.frames is not None else default
+
     threads: tuple[int, ...] = (1, 2)
     model: Path | None = None
     video: Path | None = None
@@ -45,6 +54,7 @@ class BenchRow:
     unit: str
     target: str = ""
     extra: dict[str, float] = field(default_factory=dict)
+    headline: dict[str, float] = field(default_factory=dict)  # top-level keys of --json
 
 
 def load_sections() -> dict[str, ModuleType]:
@@ -71,7 +81,8 @@ def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[ty
         default=None,
         help="run only this section (repeatable; default: all)",
     )
-    p.add_argument("--frames", type=int, default=300, help="frames per measurement")
+    p.add_argument("--frames", type=int, default=None,
+                   help="frames per measurement (default: each section's own, 300 to 900)")
     p.add_argument(
         "--threads",
         default="1,2",
@@ -98,7 +109,7 @@ def run(args: argparse.Namespace) -> int:
         threads = tuple(int(t) for t in args.threads.split(","))
     except ValueError as exc:
         raise InputFileError(f"--threads must be comma-separated integers: {args.threads}") from exc
-    if args.frames < 10 or any(t < 1 for t in threads):
+    if (args.frames is not None and args.frames < 10) or any(t < 1 for t in threads):
         raise InputFileError("--frames must be >= 10 and every thread count >= 1")
     options = BenchOptions(args.frames, threads, args.model, args.video)
     rows: list[BenchRow] = []
@@ -106,7 +117,10 @@ def run(args: argparse.Namespace) -> int:
         print(f"bench: {name} ...", file=sys.stderr, flush=True)
         rows.extend(sections[name].measure(options))
     if args.json:
-        print(json.dumps({"rows": [asdict(r) for r in rows]}))
+        headline: dict[str, float] = {}
+        for r in rows:
+            headline.update(r.headline)
+        print(json.dumps({**headline, "rows": [asdict(r) for r in rows]}))
         return 0
     print(f"{'section':<10} {'measure':<40} {'median':>9} {'p99':>9}  unit  target")
     for r in rows:

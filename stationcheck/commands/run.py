@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import argparse
 import signal
+import sys
 from pathlib import Path
 from types import FrameType
 
@@ -33,25 +34,39 @@ def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[ty
     p.add_argument("--log", type=Path, default=None, help="step log (default: the config's)")
     p.add_argument("--no-pace", action="store_true",
                    help="read a video file as fast as possible instead of at its frame rate")
+    p.add_argument("--speed", type=float, default=1.0,
+                   help="play a video file this many times faster than recorded (dry runs; "
+                        "give the simulator the same --speed)")
     p.add_argument("--frames", type=int, default=None, help="stop after this many file frames")
+    from stationcheck.web.operator.options import add_screen_arguments
+
+    add_screen_arguments(p, replay=False)
     p.set_defaults(handler=run)
 
 
 def run(args: argparse.Namespace) -> int:
     from stationcheck.cli import SAFETY_NOTE
     from stationcheck.live.session import LiveSettings, run_live
+    from stationcheck.web.operator.screen import command_screen
 
+    if args.speed <= 0:
+        print("stationcheck run: error: --speed must be > 0", file=sys.stderr)
+        return 64
     print(f"Safety: {SAFETY_NOTE}", flush=True)
     settings = LiveSettings(config_path=args.config, log_path=args.log, source=args.source,
                             link=args.link, host=args.host, port=args.port,
-                            pace=not args.no_pace, max_frames=args.frames)
+                            pace=not args.no_pace, speed=args.speed, max_frames=args.frames)
 
     def stop(signum: int, frame: FrameType | None) -> None:
         raise KeyboardInterrupt
 
     signal.signal(signal.SIGTERM, stop)
     try:
-        stats = run_live(settings)
+        with command_screen(args, args.config, "live") as screen:
+            if screen.screen is not None:
+                print(f"Operator screen: {screen.url}", flush=True)
+            stats = run_live(settings, on_ready=screen.screen.attach_live
+                             if screen.screen is not None else None)
     except KeyboardInterrupt:
         print("stopped; tool enable written off", flush=True)
         return 0

@@ -37,7 +37,10 @@ def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[ty
     p.add_argument("--unit-gap-s", type=float, default=2.0,
                    help="seconds between a finished unit and the next serial")
     p.add_argument("--inputs", type=Path, default=None,
-                   help="station-inputs JSON lines to present at their times (scripted mode)")
+                   help="station-inputs JSON lines to present at their times (scripted mode); "
+                        "time 0 is when the station's heartbeat first counts")
+    p.add_argument("--speed", type=float, default=1.0,
+                   help="present the --inputs this many times faster (match run --speed)")
     p.set_defaults(handler=run)
 
 
@@ -55,7 +58,8 @@ def run(args: argparse.Namespace) -> int:
             ok_rate=args.ok_rate, seed=args.seed,
             serials=tuple(s.strip() for s in args.serials.split(",") if s.strip()),
             torque_target_nm=args.torque_nm, angle_target_deg=args.angle_deg,
-            unit_gap_s=args.unit_gap_s, units=args.units)
+            unit_gap_s=args.unit_gap_s, units=args.units,
+            script_waits_for_station=bool(script), script_speed=args.speed)
     except ValueError as exc:
         print(f"stationcheck simulate: error: {exc}", file=sys.stderr)
         return 64
@@ -67,7 +71,8 @@ def run(args: argparse.Namespace) -> int:
 
     signal.signal(signal.SIGTERM, stop)
     simulator.start()
-    mode = f"presenting {args.inputs}" if script else "generating units"
+    mode = (f"presenting {args.inputs} from the station's first heartbeat" if script
+            else "generating units")
     print(f"station simulator (demo data) listening on {args.host}:{args.port}, {mode}; "
           "Ctrl-C stops it", flush=True)
     try:

@@ -27,6 +27,7 @@ if TYPE_CHECKING:
 
 logger = logging.getLogger(__name__)
 
+DEFAULT_FRAMES = 300
 SECTION_NAME = "judgements"
 SECTION_HELP = "image judgements: bin activity, check-zone presence, camera shift per frame"
 REPO_ROOT = Path(__file__).resolve().parents[2]
@@ -84,7 +85,7 @@ def measure(options: BenchOptions) -> list[BenchRow]:
     video = options.video or SAMPLE_VIDEO
     if not video.is_file():
         raise InputFileError(f"{video}: no video to measure the judgements on")
-    costs = measure_costs(load_config(DEMO_CONFIG), video, options.frames)
+    costs = measure_costs(load_config(DEMO_CONFIG), video, options.frames_or(DEFAULT_FRAMES))
     rows = []
     for name in COST_NAMES:
         rows.append(BenchRow(SECTION_NAME, f"{name} per frame", costs.median_ms[name],

@@ -1,31 +1,45 @@
-"""``stationcheck bench --section live``: the live loop on loopback.
+"""``stationcheck bench --section live``: the live run on loopback, as a station would run it.
 
-Frames of the sample video are fed at 30 frames/s through the grabber into the full frame path
-(bundled model, image judgements, sequencer, SQLite step log) and out through the Modbus TCP
-client link to a pymodbus server on 127.0.0.1 (in this process). Decision latency runs from
-the frame in the grabber's hand to the station outputs written (the enable coil first, then
-the status registers), so it includes the detector; output latency runs from the decision
-taken to the outputs written (the link alone); loop capacity is 1000 / the mean per-frame processing time.
+The sample video plays through the grabber at its frame rate into the full frame path (bundled
+model, image judgements, sequencer, SQLite step log with synchronous=FULL) and out through the
+Modbus TCP client link to the station simulator, which runs in a child process (a PLC is
+another device; in this process it would share the interpreter lock) and presents the sample's
+station inputs from the station's first heartbeat, so units start, tools are enabled and
+results are logged during the measurement.
+
+Decision latency runs from the frame in the grabber's hand to the tool-enable coil written (the
+link writes the coil first, then the status registers), so it includes the detector; a second
+figure runs to all outputs written, and output latency from the outputs handed over to
+written (the link alone). Loop capacity is 1000 / the mean
+busy time per frame (frame taken -> outputs handed over and the cycle's step-log records
+committed); headroom is capacity / camera rate.
 """
 
 from __future__ import annotations
 
 import socket
-import statistics
+import subprocess
+import sys
 import tempfile
 import time
 from pathlib import Path
+from typing import IO
 
 import numpy as np
 
 from stationcheck.commands.bench import BenchOptions, BenchRow
+from stationcheck.errors import SignalLinkError
 
 SECTION_NAME = "live"
-SECTION_HELP = "live loop on loopback: frame in hand -> outputs written to a Modbus server"
-CONFIG = Path(__file__).resolve().parents[2] / "configs" / "demo_station.yaml"
-CAMERA_FPS = 30.0
+SECTION_HELP = "live run on loopback: sample video -> outputs written to a simulator process"
+REPO = Path(__file__).resolve().parents[2]
+CONFIG = REPO / "configs" / "demo_station.yaml"
+VIDEO = REPO / "sample_video" / "demo_station.mp4"
+INPUTS = REPO / "sample_video" / "demo_station_inputs.jsonl"
+DEFAULT_FRAMES = 900  # 30 s of video: the first unit's picks, fastenings and check
+SIMULATOR_START_S = 30.0
 LATENCY_TARGET = "p99 <= 10 ms"
-CAPACITY_TARGET = ">= 120 frames/s (4x 30)"
+CAPACITY_TARGET = ">= 4x the camera rate"
 
 
 def _free_port() -> int:
@@ -34,70 +48,111 @@ def _free_port() -> int:
         return int(sock.getsockname()[1])
 
 
-def measure(options: BenchOptions) -> list[BenchRow]:
-    from stationcheck.config import load_config
-    from stationcheck.judgements.station import StationJudgements
-    from stationcheck.live.grabber import FrameGrabber
-    from stationcheck.live.loop import LiveLoop
-    from stationcheck.pipeline.decisions import DecisionCore
-    from stationcheck.pipeline.frame_path import FramePath
-    from stationcheck.pipeline.judging import StationImageJudge
-    from stationcheck.pipeline.log_sink import StepLogSink
-    from stationcheck.plc.modbus_client import ModbusClientLink
-    from stationcheck.plc.server_host import ServerHost
-    from stationcheck.plc.worker import LinkWorker
-    from stationcheck.sources.memory_source import MemoryFrameSource
-    from stationcheck.store.sqlite_log import SqliteStepLog
-    from stationcheck.vision.detector import load_detector
-    from stationcheck.vision.detector_bench import load_frames
-
-    config = load_config(CONFIG)
-    plan = config.to_plan()
-    images = load_frames(options.video, options.frames)
-    detector = load_detector(options.model or config.model_path, threads=options.threads[0])
-    with tempfile.TemporaryDirectory() as folder, \
-            ServerHost("127.0.0.1", _free_port()) as server:
-        log = SqliteStepLog(Path(folder) / "bench.sqlite")
+def start_simulator(port: int, errors: IO[bytes]) -> subprocess.Popen[bytes]:
+    """``stationcheck simulate --inputs`` in a child process; returns once it accepts a
+    connection (its complaints go to ``errors``)."""
+    proc = subprocess.Popen(
+        [sys.executable, "-m", "stationcheck", "simulate", "--inputs", str(INPUTS),
+         "--host", "127.0.0.1", "--port", str(port)],
+        stdout=subprocess.DEVNULL, stderr=errors)
+    deadline = time.monotonic() + SIMULATOR_START_S
+    while True:
         try:
-            decisions = DecisionCore(plan, sinks=[StepLogSink(log)])
-            path = FramePath(plan, detector, decisions,
-                             [StationImageJudge(StationJudgements.from_config(config))])
-            grabber = FrameGrabber(lambda: MemoryFrameSource(images, fps=CAMERA_FPS),
-                                   pace=True, retry=False).start()
-            worker = LinkWorker(ModbusClientLink(server.host, server.port, timeout_ms=100))
-            loop = LiveLoop(path, grabber, worker.start())
-            started = time.perf_counter()
-            stats = loop.run()
-            wall_s = time.perf_counter() - started
-            latency = np.array(worker.write_latency_ms, dtype=float)
-            output_latency = np.array(worker.publish_latency_ms, dtype=float)
+            socket.create_connection(("127.0.0.1", port), timeout=0.2).close()
+            return proc
+        except OSError:
+            if proc.poll() is not None or time.monotonic() > deadline:
+                proc.kill()
+                proc.wait()
+                errors.seek(0)
+                text = errors.read().decode(errors="replace").strip()
+                raise SignalLinkError(f"the station simulator did not start: {text[-300:]}")
+            time.sleep(0.05)  # polling a child process's port; nothing to wait on instead
+
+
+def resident_mb() -> float:
+    with open("/proc/self/status") as status:
+        for line in status:
+            if line.startswith("VmRSS:"):
+                return float(line.split()[1]) / 1024.0
+    return float("nan")
+
+
+class _MemoryWatch:
+    """A frame sink that samples the process's resident memory every 30 frames."""
+
+    def __init__(self) -> None:
+        self.peak_mb = 0.0
+        self.frames = 0
+
+    def on_frame(self, result: object) -> None:
+        self.frames += 1
+        if self.frames % 30 == 1:
+            self.peak_mb = max(self.peak_mb, resident_mb())
+
+    def on_stop(self, error: BaseException | None) -> None:
+        self.peak_mb = max(self.peak_mb, resident_mb())
+
+
+def measure(options: BenchOptions) -> list[BenchRow]:
+    from stationcheck.live.loop import LiveLoop
+    from stationcheck.live.session import LiveSettings, run_live
+
+    frames = options.frames_or(DEFAULT_FRAMES)
+    port = _free_port()
+    memory = _MemoryWatch()
+    loops: list[LiveLoop] = []
+
+    def ready(loop: LiveLoop) -> None:
+        loop.frame_sinks = (*loop.frame_sinks, memory)
+        loops.append(loop)
+
+    with tempfile.TemporaryDirectory() as folder, tempfile.TemporaryFile() as errors:
+        proc = start_simulator(port, errors)
+        try:
+            stats = run_live(LiveSettings(
+                config_path=CONFIG, log_path=Path(folder) / "bench.sqlite",
+                source=str(options.video or VIDEO), link="client", host="127.0.0.1",
+                port=port, max_frames=frames, model_path=options.model), on_ready=ready)
         finally:
-            log.close()
+            proc.terminate()
+            proc.wait(10)
+    worker, grabber = loops[0].worker, loops[0].grabber
+    latency = np.array(worker.coil_latency_ms, dtype=float)
+    all_outputs = np.array(worker.write_latency_ms, dtype=float)
+    link_only = np.array(worker.publish_latency_ms, dtype=float)
+    busy = np.array(stats.busy_ms, dtype=float)
     process = np.array(stats.process_ms, dtype=float)
-    capacity_fps = 1000.0 / float(process.mean()) if process.size else 0.0
+    camera_fps = grabber.fps or 30.0
+    capacity_fps = 1000.0 / float(busy.mean()) if busy.size else 0.0
     p50, p99 = float(np.percentile(latency, 50)), float(np.percentile(latency, 99))
-    out50, out99 = (float(np.percentile(output_latency, 50)),
-                    float(np.percentile(output_latency, 99)))
-    figures = {
-        "output_latency_p50_ms": out50,
-        "output_latency_p99_ms": out99,
+    headline = {
         "decision_latency_p50_ms": p50,
         "decision_latency_p99_ms": p99,
-        "live_loop_fps": stats.frames / wall_s,
+        "live_loop_fps": stats.fps,
         "live_capacity_fps": capacity_fps,
-        "live_headroom_x": capacity_fps / CAMERA_FPS,
-        "live_frames_dropped": float(grabber.counts.dropped),
+        "live_headroom_x": capacity_fps / camera_fps,
+        "rss_mb": memory.peak_mb,
     }
     return [
-        BenchRow(SECTION_NAME, "decision latency: frame in hand -> outputs written", p50, p99,
-                 "ms", LATENCY_TARGET, extra=figures),
-        BenchRow(SECTION_NAME, "decision taken -> outputs written (link only)", out50, out99,
-                 "ms", LATENCY_TARGET),
-        BenchRow(SECTION_NAME, "frame path per frame (detector..step log)",
-                 float(statistics.median(stats.process_ms)), float(np.percentile(process, 99)),
+        BenchRow(SECTION_NAME, "decision latency: frame in hand -> coil written", p50, p99,
+                 "ms", LATENCY_TARGET, extra={"writes": float(latency.size)},
+                 headline=headline),
+        BenchRow(SECTION_NAME, "frame in hand -> all outputs written",
+                 float(np.percentile(all_outputs, 50)), float(np.percentile(all_outputs, 99)),
                  "ms"),
-        BenchRow(SECTION_NAME, f"loop frames/s fed at {CAMERA_FPS:.0f}", stats.frames / wall_s,
-                 None, "f/s", extra={"dropped": float(grabber.counts.dropped)}),
-        BenchRow(SECTION_NAME, "loop capacity (1000 / mean per-frame ms)", capacity_fps, None,
-                 "f/s", CAPACITY_TARGET),
+        BenchRow(SECTION_NAME, "outputs handed over -> written (link only)",
+                 float(np.percentile(link_only, 50)), float(np.percentile(link_only, 99)), "ms"),
+        BenchRow(SECTION_NAME, "frame path per frame (detector..sequencer)",
+                 float(np.median(process)), float(np.percentile(process, 99)), "ms"),
+        BenchRow(SECTION_NAME, "busy per frame (+ outputs, step-log commit)",
+                 float(np.median(busy)), float(np.percentile(busy, 99)), "ms"),
+        BenchRow(SECTION_NAME, f"loop frames/s, video at {camera_fps:.0f}", stats.fps, None,
+                 "f/s", extra={"dropped": float(grabber.counts.dropped),
+                               "frames": float(stats.frames)}),
+        BenchRow(SECTION_NAME, "loop capacity (1000 / mean busy ms)", capacity_fps, None,
+                 "f/s", f"{CAPACITY_TARGET} (>= {4 * camera_fps:.0f})",
+                 extra={"headroom_x": capacity_fps / camera_fps}),
+        BenchRow(SECTION_NAME, "resident memory during the run (peak)", memory.peak_mb, None,
+                 "MB", "< 400 MB"),
     ]

@@ -39,10 +39,14 @@ class GrabberCounts:
 
 
 class FrameGrabber:
-    def __init__(self, opener: SourceOpener, *, pace: bool = False, retry: bool = True,
+    def __init__(self, opener: SourceOpener, *, pace: bool = False, speed: float = 1.0,
+                 retry: bool = True,
                  backoff_first_s: float = 0.2, backoff_max_s: float = 5.0) -> None:
         self.opener = opener
         self.pace = pace
+        if speed <= 0:
+            raise ValueError(f"speed must be > 0, got {speed}")
+        self.speed = speed  # a paced file plays this many times faster than recorded
         self.retry = retry
         self.backoff_first_s = backoff_first_s
         self.backoff_max_s = backoff_max_s
@@ -138,7 +142,7 @@ class FrameGrabber:
                 break
             if self.pace:
                 first_t_s = frame.t_s if first_t_s is None else first_t_s
-                due = started + (frame.t_s - first_t_s)
+                due = started + (frame.t_s - first_t_s) / self.speed
                 if self._stop.wait(max(0.0, due - time.perf_counter())):
                     break
             self._put(frame)

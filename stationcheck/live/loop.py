@@ -2,7 +2,10 @@
 
 The loop never waits on the PLC (the link worker does the I/O) and waits for a frame at most
 one watchdog cycle. Observations from the PLC are applied before the next frame, stamped with
-the loop's current time, so time never runs backwards for the sequencer. Whatever ends the
+the loop's current time, so time never runs backwards for the sequencer. A cycle's step-log
+records are committed right after its outputs are handed to the link worker (the disk's sync
+time never delays the enable), and the PLC's handshakes are acknowledged only once what they
+brought is committed. Whatever ends the
 loop, the ``finally`` block publishes the enable off and stops the link worker, whose last act
 is writing it.
 """
@@ -17,6 +20,7 @@ from dataclasses import dataclass, field, replace
 
 from stationcheck.core.observations import LinkStatus, Observation
 from stationcheck.core.outputs import Output
+from stationcheck.core.records import Frame
 from stationcheck.live.grabber import FrameGrabber
 from stationcheck.live.watchdog import WatchdogLimits, Watchdogs
 from stationcheck.pipeline.frame_path import FramePath, FrameResult
@@ -33,6 +37,7 @@ class LiveStats:
     cycles: int = 0
     wall_s: float = 0.0
     process_ms: list[float] = field(default_factory=list)
+    busy_ms: list[float] = field(default_factory=list)  # frame taken -> outputs out, log committed
     heartbeat: int = 0
 
     @property
@@ -46,7 +51,8 @@ class LiveStats:
 class LiveLoop:
     def __init__(self, path: FramePath, grabber: FrameGrabber, worker: LinkWorker, *,
                  limits: WatchdogLimits | None = None,
-                 frame_sinks: tuple[FrameSink, ...] = ()) -> None:
+                 frame_sinks: tuple[FrameSink, ...] = (),
+                 on_frame_taken: Callable[[Frame], None] | None = None) -> None:
         self.path = path
         self.decisions = path.decisions
         self.grabber = grabber
@@ -54,6 +60,9 @@ class LiveLoop:
         self.watchdogs = Watchdogs(limits or WatchdogLimits())
         self.encoder = OutputEncoder(path.plan)
         self.frame_sinks = frame_sinks
+        self.on_frame_taken = on_frame_taken
+        self._acks_taken = (0, 0)
+        self._acks_committed = (0, 0)  # handshakes whose records are on disk
         self.stats = LiveStats()
         self.t_s = 0.0  # the loop's time: the newest frame's, moved on by waiting
         self._last_frame_at = time.perf_counter()
@@ -86,6 +95,10 @@ class LiveLoop:
                     since_s = grabbed.grabbed_at_s
                     self._last_frame_at = grabbed.grabbed_at_s
                 self._publish(healthy, since_s)
+                self.decisions.flush()
+                self._acks_committed = self._acks_taken
+                if grabbed is not None:
+                    self.stats.busy_ms.append((time.perf_counter() - now) * 1e3)
         except BaseException as exc:
             error = exc
             logger.error("live loop stopped: %s", exc)
@@ -111,13 +124,14 @@ class LiveLoop:
     def _link_observations(self, now: float) -> list[Observation]:
         found = [replace(o, t_s=self.t_s) for o in self.worker.take()
                  if not isinstance(o, LinkStatus)]
+        self._acks_taken = self.worker.acks
         return self.watchdogs.check_link(self.worker.up, self.worker.silent_s(),
                                          self.t_s) + found
 
     def _process(self, frame: object) -> bool:
-        from stationcheck.core.records import Frame
-
         assert isinstance(frame, Frame)
+        if self.on_frame_taken is not None:
+            self.on_frame_taken(frame)
         if frame.t_s < self.t_s:
             frame = replace(frame, t_s=self.t_s)
         self.watchdogs.frame_arrived()
@@ -139,7 +153,7 @@ class LiveLoop:
         output: Output | None = self.decisions.last_output
         if healthy and self.watchdogs.link_ok:
             self.stats.heartbeat = (self.stats.heartbeat + 1) & 0xFFFF
-        unit_ack, result_ack = self.worker.acks
+        unit_ack, result_ack = self._acks_committed
         if output is None:
             from stationcheck.plc.signals import OutputSignals
 

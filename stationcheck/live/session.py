@@ -12,6 +12,7 @@ from pathlib import Path
 from typing import Literal
 
 from stationcheck.config import StationConfig, load_config
+from stationcheck.core.observations import PositionRef
 from stationcheck.live.grabber import FrameGrabber, SourceOpener
 from stationcheck.live.loop import LiveLoop, LiveStats
 from stationcheck.live.watchdog import WatchdogLimits
@@ -34,6 +35,7 @@ class LiveSettings:
     port: int | None = None
     timeout_ms: float | None = None  # None: the config's plc.timeout_ms
     pace: bool = True  # a video file plays at its own frame rate
+    speed: float = 1.0  # ... or this many times faster (a quicker dry run)
     max_frames: int | None = None
     model_path: Path | None = None
 
@@ -98,6 +100,7 @@ def run_live(settings: LiveSettings, should_stop: Callable[[], bool] = lambda: F
              on_ready: Callable[[LiveLoop], None] | None = None) -> LiveStats:
     from stationcheck.judgements.station import StationJudgements
     from stationcheck.pipeline.decisions import DecisionCore
+    from stationcheck.pipeline.evidence import EvidenceWriter, prune_evidence
     from stationcheck.pipeline.frame_path import FramePath
     from stationcheck.pipeline.judging import StationImageJudge
     from stationcheck.pipeline.log_sink import StepLogSink, rework_positions_from_log
@@ -123,10 +126,20 @@ def run_live(settings: LiveSettings, should_stop: Callable[[], bool] = lambda: F
         open_unit = log.open_unit_events()  # a unit left open by a stopped run continues
         if open_unit:
             logger.info("continuing the open unit from the step log (%d events)", len(open_unit))
-        decisions = DecisionCore(plan, sinks=[StepLogSink(log)], resume_from=open_unit,
-                                 rework_lookup=lambda serial: rework_positions_from_log(log, serial))
+        prune_evidence(log, config.log.retention_days)
+        evidence = (EvidenceWriter(plan, log_path.parent) if config.log.evidence_images
+                    else None)
+        log_sink = StepLogSink(log, evidence=evidence, deferred=True)
+
+        def rework_lookup(serial: str) -> tuple[PositionRef, ...]:
+            log_sink.flush()  # the unit's last pass must be on disk before it is read back
+            return rework_positions_from_log(log, serial)
+
+        decisions = DecisionCore(plan, sinks=[log_sink], resume_from=open_unit,
+                                 rework_lookup=rework_lookup)
         path = FramePath(plan, detector, decisions, judges)
         grabber = FrameGrabber(opener, pace=is_file and settings.pace,
+                               speed=settings.speed,
                                retry=not is_file).start()
         stack.callback(grabber.stop)
         shutdown = getattr(link, "shutdown", None)
@@ -134,7 +147,8 @@ def run_live(settings: LiveSettings, should_stop: Callable[[], bool] = lambda: F
             stack.callback(shutdown)  # a server link serves until the run ends
         worker = LinkWorker(link, clock).start()
         stack.callback(worker.stop)
-        loop = LiveLoop(path, grabber, worker, limits=link_limits(config, settings.timeout_ms))
+        loop = LiveLoop(path, grabber, worker, limits=link_limits(config, settings.timeout_ms),
+                        on_frame_taken=evidence.see if evidence is not None else None)
         if on_ready is not None:
             on_ready(loop)
         logger.info("live run: %s, link %s, log %s", source_name, link.name, log_path)

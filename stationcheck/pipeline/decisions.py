@@ -98,6 +98,13 @@ class DecisionCore:
         self.steps += 1
         return step
 
+    def flush(self) -> None:
+        """Let sinks that hold a cycle's records (a deferred step log) commit them now."""
+        for sink in self.sinks:
+            flush = getattr(sink, "flush", None)
+            if flush is not None:
+                flush()
+
     def stop(self, error: BaseException | None) -> None:
         """Tell every sink the run ended; a sink that fails here does not stop the others."""
         for sink in self.sinks:

@@ -32,31 +32,50 @@ def rework_positions_from_log(log: StepLog, serial: str) -> tuple[PositionRef, .
 
 class StepLogSink:
     """Appends each step's events as one atomic batch; ``clock`` stamps ``recorded_at_s``;
-    ``evidence`` (if given) attaches an image to each tightening result before it is saved."""
+    ``evidence`` (if given) attaches an image to each tightening result before it is saved.
+
+    ``deferred`` (the live loop) holds a cycle's events until :meth:`flush`, which the loop
+    calls once the outputs are on their way to the PLC: one commit per cycle, and the disk's
+    sync time never delays the enable signal. Events wait at most one loop cycle.
+    """
 
     def __init__(self, log: StepLog, clock: Callable[[], float] = time.time,
-                 evidence: EvidenceWriter | None = None) -> None:
+                 evidence: EvidenceWriter | None = None, *, deferred: bool = False) -> None:
         self.log = log
         self.clock = clock
         self.evidence = evidence
+        self.deferred = deferred
         self.events_written = 0
+        self._pending: list[Event] = []
         self._last_t_s = 0.0
         self._last_serial: str | None = None
         self._enabled = False
 
     def on_step(self, step: DecisionStep) -> None:
         if step.events:
-            events = step.events if self.evidence is None else self.evidence.attach(step.events)
-            self.log.append(events, recorded_at_s=self.clock())
-            self.events_written += len(step.events)
+            self._pending.extend(step.events)
+            if not self.deferred:
+                self.flush()
         self._last_t_s = step.output.t_s
         self._last_serial = step.output.serial if step.output.unit_status == "running" else None
         self._enabled = step.output.tool_enabled
 
+    def flush(self) -> None:
+        """Commit the held events as one batch (nothing to do when none are held)."""
+        if not self._pending:
+            return
+        held, self._pending = tuple(self._pending), []
+        events = held if self.evidence is None else self.evidence.attach(held)
+        self.log.append(events, recorded_at_s=self.clock())
+        self.events_written += len(events)
+
     def on_stop(self, error: BaseException | None) -> None:
-        """After a failure the log says the tool went off and why (unless the log itself is
-        what failed)."""
-        if error is None or isinstance(error, StoreError):
+        """Commits what is held; after a failure the log says the tool went off and why
+        (unless the log itself is what failed)."""
+        if isinstance(error, StoreError):
+            return
+        self.flush()
+        if error is None:
             return
         message = str(error).strip().splitlines()[0] if str(error).strip() else type(error).__name__
         event = Event(

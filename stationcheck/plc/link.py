@@ -47,6 +47,7 @@ class TableLink(ABC):
     def __init__(self, address_map: AddressMap | None = None) -> None:
         self.address_map = address_map or default_address_map()
         self._read_plan = _read_plan(self.address_map.of("in"))
+        self.coil_written_at: float | None = None
 
     @abstractmethod
     def read_table(self, table: Table, address: int, count: int) -> list[int]: ...
@@ -64,11 +65,14 @@ class TableLink(ABC):
         """Nothing to close by default."""
 
     def write_outputs(self, outputs: OutputSignals) -> None:
+        """The coils (the tool enable) first, then the registers in consecutive runs;
+        ``coil_written_at`` is the perf_counter when the last coil was written."""
         words = outputs.words()
         registers: dict[int, int] = {}
         for spec in self.address_map.of("out"):
             if spec.table == "coil":
                 self.write_coil(spec.address, bool(words[spec.name][0]))
+                self.coil_written_at = time.perf_counter()
             else:
                 for offset, value in enumerate(words[spec.name]):
                     registers[spec.address + offset] = value

@@ -10,7 +10,9 @@ probability ``ok_rate``, torque and angle around their targets with Gaussian noi
 and presents the next serial.
 
 Scripted mode: station inputs from a JSON-lines file (the sample video's sidecar) are presented
-at their ``t_s`` after :meth:`StationSimulator.start`, whatever the station does.
+at their ``t_s`` after :meth:`StationSimulator.start` (or, with ``script_waits_for_station``,
+after the station's heartbeat first counts, so a simulator started before ``run`` keeps time
+with the video), whatever the station does.
 """
 
 from __future__ import annotations
@@ -56,8 +58,12 @@ class SimulatorSettings:
     unit_gap_s: float = 2.0
     units: int | None = None  # stop presenting serials after this many (None: endless)
     poll_s: float = 0.005
+    script_waits_for_station: bool = False  # scripted mode: t = 0 at the first heartbeat
+    script_speed: float = 1.0  # scripted mode: present inputs this many times faster
 
     def __post_init__(self) -> None:
+        if self.script_speed <= 0:
+            raise ValueError(f"script_speed must be > 0, got {self.script_speed}")
         if not 0.0 <= self.ok_rate <= 1.0:
             raise ValueError(f"ok_rate must be within 0..1, got {self.ok_rate}")
         low, high = self.trigger_delay_s
@@ -210,19 +216,25 @@ class StationSimulator:
 
     # --- scripted mode ---
     def _run_script(self) -> None:
+        if self.settings.script_waits_for_station:
+            logger.info("waiting for the station's heartbeat before presenting the script")
+            while self.output("heartbeat") == 0:
+                if not self._wait(self.settings.poll_s):
+                    return
         started = time.monotonic()
+        speed = self.settings.script_speed
         pulses: list[tuple[float, str]] = []
         for observation in self.script:
             while True:
-                now = time.monotonic() - started
+                now = (time.monotonic() - started) * speed
                 for due, name in [p for p in pulses if p[0] <= now]:
                     self._set(**{name: False})
                     pulses.remove((due, name))
                 if now >= observation.t_s:
                     break
-                if not self._wait(min(observation.t_s - now, self.settings.poll_s)):
+                if not self._wait(min((observation.t_s - now) / speed, self.settings.poll_s)):
                     return
-            self._apply(observation, pulses, time.monotonic() - started)
+            self._apply(observation, pulses, (time.monotonic() - started) * speed)
 
     def _apply(self, observation: Observation, pulses: list[tuple[float, str]],
                now: float) -> None:

@@ -59,6 +59,7 @@ class LinkWorker:
         self.failures = 0
         self.connects = 0
         self.last_error = ""
+        self.coil_latency_ms: deque[float] = deque(maxlen=10_000)  # frame in hand -> coil
         self.write_latency_ms: deque[float] = deque(maxlen=10_000)  # frame in hand -> written
         self.publish_latency_ms: deque[float] = deque(maxlen=10_000)  # decision -> written
         self.last_written = OutputSignals()
@@ -145,6 +146,8 @@ class LinkWorker:
             self._written_version = version
             if since_s is not None:
                 done = time.perf_counter()
+                coil_at = getattr(self.link, "coil_written_at", None) or done
+                self.coil_latency_ms.append((coil_at - since_s) * 1e3)
                 self.write_latency_ms.append((done - since_s) * 1e3)
                 self.publish_latency_ms.append((done - published_at) * 1e3)
         self.last_written = outputs

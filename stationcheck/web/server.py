@@ -167,19 +167,19 @@ class _RequestHandler(BaseHTTPRequestHandler):
     server: WebServer
     protocol_version = "HTTP/1.1"
 
-    def do_GET(self) -> None:  # noqa: N802 (http.server's naming)
+    def do_GET(self) -> None:
         self._handle("GET")
 
-    def do_HEAD(self) -> None:  # noqa: N802
+    def do_HEAD(self) -> None:
         self._handle("HEAD")
 
-    def do_POST(self) -> None:  # noqa: N802
+    def do_POST(self) -> None:
         self._handle("POST")
 
-    def do_PUT(self) -> None:  # noqa: N802
+    def do_PUT(self) -> None:
         self._handle("PUT")
 
-    def do_DELETE(self) -> None:  # noqa: N802
+    def do_DELETE(self) -> None:
         self._handle("DELETE")
 
     def _handle(self, method: str) -> None:
@@ -234,7 +234,7 @@ class _RequestHandler(BaseHTTPRequestHandler):
             if response.stream is not None and hasattr(response.stream, "close"):
                 response.stream.close()
 
-    def log_message(self, format: str, *args: Any) -> None:  # noqa: A002
+    def log_message(self, format: str, *args: Any) -> None:
         log.debug("%s " + format, self.address_string(), *args)
 
 

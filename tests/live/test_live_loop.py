@@ -155,9 +155,14 @@ def test_nan_detector_output_inhibits_and_the_loop_goes_on() -> None:
     thread, box = run_in_thread(loop)
     try:
         wait_until(lambda: coil_on(link), what="enable")
-        wait_until(lambda: not coil_on(link), what="enable dropped")
-        output = loop.decisions.last_output
-        assert output is not None and "detector_fault" in output.alarms
+        wait_until(lambda: loop.stats.frames >= 62, what="the NaN frames reached")
+
+        def inhibited_for_the_detector() -> bool:
+            output = loop.decisions.last_output
+            return (output is not None and "detector_fault" in output.alarms
+                    and not output.tool_enabled and not coil_on(link))
+
+        wait_until(inhibited_for_the_detector, what="enable dropped for the detector fault")
     finally:
         source.release.set()
         thread.join(5.0)

@@ -1,11 +1,12 @@
-"""``run`` on the sample video's first unit with the station simulator presenting the
-sample's station inputs over Modbus TCP (real pymodbus server and client on loopback) gives
-the same steps as ``replay`` of the same frames with the same inputs.
+"""``run`` on the whole sample video with the station simulator presenting the sample's
+station inputs over Modbus TCP (real pymodbus server and client on loopback) gives the same
+steps as ``replay`` of the same video with the same inputs.
 
 The live run paces the video at its frame rate and the simulator presents each input at its
-time, both started together, so inputs land within a frame or two of where replay applies
-them: the step log must agree on every step's position, attempt, result, torque and angle
-(times are not compared). About 16 s of wall time (the first unit is 467 frames at 30 fps).
+time, from the station's first heartbeat, so inputs land within a frame or two of where replay
+applies them: the step log must agree on every unit pass and every step's position, attempt,
+result, torque and angle (times are not compared). About 2 minutes of wall time for the live
+run plus 25 s for the replay.
 """
 
 from __future__ import annotations
@@ -14,10 +15,11 @@ from pathlib import Path
 
 import pytest
 
+from stationcheck.core.events import RESULT_NOK
 from stationcheck.live.session import LiveSettings, run_live
 from stationcheck.pipeline.session import ReplaySettings, run_replay
 from stationcheck.pipeline.station_inputs import read_station_inputs
-from stationcheck.plc.simulator import StationSimulator
+from stationcheck.plc.simulator import SimulatorSettings, StationSimulator
 from stationcheck.store.sqlite_log import SqliteStepLog
 from tests.plc.conftest import free_port
 
@@ -25,8 +27,7 @@ REPO = Path(__file__).resolve().parents[2]
 CONFIG = REPO / "configs" / "demo_station.yaml"
 VIDEO = REPO / "sample_video" / "demo_station.mp4"
 INPUTS = REPO / "sample_video" / "demo_station_inputs.jsonl"
-FIRST_UNIT_FRAMES = 467  # PC-000101, the clean unit (sample_video/README.md)
-FPS = 30.0
+ALL_FRAMES = 3475
 
 
 def steps_of(log_path: Path) -> list[tuple[object, ...]]:
@@ -42,28 +43,41 @@ def steps_of(log_path: Path) -> list[tuple[object, ...]]:
         log.close()
 
 
+SPEED = 1.0  # real time: a station PC keeps up with its camera, with room to spare
+
+
+def units_of(log_path: Path) -> list[tuple[object, ...]]:
+    log = SqliteStepLog(log_path)
+    try:
+        return [(u.serial, u.passes, u.first_result, u.result, u.ended_by, u.failed_positions)
+                for u in log.units().rows]
+    finally:
+        log.close()
+
+
 @pytest.mark.slow
 @pytest.mark.skipif(not (VIDEO.is_file() and INPUTS.is_file()), reason="no sample video")
-def test_first_unit_live_with_simulator_matches_replay(tmp_path: Path) -> None:
-    end_s = FIRST_UNIT_FRAMES / FPS
-    script = [o for o in read_station_inputs(INPUTS) if o.t_s < end_s]
-    sim = StationSimulator("127.0.0.1", free_port(), script=script).serve()
+def test_whole_video_live_with_simulator_matches_replay(tmp_path: Path) -> None:
+    settings = SimulatorSettings(script_waits_for_station=True, script_speed=SPEED)
+    sim = StationSimulator("127.0.0.1", free_port(), settings,
+                           script=read_station_inputs(INPUTS)).start()
     try:
         stats = run_live(
             LiveSettings(config_path=CONFIG, log_path=tmp_path / "live.sqlite",
                          source=str(VIDEO), link="client", host="127.0.0.1", port=sim.port,
-                         max_frames=FIRST_UNIT_FRAMES,
+                         speed=SPEED,
                          # the simulator shares this process (and its GIL) with the model
-                         timeout_ms=250.0),
-            on_ready=lambda loop: sim.begin())
+                         timeout_ms=250.0))
     finally:
         sim.stop()
-    assert stats.frames >= FIRST_UNIT_FRAMES * 0.9  # paced: few frames dropped
-    inputs_file = tmp_path / "inputs.jsonl"
-    inputs_file.write_text("".join(line for line in INPUTS.read_text().splitlines(True)
-                                   if float(line.split('"t_s": ')[1].split(",")[0]) < end_s))
+    assert stats.frames >= ALL_FRAMES * 0.9  # paced: few frames dropped
     run_replay(ReplaySettings(config_path=CONFIG, log_path=tmp_path / "replay.sqlite",
-                              video=VIDEO, inputs=inputs_file, max_frames=FIRST_UNIT_FRAMES))
+                              video=VIDEO, inputs=INPUTS))
+    replayed_units = units_of(tmp_path / "replay.sqlite")
+    assert len(replayed_units) == 7  # PC-000101..107, PC-000104 with its rework pass
+    assert sum(u[1] for u in replayed_units) == 8
+    assert units_of(tmp_path / "live.sqlite") == replayed_units
     live, replayed = steps_of(tmp_path / "live.sqlite"), steps_of(tmp_path / "replay.sqlite")
-    assert sum(row[3] == "fasten" for row in replayed) >= 6  # the unit's six positions
+    assert sum(row[3] == "fasten" for row in replayed) >= 6 * 7
+    assert any(row[4] == RESULT_NOK for row in replayed)
     assert live == replayed
