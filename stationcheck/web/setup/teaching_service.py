@@ -1,0 +1,108 @@
+"""Teaching check zones from the setup screen, through the same functions as
+``stationcheck teach``; the zone is taken from the document as edited (saved or not)."""
+
+from __future__ import annotations
+
+import re
+from pathlib import Path
+from typing import Any
+
+from stationcheck.config.parts import parts_of_data
+from stationcheck.core.plan import ZoneSpec
+from stationcheck.judgements import teaching
+from stationcheck.judgements.presence import LABELS
+from stationcheck.web.server import WebError
+from stationcheck.web.setup.frames import FrameRequest, grab
+from stationcheck.web.setup.workspace import SetupSession
+
+_ID = re.compile(r"[A-Za-z][A-Za-z0-9_-]{0,63}")
+
+
+def check_zone_of(data: dict[str, Any], zone_id: str) -> ZoneSpec:
+    if not _ID.fullmatch(zone_id):
+        raise WebError(400, f"'{zone_id}' is not a zone id")
+    for zone in parts_of_data(data).zones:
+        if zone.id == zone_id:
+            if zone.kind != "check":
+                raise WebError(400, f"'{zone_id}' is a {zone.kind} zone, not a check zone")
+            if zone.polygon_px is None:
+                raise WebError(400, f"zone '{zone_id}' has no usable outline yet")
+            return ZoneSpec(id=zone.id, kind="check", polygon_px=zone.polygon_px)
+    raise WebError(404, f"no zone named '{zone_id}'")
+
+
+def folder_of(session: SetupSession, data: dict[str, Any], zone_id: str) -> Path:
+    """``<reference frame folder>/<zone>``, inside the workspace."""
+    reference = session.reference_path(data)
+    return session.workspace.inside(zone_id, reference.parent)
+
+
+def listing(session: SetupSession, data: dict[str, Any], zone_id: str) -> dict[str, Any]:
+    zone = check_zone_of(data, zone_id)
+    folder = folder_of(session, data, zone.id)
+    manifest = teaching.read_manifest(folder)
+    if manifest is None:
+        return {"zone": zone.id, "taught": False, "images": [], "present": 0, "absent": 0,
+                "note": "not taught: its check stays undecided"}
+    images = [{"file": image.file, "label": image.label, "source": image.source}
+              for image in manifest.images]
+    note = "teach at least two images of each class to see how well they separate"
+    taught = teaching.load_taught(folder, zone)
+    found = teaching.separation(taught) if taught is not None else None
+    if found is not None:
+        note = (f"agreement within a class >= {found.own_min:.2f}; with the other class "
+                f"<= {found.other_max:.2f} (gap {found.gap:.2f})")
+        if found.misfits:
+            note += f"; {len(found.misfits)} image(s) look more like the other class"
+    return {"zone": zone.id, "taught": True, "images": images,
+            "present": manifest.count("present"), "absent": manifest.count("absent"),
+            "note": note}
+
+
+def teach_from_source(session: SetupSession, body: dict[str, Any]) -> dict[str, Any]:
+    data = _data(body)
+    zone = check_zone_of(data, str(body.get("zone") or ""))
+    label = body.get("label")
+    if label not in LABELS:
+        raise WebError(400, "label must be 'present' or 'absent'")
+    size = _camera_size(data)
+    frames = grab(FrameRequest.from_json(body, session), size)
+    teaching.teach(folder_of(session, data, zone.id), zone, label, frames, size)
+    return listing(session, data, zone.id)
+
+
+def clear(session: SetupSession, body: dict[str, Any]) -> dict[str, Any]:
+    data = _data(body)
+    zone = check_zone_of(data, str(body.get("zone") or ""))
+    label = body.get("label")
+    if label is not None and label not in LABELS:
+        raise WebError(400, "label must be 'present', 'absent' or left out")
+    teaching.clear(folder_of(session, data, zone.id), label)
+    return listing(session, data, zone.id)
+
+
+def image_path(session: SetupSession, reference_frame: str, zone_id: str, file: str) -> Path:
+    """A taught image of a zone; only names the teaching writes are served."""
+    if not _ID.fullmatch(zone_id) or not re.fullmatch(r"(present|absent)-\d{3,}\.png", file):
+        raise WebError(403, "refused: not a taught image of a zone")
+    folder = session.workspace.inside(zone_id, session.resolve(reference_frame).parent)
+    path = session.workspace.inside(file, folder)
+    if not path.is_file():
+        raise WebError(404, f"no taught image {file}")
+    return path
+
+
+def _data(body: dict[str, Any]) -> dict[str, Any]:
+    data = body.get("data")
+    if not isinstance(data, dict):
+        raise WebError(400, "send the document as 'data'")
+    return data
+
+
+def _camera_size(data: dict[str, Any]) -> tuple[int, int]:
+    camera = data.get("camera")
+    if isinstance(camera, dict):
+        width, height = camera.get("width_px"), camera.get("height_px")
+        if isinstance(width, int) and isinstance(height, int) and width > 0 and height > 0:
+            return width, height
+    raise WebError(400, "set the camera's width_px and height_px first")

@@ -1,0 +1,124 @@
+// The setup page: loads the config, wires the tabs, the top bar, keys, checking and saving.
+
+import { S, api, change, onRender, render, runCheck, undo } from "./state.js";
+import { el, findingList } from "./dom.js";
+import { installStage, renderStage, finishDraft, cancelDraft, deleteSelection, setMode, zoom,
+         fit } from "./stage.js";
+import { zonesPanel } from "./zones_panel.js";
+import { stepsPanel } from "./steps_panel.js";
+import { picturePanel, teachPanel, dryRunPanel } from "./source_panels.js";
+import { installPlayer, setPlayerVisible } from "./player.js";
+
+const PANELS = { picture: picturePanel, zones: zonesPanel, steps: stepsPanel, teach: teachPanel,
+                 dryrun: dryRunPanel };
+// Which tab shows the findings under each top-level key (the rest go below the panel).
+const TAB_OF = { zones: "zones", steps: "steps", thresholds: "steps", station: "picture",
+                 camera: "picture" };
+const panel = document.getElementById("panel");
+const summary = document.getElementById("check-summary");
+const saveNote = document.getElementById("save-note");
+
+function renderTop() {
+  document.getElementById("file-name").textContent = S.configPath || "(new config, not saved)";
+  document.getElementById("save-as").hidden = S.configPath !== null;
+  const check = S.check;
+  const meaning = check.errors ? "fault" : check.warnings ? "abnormal" : "normal";
+  const symbol = check.errors ? "\u2716" : check.warnings ? "!" : "\u2714";
+  const words = check.errors
+    ? `NOT usable: ${check.errors} error(s), ${check.warnings} warning(s)`
+    : check.warnings ? `usable with ${check.warnings} warning(s)` : "OK, no findings";
+  summary.className = `badge meaning-${meaning}`;
+  summary.textContent = `${symbol} ${words}`;
+  summary.title = check.summary || "";
+  document.getElementById("undo").disabled = S.undo.length === 0;
+  document.title = `${S.dirty ? "* " : ""}stationcheck setup`;
+}
+
+function renderTabs() {
+  for (const button of document.querySelectorAll("#tabs button")) {
+    const tab = button.dataset.tab;
+    button.classList.toggle("on", tab === S.tab);
+    button.setAttribute("aria-selected", String(tab === S.tab));
+    const count = S.check.findings.filter((f) => TAB_OF[f.where[0]] === tab).length;
+    button.replaceChildren(button.dataset.label,
+      count ? el("span", { class: "count" }, `(${count})`) : "");
+  }
+  setPlayerVisible(S.tab === "dryrun");
+  document.getElementById("stage").classList.toggle("playing", S.tab === "dryrun");
+}
+
+function renderPanel() {
+  const active = document.activeElement;
+  if (active && panel.contains(active) && active.dataset.dirty === "1") return;
+  const scroll = panel.scrollTop;
+  panel.replaceChildren(...PANELS[S.tab]().flat().filter((n) => n !== null && n !== undefined));
+  panel.scrollTop = scroll;
+  const other = S.check.findings.filter((f) => !(f.where[0] in TAB_OF));
+  document.getElementById("other-findings").replaceChildren(
+    ...(other.length ? [el("h2", {}, "Other findings"), ...findingList(other)] : []));
+}
+
+async function save() {
+  const body = { data: S.data };
+  if (S.configPath === null) body.path = document.getElementById("save-path").value;
+  try {
+    const out = await api("POST", "/api/save", body);
+    S.configPath = out.path;
+    S.check = out.check;
+    S.dirty = false;
+    saveNote.textContent = `saved ${out.path} at ${new Date().toLocaleTimeString()}`
+      + (out.check.errors ? " (with errors: the station cannot run it yet)" : "");
+  } catch (err) {
+    saveNote.textContent = `not saved: ${err.message}`;
+  }
+  render();
+}
+
+function typing(evt) {
+  const tag = evt.target.tagName;
+  return tag === "INPUT" || tag === "SELECT" || tag === "TEXTAREA";
+}
+
+function onKey(evt) {
+  const ctrl = evt.ctrlKey || evt.metaKey;
+  if (ctrl && evt.key.toLowerCase() === "s") { evt.preventDefault(); save(); return; }
+  if (typing(evt)) return;
+  if (ctrl && evt.key.toLowerCase() === "z") { evt.preventDefault(); undo(); return; }
+  const actions = {
+    Enter: finishDraft, Escape: cancelDraft, Delete: deleteSelection, Backspace: deleteSelection,
+    v: () => setMode("select"), z: () => setMode("draw"), b: () => setMode("circle"),
+    "+": () => zoom(1.25), "-": () => zoom(0.8), "0": fit,
+  };
+  const action = actions[evt.key];
+  if (action) { evt.preventDefault(); action(); }
+}
+
+async function start() {
+  for (const button of document.querySelectorAll("#tabs button")) {
+    button.dataset.label = button.textContent;
+    button.addEventListener("click", () => { S.tab = button.dataset.tab; render(); });
+  }
+  document.getElementById("undo").addEventListener("click", undo);
+  document.getElementById("save").addEventListener("click", save);
+  document.addEventListener("keydown", onKey);
+  window.addEventListener("beforeunload", (evt) => { if (S.dirty) evt.preventDefault(); });
+  const state = await api("GET", "/api/state");
+  S.data = state.data;
+  S.check = state.check;
+  S.configPath = state.config_path;
+  S.defaultVideo = state.video;
+  S.tab = state.exists ? "zones" : "picture";
+  onRender(renderTop);
+  onRender(renderTabs);
+  onRender(renderStage);
+  onRender(renderPanel);
+  installStage();
+  installPlayer();
+  const caution = await fetch("/common/caution.html");
+  document.getElementById("caution").innerHTML = await caution.text();
+  render();
+  document.body.dataset.ready = "1";
+}
+
+export { change, runCheck };
+start();

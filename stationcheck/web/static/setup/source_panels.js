@@ -1,0 +1,198 @@
+// The Picture, Teach and Dry run tabs: everything that takes frames from a source.
+
+import { S, api, change, render, findingsAt } from "./state.js";
+import { el, boundInput, findingsFor, findingList } from "./dom.js";
+import { showPlayer } from "./player.js";
+
+// Source choice shared by the Picture and Teach tabs (kept while the page is open).
+const source = { kind: "video", video: null, at_s: 0, camera: 0, url: "" };
+let teachZone = null;
+let teachInfo = null;
+let dryRun = { video: null, inputs: "", start_s: 0, seconds: 4, result: null };
+let busyNote = "";
+
+function sourceFields() {
+  if (source.video === null) source.video = S.defaultVideo || "";
+  const bind = (key, attrs = {}) => {
+    const input = el("input", { name: `source-${key}`, value: String(source[key]), ...attrs });
+    input.addEventListener("change", () => {
+      source[key] = attrs.inputmode ? Number(input.value) : input.value;
+    });
+    return input;
+  };
+  const radio = (kind, text) => el("label", {},
+    el("input", { type: "radio", name: "source-kind", value: kind, checked: source.kind === kind,
+                  onchange: () => { source.kind = kind; render(); } }), ` ${text} `);
+  return [
+    el("div", { class: "line" }, radio("video", "video file"), radio("camera", "camera"),
+       radio("stream", "stream")),
+    el("div", { class: "fields" },
+      ...(source.kind === "video" ? [
+        el("label", {}, "video (from the config's folder)"), bind("video", { size: 28 }),
+        el("label", {}, "at (seconds)"), bind("at_s", { inputmode: "decimal", size: 6 })] : []),
+      ...(source.kind === "camera" ? [el("label", {}, "camera index"),
+                                      bind("camera", { inputmode: "numeric", size: 3 })] : []),
+      ...(source.kind === "stream" ? [el("label", {}, "stream URL"),
+                                      bind("url", { size: 28, placeholder: "rtsp://..." })] : [])),
+  ];
+}
+
+function sourceBody() {
+  return { source: source.kind, video: source.video, at_s: source.at_s,
+           camera: source.camera, url: source.url };
+}
+
+function busy(button, work) {
+  return async () => {
+    button.disabled = true;
+    busyNote = "";
+    try { await work(); } catch (err) { busyNote = err.message; }
+    button.disabled = false;
+    render();
+  };
+}
+
+export function picturePanel() {
+  const take = el("button", { class: "primary", id: "take-reference" }, "Take reference frame");
+  take.addEventListener("click", busy(take, async () => {
+    const camera = S.data.camera || {};
+    const out = await api("POST", "/api/reference", {
+      ...sourceBody(), reference_frame: (S.data.station || {}).reference_frame,
+      width_px: camera.width_px, height_px: camera.height_px });
+    change(() => {
+      S.data.camera = S.data.camera || {};
+      S.data.camera.width_px = out.width_px;
+      S.data.camera.height_px = out.height_px;
+      S.pictureVersion += 1;
+    });
+    busyNote = `taken: ${out.source}`;
+  }));
+  return [
+    el("h2", {}, "Reference frame"),
+    el("p", { class: "note" }, "Zones are drawn on this picture, in its pixels. Take it with the "
+      + "station empty and the camera where it will stay."),
+    el("div", { class: "fields" }, el("label", {}, "saved as"),
+       boundInput(["station", "reference_frame"], { name: "reference_frame" })),
+    ...sourceFields(),
+    el("div", { class: "line" }, take, el("span", { class: "note" }, busyNote)),
+    findingsFor("station"),
+    el("h2", {}, "Station and camera"),
+    el("div", { class: "fields" },
+      el("label", {}, "station name"), boundInput(["station", "name"], { name: "station-name" }),
+      el("label", {}, "camera source"), boundInput(["camera", "source"], { name: "camera-source" }),
+      el("label", {}, "width (px)"), boundInput(["camera", "width_px"], { type: "number" }),
+      el("label", {}, "height (px)"), boundInput(["camera", "height_px"], { type: "number" }),
+      el("label", {}, "frames per second"), boundInput(["camera", "fps"], { type: "number" })),
+    findingsFor("camera"),
+  ];
+}
+
+export function teachPanel() {
+  const checks = (S.check.zones || []).filter((z) => z.kind === "check").map((z) => z.id);
+  if (!checks.includes(teachZone)) { teachZone = checks[0] || null; teachInfo = null; }
+  if (!teachZone) {
+    return [el("h2", {}, "Teach check zones"),
+            el("p", { class: "note" }, "No check zone yet: draw one (kind check) first.")];
+  }
+  if (teachInfo === null || teachInfo.zone !== teachZone) loadTeach();
+  const select = el("select", { name: "teach-zone" },
+                    checks.map((z) => el("option", { value: z, selected: z === teachZone }, z)));
+  select.addEventListener("change", () => { teachZone = select.value; teachInfo = null; render(); });
+  const count = el("input", { name: "teach-count", value: "1", size: 3 });
+  const every = el("input", { name: "teach-every", value: "1", size: 3 });
+  const teachButton = (label) => {
+    const button = el("button", { "data-teach": label }, `Teach ${label}`);
+    button.addEventListener("click", busy(button, async () => {
+      teachInfo = await api("POST", "/api/teach", { data: S.data, zone: teachZone, label,
+        ...sourceBody(), count: Number(count.value), every_s: Number(every.value) });
+    }));
+    return button;
+  };
+  const clearButton = (label) => {
+    const button = el("button", { class: "small" }, `Forget ${label}`);
+    button.addEventListener("click", busy(button, async () => {
+      teachInfo = await api("POST", "/api/teach/clear", { data: S.data, zone: teachZone, label });
+    }));
+    return button;
+  };
+  const reference = encodeURIComponent((S.data.station || {}).reference_frame || "");
+  const thumbs = (teachInfo && teachInfo.images || []).map((image) => el("figure", {},
+    el("img", { src: `/api/teach-image?reference=${reference}&zone=${teachZone}`
+                + `&file=${image.file}`, alt: image.file, title: image.source }),
+    el("figcaption", {}, `${image.label === "present" ? "\u25cf" : "\u25cb"} ${image.file}`)));
+  return [
+    el("h2", {}, "Teach check zones"),
+    el("p", { class: "note" }, "Show the zone with the part present, teach; then absent, "
+      + "teach. A few images of each, with the usual light, make a steady check."),
+    el("div", { class: "fields" }, el("label", {}, "check zone"), select),
+    ...sourceFields(),
+    el("div", { class: "fields" }, el("label", {}, "frames"), count,
+       el("label", {}, "every (seconds)"), every),
+    el("div", { class: "line" }, teachButton("present"), teachButton("absent"),
+       clearButton("present"), clearButton("absent")),
+    busyNote ? el("div", { class: "finding error" }, `\u2716 ${busyNote}`) : null,
+    teachInfo ? el("p", { class: "note", id: "teach-note" }, `${teachInfo.present} present, `
+      + `${teachInfo.absent} absent: ${teachInfo.note}`) : null,
+    el("div", { class: "thumbs" }, thumbs),
+    findingList(findingsAt("zones").filter((f) => f.message.includes(teachZone))),
+  ];
+}
+
+async function loadTeach() {
+  teachInfo = { zone: teachZone, images: [], present: 0, absent: 0, note: "loading\u2026" };
+  try {
+    teachInfo = await api("POST", "/api/teach/list", { data: S.data, zone: teachZone });
+  } catch (err) {
+    teachInfo = { zone: teachZone, images: [], present: 0, absent: 0, note: err.message };
+  }
+  render();
+}
+
+export function dryRunPanel() {
+  if (dryRun.video === null) dryRun.video = S.defaultVideo || "";
+  const field = (key, attrs = {}) => {
+    const input = el("input", { name: `dry-${key}`, value: String(dryRun[key]), ...attrs });
+    input.addEventListener("change", () => {
+      dryRun[key] = attrs.inputmode ? Number(input.value) : input.value;
+    });
+    return input;
+  };
+  const run = el("button", { class: "primary", id: "dry-run" }, "Run");
+  run.addEventListener("click", busy(run, async () => {
+    dryRun.result = null;
+    busyNote = "running\u2026";
+    render();
+    dryRun.result = await api("POST", "/api/dry-run", {
+      data: S.data, video: dryRun.video, inputs: dryRun.inputs || null,
+      start_s: dryRun.start_s, seconds: dryRun.seconds });
+    busyNote = "";
+    showPlayer(dryRun.result);
+  }));
+  const result = dryRun.result;
+  return [
+    el("h2", {}, "Dry run on a recorded video"),
+    el("p", { class: "note" }, "Runs the config as it is now (saved or not) through the tool "
+      + "detection, zones, image checks and step sequence; nothing is written to disk. Station "
+      + "inputs (serials, tightening results) come from the video's _inputs.jsonl file."),
+    el("div", { class: "fields" },
+      el("label", {}, "video"), field("video", { size: 28 }),
+      el("label", {}, "inputs (optional)"), field("inputs", { size: 28,
+        placeholder: "beside the video" }),
+      el("label", {}, "start at (s)"), field("start_s", { inputmode: "decimal", size: 6 }),
+      el("label", {}, "seconds (up to 20)"), field("seconds", { inputmode: "decimal", size: 6 })),
+    el("div", { class: "line" }, run, el("span", { class: "note" }, busyNote && !result
+      ? busyNote : "")),
+    busyNote && busyNote !== "running\u2026" ? el("div", { class: "finding error" },
+                                                  `\u2716 ${busyNote}`) : null,
+    result ? el("p", { class: "note", id: "dry-summary" }, `${result.frames} frames drawn; `
+      + `tool enabled in ${result.enabled_frames} frames; inputs: ${result.inputs || "none"}`)
+      : null,
+    result ? el("div", { class: "timeline", id: "timeline" }, result.timeline.map((entry) =>
+      el("div", { class: entry.kind === "enable" ? "enable" : null,
+                  onclick: () => showPlayer(result, entry.t_s) },
+         `${entry.t_s === null ? "" : entry.t_s.toFixed(2).padStart(7)} s  ${entry.text}`)))
+      : null,
+  ];
+}
+
+export function resetDryRun() { dryRun.result = null; }
