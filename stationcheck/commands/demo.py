@@ -36,6 +36,9 @@ def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[ty
     p.add_argument("--threads", type=int, help="model threads (default: the config's)")
     p.add_argument("--json", action="store_true",
                    help="print one JSON object, as 'replay --json' does")
+    from stationcheck.web.operator.options import add_screen_arguments
+
+    add_screen_arguments(p, replay=True)
     p.set_defaults(handler=run)
 
 
@@ -95,7 +98,12 @@ def run(args: argparse.Namespace) -> int:
         detector="model" if has_model else "truth",
     )
     progress = None if args.json else ProgressLine("demo")
-    report = run_replay(settings, progress)
+    from stationcheck.web.operator.screen import command_screen
+
+    with command_screen(args, DEMO_CONFIG, "replay") as screen:
+        if screen.url is not None:
+            print(f"Operator screen: {screen.url}", file=sys.stderr, flush=True)
+        report = run_replay(settings, progress, screen.watchers)
     summary = report.to_json()
     summary["out_dir"] = str(out)
     summary["safety"] = SAFETY_NOTE

@@ -51,6 +51,9 @@ def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[ty
         formatter_class=argparse.RawDescriptionHelpFormatter,
     )
     add_replay_arguments(p)
+    from stationcheck.web.operator.options import add_screen_arguments
+
+    add_screen_arguments(p, replay=True)
     p.set_defaults(handler=run)
 
 
@@ -187,6 +190,7 @@ def print_report(report: ReplayReport, as_json: bool, extra: dict[str, Any] | No
 def run(args: argparse.Namespace) -> int:
     from stationcheck.cli import EXIT_USAGE
     from stationcheck.pipeline.session import run_replay
+    from stationcheck.web.operator.screen import command_screen
 
     problem = usage_problem(args)
     if problem is not None:
@@ -195,6 +199,9 @@ def run(args: argparse.Namespace) -> int:
     log_path = args.log if args.log is not None else default_log_path(Path.cwd())
     settings = settings_from_args(args, log_path)
     progress = None if args.json else ProgressLine("replay")
-    report = run_replay(settings, progress)
+    with command_screen(args, args.config, "replay") as screen:
+        if screen.url is not None:
+            print(f"Operator screen: {screen.url}", file=sys.stderr, flush=True)
+        report = run_replay(settings, progress, screen.watchers)
     print_report(report, args.json)
     return exit_code(report)

@@ -13,7 +13,7 @@ from collections.abc import Sequence
 from contextlib import ExitStack
 from dataclasses import dataclass
 from pathlib import Path
-from typing import TYPE_CHECKING, Literal
+from typing import TYPE_CHECKING, Literal, Protocol
 
 from stationcheck.config import StationConfig, load_config
 from stationcheck.core.observations import ZoneObservation
@@ -99,7 +99,12 @@ def open_fresh_log(path: Path) -> SqliteStepLog:
     return log
 
 
-def run_replay(settings: ReplaySettings, progress: Progress | None = None) -> ReplayReport:
+class Watcher(FrameSink, StepSink, Protocol):
+    """Sees every sequencer step and every frame (an operator screen, a playback pacer)."""
+
+
+def run_replay(settings: ReplaySettings, progress: Progress | None = None,
+               watchers: Sequence[Watcher] = ()) -> ReplayReport:
     config = load_config(settings.config_path)
     prepared = _Prepared(config=config, plan=config.to_plan())
     if settings.expected is not None:
@@ -111,11 +116,11 @@ def run_replay(settings: ReplaySettings, progress: Progress | None = None) -> Re
         prepared.truth = load_truth(truth_path)
     if settings.observations is not None:
         return _replay_observations(settings, prepared, progress)
-    return _replay_video(settings, prepared, progress)
+    return _replay_video(settings, prepared, progress, watchers)
 
 
 def _replay_video(settings: ReplaySettings, prepared: _Prepared,
-                  progress: Progress | None) -> ReplayReport:
+                  progress: Progress | None, watchers: Sequence[Watcher] = ()) -> ReplayReport:
     from stationcheck.sources.video_file import VideoFileSource
 
     if settings.video is None:
@@ -142,6 +147,8 @@ def _replay_video(settings: ReplaySettings, prepared: _Prepared,
             stack.callback(writer.on_stop, None)
             outputs.sinks.append(writer)
             frame_sinks.append(writer)
+        outputs.sinks.extend(watchers)
+        frame_sinks.extend(watchers)
         decisions = DecisionCore(
             plan, rework_lookup=lambda serial: rework_positions_from_log(log, serial),
             sinks=outputs.sinks,

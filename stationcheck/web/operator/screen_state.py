@@ -1,0 +1,160 @@
+"""The operator screen's content at one frame, as plain JSON-ready data.
+
+Everything the page writes comes from here, already in words, with its IEC 60073 meaning
+(``normal``, ``abnormal``, ``fault``, ``action``, ``neutral``) beside it; the page only lays it
+out. ``steady`` is what changes with the station's state; ``tick`` is what changes every frame
+(tip, frame number), so the page redraws its text only when something it says changed.
+"""
+
+from __future__ import annotations
+
+from collections import deque
+from collections.abc import Iterable
+from dataclasses import dataclass
+from typing import Any
+
+from stationcheck.core.alarms import ALARMS
+from stationcheck.core.events import Event
+from stationcheck.core.plan import ConfirmStep, FastenStep
+from stationcheck.overlay.scene import fastener_state
+from stationcheck.pipeline.station_view import Meaning, StationView
+from stationcheck.web.operator.wording import EVENT_ALARMS, Wording, condition_alarm
+
+EVENT_ALARM_SHOWN_S = 8.0
+# enable reasons the station view has no words for: a fresh hold before the next attempt
+HOLD_WORDS = {
+    "new_attempt_dwell": "hold the tool still at the position",
+    "no_unit": "no unit on the station",
+}
+POSITION_MEANING: dict[str, tuple[Meaning, str]] = {
+    "enabled": ("normal", "ON"),
+    "target": ("action", "NEXT"),
+    "wrong": ("abnormal", "WRONG"),
+    "failed": ("fault", "NOK"),
+    "done": ("normal", "OK"),
+    "pending": ("neutral", "open"),
+}
+
+
+@dataclass(frozen=True)
+class RecentAlarm:
+    code: str
+    t_s: float
+
+
+class RecentAlarms:
+    """One-off alarms (no ``alarm_cleared`` follows them), kept for a few seconds."""
+
+    def __init__(self, shown_s: float = EVENT_ALARM_SHOWN_S) -> None:
+        self.shown_s = shown_s
+        self.items: deque[RecentAlarm] = deque(maxlen=8)
+
+    def fold(self, events: Iterable[Event]) -> None:
+        for event in events:
+            if event.kind != "alarm_raised":
+                continue
+            code = str(event.data.get("code", ""))
+            info = ALARMS.get(code)
+            if info is not None and not info.condition:
+                self.items.append(RecentAlarm(code, event.t_s))
+
+    def active(self, now_t_s: float) -> list[str]:
+        return [a.code for a in self.items if 0.0 <= now_t_s - a.t_s <= self.shown_s]
+
+
+def _alarm(code: str, meaning: Meaning, words: str, todo: str) -> dict[str, str]:
+    return {"code": code, "meaning": meaning, "words": words, "todo": todo}
+
+
+def alarms_shown(view: StationView, recent: list[str]) -> list[dict[str, str]]:
+    """Conditions first (faults before abnormal), then recent one-off alarms; no repeats."""
+    shown = [_alarm(code, *condition_alarm(code)) for code in view.output.alarms]
+    shown.sort(key=lambda a: a["meaning"] != "fault")
+    for code in dict.fromkeys(recent):
+        meaning, words, todo = EVENT_ALARMS.get(
+            code, ("abnormal", code.replace("_", " ").capitalize(), ""))
+        shown.append(_alarm(code, meaning, words, todo))
+    return shown
+
+
+def _tool(view: StationView) -> dict[str, Any]:
+    on = view.output.tool_enabled
+    reason = HOLD_WORDS.get(view.output.enable_reason, view.enable_reason_words)
+    return {"enabled": on, "meaning": view.enable_meaning,
+            "words": "TOOL ON" if on else "TOOL OFF", "reason": reason}
+
+
+def _positions(view: StationView, wording: Wording) -> tuple[list[dict[str, Any]], int, int]:
+    """The positions of the current (or, between units, the first) fasten step, each with
+    its state; and how many are done out of how many."""
+    out = view.output
+    steps = [s for s in wording.plan.steps if isinstance(s, FastenStep)]
+    current = next((s for s in steps if s.id == out.step_id), steps[0] if steps else None)
+    if current is None or out.serial is None:
+        return [], 0, 0
+    rows = []
+    for zone in current.zones:
+        state = fastener_state(view, zone)
+        meaning, word = POSITION_MEANING[state]
+        rows.append({"zone": zone, "name": wording.position_names.get(zone, zone),
+                     "label": wording.label(zone), "state": state, "meaning": meaning,
+                     "word": word})
+    done = sum(1 for zone in current.zones if zone in view.done_zones)
+    return rows, done, len(current.zones)
+
+
+def _last_result(view: StationView, wording: Wording) -> dict[str, Any] | None:
+    result = view.last_tightening
+    if result is None:
+        return None
+    return {"position": wording.position_names.get(result.zone, result.zone),
+            "label": wording.label(result.zone), "ok": result.ok,
+            "word": "OK" if result.ok else "NOK", "meaning": "normal" if result.ok else "fault",
+            "torque_nm": result.torque_nm, "angle_deg": result.angle_deg,
+            "attempt": result.attempt}
+
+
+def _unit(view: StationView, done: int, total: int) -> dict[str, Any] | None:
+    out = view.output
+    if out.serial is None:
+        return None
+    running = out.unit_status == "running"
+    last = view.last_unit
+    result = None
+    if not running and last is not None and last.serial == out.serial:
+        result = {"word": "OK" if last.released else "NOT RELEASED",
+                  "meaning": "normal" if last.released else "fault"}
+    return {"serial": out.serial, "rework": out.rework, "running": running,
+            "step": f"Step {out.step_number} of {out.step_count}" if out.step_count else "",
+            "done": done, "total": total, "result": result}
+
+
+def _ack(view: StationView, wording: Wording, acks_allowed: bool) -> dict[str, Any]:
+    step = wording.steps.get(view.output.step_id or "")
+    needed = view.output.guidance.kind == "acknowledge" and isinstance(step, ConfirmStep)
+    return {"needed": needed, "allowed": needed and acks_allowed,
+            "serial": view.output.serial, "step": view.output.step_id,
+            "why_not": "" if acks_allowed else "replay: acknowledges come from the recording"}
+
+
+def steady_state(view: StationView, wording: Wording, *, mode: str, recent: list[str],
+                 acks_allowed: bool) -> dict[str, Any]:
+    instruction = wording.instruction(view, mode)
+    positions, done, total = _positions(view, wording)
+    return {
+        "mode": mode,
+        "station": wording.plan.station,
+        "instruction": {"kind": instruction.kind, "text": instruction.text,
+                        "detail": instruction.detail, "meaning": instruction.meaning},
+        "tool": _tool(view),
+        "unit": _unit(view, done, total),
+        "positions": positions,
+        "last_result": _last_result(view, wording),
+        "alarms": alarms_shown(view, recent),
+        "ack": _ack(view, wording, acks_allowed),
+    }
+
+
+def tick_state(view: StationView, seq: int) -> dict[str, Any]:
+    return {"seq": seq, "frame": view.frame_index, "t_s": round(view.t_s, 3),
+            "tip_seen": view.tip_seen}

@@ -1,0 +1,203 @@
+"""What the operator screen says: one short instruction per moment, alarms with what to do.
+
+Instructions are built from the station plan (step kinds, zone labels and the number each
+fastener position carries), not from the sequencer's longer guidance sentence: the screen's
+big line must be readable from two metres, so it names the action and the place only, and
+the detail (attempt, rework pass) goes on a smaller second line.
+"""
+
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass
+
+from stationcheck.core.plan import CheckStep, ConfirmStep, StationPlan, Step
+from stationcheck.overlay.scene import short_names
+from stationcheck.pipeline.station_view import (
+    ALARM_WORDS,
+    Meaning,
+    StationView,
+    StationViewBuilder,
+)
+
+# code -> (meaning, what happened, what to do); conditions last while their cause lasts
+CONDITION_ALARMS: dict[str, tuple[Meaning, str, str]] = {
+    "camera_moved": ("fault", "Camera moved", "Call setup to put the camera back and check it."),
+    "detector_fault": ("fault", "Tool detection failed", "Call setup. The tool stays off."),
+    "frame_stale": ("fault", "No fresh camera image",
+                    "Check the camera cable and light, then call maintenance."),
+    "link_lost": ("fault", "PLC link lost", "Call maintenance. The tool stays off."),
+    "tool_lost": ("abnormal", "Tool not seen", "Bring the tool back into view of the camera."),
+    "wrong_position": ("abnormal", "Wrong position", "Move the tool to the marked position."),
+    "wrong_bin": ("abnormal", "Wrong bin", "Put the part back; take it from the marked bin."),
+}
+# one-off alarms: shown for a while after they happened
+EVENT_ALARMS: dict[str, tuple[Meaning, str, str]] = {
+    "result_without_enable": ("fault", "Tightening result without enable",
+                              "It does not count. Call your team leader."),
+    "ran_while_inhibited": ("fault", "The tool ran while it was off",
+                            "Call your team leader to check the tool."),
+    "unit_interrupted": ("abnormal", "A new unit came before this one was finished",
+                         "The unfinished unit goes to rework."),
+    "rework_nothing_to_do": ("abnormal", "Rework asked, but nothing is left to do",
+                             "Check the serial with your team leader."),
+    "run_without_result": ("abnormal", "The tool ran but sent no result",
+                           "Fasten the position again."),
+    "result_outside_limits": ("abnormal", "OK result outside the torque or angle limits",
+                              "Tell quality if it happens again."),
+    "check_failed": ("fault", "Check acknowledged without passing",
+                     "The unit is not released; it goes to rework."),
+}
+ENGAGE_NOUNS = ("pin", "latch", "clamp", "lock", "lever", "bolt")
+_BIN_LABEL = re.compile(r"^(?P<part>.+?)\s+bin(?:\s*\((?P<where>[^)]+)\))?$", re.IGNORECASE)
+
+
+@dataclass(frozen=True)
+class Instruction:
+    """The big line (``text``), a smaller line under it (``detail``) and its meaning."""
+
+    kind: str
+    text: str
+    detail: str
+    meaning: Meaning
+
+    def __post_init__(self) -> None:
+        if not self.text:
+            raise ValueError("Instruction.text must not be empty")
+
+
+def _article(noun: str) -> str:
+    return "an" if noun[:1].lower() in "aeiou" else "a"
+
+
+class Wording:
+    """Instructions for one station plan."""
+
+    def __init__(self, plan: StationPlan) -> None:
+        self.plan = plan
+        self.position_names = short_names(plan, StationViewBuilder(plan).position_order())
+        self.steps: dict[str, Step] = {step.id: step for step in plan.steps}
+
+    def label(self, zone_id: str | None) -> str:
+        if zone_id is None:
+            return ""
+        try:
+            return self.plan.zone(zone_id).label or zone_id.replace("_", " ")
+        except KeyError:
+            return zone_id.replace("_", " ")
+
+    def position(self, zone_id: str) -> str:
+        """``"position 4"`` for a fastener zone (the number the station marks it with)."""
+        return f"position {self.position_names.get(zone_id, zone_id)}"
+
+    def take_from(self, bin_id: str, step_id: str | None) -> str:
+        """``"Take a gasket from the left bin"`` from the label ``"gasket bin (left)"``."""
+        label = self.label(bin_id)
+        found = _BIN_LABEL.match(label)
+        if found is not None:
+            part = found["part"].strip()
+            where = found["where"]
+            place = f"the {where.strip()} bin" if where else f"the {part} bin"
+            return f"Take {_article(part)} {part} from {place}"
+        if step_id is not None and step_id.startswith(("take_", "pick_")):
+            part = step_id.split("_", 1)[1].replace("_", " ")
+            return f"Take {_article(part)} {part} from the {label}"
+        return f"Take the part from the {label}"
+
+    def check_action(self, step: CheckStep) -> str:
+        label = self.label(step.zone)
+        noun = label.split()[-1].lower() if label else ""
+        if step.expect == "absent":
+            return f"Remove the {label}"
+        if noun in ENGAGE_NOUNS:
+            # "fixture locking pin" -> "Engage the locking pin": the fixture is where it is
+            words = label.split()
+            shown = " ".join(words[1:]) if len(words) > 2 else label
+            return f"Engage the {shown}"
+        return f"Put the {label} in place"
+
+    def instruction(self, view: StationView, mode: str = "live") -> Instruction:
+        out = view.output
+        guidance = out.guidance
+        kind = guidance.kind
+        meaning = view.guidance_meaning
+        step = self.steps.get(out.step_id or "")
+        target = out.target.zone if out.target is not None else guidance.target
+        attempt = self._attempt_words(view)
+        if kind in ("fasten", "rework") and target is not None:
+            verb = "Rework" if kind == "rework" else "Fasten"
+            detail = f"{self.label(target)} · {attempt}" if attempt else self.label(target)
+            if kind == "rework":
+                detail = f"Rework pass · {detail}"
+            return Instruction(kind, f"{verb} {self.position(target)}", detail, meaning)
+        if kind == "wrong_position" and target is not None:
+            here = self.position(view.wrong_zone) if view.wrong_zone else "another position"
+            return Instruction(kind, f"Wrong position: go to {self.position(target)}",
+                               f"The tool is at {here}.", meaning)
+        if kind in ("take_part", "wrong_bin") and guidance.target is not None:
+            text = self.take_from(guidance.target, out.step_id)
+            if kind == "wrong_bin":
+                return Instruction(kind, f"Wrong bin. {text}",
+                                   f"Activity seen at the {self.label(view.wrong_bin)}.",
+                                   meaning)
+            return Instruction(kind, text, f"Step {out.step_number} of {out.step_count}",
+                               meaning)
+        if kind == "check" and isinstance(step, CheckStep):
+            seen = view.check_verdict or "not judged yet"
+            return Instruction(kind, self.check_action(step),
+                               f"{self.label(step.zone)}: seen {seen}", meaning)
+        if kind == "acknowledge" and isinstance(step, ConfirmStep):
+            how = ("Then press ACKNOWLEDGE." if mode == "live"
+                   else "Replay: the acknowledge comes from the recording.")
+            return Instruction(kind, step.prompt.rstrip("."), how, meaning)
+        if kind == "show_tool":
+            where = f" at {self.position(target)}" if target else ""
+            return Instruction(kind, "Bring the tool back into view",
+                               f"Then continue{where}.", meaning)
+        if kind == "inhibited":
+            return Instruction(kind, "Tool off: station fault", self._fault_words(view), meaning)
+        if kind == "unit_finished":
+            return self._finished(view)
+        return Instruction(kind, "Waiting for the next unit", "Load a unit to start.", meaning)
+
+    def _attempt_words(self, view: StationView) -> str:
+        out = view.output
+        step = self.steps.get(out.step_id or "")
+        limit = getattr(step, "max_attempts", None)
+        if not out.attempt:
+            return ""
+        if limit is None:
+            return f"attempt {out.attempt}"
+        return f"attempt {out.attempt} of {limit}"
+
+    def _fault_words(self, view: StationView) -> str:
+        for code in view.output.alarms:
+            found = CONDITION_ALARMS.get(code)
+            if found is not None and found[0] == "fault":
+                return f"{found[1]}. {found[2]}"
+        return view.enable_reason_words
+
+    def _finished(self, view: StationView) -> Instruction:
+        unit = view.last_unit
+        meaning = view.guidance_meaning
+        if unit is None:
+            return Instruction("unit_finished", "Waiting for the next unit", "", meaning)
+        if unit.released:
+            return Instruction("unit_finished", f"Unit {unit.serial} OK",
+                               "Released. Waiting for the next unit.", meaning)
+        if unit.failed_zones:
+            places = ", ".join(self.position(z) for z in unit.failed_zones)
+            return Instruction("unit_finished", f"Unit {unit.serial} not released",
+                               f"Rework needed at {places}.", meaning)
+        return Instruction("unit_finished", f"Unit {unit.serial} not released",
+                           view.output.guidance.words, meaning)
+
+
+def condition_alarm(code: str) -> tuple[Meaning, str, str]:
+    """Meaning, words and what to do for a condition alarm code (any code gets words)."""
+    if code in CONDITION_ALARMS:
+        return CONDITION_ALARMS[code]
+    if code in ALARM_WORDS:
+        meaning, words = ALARM_WORDS[code]
+        return meaning, words, ""
+    return "abnormal", code.replace("_", " ").capitalize(), ""
