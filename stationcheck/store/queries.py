@@ -110,17 +110,28 @@ def _where(clauses: list[str]) -> str:
     return f" WHERE {' AND '.join(clauses)}" if clauses else ""
 
 
-def count_units(conn: sqlite3.Connection, query: UnitQuery) -> int:
+def count_units(conn: sqlite3.Connection, query: UnitQuery, cap: int | None = None) -> int:
+    """How many units match; with ``cap``, counting stops there (the answer is then ``cap``),
+    which keeps a count on a huge log as quick as a page."""
     source, _, tag_where, tag_params = _source(query)
     where, params = _unit_filters(query)
     if tag_where and not where and len(tag_where) == 1:
         source = "unit_tags t"  # the tag's own index is enough
+    if cap is not None:
+        sql = f"SELECT count(*) FROM (SELECT 1 FROM {source}{_where(tag_where + where)} LIMIT ?)"
+        return int(conn.execute(sql, [*tag_params, *params, max(0, cap)]).fetchone()[0])
     sql = f"SELECT count(*) FROM {source}{_where(tag_where + where)}"
     return int(conn.execute(sql, tag_params + params).fetchone()[0])
 
 
-def find_units(conn: sqlite3.Connection, query: UnitQuery) -> Page[UnitRow]:
+def find_units(conn: sqlite3.Connection, query: UnitQuery,
+               time_index: bool = False) -> Page[UnitRow]:
+    """One page of units. ``time_index`` walks the start-time index even with a serial
+    prefix: right when the prefix matches most units (the planner would otherwise sort them
+    all), wrong when it matches few (the walk would pass most units by)."""
     source, alias, tag_where, tag_params = _source(query)
+    if time_index and source == "units u" and query.order != "serial":
+        source += f" INDEXED BY {'units_by_start' if query.time_basis == 't_s' else 'units_by_start_at'}"
     where, params = _unit_filters(query)
     order, keyset = _order(query, alias)
     total = count_units(conn, query) if query.count_total else None

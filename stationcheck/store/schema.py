@@ -126,13 +126,33 @@ CREATE INDEX unit_tags_of_unit ON unit_tags(serial);
 """
 
 
+# Indexes for the review's station figures and trends (wall-clock periods): aggregates read
+# only index entries (covering), NOK and retry counts only the few rows that are NOK or retries.
+REVIEW_INDEX_DDL = """
+CREATE INDEX IF NOT EXISTS units_figures ON units(
+    started_at_s, status, first_time_through, reworked, cycle_time_s);
+CREATE INDEX IF NOT EXISTS steps_nok_at ON steps(recorded_at_s, position)
+    WHERE kind = 'fasten' AND result = 'NotOK';
+CREATE INDEX IF NOT EXISTS steps_retry_at ON steps(recorded_at_s, position)
+    WHERE kind = 'fasten' AND attempt > 1;
+CREATE INDEX IF NOT EXISTS steps_final_at ON steps(position, recorded_at_s)
+    WHERE kind = 'fasten' AND position_result IS NOT NULL;
+CREATE INDEX IF NOT EXISTS alarms_code_at ON alarms(recorded_at_s, code);
+"""
+
+
+def _run_script(conn: sqlite3.Connection, ddl: str) -> None:
+    for statement in ddl.split(";"):
+        if statement.strip():
+            conn.execute(statement)
+
+
 def recreate_derived(conn: sqlite3.Connection) -> None:
     """Drop and create the derived tables empty (inside the caller's transaction)."""
     for table in DERIVED_TABLES:
         conn.execute(f"DROP TABLE IF EXISTS {table}")
-    for statement in DERIVED_DDL.split(";"):
-        if statement.strip():
-            conn.execute(statement)
+    _run_script(conn, DERIVED_DDL)
+    _run_script(conn, REVIEW_INDEX_DDL)
 
 
 def _create_events(conn: sqlite3.Connection) -> bool:
@@ -147,10 +167,16 @@ def _create_derived(conn: sqlite3.Connection) -> bool:
     return True
 
 
+def _create_review_indexes(conn: sqlite3.Connection) -> bool:
+    _run_script(conn, REVIEW_INDEX_DDL)
+    return False
+
+
 # Each migration returns True when the derived tables must be refilled from the events. Append only; never edit a released migration.
 MIGRATIONS: tuple[Callable[[sqlite3.Connection], bool], ...] = (
     _create_events,  # v1: the event table alone
     _create_derived,  # v2: units, steps, alarms derived from the events
+    _create_review_indexes,  # v3: indexes for the review's figures and trends
 )
 SCHEMA_VERSION = len(MIGRATIONS)
 

@@ -1,0 +1,268 @@
+"""``stationcheck review``: the quality engineer's screen over a step log (a local web app,
+read-only, safe beside a station that is writing), plus plain outputs for scripts.
+
+Exit codes: 0 done; 1 no unit with that serial (--unit); 6 the log is missing, not a step log,
+damaged or of a newer schema; 64 bad command line.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import sys
+from pathlib import Path
+from typing import TYPE_CHECKING, Any
+
+if TYPE_CHECKING:
+    from stationcheck.quality.period import Period
+    from stationcheck.store.sqlite_log import SqliteStepLog
+
+DEFAULT_PORT = 8372
+TEXT_LIMIT = 50
+
+_EPILOG = """\
+without --units/--unit/--figures/--trend/--report it starts the review screen in the browser.
+times (--since, --until): 2026-03-01, 2026-03-01T14:30 (local time), or epoch seconds; a bare
+--until date includes that whole day. Periods use the wall clock the log recorded.
+
+exit codes: 0 done, 1 no unit with that serial (--unit), 6 the log is missing, not a step log,
+damaged or too new, 64 bad command line.
+"""
+
+
+def _time_arg(end: bool) -> Any:
+    def parse(text: str) -> float:
+        from stationcheck.quality.period import parse_time
+
+        try:
+            return parse_time(text, end=end)
+        except ValueError as exc:
+            raise argparse.ArgumentTypeError(str(exc)) from exc
+
+    return parse
+
+
+def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
+    from stationcheck.web.app import add_web_arguments
+
+    p = subparsers.add_parser(
+        "review",
+        help="review units, station figures and trends of a step log (web screen or text)",
+        description=(
+            "Opens a step log read-only: find units by serial, time, result, failed position "
+            "or alarm; see each unit's steps with torque and angle against their limits; "
+            "station figures (first-time-through with a 95 % Wilson interval, NOK per "
+            "position, retries, cycle times, alarms); trends per fastener position with EWMA, "
+            "CUSUM and Western Electric rules; CSV/JSON export and an offline HTML report."
+        ),
+        epilog=_EPILOG,
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+    )
+    p.add_argument("log", metavar="LOG", type=Path, help="step log (.sqlite)")
+    what = p.add_mutually_exclusive_group()
+    what.add_argument("--units", action="store_true", help="print the units that match the filters")
+    what.add_argument("--unit", metavar="SERIAL", help="print one unit's steps and alarms")
+    what.add_argument("--figures", action="store_true", help="print the station figures")
+    what.add_argument("--trend", metavar="POSITION", help="print one fastener position's trend")
+    what.add_argument("--report", metavar="OUT.html", type=Path,
+                      help="write a standalone HTML report of the period")
+    fmt = p.add_mutually_exclusive_group()
+    fmt.add_argument("--csv", action="store_true", help="CSV (units, a unit's steps, a trend)")
+    fmt.add_argument("--json", action="store_true", help="one JSON document")
+    p.add_argument("--since", type=_time_arg(False), help="period start (inclusive)")
+    p.add_argument("--until", type=_time_arg(True), help="period end (exclusive)")
+    p.add_argument("--serial", metavar="PREFIX", help="units whose serial starts with this")
+    p.add_argument("--result", choices=("OK", "NOK", "reworked", "first_time_through", "aborted",
+                                        "open"), help="units with this result")
+    p.add_argument("--failed-position", metavar="ZONE", help="units that failed at this position")
+    p.add_argument("--alarm", metavar="CODE", help="units that raised this alarm")
+    p.add_argument("--order", choices=("newest", "oldest", "serial"), default="newest")
+    p.add_argument("--limit", type=int, help=f"at most this many units (default {TEXT_LIMIT} as "
+                                             "text, all with --csv/--json)")
+    p.add_argument("--measure", choices=("torque", "angle"), default="torque",
+                   help="for --trend (default torque)")
+    p.add_argument("--points", type=int, default=500, help="--trend: latest N units (10-5000)")
+    add_web_arguments(p, DEFAULT_PORT)
+    p.set_defaults(handler=run)
+
+
+def run(args: argparse.Namespace) -> int:
+    from stationcheck.quality.period import Period
+    from stationcheck.store.sqlite_log import SqliteStepLog
+
+    try:
+        period = Period(args.since, args.until)
+    except ValueError as exc:
+        return _usage(str(exc))
+    if args.limit is not None and args.limit < 1:
+        return _usage("--limit must be >= 1")
+    if not 10 <= args.points <= 5000:
+        return _usage("--points must be in 10..5000")
+    if not (args.units or args.unit or args.figures or args.trend or args.report):
+        return _serve(args)
+    with SqliteStepLog(args.log, readonly=True) as step_log:
+        if args.units:
+            return _print_units(step_log, args, period)
+        if args.unit:
+            return _print_unit(step_log, args)
+        if args.figures:
+            return _print_figures(step_log, args, period)
+        if args.trend:
+            return _print_trend(step_log, args, period)
+        return _write_report(step_log, args, period)
+
+
+def _usage(message: str) -> int:
+    from stationcheck.cli import EXIT_USAGE
+
+    print(f"stationcheck review: error: {message}", file=sys.stderr)
+    return EXIT_USAGE
+
+
+def _serve(args: argparse.Namespace) -> int:
+    from stationcheck.web.app import serve_until_interrupted, start_server
+    from stationcheck.web.review import ReviewSource, build_review_router
+
+    source = ReviewSource(args.log)
+    server = start_server(build_review_router(source), args.host, args.port, args.token)
+    return serve_until_interrupted(server, f"stationcheck review of {args.log}",
+                                   not args.no_browser)
+
+
+def _print_units(step_log: SqliteStepLog, args: argparse.Namespace, period: Period) -> int:
+    from stationcheck.quality import export
+    from stationcheck.store import queries
+    from stationcheck.store.records import UnitQuery
+
+    try:
+        query = UnitQuery(serial_prefix=args.serial, from_s=period.from_s, to_s=period.to_s,
+                          result=args.result, failed_position=args.failed_position,
+                          alarm_code=args.alarm, order=args.order, count_total=False)
+    except ValueError as exc:
+        return _usage(str(exc))
+    conn = step_log.connection
+    limit = args.limit if args.limit is not None else (None if args.csv or args.json else TEXT_LIMIT)
+    units = export.iter_units(conn, query)
+    rows = (export.unit_dict(u) for _, u in zip(range(limit or sys.maxsize), units, strict=False))
+    if args.csv:
+        sys.stdout.writelines(export.csv_chunks(rows, export.UNIT_FIELDS))
+        return 0
+    if args.json:
+        sys.stdout.writelines(export.json_array_chunks(rows))
+        return 0
+    print(f"{'serial':<14} {'started':<19} {'result':<8} {'passes':>6} {'retries':>7} "
+          f"{'NOK':>4} {'cycle s':>8}  failed positions")
+    shown = 0
+    for row in rows:
+        shown += 1
+        cycle = f"{row['cycle_time_s']:8.1f}" if row["cycle_time_s"] is not None else " " * 8
+        status = {"NotOK": "NOK", "NotDecidable": "aborted"}.get(row["status"], row["status"])
+        status += "*" if row["reworked"] else ""
+        print(f"{row['serial']:<14} {(row['started_at'] or '')[:19]:<19} {status:<8} "
+              f"{row['passes']:>6} {row['retries']:>7} {row['nok_results']:>4} {cycle}  "
+              f"{', '.join(row['failed_positions']) or '-'}")
+    total = queries.count_units(conn, query)
+    print(f"{total:,} unit{'s' if total != 1 else ''} match; {shown:,} shown (* reworked)")
+    return 0
+
+
+def _print_unit(step_log: SqliteStepLog, args: argparse.Namespace) -> int:
+    from stationcheck.errors import StationcheckError
+    from stationcheck.quality import export
+
+    unit = step_log.unit(args.unit)
+    if unit is None:
+        raise StationcheckError(f"no unit with serial {args.unit!r} in {args.log}")
+    steps, alarms = step_log.steps(args.unit), step_log.alarms(args.unit)
+    if args.csv:
+        sys.stdout.write(export.unit_steps_csv(steps))
+        return 0
+    detail = export.unit_detail(unit, steps, alarms)
+    if args.json:
+        print(json.dumps(detail, ensure_ascii=False))
+        return 0
+    u = detail["unit"]
+    print(f"unit {u['serial']}: {u['status']}{' (reworked)' if u['reworked'] else ''}, "
+          f"{u['passes']} pass(es), started {u['started_at']}, cycle time "
+          f"{u['cycle_time_s'] or 0:.1f} s, rework time {u['rework_time_s']:.1f} s")
+    print(f"{'pass':<6} {'step':<16} {'position':<10} {'try':>3} {'result':<13} "
+          f"{'torque N·m':>11} {'angle °':>8}")
+    for s in steps:
+        torque = f"{s.torque_nm:11.2f}" if s.torque_nm is not None else " " * 11
+        angle = f"{s.angle_deg:8.1f}" if s.angle_deg is not None else " " * 8
+        decided = " (left)" if s.position_result == "NotOK" else ""
+        print(f"{'rework' if s.is_rework else 'first':<6} {s.step:<16} {s.position or '-':<10} "
+              f"{s.attempt:>3} {s.result + decided:<13} {torque} {angle}")
+    for a in alarms:
+        print(f"alarm {a.code} ({a.severity}): {a.message}")
+    return 0
+
+
+def _print_figures(step_log: SqliteStepLog, args: argparse.Namespace, period: Period) -> int:
+    from stationcheck.quality.figures import station_figures
+    from stationcheck.quality.json_views import figures_dict
+
+    figures = figures_dict(station_figures(step_log.connection, period))
+    if args.json or args.csv:
+        print(json.dumps(figures, ensure_ascii=False))
+        return 0
+    ftt, ci = figures["ftt_rate"], figures["ftt_interval_95"]
+    print(f"period: {figures['period']['text']}")
+    print(f"units started {figures['units']:,}: OK {figures['ok']:,}, NOK {figures['nok']:,}, "
+          f"aborted {figures['aborted']:,}, open {figures['open']:,}, reworked "
+          f"{figures['reworked']:,}")
+    if ftt is not None:
+        print(f"first-time-through {figures['first_time_through']:,} = {100 * ftt:.1f} % "
+              f"(95 % Wilson interval {100 * ci[0]:.1f} to {100 * ci[1]:.1f} %)")
+    print(f"NOK results {figures['nok_results']:,}, retries {figures['retries']:,}")
+    for title, key in (("NOK by position", "nok_by_position"), ("retries by position",
+                                                                "retries_by_position")):
+        bars = ", ".join(f"{b['position']} {b['count']}" for b in figures[key]) or "none"
+        print(f"{title}: {bars}")
+    ct = figures["cycle_time"]
+    if ct["count"]:
+        print(f"cycle time (first pass, {ct['count']:,} units): median {ct['median_s']:.1f} s, "
+              f"p90 {ct['p90_s']:.1f} s, mean {ct['mean_s']:.1f} s, max {ct['max_s']:.1f} s")
+    alarms = ", ".join(f"{a['code']} {a['count']}" for a in figures["alarms"]) or "none"
+    print(f"alarms: {alarms}")
+    return 0
+
+
+def _print_trend(step_log: SqliteStepLog, args: argparse.Namespace, period: Period) -> int:
+    from stationcheck.quality import export
+    from stationcheck.quality.json_views import trend_dict, trend_findings
+    from stationcheck.quality.trends import position_trend
+
+    trend = position_trend(step_log.connection, args.trend, args.measure, period, args.points)
+    body = trend_dict(trend)
+    if args.json:
+        body["findings"] = trend_findings(trend)
+        print(json.dumps(body, ensure_ascii=False))
+        return 0
+    if args.csv:
+        ewma = body["ewma"] or {}
+        rows = ({**p, "ewma": (ewma.get("statistics") or [None] * len(body["points"]))[i]}
+                for i, p in enumerate(body["points"]))
+        sys.stdout.writelines(export.csv_chunks(rows, ("seq", "serial", "recorded_at_s", "value",
+                                                       "ewma")))
+        return 0
+    print(f"{args.trend} final {args.measure}: {body['count']} units")
+    if body["sigma"] is not None:
+        print(f"centre {body['centre']:.3f} {trend.unit}, sigma {body['sigma']:.4f} (first "
+              f"{body['baseline']} values)")
+    for finding in trend_findings(trend) or ["no signal: within its control limits and run rules"]:
+        print(finding)
+    return 0
+
+
+def _write_report(step_log: SqliteStepLog, args: argparse.Namespace, period: Period) -> int:
+    from stationcheck.errors import InputFileError
+    from stationcheck.quality.report import build_report
+
+    html = build_report(step_log.connection, period, args.log.name)
+    try:
+        args.report.write_text(html, encoding="utf-8")
+    except OSError as exc:
+        raise InputFileError(f"cannot write the report {args.report}: {exc}") from exc
+    print(f"report written: {args.report} ({len(html) // 1024} kB)")
+    return 0

@@ -1,0 +1,255 @@
+"""The review screen's routes: units, one unit, station figures, trends, exports and the
+report, all read-only against the step log.
+
+Every request opens its own read-only connection (SQLite ``mode=ro``, WAL), so the review is
+safe beside a station that is writing, and no request waits for another.
+"""
+
+from __future__ import annotations
+
+import logging
+from collections.abc import Iterator
+from contextlib import contextmanager
+from pathlib import Path
+from typing import Any
+
+from stationcheck.quality import export
+from stationcheck.quality.charts_svg import histogram_svg, pareto_svg, trend_svg
+from stationcheck.quality.json_views import figures_dict, trend_dict, trend_findings
+from stationcheck.quality.period import Period
+from stationcheck.quality.report import build_report
+from stationcheck.quality.rollup import FigureCache
+from stationcheck.quality.trends import (
+    DEFAULT_POINTS,
+    MAX_POINTS,
+    fastener_positions,
+    position_trend,
+)
+from stationcheck.store import queries
+from stationcheck.store.records import (
+    RESULT_FILTERS,
+    UNIT_ORDERS,
+    AlarmRow,
+    StepRow,
+    UnitQuery,
+    UnitRow,
+)
+from stationcheck.store.sqlite_log import SqliteStepLog
+from stationcheck.web.app import STATIC_ROOT, add_common_files
+from stationcheck.web.server import Request, Response, Router, WebError, resolve_static
+
+log = logging.getLogger(__name__)
+
+REVIEW_STATIC = STATIC_ROOT / "review"
+PAGE_UNITS = 50
+MAX_PAGE_UNITS = 200
+COUNT_CAP = 10_000  # the list page counts this far; /api/units/count counts all
+
+
+class ReviewSource:
+    """Where the review reads from: a step log file, opened read-only per request."""
+
+    def __init__(self, path: Path) -> None:
+        self.path = path
+        self.figure_cache = FigureCache()
+        with self.reader():  # a missing file or a non-log fails here, at start-up
+            pass
+
+    @contextmanager
+    def reader(self) -> Iterator[SqliteStepLog]:
+        step_log = SqliteStepLog(self.path, readonly=True)
+        try:
+            yield step_log
+        finally:
+            step_log.close()
+
+
+def _float_arg(request: Request, name: str) -> float | None:
+    raw = request.query.get(name, "")
+    if raw == "":
+        return None
+    try:
+        return float(raw)
+    except ValueError as exc:
+        raise WebError(400, f"{name} must be a number (epoch seconds), got {raw!r}") from exc
+
+
+def _text_arg(request: Request, name: str) -> str | None:
+    value = request.query.get(name, "").strip()
+    return value or None
+
+
+def period_of(request: Request) -> Period:
+    try:
+        return Period(_float_arg(request, "from"), _float_arg(request, "to"))
+    except ValueError as exc:
+        raise WebError(400, str(exc)) from exc
+
+
+def unit_query(request: Request, limit: int = PAGE_UNITS) -> UnitQuery:
+    result, order = _text_arg(request, "result"), _text_arg(request, "order") or "newest"
+    if result is not None and result not in RESULT_FILTERS:
+        raise WebError(400, f"result must be one of {list(RESULT_FILTERS)}, got {result!r}")
+    if order not in UNIT_ORDERS:
+        raise WebError(400, f"order must be one of {list(UNIT_ORDERS)}, got {order!r}")
+    try:
+        return UnitQuery(
+            serial_prefix=_text_arg(request, "serial"), from_s=_float_arg(request, "from"),
+            to_s=_float_arg(request, "to"), result=result,
+            failed_position=_text_arg(request, "position"), alarm_code=_text_arg(request, "alarm"),
+            order=order, limit=limit, after=_text_arg(request, "after"), count_total=False,
+        )
+    except ValueError as exc:
+        raise WebError(400, str(exc)) from exc
+
+
+def _download(chunks: Iterator[str], filename: str, content_type: str) -> Response:
+    return Response(200, b"", content_type,
+                    {"Content-Disposition": f'attachment; filename="{filename}"'},
+                    stream=(chunk.encode("utf-8") for chunk in chunks))
+
+
+def one_unit(source: ReviewSource, request: Request) -> tuple[
+        str, UnitRow, tuple[StepRow, ...], tuple[AlarmRow, ...]]:
+    """The ``serial`` argument's unit with its steps and alarms; 400/404 when there is none."""
+    serial = _text_arg(request, "serial")
+    if serial is None:
+        raise WebError(400, "serial is missing")
+    with source.reader() as step_log:
+        row = step_log.unit(serial)
+        if row is None:
+            raise WebError(404, f"no unit with serial {serial!r} in this log")
+        return serial, row, step_log.steps(serial), step_log.alarms(serial)
+
+
+def alarm_codes(source: ReviewSource) -> list[str]:
+    """Every alarm code in the log: one index seek per code."""
+    with source.reader() as step_log:
+        rows = step_log.connection.execute(
+            "WITH RECURSIVE c(code) AS (SELECT min(code) FROM alarms UNION ALL "
+            "SELECT (SELECT min(code) FROM alarms WHERE code > c.code) FROM c "
+            "WHERE c.code IS NOT NULL) SELECT code FROM c WHERE code IS NOT NULL").fetchall()
+    return [str(r[0]) for r in rows]
+
+
+def build_review_router(source: ReviewSource) -> Router:
+    router = Router(REVIEW_STATIC)
+    add_common_files(router)
+
+    @router.get("/api/info")
+    def info(request: Request) -> Response:
+        with source.reader() as step_log:
+            positions = fastener_positions(step_log.connection)
+        return Response.json({
+            "log": source.path.name, "path": str(source.path),
+            "positions": [p.position for p in positions], "alarm_codes": alarm_codes(source),
+            "results": list(RESULT_FILTERS), "orders": list(UNIT_ORDERS), "count_cap": COUNT_CAP,
+        })
+
+    @router.get("/api/units")
+    def units(request: Request) -> Response:
+        query = unit_query(request, request.int_arg("limit", PAGE_UNITS, 1, MAX_PAGE_UNITS))
+        with source.reader() as step_log:
+            conn = step_log.connection
+            try:
+                page = queries.find_units(conn, query,
+                                          time_index=export.prefix_is_broad(conn, query))
+            except ValueError as exc:  # a page token that is not one
+                raise WebError(400, str(exc)) from exc
+            count = queries.count_units(conn, query, cap=COUNT_CAP + 1)
+        return Response.json({
+            "units": [export.unit_dict(u) for u in page.rows], "next_after": page.next_after,
+            "count": min(count, COUNT_CAP), "count_is_exact": count <= COUNT_CAP,
+        })
+
+    @router.get("/api/units/count")
+    def units_count(request: Request) -> Response:
+        query = unit_query(request)
+        with source.reader() as step_log:
+            return Response.json({"count": queries.count_units(step_log.connection, query)})
+
+    @router.get("/api/unit")
+    def unit(request: Request) -> Response:
+        return Response.json(export.unit_detail(*one_unit(source, request)[1:]))
+
+    @router.get("/api/figures")
+    def figures(request: Request) -> Response:
+        period = period_of(request)
+        with source.reader() as step_log:
+            fig = source.figure_cache.figures(step_log.connection, period)
+        body: dict[str, Any] = figures_dict(fig)
+        body["charts"] = {
+            "nok": pareto_svg("NOK results by fastener position", fig.nok_by_position,
+                              "NOK results"),
+            "retries": pareto_svg("Retries by fastener position", fig.retries_by_position,
+                                  "retries"),
+            "cycle_time": histogram_svg("Cycle time distribution", fig.cycle_times),
+        }
+        return Response.json(body)
+
+    @router.get("/api/trend")
+    def trend(request: Request) -> Response:
+        position = _text_arg(request, "position")
+        if position is None:
+            raise WebError(400, "position is missing")
+        measure = _text_arg(request, "measure") or "torque"
+        points = request.int_arg("points", DEFAULT_POINTS, 10, MAX_POINTS)
+        try:
+            with source.reader() as step_log:
+                result = position_trend(step_log.connection, position, measure,
+                                        period_of(request), points)
+        except ValueError as exc:
+            raise WebError(400, str(exc)) from exc
+        body = trend_dict(result)
+        body["findings"] = trend_findings(result)
+        body["chart"] = trend_svg(result)
+        return Response.json(body)
+
+    def units_export(request: Request, kind: str) -> Response:
+        query = unit_query(request)
+
+        def chunks() -> Iterator[str]:
+            with source.reader() as step_log:
+                writer = export.units_csv if kind == "csv" else export.units_json
+                yield from writer(step_log.connection, query)
+
+        return _download(chunks(), f"units.{kind}",
+                         "text/csv; charset=utf-8" if kind == "csv" else "application/json")
+
+    router.add("GET", "/api/export/units.csv", lambda r: units_export(r, "csv"))
+    router.add("GET", "/api/export/units.json", lambda r: units_export(r, "json"))
+
+    def unit_export(request: Request, kind: str) -> Response:
+        serial, row, steps, alarms = one_unit(source, request)
+        name = f"unit-{''.join(c if c.isalnum() or c in '-_' else '_' for c in serial)}"
+        if kind == "csv":
+            return _download(iter([export.unit_steps_csv(steps)]), f"{name}.csv",
+                             "text/csv; charset=utf-8")
+        text = Response.json(export.unit_detail(row, steps, alarms)).body.decode("utf-8")
+        return _download(iter([text]), f"{name}.json", "application/json")
+
+    router.add("GET", "/api/export/unit.csv", lambda r: unit_export(r, "csv"))
+    router.add("GET", "/api/export/unit.json", lambda r: unit_export(r, "json"))
+
+    @router.get("/api/report.html")
+    def report(request: Request) -> Response:
+        period = period_of(request)
+        with source.reader() as step_log:
+            conn = step_log.connection
+            html = build_report(conn, period, source.path.name,
+                                source.figure_cache.figures(conn, period))
+        return Response(200, html.encode("utf-8"), "text/html; charset=utf-8",
+                        {"Content-Disposition": 'attachment; filename="review-report.html"'})
+
+    @router.get("/api/evidence")
+    def evidence(request: Request) -> Response:
+        serial = _text_arg(request, "serial")
+        seq = request.int_arg("seq", 0, 0, 2**62)
+        with source.reader() as step_log:
+            found = [s for s in step_log.steps(serial or "") if s.seq == seq and s.evidence_path]
+        if not found or found[0].evidence_path is None:
+            raise WebError(404, "no evidence image for this step")
+        file = resolve_static(source.path.resolve().parent, found[0].evidence_path)
+        return Response(200, file.read_bytes(), "image/png", {"Cache-Control": "no-cache"})
+
+    return router
