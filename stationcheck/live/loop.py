@@ -61,6 +61,8 @@ class LiveLoop:
         self.encoder = OutputEncoder(path.plan)
         self.frame_sinks = frame_sinks
         self.on_frame_taken = on_frame_taken
+        self._frame_in_hand_s: float | None = None
+        path.on_decided = self._publish_decided  # the enable goes out before the judgements
         self._acks_taken = (0, 0)
         self._acks_committed = (0, 0)  # handshakes whose records are on disk
         self.stats = LiveStats()
@@ -91,7 +93,7 @@ class LiveLoop:
                         self._apply(observation)
                     since_s = None
                 else:
-                    healthy = self._process(grabbed.frame)
+                    healthy = self._process(grabbed.frame, grabbed.grabbed_at_s)
                     since_s = grabbed.grabbed_at_s
                     self._last_frame_at = grabbed.grabbed_at_s
                 self._publish(healthy, since_s)
@@ -128,7 +130,7 @@ class LiveLoop:
         return self.watchdogs.check_link(self.worker.up, self.worker.silent_s(),
                                          self.t_s) + found
 
-    def _process(self, frame: object) -> bool:
+    def _process(self, frame: object, in_hand_s: float) -> bool:
         assert isinstance(frame, Frame)
         if self.on_frame_taken is not None:
             self.on_frame_taken(frame)
@@ -136,7 +138,9 @@ class LiveLoop:
             frame = replace(frame, t_s=self.t_s)
         self.watchdogs.frame_arrived()
         t0 = time.perf_counter()
+        self._frame_in_hand_s = in_hand_s
         result: FrameResult = self.path.process(frame)
+        self._frame_in_hand_s = None
         self.stats.process_ms.append((time.perf_counter() - t0) * 1e3)
         self.stats.frames += 1
         self.t_s = frame.t_s
@@ -147,6 +151,13 @@ class LiveLoop:
 
     def _apply(self, observation: Observation) -> None:
         self.decisions.apply(observation)
+
+    def _publish_decided(self, output: Output) -> None:
+        """The frame's tool-position decision, sent at once (heartbeat unchanged)."""
+        unit_ack, result_ack = self._acks_committed
+        self.worker.publish(self.encoder.encode(output, heartbeat=self.stats.heartbeat,
+                                                unit_ack=unit_ack, result_ack=result_ack),
+                            self._frame_in_hand_s)
 
     def _publish(self, healthy: bool, since_s: float | None,
                  force_inhibit: bool = False) -> None:

@@ -1,4 +1,10 @@
-"""The per-frame path: detector -> tracker -> zones -> image judgements -> sequencer.
+"""The per-frame path: detector -> tracker -> zones -> sequencer, then image judgements ->
+sequencer.
+
+The zone observation is decided first and handed to ``on_decided`` (the live loop sends the
+tool enable from there), so the image judgements' time never delays the enable signal; what
+they find is decided right after, in the same frame, and a change it makes (camera moved:
+inhibit) goes out at the end of the same cycle.
 
 :class:`FramePath` holds the tracker and zone states for the caller's loop and hands every
 observation to a :class:`~stationcheck.pipeline.decisions.DecisionCore`. It does not know where
@@ -13,7 +19,7 @@ from __future__ import annotations
 
 import logging
 import time
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 
 from stationcheck.core.observations import DetectorFault, Observation, ZoneObservation
@@ -50,7 +56,7 @@ class FrameResult:
     keypoints: Keypoints | None  # None when the detector failed on this frame
     pose: ToolPose
     zone: ZoneObservation
-    steps: tuple[DecisionStep, ...]  # judgements' steps, then the zone observation's
+    steps: tuple[DecisionStep, ...]  # the zone observation's step, then the judgements'
     output: Output
     times: StageTimes
 
@@ -77,6 +83,7 @@ class FramePath:
         self.max_detector_faults = max_detector_faults
         self.faults_in_a_row = 0
         self.last_pose: ToolPose | None = None
+        self.on_decided: Callable[[Output], None] | None = None
 
     def process(self, frame: Frame, frame_age_ms: float = 0.0) -> FrameResult:
         t0 = time.perf_counter()
@@ -89,16 +96,16 @@ class FramePath:
         self.tracker_state, pose = self.tracker.update(self.tracker_state, keypoints_for_tracker)
         self.visit, zone_obs = self.zone_map.observe(self.visit, pose, frame_age_ms)
         t2 = time.perf_counter()
+        first = self.decisions.apply(fault if fault is not None else zone_obs)
+        if self.on_decided is not None:
+            self.on_decided(first.output)
+        t3 = time.perf_counter()
         judged: list[Observation] = []
         for judge in self.judges:
-            judged.extend(judge.judge(frame, pose, self.decisions.last_output))
-        t3 = time.perf_counter()
-        steps = [self.decisions.apply(observation) for observation in judged]
-        if fault is not None:
-            steps.append(self.decisions.apply(fault))
-        else:
-            steps.append(self.decisions.apply(zone_obs))
+            judged.extend(judge.judge(frame, pose, first.output))
         t4 = time.perf_counter()
+        steps = [first] + [self.decisions.apply(observation) for observation in judged]
+        t5 = time.perf_counter()
         self.last_pose = pose
         return FrameResult(
             frame=frame,
@@ -110,8 +117,8 @@ class FramePath:
             times=StageTimes(
                 detect_ms=(t1 - t0) * 1e3,
                 track_ms=(t2 - t1) * 1e3,
-                judge_ms=(t3 - t2) * 1e3,
-                decide_ms=(t4 - t3) * 1e3,
+                judge_ms=(t4 - t3) * 1e3,
+                decide_ms=(t3 - t2 + t5 - t4) * 1e3,
             ),
         )
 

@@ -63,6 +63,7 @@ class LinkWorker:
         self.write_latency_ms: deque[float] = deque(maxlen=10_000)  # frame in hand -> written
         self.publish_latency_ms: deque[float] = deque(maxlen=10_000)  # decision -> written
         self.last_written = OutputSignals()
+        self._measured_since_s: float | None = None
 
     # --- the frame loop's side (never blocks on I/O) ---
     def publish(self, outputs: OutputSignals, since_s: float | None = None) -> None:
@@ -144,7 +145,8 @@ class LinkWorker:
         self.link.write_outputs(outputs)
         if version != self._written_version:
             self._written_version = version
-            if since_s is not None:
+            if since_s is not None and since_s != self._measured_since_s:
+                self._measured_since_s = since_s  # the first write that carries this frame
                 done = time.perf_counter()
                 coil_at = getattr(self.link, "coil_written_at", None) or done
                 self.coil_latency_ms.append((coil_at - since_s) * 1e3)

@@ -21,7 +21,8 @@ from tests.plc.conftest import free_port, wait_until
 
 @pytest.fixture
 def station() -> Iterator[tuple[ModbusServerLink, LinkWorker, ModbusTcpClient]]:
-    link = ModbusServerLink("127.0.0.1", free_port(), silence_ms=150.0)
+    # long enough that a slow poll on a busy test machine is not a lost link
+    link = ModbusServerLink("127.0.0.1", free_port(), silence_ms=400.0)
     worker = LinkWorker(link, settings=WorkerSettings(backoff_first_s=0.01, backoff_max_s=0.02,
                                                       stale_outputs_s=5.0)).start()
     wait_until(lambda: link.host.running, what="station server listening")
