@@ -65,14 +65,16 @@ def run(args: argparse.Namespace) -> int:
     import stationcheck.training  # noqa: F401  (raises the install hint without torch)
     from stationcheck.training.bundle import write_bundle
     from stationcheck.training.loop import Progress, TrainConfig, train
-    from stationcheck.training.sources import coco_sources, demo_sources
+    from stationcheck.training.sources import coco_sources, demo_moving_sample, demo_sources
 
     if (args.coco is None) != (args.images is None):
         raise InputFileError("--coco and --images go together")
+    moving_sample = None
     if args.coco is not None:
         source, holdout = coco_sources(args.coco, args.images, args.seed)
     else:
         source, holdout = demo_sources()
+        moving_sample = demo_moving_sample()
     config = TrainConfig(
         seed=args.seed,
         max_steps=args.steps,
@@ -100,6 +102,8 @@ def run(args: argparse.Namespace) -> int:
         file=sys.stderr,
         flush=True,
     )
-    path = write_bundle(result, config, args.out, holdout, args.calibration_frames)
+    path = write_bundle(
+        result, config, args.out, holdout, args.calibration_frames, moving_sample=moving_sample
+    )
     print(f"wrote {path} and {path.parent / config.coarse_info().refine_model}")
     return 0

@@ -9,6 +9,9 @@ x = y = 0 then), 1 labelled but hidden (under a hand), 2 visible.
   with distractors, random light and camera; sometimes no tool, sometimes cut off or covered.
 - :func:`render_station_sample`: the demo station itself with a random operator state, as the
   model sees it at run time (random operators' sleeves and gloves, small camera moves).
+- :func:`render_moving_sample`: either kind with the tool moving fast during the exposure, and
+  the tip's step since the previous frame (to measure how far a model places a blurred tip
+  behind the label).
 
 Sprites, benches and props come from pools built once per process from fixed seeds, so a sample
 depends only on the generator passed in.
@@ -41,6 +44,7 @@ KEYPOINT_NAMES = ("tip", "rear")
 NO_TOOL_P = 0.1
 CROSS_ORDER = (1, 4, 2, 5, 3, 6)  # screws get seated in this order on the demo station
 BENCH_MARGIN_PX = 64
+FAST_STEP_PX = (10.0, 36.0)  # tip travel per frame of render_moving_sample
 # colour casts of the light (a few fixed ones, so the camera can cache its light maps)
 TINTS: tuple[tuple[float, float, float], ...] = (
     *(
@@ -56,6 +60,7 @@ STATION_TINTS: tuple[tuple[float, float, float], ...] = (
 )
 U8Image = comp.U8Image
 Keypoints = npt.NDArray[np.float32]
+MotionFn = Callable[[RigPose, np.random.Generator], RigPose | None]
 
 
 @dataclass(frozen=True)
@@ -156,6 +161,31 @@ def render_station_sample(rng: np.random.Generator) -> tuple[U8Image, Keypoints]
     return sample.image, sample.keypoints
 
 
+def render_moving_sample(
+    rng: np.random.Generator,
+) -> tuple[U8Image, Keypoints, tuple[float, float]]:
+    """A station or random frame (half each) whose tool moved by a fast step during the
+    exposure: (image, keypoints as above, the tip's step (dx, dy) in pixels since the previous
+    frame). Drawn as the sample video draws moves, the label at the end of the step."""
+    step: list[tuple[float, float]] = []
+
+    def fast(pose: RigPose, rng: np.random.Generator) -> RigPose:
+        speed = float(rng.uniform(*FAST_STEP_PX))
+        direction = float(rng.uniform(-math.pi, math.pi))
+        step.append((speed * math.cos(direction), speed * math.sin(direction)))
+        return replace(
+            pose,
+            tip_px=(pose.tip_px[0] - step[-1][0], pose.tip_px[1] - step[-1][1]),
+            angle_rad=pose.angle_rad - float(rng.normal(0, 0.03)),
+        )
+
+    if rng.random() < 0.5:
+        sample = _station_sample(rng, want_mask=False, motion=fast)
+    else:
+        sample = _random_sample(rng, want_mask=False, motion=fast)
+    return sample.image, sample.keypoints, step[-1] if step else (0.0, 0.0)
+
+
 def write_coco_dataset(
     out_dir: str | Path, count: int, seed: int, station_fraction: float = 0.5
 ) -> Path:
@@ -172,7 +202,9 @@ def render_sample(rng: np.random.Generator, station_fraction: float, want_mask: 
     return _random_sample(rng, want_mask)
 
 
-def _random_sample(rng: np.random.Generator, want_mask: bool) -> Sample:
+def _random_sample(
+    rng: np.random.Generator, want_mask: bool, motion: MotionFn | None = None
+) -> Sample:
     pools = _pools()
     bench = pools.benches.draw(rng)
     oy, ox = int(rng.integers(0, BENCH_MARGIN_PX)), int(rng.integers(0, BENCH_MARGIN_PX))
@@ -185,7 +217,8 @@ def _random_sample(rng: np.random.Generator, want_mask: bool) -> Sample:
     pose = _random_pose(rng) if rng.random() > NO_TOOL_P else None
     extra = None
     if pose is not None:
-        rig.draw_on(frame, pose, _moved(pose, rng), float(rng.uniform(0.25, 0.5)))
+        previous = (motion or _moved)(pose, rng)
+        rig.draw_on(frame, pose, previous, float(rng.uniform(0.25, 0.5)))
         if rng.random() < 0.15:  # another hand over the tool
             extra = (pools.rigs.draw(rng), _covering_pose(pose, rig, rng))
             extra[0].draw_on(frame, extra[1], None, 0.35)
@@ -199,7 +232,9 @@ def _random_sample(rng: np.random.Generator, want_mask: bool) -> Sample:
     return _label(image, rig, pose, extra, CameraTransform(), want_mask)
 
 
-def _station_sample(rng: np.random.Generator, want_mask: bool) -> Sample:
+def _station_sample(
+    rng: np.random.Generator, want_mask: bool, motion: MotionFn | None = None
+) -> Sample:
     pools = _pools()
     stage = ("empty", "gasket", "cover", "cover", "cover")[int(rng.integers(5))]
     done = {f"screw_{n}" for n in CROSS_ORDER[: int(rng.integers(0, layout.BOLT_COUNT + 1))]}
@@ -211,7 +246,7 @@ def _station_sample(rng: np.random.Generator, want_mask: bool) -> Sample:
     rig = pools.station_rigs.draw(rng)
     pose = _station_pose(rng) if rng.random() > NO_TOOL_P else None
     if pose is not None:
-        rig.draw_on(frame, pose, _moved(pose, rng), 0.4)
+        rig.draw_on(frame, pose, (motion or _moved)(pose, rng), 0.4)
     draw = rng.random()
     if draw < 0.55:  # the camera where it was set up (no resampling)
         transform = CameraTransform()

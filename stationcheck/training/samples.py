@@ -31,6 +31,10 @@ logger = logging.getLogger(__name__)
 ImageU8 = npt.NDArray[np.uint8]
 FloatArray = npt.NDArray[np.float64]
 SampleFn = Callable[[np.random.Generator], tuple[ImageU8, FloatArray]]
+# a frame of a fast move: (image, keypoints, the tip's step (dx, dy) px since the previous frame)
+MovingSampleFn = Callable[
+    [np.random.Generator], tuple[ImageU8, npt.NDArray[np.floating], tuple[float, float]]
+]
 
 
 class FrameSource(Protocol):

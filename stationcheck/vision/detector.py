@@ -10,10 +10,16 @@ that placed it, with slope/offset fitted at training time by logistic regression
 frames; it estimates the probability that the keypoint is visible in the frame and lies within
 the fit radius (see the model metadata's description) of the reported point. When the refine model
 ran, the tip's score combines its peak logit with the coarse model's (both weights fitted).
+
+Motion lead: with the caller's last known tip, the tip is moved on by the placing model's
+``motion_lead`` times the step from that hint (a blurred fast tip is otherwise placed part-way
+back along its streak; see the model contract). A hint further than ``MAX_LEAD_STEP_PX`` away is
+not a previous frame's tip of the same move and leads nothing.
 """
 
 from __future__ import annotations
 
+import math
 import time
 from dataclasses import dataclass
 from importlib import resources
@@ -31,6 +37,8 @@ from stationcheck.vision.preprocessing import InputWindow, Preprocessor
 
 BUNDLED_MODEL_NAME = "tool_tip.coarse.onnx"
 REFINE_GATE_SCORE = 0.05  # below this coarse tip score, the crop follows the caller's hint
+MAX_LEAD_STEP_PX = 64.0
+TIP_NAME = "tip"
 
 
 def bundled_model_path() -> Path:
@@ -41,7 +49,8 @@ def bundled_model_path() -> Path:
 @runtime_checkable
 class KeypointDetector(Protocol):
     """Finds the tool's keypoints in one frame. ``tip_hint_px`` is the last known tip (from the
-    tracker), used only to place the refining crop when the detector itself is unsure."""
+    tracker): it places the refining crop when the detector itself is unsure, and gives the
+    direction of a fast move (motion lead)."""
 
     keypoint_names: tuple[str, ...]
 
@@ -127,11 +136,23 @@ class OnnxKeypointDetector:
                 timings.inference_ms += (t6 - t5) * 1e3
                 timings.decode_ms += (t7 - t6) * 1e3
                 timings.refined = True
+        placed_by = self.refine if timings.refined and self.refine is not None else self.coarse
+        if tip_hint_px is not None and TIP_NAME in placed_by.info.keypoint_names:
+            points[TIP_NAME] = lead_point(points[TIP_NAME], tip_hint_px, placed_by.info.motion_lead)
         self.last_timings = timings
         self.last_peak_logits = logits_by_name
         return Keypoints(
             frame.index, frame.t_s, tuple(points[name] for name in self.keypoint_names)
         )
+
+
+def lead_point(point: Keypoint, hint_px: tuple[float, float], lead: float) -> Keypoint:
+    """``point`` moved on by ``lead`` times its step from ``hint_px`` (unchanged for no lead or
+    a step longer than ``MAX_LEAD_STEP_PX``)."""
+    dx, dy = point.x_px - hint_px[0], point.y_px - hint_px[1]
+    if lead <= 0.0 or math.hypot(dx, dy) > MAX_LEAD_STEP_PX:
+        return point
+    return Keypoint(point.name, point.x_px + lead * dx, point.y_px + lead * dy, point.score)
 
 
 def _decode(

@@ -7,10 +7,16 @@ from pathlib import Path
 import numpy as np
 import pytest
 
-from stationcheck.core.records import Frame, Keypoints
-from stationcheck.vision.detector import KeypointDetector, OnnxKeypointDetector, load_detector
+from stationcheck.core.records import Frame, Keypoint, Keypoints
+from stationcheck.vision.detector import (
+    MAX_LEAD_STEP_PX,
+    KeypointDetector,
+    OnnxKeypointDetector,
+    lead_point,
+    load_detector,
+)
 from stationcheck.vision.fake_detector import ReplayKeypointDetector
-from tests.vision.conftest import ModelFactory, blob_frame, coarse_info
+from tests.vision.conftest import ModelFactory, blob_frame, coarse_info, refine_info
 
 
 @pytest.mark.parametrize(
@@ -87,3 +93,40 @@ def test_detector_works_at_other_frame_sizes(blob_bundle: Path) -> None:
     small = cv2.resize(frame, (320, 240), interpolation=cv2.INTER_AREA)
     tip = detector.detect(Frame(0, 0.0, small)).get("tip")
     assert tip is not None and np.hypot(tip.x_px - 159.75, tip.y_px - 119.75) < 1.0
+
+
+@pytest.mark.parametrize(
+    ("point", "hint", "lead", "expected"),
+    [
+        ((110.0, 50.0), (100.0, 50.0), 0.2, (112.0, 50.0)),
+        ((100.0, 80.0), (100.0, 50.0), 0.5, (100.0, 95.0)),
+        ((97.0, 46.0), (100.0, 50.0), 1.0, (94.0, 42.0)),
+        ((110.0, 50.0), (100.0, 50.0), 0.0, (110.0, 50.0)),  # no lead
+        ((100.0, 50.0), (100.0, 50.0), 0.3, (100.0, 50.0)),  # standing still
+        ((100.0 + MAX_LEAD_STEP_PX + 1, 50.0), (100.0, 50.0), 0.2, None),  # too far: unchanged
+    ],
+)
+def test_lead_moves_the_point_on_along_its_step_from_the_hint(
+    point: tuple[float, float],
+    hint: tuple[float, float],
+    lead: float,
+    expected: tuple[float, float] | None,
+) -> None:
+    before = Keypoint("tip", point[0], point[1], 0.8)
+    after = lead_point(before, hint, lead)
+    want = expected if expected is not None else point
+    assert (after.x_px, after.y_px) == pytest.approx(want)
+    assert (after.name, after.score) == ("tip", 0.8)
+
+
+def test_refine_model_lead_applies_with_a_hint_only(write_model: ModelFactory) -> None:
+    write_model(refine_info(motion_lead=0.25), name="lead.refine.onnx")
+    detector = load_detector(write_model(coarse_info(refine_model="lead.refine.onnx")))
+    frame = Frame(0, 0.0, blob_frame({"tip": (300.0, 200.0), "rear": (380.0, 260.0)}))
+    alone = detector.detect(frame).get("tip")
+    led = detector.detect(frame, tip_hint_px=(280.0, 200.0)).get("tip")
+    assert alone is not None and led is not None and detector.last_timings.refined
+    assert np.hypot(alone.x_px - 300.0, alone.y_px - 200.0) < 0.5
+    # a quarter of the 20 px step from the hint, on top of where the blob is found
+    assert led.x_px - alone.x_px == pytest.approx(0.25 * (alone.x_px - 280.0))
+    assert led.y_px - alone.y_px == pytest.approx(0.25 * (alone.y_px - 200.0))

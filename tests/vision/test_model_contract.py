@@ -28,6 +28,7 @@ def test_metadata_round_trips_through_onnxruntime(write_model: ModelFactory) -> 
             "rear": ScoreCalibration(2.0, 1.0),
         },
         description="test model",
+        motion_lead=0.2,
     )
     path = write_model(info)
     meta = ort.InferenceSession(str(path)).get_modelmeta().custom_metadata_map
@@ -68,6 +69,11 @@ def _props(**changes: str | None) -> dict[str, str]:
         ({"score_calibration": '{"tip": [-1, 0]}'}, "slope > 0"),
         ({"score_calibration": '{"tip": [1, 0, -0.5]}'}, "coarse slope >= 0"),
         ({"score_calibration": '{"tip": [1]}'}, "a score calibration is"),
+        ({"motion_lead": "0.25"}, None),
+        ({"motion_lead": "-0.1"}, r"motion lead must be within \[0, 1\]"),
+        ({"motion_lead": "1.5"}, "motion lead must be within"),
+        ({"motion_lead": "nan"}, "motion lead must be within"),
+        ({"motion_lead": "fast"}, "ill-formed model metadata"),
     ],
 )
 def test_parse_metadata_accepts_good_and_refuses_bad(
