@@ -131,6 +131,18 @@ function render(s) {
 }
 
 function startVideo() {
+  // The picture is an endless multipart stream: start it only after the page's load event,
+  // or the page would never finish loading.
+  if (document.readyState !== "complete") {
+    if (!screen.videoWaiting) {
+      screen.videoWaiting = true;
+      window.addEventListener("load", () => {
+        screen.videoWaiting = false;
+        startVideo();
+      }, { once: true });
+    }
+    return;
+  }
   const img = $("video");
   screen.videoGen += 1;
   img.src = `api/video.mjpg?n=${screen.videoGen}`;
