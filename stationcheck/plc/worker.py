@@ -29,7 +29,11 @@ Clock = Callable[[], float]
 
 @dataclass(frozen=True)
 class WorkerSettings:
-    cycle_s: float = 0.005
+    # Inputs are read after every write the loop asks for (once per frame) and at least every
+    # cycle_s; outputs are written when they change and refreshed every refresh_s. A tighter
+    # cycle costs the loop: each Modbus request is Python work under the interpreter lock.
+    cycle_s: float = 0.02
+    refresh_s: float = 1.0
     stale_outputs_s: float = 0.1
     backoff_first_s: float = 0.05
     backoff_max_s: float = 2.0
@@ -64,6 +68,7 @@ class LinkWorker:
         self.publish_latency_ms: deque[float] = deque(maxlen=10_000)  # decision -> written
         self.last_written = OutputSignals()
         self._measured_since_s: float | None = None
+        self._refreshed_at = float("-inf")
 
     # --- the frame loop's side (never blocks on I/O) ---
     def publish(self, outputs: OutputSignals, since_s: float | None = None) -> None:
@@ -133,6 +138,7 @@ class LinkWorker:
             self._note_error(exc)
             return False
         self.connects += 1
+        self._refreshed_at = float("-inf")  # a new connection gets every output at once
         return True
 
     def _exchange(self) -> None:
@@ -142,7 +148,11 @@ class LinkWorker:
         if time.perf_counter() - published_at > self.settings.stale_outputs_s \
                 and outputs.tool_enable:
             outputs = outputs.inhibited()
-        self.link.write_outputs(outputs)
+        now = time.perf_counter()
+        if (version != self._written_version or outputs != self.last_written
+                or now - self._refreshed_at >= self.settings.refresh_s):
+            self.link.write_outputs(outputs)
+            self._refreshed_at = now
         if version != self._written_version:
             self._written_version = version
             if since_s is not None and since_s != self._measured_since_s:

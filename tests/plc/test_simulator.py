@@ -25,7 +25,8 @@ from stationcheck.plc.simulator import SimulatorSettings, StationSimulator
 from stationcheck.plc.worker import LinkWorker, WorkerSettings
 from tests.plc.conftest import free_port, wait_until
 
-FAST = SimulatorSettings(seed=3, ok_rate=0.5, trigger_delay_s=(0.0, 0.01), run_time_s=0.01,
+# the run lasts longer than the worker's 20 ms input poll, as a real run does
+FAST = SimulatorSettings(seed=3, ok_rate=0.5, trigger_delay_s=(0.0, 0.01), run_time_s=0.06,
                          unit_gap_s=0.01, units=2)
 
 
