@@ -232,7 +232,8 @@ class StationSimulator:
                     pulses.remove((due, name))
                 if now >= observation.t_s:
                     break
-                if not self._wait(min((observation.t_s - now) / speed, self.settings.poll_s)):
+                next_due = min([observation.t_s, *(due for due, _ in pulses)])
+                if not self._wait(max(next_due - now, 0.0) / speed):
                     return
             self._apply(observation, pulses, (time.monotonic() - started) * speed)
 
