@@ -127,5 +127,9 @@ def run(args: argparse.Namespace) -> int:
         ("summary.json", "the same as JSON"),
     ):
         print(f"  {name:<19} {what}")
+    print("\nNext: look through the units in the browser with "
+          f"'stationcheck review {out / 'step-log.sqlite'}', watch the run on the operator "
+          "screen with 'stationcheck demo --screen', or draw zones with "
+          "'stationcheck setup configs/demo_station.yaml'.")
     sys.stdout.flush()
     return 0
