@@ -25,7 +25,7 @@ from stationcheck.live.grabber import FrameGrabber
 from stationcheck.live.watchdog import WatchdogLimits, Watchdogs
 from stationcheck.pipeline.frame_path import FramePath, FrameResult
 from stationcheck.pipeline.loop import FrameSink
-from stationcheck.plc.signals import OutputEncoder
+from stationcheck.plc.signals import OutputEncoder, OutputSignals
 from stationcheck.plc.worker import LinkWorker
 
 logger = logging.getLogger(__name__)
@@ -154,23 +154,23 @@ class LiveLoop:
 
     def _publish_decided(self, output: Output) -> None:
         """The frame's tool-position decision, sent at once (heartbeat unchanged)."""
-        unit_ack, result_ack = self._acks_committed
-        self.worker.publish(self.encoder.encode(output, heartbeat=self.stats.heartbeat,
-                                                unit_ack=unit_ack, result_ack=result_ack),
-                            self._frame_in_hand_s)
+        self._send(output, self._frame_in_hand_s)
 
     def _publish(self, healthy: bool, since_s: float | None,
                  force_inhibit: bool = False) -> None:
-        output: Output | None = self.decisions.last_output
         if healthy and self.watchdogs.link_ok:
             self.stats.heartbeat = (self.stats.heartbeat + 1) & 0xFFFF
+        self._send(self.decisions.last_output, since_s, force_inhibit)
+
+    def _send(self, output: Output | None, since_s: float | None,
+              force_inhibit: bool = False) -> None:
+        """``output`` as signals with the heartbeat and the committed handshakes."""
         unit_ack, result_ack = self._acks_committed
         if output is None:
-            from stationcheck.plc.signals import OutputSignals
-
-            self.worker.publish(OutputSignals(heartbeat=self.stats.heartbeat,
-                                              unit_ack=unit_ack, result_ack=result_ack), since_s)
-            return
-        self.worker.publish(self.encoder.encode(output, heartbeat=self.stats.heartbeat,
-                                                unit_ack=unit_ack, result_ack=result_ack,
-                                                force_inhibit=force_inhibit), since_s)
+            signals = OutputSignals(heartbeat=self.stats.heartbeat, unit_ack=unit_ack,
+                                    result_ack=result_ack)
+        else:
+            signals = self.encoder.encode(output, heartbeat=self.stats.heartbeat,
+                                          unit_ack=unit_ack, result_ack=result_ack,
+                                          force_inhibit=force_inhibit)
+        self.worker.publish(signals, since_s)
