@@ -13,6 +13,7 @@ from __future__ import annotations
 import argparse
 import importlib
 import json
+import resource
 import sys
 from dataclasses import asdict, dataclass, field
 from pathlib import Path
@@ -55,6 +56,21 @@ class BenchRow:
     target: str = ""
     extra: dict[str, float] = field(default_factory=dict)
     headline: dict[str, float] = field(default_factory=dict)  # top-level keys of --json
+
+
+def resident_memory_mb() -> tuple[float, float]:
+    """(current, peak) resident set size of this process in MB (Linux /proc; peak from
+    getrusage, which Linux reports in kB)."""
+    current = float("nan")
+    try:
+        with open("/proc/self/status") as status:
+            for line in status:
+                if line.startswith("VmRSS:"):
+                    current = float(line.split()[1]) / 1024.0
+    except OSError:
+        pass
+    peak = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0
+    return current, peak
 
 
 def load_sections() -> dict[str, ModuleType]:

@@ -11,13 +11,15 @@ import sys
 from datetime import datetime
 from pathlib import Path
 
-REPO_ROOT = Path(__file__).resolve().parents[2]
-SAMPLE_DIR = REPO_ROOT / "sample_video"
-DEMO_CONFIG = REPO_ROOT / "configs" / "demo_station.yaml"
-VIDEO = "demo_station.mp4"
-INPUTS = "demo_station_inputs.jsonl"
-EXPECTED = "demo_station_expected.jsonl"
-TRUTH = "demo_station_truth.csv"
+from stationcheck.demo_station.files import (
+    DEMO_CONFIG,
+    EXPECTED_NAME,
+    INPUTS_NAME,
+    SAMPLE_DIR,
+    TRUTH_NAME,
+    VIDEO_NAME,
+)
+
 ANNOTATE_EVERY = 2  # a 15 fps annotated video keeps the demo well under a minute
 
 
@@ -68,8 +70,8 @@ def run(args: argparse.Namespace) -> int:
     from stationcheck.pipeline.session import ReplaySettings, run_replay
     from stationcheck.vision.detector import bundled_model_path
 
-    video = SAMPLE_DIR / VIDEO
-    for needed in (video, SAMPLE_DIR / INPUTS, SAMPLE_DIR / EXPECTED, DEMO_CONFIG):
+    video = SAMPLE_DIR / VIDEO_NAME
+    for needed in (video, SAMPLE_DIR / INPUTS_NAME, SAMPLE_DIR / EXPECTED_NAME, DEMO_CONFIG):
         if not needed.is_file():
             raise InputFileError(
                 f"demo file missing: {needed} (regenerate the sample with tools/render_sample_video)"
@@ -88,9 +90,9 @@ def run(args: argparse.Namespace) -> int:
         config_path=DEMO_CONFIG,
         log_path=out / "step-log.sqlite",
         video=video,
-        inputs=SAMPLE_DIR / INPUTS,
-        expected=SAMPLE_DIR / EXPECTED,
-        truth=SAMPLE_DIR / TRUTH,
+        inputs=SAMPLE_DIR / INPUTS_NAME,
+        expected=SAMPLE_DIR / EXPECTED_NAME,
+        truth=SAMPLE_DIR / TRUTH_NAME,
         annotate=out / "annotated.mp4",
         annotate_every=ANNOTATE_EVERY,
         record_observations=out / "observations.jsonl",

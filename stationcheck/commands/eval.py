@@ -7,11 +7,8 @@ import json
 import sys
 from pathlib import Path
 
+from stationcheck.demo_station.files import SAMPLE_TRUTH, SAMPLE_VIDEO
 from stationcheck.errors import InputFileError
-
-SAMPLE_DIR = Path(__file__).resolve().parents[2] / "sample_video"
-SAMPLE_VIDEO = SAMPLE_DIR / "demo_station.mp4"
-SAMPLE_TRUTH = SAMPLE_DIR / "demo_station_truth.csv"
 
 
 def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]

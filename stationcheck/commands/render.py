@@ -6,7 +6,7 @@ import argparse
 import time
 from pathlib import Path
 
-REPO_ROOT = Path(__file__).resolve().parents[2]
+from stationcheck.demo_station.files import SAMPLE_DIR, VIDEO_NAME
 
 
 def _positive_int(text: str) -> int:
@@ -38,7 +38,7 @@ def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[ty
     video.add_argument(
         "--out",
         type=Path,
-        default=REPO_ROOT / "sample_video",
+        default=SAMPLE_DIR,
         help="output directory (default: sample_video/)",
     )
     video.add_argument(
@@ -92,7 +92,7 @@ def run_video(args: argparse.Namespace) -> int:
         args.script or sv.DEFAULT_SCRIPT, args.config or sv.DEFAULT_CONFIG, seed=args.seed
     )
     chor = production.choreography
-    print(f"rendering {chor.frame_count} frames to {out / sv.VIDEO_NAME} ...", flush=True)
+    print(f"rendering {chor.frame_count} frames to {out / VIDEO_NAME} ...", flush=True)
 
     def progress(frame: int, total: int) -> None:
         print(f"  frame {frame}/{total}", flush=True)

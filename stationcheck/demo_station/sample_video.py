@@ -26,6 +26,16 @@ from stationcheck.demo_station import layout
 from stationcheck.demo_station.camera import Camera, CameraTransform, Exposure
 from stationcheck.demo_station.choreography import Choreography, choreograph
 from stationcheck.demo_station.decisions import expected_decisions
+from stationcheck.demo_station.files import (
+    DEMO_CONFIG,
+    DEMO_SCRIPT,
+    EXPECTED_NAME,
+    INPUTS_NAME,
+    META_NAME,
+    REPO_ROOT,
+    TRUTH_NAME,
+    VIDEO_NAME,
+)
 from stationcheck.demo_station.ground_truth import TruthRow, ground_truth, write_truth_csv
 from stationcheck.demo_station.rig import OperatorRig, RigLayers, SoftShadow
 from stationcheck.demo_station.script import Limits, SceneScript, load_script
@@ -35,14 +45,8 @@ from stationcheck.errors import InputFileError
 
 logger = logging.getLogger(__name__)
 
-REPO_ROOT = Path(__file__).resolve().parents[2]
-DEFAULT_SCRIPT = REPO_ROOT / "sample_video" / "demo_script.yaml"
-DEFAULT_CONFIG = REPO_ROOT / "configs" / "demo_station.yaml"
-VIDEO_NAME = "demo_station.mp4"
-TRUTH_NAME = "demo_station_truth.csv"
-INPUTS_NAME = "demo_station_inputs.jsonl"
-EXPECTED_NAME = "demo_station_expected.jsonl"
-META_NAME = "demo_station_meta.json"
+DEFAULT_SCRIPT = DEMO_SCRIPT
+DEFAULT_CONFIG = DEMO_CONFIG
 NOISE_SIGMA = 1.8
 LENS_BLUR_PX = 0.7  # a 640x480 camera's softness; also keeps the mp4v file small
 SHADOW = 0.38

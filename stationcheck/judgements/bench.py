@@ -19,6 +19,7 @@ import numpy as np
 
 from stationcheck.config import load_config
 from stationcheck.config.schema import StationConfig
+from stationcheck.demo_station.files import DEMO_CONFIG, SAMPLE_VIDEO
 from stationcheck.judgements.station import COST_NAMES, StationJudgements
 from stationcheck.judgements.trace import JudgementTrace, run_judgements, video_frames
 
@@ -30,9 +31,6 @@ logger = logging.getLogger(__name__)
 DEFAULT_FRAMES = 300
 SECTION_NAME = "judgements"
 SECTION_HELP = "image judgements: bin activity, check-zone presence, camera shift per frame"
-REPO_ROOT = Path(__file__).resolve().parents[2]
-DEMO_CONFIG = REPO_ROOT / "configs" / "demo_station.yaml"
-SAMPLE_VIDEO = REPO_ROOT / "sample_video" / "demo_station.mp4"
 TARGET = "all judgements < 2 ms amortised (one core)"
 
 

@@ -20,11 +20,11 @@ import numpy as np
 
 from stationcheck.demo_station import layout
 from stationcheck.demo_station.camera import Camera, CameraTransform, Exposure
+from stationcheck.demo_station.files import DEMO_CONFIG
 from stationcheck.demo_station.station_scene import Stage, StationScene, StationState
 from stationcheck.judgements.presence import LABELS, Label
 from stationcheck.judgements.zone_window import U8Array
 
-DEMO_CONFIG = Path(__file__).resolve().parents[2] / "configs" / "demo_station.yaml"
 SEED = 4242
 GAINS = (0.78, 0.86, 0.94, 1.0, 1.06, 1.14, 1.22, 0.9)
 STAGES: tuple[Stage, ...] = ("empty", "gasket", "cover")

@@ -28,15 +28,12 @@ from typing import IO
 
 import numpy as np
 
-from stationcheck.commands.bench import BenchOptions, BenchRow
+from stationcheck.commands.bench import BenchOptions, BenchRow, resident_memory_mb
+from stationcheck.demo_station.files import DEMO_CONFIG, SAMPLE_INPUTS, SAMPLE_VIDEO
 from stationcheck.errors import SignalLinkError
 
 SECTION_NAME = "live"
 SECTION_HELP = "live run on loopback: sample video -> outputs written to a simulator process"
-REPO = Path(__file__).resolve().parents[2]
-CONFIG = REPO / "configs" / "demo_station.yaml"
-VIDEO = REPO / "sample_video" / "demo_station.mp4"
-INPUTS = REPO / "sample_video" / "demo_station_inputs.jsonl"
 DEFAULT_FRAMES = 900  # 30 s of video: the first unit's picks, fastenings and check
 SIMULATOR_START_S = 30.0
 LATENCY_TARGET = "p99 <= 10 ms"
@@ -53,7 +50,7 @@ def start_simulator(port: int, errors: IO[bytes]) -> subprocess.Popen[bytes]:
     """``stationcheck simulate --inputs`` in a child process; returns once it accepts a
     connection (its complaints go to ``errors``)."""
     proc = subprocess.Popen(
-        [sys.executable, "-m", "stationcheck", "simulate", "--inputs", str(INPUTS),
+        [sys.executable, "-m", "stationcheck", "simulate", "--inputs", str(SAMPLE_INPUTS),
          "--host", "127.0.0.1", "--port", str(port)],
         stdout=subprocess.DEVNULL, stderr=errors)
     deadline = time.monotonic() + SIMULATOR_START_S
@@ -71,14 +68,6 @@ def start_simulator(port: int, errors: IO[bytes]) -> subprocess.Popen[bytes]:
             time.sleep(0.05)  # polling a child process's port; nothing to wait on instead
 
 
-def resident_mb() -> float:
-    with open("/proc/self/status") as status:
-        for line in status:
-            if line.startswith("VmRSS:"):
-                return float(line.split()[1]) / 1024.0
-    return float("nan")
-
-
 class _MemoryWatch:
     """A frame sink that samples the process's resident memory every 30 frames."""
 
@@ -89,10 +78,10 @@ class _MemoryWatch:
     def on_frame(self, result: object) -> None:
         self.frames += 1
         if self.frames % 30 == 1:
-            self.peak_mb = max(self.peak_mb, resident_mb())
+            self.peak_mb = max(self.peak_mb, resident_memory_mb()[0])
 
     def on_stop(self, error: BaseException | None) -> None:
-        self.peak_mb = max(self.peak_mb, resident_mb())
+        self.peak_mb = max(self.peak_mb, resident_memory_mb()[0])
 
 
 def machine_jitter_ms(bursts: int = 300, idle_s: float = 0.03) -> tuple[float, float]:
@@ -127,8 +116,8 @@ def measure(options: BenchOptions) -> list[BenchRow]:
         proc = start_simulator(port, errors)
         try:
             stats = run_live(LiveSettings(
-                config_path=CONFIG, log_path=Path(folder) / "bench.sqlite",
-                source=str(options.video or VIDEO), link="client", host="127.0.0.1",
+                config_path=DEMO_CONFIG, log_path=Path(folder) / "bench.sqlite",
+                source=str(options.video or SAMPLE_VIDEO), link="client", host="127.0.0.1",
                 port=port, max_frames=frames, model_path=options.model), on_ready=ready)
         finally:
             proc.terminate()

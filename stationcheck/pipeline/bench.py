@@ -7,18 +7,16 @@ synchronous=FULL) and reports frames/s of the whole path and each stage's median
 
 from __future__ import annotations
 
-import statistics
 import tempfile
 from pathlib import Path
 
+import numpy as np
+
 from stationcheck.commands.bench import BenchOptions, BenchRow
+from stationcheck.demo_station.files import DEMO_CONFIG, SAMPLE_INPUTS, SAMPLE_VIDEO
 
 SECTION_NAME = "pipeline"
 SECTION_HELP = "whole per-frame path on the sample video (replay, no outputs)"
-REPO = Path(__file__).resolve().parents[2]
-CONFIG = REPO / "configs" / "demo_station.yaml"
-VIDEO = REPO / "sample_video" / "demo_station.mp4"
-INPUTS = REPO / "sample_video" / "demo_station_inputs.jsonl"
 DEFAULT_FRAMES = 600
 FPS_TARGET = ">= 150 f/s"
 
@@ -29,8 +27,8 @@ def measure(options: BenchOptions) -> list[BenchRow]:
     frames = options.frames_or(DEFAULT_FRAMES)
     with tempfile.TemporaryDirectory() as folder:
         report = run_replay(ReplaySettings(
-            config_path=CONFIG, log_path=Path(folder) / "bench.sqlite",
-            video=options.video or VIDEO, inputs=INPUTS, model_path=options.model,
+            config_path=DEMO_CONFIG, log_path=Path(folder) / "bench.sqlite",
+            video=options.video or SAMPLE_VIDEO, inputs=SAMPLE_INPUTS, model_path=options.model,
             threads=options.threads[0], max_frames=frames))
     stats = report.stats
     medians = stats.medians_ms()
@@ -42,8 +40,6 @@ def measure(options: BenchOptions) -> list[BenchRow]:
     for name, values in stats.stage_ms.items():
         if name == "outputs" or not values:
             continue
-        ordered = sorted(values)
-        p99 = ordered[min(len(ordered) - 1, round(0.99 * (len(ordered) - 1)))]
-        rows.append(BenchRow(SECTION_NAME, f"stage {name}", statistics.median(values), p99,
-                             "ms"))
+        rows.append(BenchRow(SECTION_NAME, f"stage {name}", float(np.median(values)),
+                             float(np.percentile(values, 99)), "ms"))
     return rows

@@ -12,7 +12,6 @@ from __future__ import annotations
 import http.client
 import logging
 import os
-import resource
 import statistics
 import time
 from collections.abc import Callable
@@ -96,7 +95,7 @@ def _times_ms(run: Callable[[], object], repeats: int) -> tuple[float, list[floa
 def measure(options: BenchOptions) -> list[BenchRow]:
     import json
 
-    from stationcheck.commands.bench import BenchRow
+    from stationcheck.commands.bench import BenchRow, resident_memory_mb
     from stationcheck.quality import export
     from stationcheck.store.records import UnitQuery
     from stationcheck.store.sqlite_log import SqliteStepLog
@@ -175,7 +174,7 @@ def measure(options: BenchOptions) -> list[BenchRow]:
         seconds = time.perf_counter() - t0
     rows.append(BenchRow(SECTION_NAME, f"CSV export ({exported:,} units)", exported / seconds,
                          None, "u/s"))
-    peak_mb = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0
+    peak_mb = resident_memory_mb()[1]
     rows.append(BenchRow(SECTION_NAME, "peak resident memory (bench process)", peak_mb, None,
                          "MB", "pages never load whole tables", headline={"review_rss_mb": peak_mb}))
     return rows

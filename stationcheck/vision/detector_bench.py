@@ -4,7 +4,6 @@
 from __future__ import annotations
 
 import logging
-import resource
 from pathlib import Path
 from typing import TYPE_CHECKING
 
@@ -13,6 +12,7 @@ import numpy as np
 import numpy.typing as npt
 
 from stationcheck.core.records import Frame
+from stationcheck.demo_station.files import SAMPLE_VIDEO
 
 if TYPE_CHECKING:
     from stationcheck.commands.bench import BenchOptions, BenchRow
@@ -22,7 +22,6 @@ logger = logging.getLogger(__name__)
 DEFAULT_FRAMES = 300
 SECTION_NAME = "detector"
 SECTION_HELP = "keypoint detector: preprocess + inference + decode per 640x480 frame"
-SAMPLE_VIDEO = Path(__file__).resolve().parents[2] / "sample_video" / "demo_station.mp4"
 WARMUP_FRAMES = 20
 TARGET_TOTAL_MS = "median <= 3 ms (1 thread)"
 
@@ -58,23 +57,8 @@ def load_frames(video: Path | None, count: int) -> list[npt.NDArray[np.uint8]]:
     return frames
 
 
-def resident_memory_mb() -> tuple[float, float]:
-    """(current, peak) resident set size of this process in MB (Linux /proc; peak from
-    getrusage, which Linux reports in kB)."""
-    current = float("nan")
-    try:
-        with open("/proc/self/status") as status:
-            for line in status:
-                if line.startswith("VmRSS:"):
-                    current = float(line.split()[1]) / 1024.0
-    except OSError:
-        pass
-    peak = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0
-    return current, peak
-
-
 def measure(options: BenchOptions) -> list[BenchRow]:
-    from stationcheck.commands.bench import BenchRow
+    from stationcheck.commands.bench import BenchRow, resident_memory_mb
     from stationcheck.vision.detector import load_detector
 
     images = load_frames(options.video, options.frames_or(DEFAULT_FRAMES))

@@ -13,12 +13,12 @@ from __future__ import annotations
 import http.client
 import threading
 import time
-from pathlib import Path
 from typing import TYPE_CHECKING
 
 import numpy as np
 
 from stationcheck.commands.bench import BenchOptions, BenchRow
+from stationcheck.demo_station.files import DEMO_CONFIG
 
 if TYPE_CHECKING:
     from stationcheck.core.plan import StationPlan
@@ -26,7 +26,6 @@ if TYPE_CHECKING:
 
 SECTION_NAME = "screen"
 SECTION_HELP = "operator screen: loop frames/s with and without two screens connected"
-CONFIG = Path(__file__).resolve().parents[3] / "configs" / "demo_station.yaml"
 SCREENS = 2
 ROUNDS = 2
 CAMERA_FPS = 30.0
@@ -74,7 +73,7 @@ def _run_loop(frames: list[np.ndarray], feed: OperatorFeed | None,
     from stationcheck.vision.detector import load_detector
     from stationcheck.web.operator.pacing import RealTimePacer
 
-    config = load_config(CONFIG)
+    config = load_config(DEMO_CONFIG)
     plan = config.to_plan()
     decisions = DecisionCore(plan, sinks=[feed] if feed is not None else [])
     sinks: list[FrameSink] = [feed] if feed is not None else []
@@ -115,7 +114,7 @@ def measure(options: BenchOptions) -> list[BenchRow]:
     from stationcheck.vision.detector_bench import load_frames
 
     frames = load_frames(options.video, options.frames_or(300))
-    plan = load_config(CONFIG).to_plan()
+    plan = load_config(DEMO_CONFIG).to_plan()
     alone, watched = [], []
     for _ in range(ROUNDS):  # interleaved, so a busy moment of the machine hits both
         alone.append(_run_loop(frames, None))
