@@ -10,13 +10,10 @@ from __future__ import annotations
 
 import logging
 import math
-import os
 from collections.abc import Iterator
 from contextlib import contextmanager
 from pathlib import Path
 from typing import Self
-
-os.environ.setdefault("OPENCV_FFMPEG_LOGLEVEL", "-8")  # AV_LOG_QUIET, if FFmpeg is not set up yet
 
 import cv2
 import numpy as np
