@@ -7,6 +7,13 @@ class; a traceback means a bug, not a user mistake.
 from __future__ import annotations
 
 
+def first_line(exc: BaseException) -> str:
+    """The first line of an exception's message (its class name when it has none): what a
+    one-line error or a log line shows of a third-party error."""
+    text = str(exc).strip()
+    return text.splitlines()[0] if text else type(exc).__name__
+
+
 class StationcheckError(Exception):
     """Root of every error stationcheck raises on purpose."""
 

@@ -16,6 +16,7 @@ from collections.abc import Callable
 from dataclasses import dataclass
 
 from stationcheck.core.records import Frame
+from stationcheck.errors import first_line
 from stationcheck.sources.frame_source import FrameSource
 
 logger = logging.getLogger(__name__)
@@ -150,7 +151,7 @@ class FrameGrabber:
     def _failed(self, exc: Exception) -> bool:
         """Notes a failure; True when the grabber retries."""
         self.counts.failures += 1
-        message = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
+        message = first_line(exc)
         if message != self.last_error:
             logger.warning("frame source: %s%s", message, "; retrying" if self.retry else "")
         self.last_error = message

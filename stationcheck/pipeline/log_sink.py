@@ -9,7 +9,7 @@ from collections.abc import Callable
 
 from stationcheck.core.events import Event
 from stationcheck.core.observations import PositionRef
-from stationcheck.errors import StoreError
+from stationcheck.errors import StoreError, first_line
 from stationcheck.pipeline.decisions import DecisionStep
 from stationcheck.pipeline.evidence import EvidenceWriter
 from stationcheck.store.step_log import StepLog
@@ -77,7 +77,7 @@ class StepLogSink:
         self.flush()
         if error is None:
             return
-        message = str(error).strip().splitlines()[0] if str(error).strip() else type(error).__name__
+        message = first_line(error)
         event = Event(
             t_s=self._last_t_s,
             kind="tool_inhibited",

@@ -19,6 +19,7 @@ from collections.abc import Callable
 from dataclasses import dataclass
 
 from stationcheck.core.observations import LinkStatus, Observation
+from stationcheck.errors import first_line
 from stationcheck.plc.link import SignalLink
 from stationcheck.plc.signals import InputDecoder, OutputSignals
 
@@ -189,7 +190,7 @@ class LinkWorker:
 
     def _note_error(self, exc: Exception) -> None:
         self.failures += 1
-        message = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
+        message = first_line(exc)
         if message != self.last_error:
             logger.warning("signal link %s: %s", self.link.name, message)
         self.last_error = message

@@ -9,7 +9,7 @@ import numpy as np
 import numpy.typing as npt
 import onnxruntime as ort
 
-from stationcheck.errors import ModelError
+from stationcheck.errors import ModelError, first_line
 from stationcheck.vision.model_contract import ModelInfo, parse_metadata
 
 logger = logging.getLogger(__name__)
@@ -41,11 +41,8 @@ class KeypointModel:
                 providers=["CPUExecutionProvider"],
             )
         except Exception as exc:  # onnxruntime raises its own untyped errors
-            first_line = (
-                str(exc).strip().splitlines()[0] if str(exc).strip() else type(exc).__name__
-            )
             raise ModelError(
-                f"{self.path}: not a readable ONNX model ({first_line[:200]})"
+                f"{self.path}: not a readable ONNX model ({first_line(exc)[:200]})"
             ) from exc
         meta = self._session.get_modelmeta().custom_metadata_map
         self.info: ModelInfo = parse_metadata(meta, source=str(self.path))
