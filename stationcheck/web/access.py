@@ -21,10 +21,6 @@ COOKIE_NAME = "stationcheck_token"
 HEADER_NAME = "x-access-token"
 
 
-class AccessRefused(StationcheckError):
-    exit_code = 1
-
-
 def is_loopback(host: str) -> bool:
     """True for localhost and loopback addresses (127.0.0.0/8, ::1)."""
     if host == "localhost":

@@ -55,8 +55,7 @@ def serve_until_interrupted(server: WebServer, title: str, open_browser: bool) -
         except webbrowser.Error as exc:
             log.warning("could not open a browser: %s", exc)
     try:
-        assert server._thread is not None
-        server._thread.join()
+        server.wait()
     except KeyboardInterrupt:
         print("stopped", flush=True)
     finally:

@@ -15,7 +15,6 @@ import mimetypes
 import threading
 from collections.abc import Callable, Iterator
 from dataclasses import dataclass, field
-from http import HTTPStatus
 from http.server import BaseHTTPRequestHandler, ThreadingHTTPServer
 from pathlib import Path
 from typing import Any
@@ -78,11 +77,6 @@ class Response:
     def json(cls, data: Any, status: int = 200) -> Response:
         return cls(status, json.dumps(data, separators=(",", ":")).encode("utf-8"))
 
-    @classmethod
-    def text(cls, text: str, content_type: str = "text/plain; charset=utf-8",
-             status: int = 200) -> Response:
-        return cls(status, text.encode("utf-8"), content_type)
-
 
 Handler = Callable[[Request], Response]
 
@@ -105,9 +99,6 @@ class Router:
 
     def get(self, path: str) -> Callable[[Handler], Handler]:
         return self._decorator("GET", path)
-
-    def post(self, path: str) -> Callable[[Handler], Handler]:
-        return self._decorator("POST", path)
 
     def _decorator(self, method: str, path: str) -> Callable[[Handler], Handler]:
         def wrap(handler: Handler) -> Handler:
@@ -269,15 +260,13 @@ class WebServer(ThreadingHTTPServer):
         self._thread.start()
         return self
 
+    def wait(self) -> None:
+        """Block until the serving thread ends (Ctrl-C raises KeyboardInterrupt here)."""
+        if self._thread is not None:
+            self._thread.join()
+
     def close(self) -> None:
         self.shutdown()
         self.server_close()
         if self._thread is not None:
             self._thread.join(timeout=5)
-
-
-def status_text(status: int) -> str:
-    try:
-        return HTTPStatus(status).phrase
-    except ValueError:
-        return "error"
