@@ -44,11 +44,11 @@ from stationcheck.judgements import settings as judgement_defaults
 FORMAT_VERSION = 1
 BUNDLED_MODEL = "bundled"
 
-_ID_PATTERN = re.compile(r"[A-Za-z][A-Za-z0-9_-]{0,63}")
+ID_PATTERN = re.compile(r"[A-Za-z][A-Za-z0-9_-]{0,63}")
 
 
 def _check_id(value: str) -> str:
-    if not _ID_PATTERN.fullmatch(value):
+    if not ID_PATTERN.fullmatch(value):
         raise PydanticCustomError(
             "identifier",
             "'{value}' is not a usable id: start with a letter, then use only letters, digits, "

@@ -46,7 +46,7 @@ FORMAT_VERSION = 1
 CROP_MARGIN_PX = 16
 ALIGN_PX = 4
 METHOD = "class-mean normalised cross-correlation, grey"
-_FILE_PATTERN = re.compile(r"(present|absent)-(\d{3,})\.png")
+TAUGHT_FILE_PATTERN = re.compile(r"(present|absent)-(\d{3,})\.png")
 Box = tuple[int, int, int, int]
 
 
@@ -199,7 +199,7 @@ def clear(folder: Path, label: Label | None = None) -> int:
     image files were removed. Only files this module writes are touched."""
     manifest = read_manifest(folder)
     names = {path.name for path in folder.glob("*.png")} if folder.is_dir() else set()
-    gone = sorted(name for name in names if (m := _FILE_PATTERN.fullmatch(name))
+    gone = sorted(name for name in names if (m := TAUGHT_FILE_PATTERN.fullmatch(name))
                   and (label is None or m.group(1) == label))
     try:
         for name in gone:
@@ -329,9 +329,9 @@ def _crop(image: U8Array, box: Box, source: str) -> U8Array:
 def _next_file(folder: Path, manifest: Manifest, label: Label) -> str:
     """The next free number of the class, counting files on disk as well as listed ones."""
     numbers = [int(m.group(2)) for image in manifest.images
-               if (m := _FILE_PATTERN.fullmatch(image.file)) and m.group(1) == label]
+               if (m := TAUGHT_FILE_PATTERN.fullmatch(image.file)) and m.group(1) == label]
     existing = [int(m.group(2)) for path in folder.glob(f"{label}-*.png")
-                if (m := _FILE_PATTERN.fullmatch(path.name))] if folder.exists() else []
+                if (m := TAUGHT_FILE_PATTERN.fullmatch(path.name))] if folder.exists() else []
     return f"{label}-{max(numbers + existing, default=0) + 1:03d}.png"
 
 

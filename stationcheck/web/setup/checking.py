@@ -51,10 +51,7 @@ def tightening_numbers(data: dict[str, Any]) -> dict[str, int]:
             continue
         zones = [z for z in step.get("zones") or [] if isinstance(z, str)]
         if step.get("order") == "cross" and zones:
-            try:
-                zones = bolt_pattern.apply_order(zones, bolt_pattern.cross_order(len(zones)))
-            except ValueError:
-                pass
+            zones = bolt_pattern.apply_order(zones, bolt_pattern.cross_order(len(zones)))
         for number, zone in enumerate(zones, start=1):
             numbers.setdefault(zone, number)
     return numbers

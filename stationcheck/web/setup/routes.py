@@ -122,10 +122,13 @@ class SetupApp:
             self.session, _document(body), str(body.get("zone") or "")))
 
     def teach(self, request: Request) -> Response:
-        return Response.json(teaching_service.teach_from_source(self.session, _body(request)))
+        body = _body(request)
+        return Response.json(teaching_service.teach_from_source(
+            self.session, _document(body), body))
 
     def teach_clear(self, request: Request) -> Response:
-        return Response.json(teaching_service.clear(self.session, _body(request)))
+        body = _body(request)
+        return Response.json(teaching_service.clear(self.session, _document(body), body))
 
     def teach_image(self, request: Request) -> Response:
         query = request.query
@@ -142,7 +145,7 @@ class SetupApp:
                   else dry_run.inputs_beside(video))
         start_s, seconds = body.get("start_s", 0), body.get("seconds", 4)
         if not all(isinstance(v, int | float) and not isinstance(v, bool)
-                   for v in (start_s, seconds)) or start_s < 0 or not 0 < seconds <= 20:
+                   for v in (start_s, seconds)) or start_s < 0 or not 0 < seconds <= dry_run.MAX_SECONDS:
             raise WebError(400, f"start_s must be >= 0 and seconds from 0 to "
                                 f"{dry_run.MAX_SECONDS:g}")
         recorder = dry_run.run_dry(config, dry_run.DryRunRequest(

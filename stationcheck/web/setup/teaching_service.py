@@ -3,11 +3,11 @@
 
 from __future__ import annotations
 
-import re
 from pathlib import Path
 from typing import Any
 
 from stationcheck.config.parts import parts_of_data
+from stationcheck.config.schema import ID_PATTERN
 from stationcheck.core.plan import ZoneSpec
 from stationcheck.judgements import teaching
 from stationcheck.judgements.presence import LABELS
@@ -15,11 +15,9 @@ from stationcheck.web.server import WebError
 from stationcheck.web.setup.frames import FrameRequest, grab
 from stationcheck.web.setup.workspace import SetupSession
 
-_ID = re.compile(r"[A-Za-z][A-Za-z0-9_-]{0,63}")
-
 
 def check_zone_of(data: dict[str, Any], zone_id: str) -> ZoneSpec:
-    if not _ID.fullmatch(zone_id):
+    if not ID_PATTERN.fullmatch(zone_id):
         raise WebError(400, f"'{zone_id}' is not a zone id")
     for zone in parts_of_data(data).zones:
         if zone.id == zone_id:
@@ -39,7 +37,10 @@ def folder_of(session: SetupSession, data: dict[str, Any], zone_id: str) -> Path
 
 def listing(session: SetupSession, data: dict[str, Any], zone_id: str) -> dict[str, Any]:
     zone = check_zone_of(data, zone_id)
-    folder = folder_of(session, data, zone.id)
+    return _listing(zone, folder_of(session, data, zone.id))
+
+
+def _listing(zone: ZoneSpec, folder: Path) -> dict[str, Any]:
     manifest = teaching.read_manifest(folder)
     if manifest is None:
         return {"zone": zone.id, "taught": False, "images": [], "present": 0, "absent": 0,
@@ -59,44 +60,38 @@ def listing(session: SetupSession, data: dict[str, Any], zone_id: str) -> dict[s
             "note": note}
 
 
-def teach_from_source(session: SetupSession, body: dict[str, Any]) -> dict[str, Any]:
-    data = _data(body)
+def teach_from_source(session: SetupSession, data: dict[str, Any],
+                      body: dict[str, Any]) -> dict[str, Any]:
     zone = check_zone_of(data, str(body.get("zone") or ""))
     label = body.get("label")
     if label not in LABELS:
         raise WebError(400, "label must be 'present' or 'absent'")
     size = _camera_size(data)
     frames = grab(FrameRequest.from_json(body, session), size)
-    teaching.teach(folder_of(session, data, zone.id), zone, label, frames, size)
-    return listing(session, data, zone.id)
+    folder = folder_of(session, data, zone.id)
+    teaching.teach(folder, zone, label, frames, size)
+    return _listing(zone, folder)
 
 
-def clear(session: SetupSession, body: dict[str, Any]) -> dict[str, Any]:
-    data = _data(body)
+def clear(session: SetupSession, data: dict[str, Any], body: dict[str, Any]) -> dict[str, Any]:
     zone = check_zone_of(data, str(body.get("zone") or ""))
     label = body.get("label")
     if label is not None and label not in LABELS:
         raise WebError(400, "label must be 'present', 'absent' or left out")
-    teaching.clear(folder_of(session, data, zone.id), label)
-    return listing(session, data, zone.id)
+    folder = folder_of(session, data, zone.id)
+    teaching.clear(folder, label)
+    return _listing(zone, folder)
 
 
 def image_path(session: SetupSession, reference_frame: str, zone_id: str, file: str) -> Path:
     """A taught image of a zone; only names the teaching writes are served."""
-    if not _ID.fullmatch(zone_id) or not re.fullmatch(r"(present|absent)-\d{3,}\.png", file):
+    if not ID_PATTERN.fullmatch(zone_id) or not teaching.TAUGHT_FILE_PATTERN.fullmatch(file):
         raise WebError(403, "refused: not a taught image of a zone")
     folder = session.workspace.inside(zone_id, session.resolve(reference_frame).parent)
     path = session.workspace.inside(file, folder)
     if not path.is_file():
         raise WebError(404, f"no taught image {file}")
     return path
-
-
-def _data(body: dict[str, Any]) -> dict[str, Any]:
-    data = body.get("data")
-    if not isinstance(data, dict):
-        raise WebError(400, "send the document as 'data'")
-    return data
 
 
 def _camera_size(data: dict[str, Any]) -> tuple[int, int]:

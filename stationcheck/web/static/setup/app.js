@@ -1,6 +1,6 @@
 // The setup page: loads the config, wires the tabs, the top bar, keys, checking and saving.
 
-import { S, api, change, onRender, render, runCheck, undo } from "./state.js";
+import { S, api, onRender, render, undo } from "./state.js";
 import { el, findingList } from "./dom.js";
 import { installStage, renderStage, finishDraft, cancelDraft, deleteSelection, setMode, zoom,
          fit } from "./stage.js";
@@ -120,5 +120,4 @@ async function start() {
   document.body.dataset.ready = "1";
 }
 
-export { change, runCheck };
 start();

@@ -30,11 +30,10 @@ export function parseValue(raw, type) {
 }
 
 // An input bound to a path in the document; it writes on change (Enter or leaving the field).
-export function boundInput(keys, { type = "text", name, placeholder, size, root } = {}) {
-  const base = root || S.data;
-  const value = getPath(base, keys);
+export function boundInput(keys, { type = "text", name, placeholder, size } = {}) {
+  const value = getPath(S.data, keys);
   const input = el("input", {
-    type: type === "number" ? "text" : "text", inputmode: type === "number" ? "decimal" : null,
+    type: "text", inputmode: type === "number" ? "decimal" : null,
     name: name || keys.join("."), value: value === undefined ? "" : String(value),
     placeholder, size: size || (type === "number" ? 7 : null),
     class: type === "number" ? "num" : null,
@@ -42,7 +41,7 @@ export function boundInput(keys, { type = "text", name, placeholder, size, root 
   input.addEventListener("input", () => { input.dataset.dirty = "1"; });
   input.addEventListener("change", () => {
     delete input.dataset.dirty;
-    change(() => setPath(root || S.data, keys, parseValue(input.value, type)));
+    change(() => setPath(S.data, keys, parseValue(input.value, type)));
   });
   return input;
 }

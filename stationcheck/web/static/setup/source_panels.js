@@ -8,18 +8,21 @@ import { showPlayer } from "./player.js";
 const source = { kind: "video", video: null, at_s: 0, camera: 0, url: "" };
 let teachZone = null;
 let teachInfo = null;
-let dryRun = { video: null, inputs: "", start_s: 0, seconds: 4, result: null };
+const dryRun = { video: null, inputs: "", start_s: 0, seconds: 4, result: null };
 let busyNote = "";
+
+// An input bound to a key of this module's own settings (`source`, `dryRun`), not the document.
+function settingInput(settings, prefix, key, attrs = {}) {
+  const input = el("input", { name: `${prefix}-${key}`, value: String(settings[key]), ...attrs });
+  input.addEventListener("change", () => {
+    settings[key] = attrs.inputmode ? Number(input.value) : input.value;
+  });
+  return input;
+}
 
 function sourceFields() {
   if (source.video === null) source.video = S.defaultVideo || "";
-  const bind = (key, attrs = {}) => {
-    const input = el("input", { name: `source-${key}`, value: String(source[key]), ...attrs });
-    input.addEventListener("change", () => {
-      source[key] = attrs.inputmode ? Number(input.value) : input.value;
-    });
-    return input;
-  };
+  const bind = (key, attrs) => settingInput(source, "source", key, attrs);
   const radio = (kind, text) => el("label", {},
     el("input", { type: "radio", name: "source-kind", value: kind, checked: source.kind === kind,
                   onchange: () => { source.kind = kind; render(); } }), ` ${text} `);
@@ -150,13 +153,7 @@ async function loadTeach() {
 
 export function dryRunPanel() {
   if (dryRun.video === null) dryRun.video = S.defaultVideo || "";
-  const field = (key, attrs = {}) => {
-    const input = el("input", { name: `dry-${key}`, value: String(dryRun[key]), ...attrs });
-    input.addEventListener("change", () => {
-      dryRun[key] = attrs.inputmode ? Number(input.value) : input.value;
-    });
-    return input;
-  };
+  const field = (key, attrs) => settingInput(dryRun, "dry", key, attrs);
   const run = el("button", { class: "primary", id: "dry-run" }, "Run");
   run.addEventListener("click", busy(run, async () => {
     dryRun.result = null;
@@ -194,5 +191,3 @@ export function dryRunPanel() {
       : null,
   ];
 }
-
-export function resetDryRun() { dryRun.result = null; }

@@ -1,7 +1,7 @@
 // The picture with its zones: draw zones by clicking corners, drag points and whole zones,
 // place a bolt circle, zoom (wheel, buttons) and pan (drag the background).
 
-import { S, change, snapshot, render, findingsAt } from "./state.js";
+import { S, change, snapshot, render, findingsAt, uniqueId } from "./state.js";
 
 const NS = "http://www.w3.org/2000/svg";
 const svg = document.getElementById("canvas");
@@ -193,11 +193,8 @@ export function finishDraft() {
     S.data.zones = S.data.zones || [];
     const kind = document.getElementById("new-kind").value;
     const stem = { fastener: "fastener_", bin: "bin_", check: "check_" }[kind];
-    const taken = new Set([...(S.check.zones || []).map((z) => z.id),
-                           ...S.data.zones.map((z) => z.id)]);
-    let n = 1;
-    while (taken.has(`${stem}${n}`)) n++;
-    S.data.zones.push({ id: `${stem}${n}`, kind, polygon: points });
+    const id = uniqueId(stem, [...(S.check.zones || []), ...S.data.zones].map((z) => z.id));
+    S.data.zones.push({ id, kind, polygon: points });
     S.selected = S.data.zones.length - 1;
     S.vertex = null;
     S.mode = "select";

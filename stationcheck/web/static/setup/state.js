@@ -52,13 +52,12 @@ export function change(edit, { record = true } = {}) {
 export function undo() {
   const last = S.undo.pop();
   if (last === undefined) return;
-  S.data = JSON.parse(last);
-  const zones = S.data.zones || [];
-  if (S.selected !== null && S.selected >= zones.length) S.selected = null;
-  S.vertex = null;
-  S.dirty = true;
-  render();
-  scheduleCheck();
+  change(() => {
+    S.data = JSON.parse(last);
+    const zones = S.data.zones || [];
+    if (S.selected !== null && S.selected >= zones.length) S.selected = null;
+    S.vertex = null;
+  }, { record: false });
 }
 
 export function scheduleCheck(delayMs = 150) {
@@ -84,14 +83,10 @@ export function findingsAt(...prefix) {
   return S.check.findings.filter((f) => prefix.every((p, i) => f.where[i] === p));
 }
 
-export function zoneIds() {
-  return (S.check.zones || []).map((z) => z.id);
-}
-
-export function uniqueId(stem) {
-  const taken = new Set([...zoneIds(), ...(S.data.zones || []).map((z) => z.id),
-                         ...(S.data.steps || []).map((s) => s.id)]);
-  for (let n = 1; ; n++) if (!taken.has(`${stem}${n}`)) return `${stem}${n}`;
+// The first `${stem}1`, `${stem}2`, ... not among the ids taken.
+export function uniqueId(stem, taken) {
+  const ids = new Set(taken);
+  for (let n = 1; ; n++) if (!ids.has(`${stem}${n}`)) return `${stem}${n}`;
 }
 
 export function setPath(obj, keys, value) {

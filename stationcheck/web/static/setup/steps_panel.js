@@ -1,6 +1,6 @@
 // The Steps tab: station-wide timing, and the ordered step list (drag the grip to reorder).
 
-import { S, change, render } from "./state.js";
+import { S, change, render, uniqueId } from "./state.js";
 import { el, boundInput, boundSelect, findingsFor } from "./dom.js";
 
 const ZONE_KIND = { fasten: "fastener", pick: "bin", check: "check" };
@@ -34,10 +34,8 @@ export function stepsPanel() {
 function addStep(kind) {
   change(() => {
     S.data.steps = S.data.steps || [];
-    const taken = new Set(S.data.steps.map((s) => s.id));
-    let n = 1;
-    while (taken.has(`${kind}_${n}`)) n++;
-    S.data.steps.push({ id: `${kind}_${n}`, ...NEW_STEP[kind]() });
+    S.data.steps.push({ id: uniqueId(`${kind}_`, S.data.steps.map((s) => s.id)),
+                        ...NEW_STEP[kind]() });
   });
 }
 
