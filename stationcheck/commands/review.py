@@ -10,6 +10,7 @@ from __future__ import annotations
 import argparse
 import json
 import sys
+from itertools import islice
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
@@ -142,8 +143,7 @@ def _print_units(step_log: SqliteStepLog, args: argparse.Namespace, period: Peri
         return _usage(str(exc))
     conn = step_log.connection
     limit = args.limit if args.limit is not None else (None if args.csv or args.json else TEXT_LIMIT)
-    units = export.iter_units(conn, query)
-    rows = (export.unit_dict(u) for _, u in zip(range(limit or sys.maxsize), units, strict=False))
+    rows = (export.unit_dict(u) for u in islice(export.iter_units(conn, query), limit))
     if args.csv:
         sys.stdout.writelines(export.csv_chunks(rows, export.UNIT_FIELDS))
         return 0

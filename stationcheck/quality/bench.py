@@ -20,7 +20,7 @@ from pathlib import Path
 from typing import TYPE_CHECKING
 from urllib.parse import urlencode
 
-from stationcheck.store.bench import percentile
+from stationcheck.store.bench import percentile, timed_ms
 
 if TYPE_CHECKING:
     from stationcheck.commands.bench import BenchOptions, BenchRow
@@ -77,19 +77,6 @@ class _Client:
             return body
         finally:
             conn.close()
-
-
-def _times_ms(run: Callable[[], object], repeats: int) -> tuple[float, list[float]]:
-    """(first call, then ``repeats`` warm calls) in milliseconds."""
-    t0 = time.perf_counter()
-    run()
-    first = (time.perf_counter() - t0) * 1000.0
-    warm = []
-    for _ in range(repeats):
-        t0 = time.perf_counter()
-        run()
-        warm.append((time.perf_counter() - t0) * 1000.0)
-    return first, warm
 
 
 def measure(options: BenchOptions) -> list[BenchRow]:
@@ -157,7 +144,7 @@ def measure(options: BenchOptions) -> list[BenchRow]:
         }
         for name, run in cases.items():
             repeats = 5 if "all time" in name or "365" in name or "exact" in name else REPEATS
-            first, warm = _times_ms(run, repeats)
+            first, *warm = timed_ms(run, 1 + repeats)  # the first call, then warm ones
             p95 = percentile(warm, 0.95)
             target = f"p95 {p95:.1f} ms; {TARGET}" if "page" in name or "figures" in name else \
                 f"p95 {p95:.1f} ms"

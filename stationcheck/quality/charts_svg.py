@@ -8,7 +8,7 @@ import math
 from collections.abc import Sequence
 from html import escape
 
-from stationcheck.quality.figures import CycleTimes, PositionCount
+from stationcheck.quality.figures import CycleTimes, PositionCount, StationFigures
 from stationcheck.quality.trends import Trend
 
 WIDTH, HEIGHT = 560, 260
@@ -124,6 +124,16 @@ def histogram_svg(title: str, times: CycleTimes) -> str:
     note = f"cycle time, s (first pass){'; ' + str(times.above) + ' slower units not shown' if times.above else ''}"
     body.append(f'<text x="{LEFT}" y="{HEIGHT - 6}" fill="{INK}">{escape(note)}</text>')
     return _svg(title, body)
+
+
+def figure_charts(fig: StationFigures) -> dict[str, str]:
+    """The station figures' charts, by name: NOK and retry Paretos, the cycle-time histogram."""
+    return {
+        "nok": pareto_svg("NOK results by fastener position", fig.nok_by_position, "NOK results"),
+        "retries": pareto_svg("Retries by fastener position", fig.retries_by_position,
+                              "retries"),
+        "cycle_time": histogram_svg("Cycle time distribution", fig.cycle_times),
+    }
 
 
 def trend_svg(trend: Trend, width: int = 1240, height: int = 420) -> str:

@@ -74,24 +74,11 @@ def alarm_dict(alarm: AlarmRow) -> dict[str, Any]:
     }
 
 
-BROAD_PREFIX_UNITS = 10_000
-
-
-def prefix_is_broad(conn: sqlite3.Connection, query: UnitQuery) -> bool:
-    """True when the query's serial prefix matches more than ``BROAD_PREFIX_UNITS`` units: a
-    page in time order should then walk the time index (see ``queries.find_units``)."""
-    if query.serial_prefix is None:
-        return False
-    matching = queries.count_units(conn, UnitQuery(serial_prefix=query.serial_prefix),
-                                   cap=BROAD_PREFIX_UNITS + 1)
-    return matching > BROAD_PREFIX_UNITS
-
-
 def iter_units(conn: sqlite3.Connection, query: UnitQuery,
                page_units: int = EXPORT_PAGE_UNITS) -> Iterator[UnitRow]:
     """Every unit the query matches, read one keyset page at a time."""
     page_query = replace(query, limit=page_units, offset=0, after=None, count_total=False)
-    broad = prefix_is_broad(conn, query)
+    broad = queries.prefix_is_broad(conn, query)
     while True:
         page = queries.find_units(conn, page_query, time_index=broad)
         yield from page.rows

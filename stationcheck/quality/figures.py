@@ -18,6 +18,7 @@ from dataclasses import dataclass, field
 
 from stationcheck.quality.period import Period
 from stationcheck.quality.proportion import Interval, wilson_interval
+from stationcheck.quality.trends import fastener_positions
 
 CYCLE_BINS = 24
 CYCLE_RESOLUTION_S = 0.1  # fine bins the quantiles are read from
@@ -165,17 +166,15 @@ def tally_range(conn: sqlite3.Connection, start: float, end: float,
     return tallies
 
 
-def position_number(conn: sqlite3.Connection, position: str) -> int | None:
-    row = conn.execute(
-        "SELECT position_number FROM steps INDEXED BY steps_final_at WHERE kind = 'fasten' "
-        "AND position_result IS NOT NULL AND position = ? LIMIT 1", (position,)).fetchone()
-    return int(row[0]) if row is not None and row[0] is not None else None
+def position_numbers(conn: sqlite3.Connection) -> dict[str, int | None]:
+    """Each fastener position's number in the station's numbering (None when it has none)."""
+    return {info.position: info.number for info in fastener_positions(conn)}
 
 
 def station_figures(conn: sqlite3.Connection, period: Period) -> StationFigures:
     """The figures of the period straight from the log (one pass over its index ranges)."""
     tallies = tally_range(conn, *period.bounds).values()
-    return figures_of(period, tallies, lambda p: position_number(conn, p))
+    return figures_of(period, tallies, position_numbers(conn).get)
 
 
 NumberOf = Callable[[str], int | None]

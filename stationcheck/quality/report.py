@@ -9,7 +9,7 @@ import time
 from html import escape
 from pathlib import Path
 
-from stationcheck.quality.charts_svg import histogram_svg, pareto_svg, trend_svg
+from stationcheck.quality.charts_svg import figure_charts, trend_svg
 from stationcheck.quality.figures import StationFigures, station_figures
 from stationcheck.quality.json_views import trend_findings
 from stationcheck.quality.period import Period, format_time
@@ -82,11 +82,8 @@ def build_report(conn: sqlite3.Connection, period: Period, log_name: str,
         (f"<p class=\"meta\">Step log {escape(log_name)}; period {escape(period.describe())}; "
          f"made {escape(format_time(time.time()))} by stationcheck review.</p>"),
         "<h2>Figures</h2>", _figures_table(fig),
-        "<div class=\"charts\">",
-        pareto_svg("NOK results by fastener position", fig.nok_by_position, "NOK results"),
-        pareto_svg("Retries by fastener position", fig.retries_by_position, "retries"),
-        histogram_svg("Cycle time distribution", fig.cycle_times),
-        "</div>", "<h2>Alarms by kind</h2>", _alarms_table(fig),
+        "<div class=\"charts\">", *figure_charts(fig).values(), "</div>",
+        "<h2>Alarms by kind</h2>", _alarms_table(fig),
         f"<h2>Trends per fastener position (latest {points} units each)</h2>",
     ]
     for info in fastener_positions(conn):

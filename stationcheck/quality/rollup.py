@@ -21,7 +21,7 @@ from stationcheck.quality.figures import (
     StationFigures,
     Tally,
     figures_of,
-    position_number,
+    position_numbers,
     tally_range,
 )
 from stationcheck.quality.period import OPEN_END_S, OPEN_START_S, Period
@@ -36,7 +36,6 @@ class FigureCache:
         self._lock = threading.Lock()
         self._days: dict[int, Tally] = {}
         self._last_seq: int | None = None
-        self._numbers: dict[str, int | None] = {}
 
     def figures(self, conn: sqlite3.Connection, period: Period) -> StationFigures:
         with self._lock:
@@ -44,14 +43,9 @@ class FigureCache:
             try:
                 self._refresh(conn)
                 tallies = self._tallies(conn, period)
-                return figures_of(period, tallies, lambda p: self._number(conn, p))
+                return figures_of(period, tallies, position_numbers(conn).get)
             finally:
                 conn.execute("COMMIT")
-
-    def _number(self, conn: sqlite3.Connection, position: str) -> int | None:
-        if position not in self._numbers:
-            self._numbers[position] = position_number(conn, position)
-        return self._numbers[position]
 
     def _refresh(self, conn: sqlite3.Connection) -> None:
         last = int(conn.execute("SELECT coalesce(max(seq), 0) FROM events").fetchone()[0])

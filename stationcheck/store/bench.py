@@ -76,7 +76,8 @@ def measure_append_rate(
                       percentile(durations_ms, 0.99))
 
 
-def _timed(run: Callable[[], object], repeats: int) -> list[float]:
+def timed_ms(run: Callable[[], object], repeats: int) -> list[float]:
+    """Milliseconds of each of ``repeats`` calls of ``run``."""
     times = []
     for _ in range(repeats):
         t0 = time.perf_counter()
@@ -123,7 +124,7 @@ def measure_queries(path: Path, repeats: int = 20) -> dict[str, QueryTiming]:
         results = {}
         for name, run in queries.items():
             run()  # warm the page cache once, as a review page opened twice would
-            times = _timed(run, repeats)
+            times = timed_ms(run, repeats)
             results[name] = QueryTiming(statistics.median(times), percentile(times, 0.95),
                                         percentile(times, 0.99))
     return results

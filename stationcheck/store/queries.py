@@ -28,6 +28,7 @@ RESULT_SQL: dict[str, str] = {
     "first_time_through": "u.first_time_through = 1",
 }
 PREFIX_END = "\U0010ffff"  # sorts after any character that can follow the prefix
+BROAD_PREFIX_UNITS = 10_000  # a serial prefix matching more walks the time index
 _UNIT_SELECT = ", ".join(f"u.{name}" for name in UNIT_COLUMNS)
 
 
@@ -122,6 +123,16 @@ def count_units(conn: sqlite3.Connection, query: UnitQuery, cap: int | None = No
         return int(conn.execute(sql, [*tag_params, *params, max(0, cap)]).fetchone()[0])
     sql = f"SELECT count(*) FROM {source}{_where(tag_where + where)}"
     return int(conn.execute(sql, tag_params + params).fetchone()[0])
+
+
+def prefix_is_broad(conn: sqlite3.Connection, query: UnitQuery) -> bool:
+    """True when the query's serial prefix matches more than ``BROAD_PREFIX_UNITS`` units: a
+    page in time order should then walk the time index (``find_units(time_index=True)``)."""
+    if query.serial_prefix is None:
+        return False
+    matching = count_units(conn, UnitQuery(serial_prefix=query.serial_prefix),
+                           cap=BROAD_PREFIX_UNITS + 1)
+    return matching > BROAD_PREFIX_UNITS
 
 
 def find_units(conn: sqlite3.Connection, query: UnitQuery,

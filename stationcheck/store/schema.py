@@ -156,9 +156,7 @@ def recreate_derived(conn: sqlite3.Connection) -> None:
 
 
 def _create_events(conn: sqlite3.Connection) -> bool:
-    for statement in EVENTS_DDL.split(";"):
-        if statement.strip():
-            conn.execute(statement)
+    _run_script(conn, EVENTS_DDL)
     return False
 
 

@@ -8,13 +8,13 @@ safe beside a station that is writing, and no request waits for another.
 from __future__ import annotations
 
 import logging
+import sqlite3
 from collections.abc import Iterator
-from contextlib import contextmanager
 from pathlib import Path
 from typing import Any
 
 from stationcheck.quality import export
-from stationcheck.quality.charts_svg import histogram_svg, pareto_svg, trend_svg
+from stationcheck.quality.charts_svg import figure_charts, trend_svg
 from stationcheck.quality.json_views import figures_dict, trend_dict, trend_findings
 from stationcheck.quality.period import Period
 from stationcheck.quality.report import build_report
@@ -52,16 +52,11 @@ class ReviewSource:
     def __init__(self, path: Path) -> None:
         self.path = path
         self.figure_cache = FigureCache()
-        with self.reader():  # a missing file or a non-log fails here, at start-up
-            pass
+        self.reader().close()  # a missing file or a non-log fails here, at start-up
 
-    @contextmanager
-    def reader(self) -> Iterator[SqliteStepLog]:
-        step_log = SqliteStepLog(self.path, readonly=True)
-        try:
-            yield step_log
-        finally:
-            step_log.close()
+    def reader(self) -> SqliteStepLog:
+        """A fresh read-only connection to the log (use it in a ``with``)."""
+        return SqliteStepLog(self.path, readonly=True)
 
 
 def _float_arg(request: Request, name: str) -> float | None:
@@ -110,7 +105,7 @@ def _download(chunks: Iterator[str], filename: str, content_type: str) -> Respon
 
 
 def one_unit(source: ReviewSource, request: Request) -> tuple[
-        str, UnitRow, tuple[StepRow, ...], tuple[AlarmRow, ...]]:
+        UnitRow, tuple[StepRow, ...], tuple[AlarmRow, ...]]:
     """The ``serial`` argument's unit with its steps and alarms; 400/404 when there is none."""
     serial = _text_arg(request, "serial")
     if serial is None:
@@ -119,16 +114,15 @@ def one_unit(source: ReviewSource, request: Request) -> tuple[
         row = step_log.unit(serial)
         if row is None:
             raise WebError(404, f"no unit with serial {serial!r} in this log")
-        return serial, row, step_log.steps(serial), step_log.alarms(serial)
+        return row, step_log.steps(serial), step_log.alarms(serial)
 
 
-def alarm_codes(source: ReviewSource) -> list[str]:
+def alarm_codes(conn: sqlite3.Connection) -> list[str]:
     """Every alarm code in the log: one index seek per code."""
-    with source.reader() as step_log:
-        rows = step_log.connection.execute(
-            "WITH RECURSIVE c(code) AS (SELECT min(code) FROM alarms UNION ALL "
-            "SELECT (SELECT min(code) FROM alarms WHERE code > c.code) FROM c "
-            "WHERE c.code IS NOT NULL) SELECT code FROM c WHERE code IS NOT NULL").fetchall()
+    rows = conn.execute(
+        "WITH RECURSIVE c(code) AS (SELECT min(code) FROM alarms UNION ALL "
+        "SELECT (SELECT min(code) FROM alarms WHERE code > c.code) FROM c "
+        "WHERE c.code IS NOT NULL) SELECT code FROM c WHERE code IS NOT NULL").fetchall()
     return [str(r[0]) for r in rows]
 
 
@@ -140,9 +134,10 @@ def build_review_router(source: ReviewSource) -> Router:
     def info(request: Request) -> Response:
         with source.reader() as step_log:
             positions = fastener_positions(step_log.connection)
+            codes = alarm_codes(step_log.connection)
         return Response.json({
             "log": source.path.name, "path": str(source.path),
-            "positions": [p.position for p in positions], "alarm_codes": alarm_codes(source),
+            "positions": [p.position for p in positions], "alarm_codes": codes,
             "results": list(RESULT_FILTERS), "orders": list(UNIT_ORDERS), "count_cap": COUNT_CAP,
         })
 
@@ -153,7 +148,7 @@ def build_review_router(source: ReviewSource) -> Router:
             conn = step_log.connection
             try:
                 page = queries.find_units(conn, query,
-                                          time_index=export.prefix_is_broad(conn, query))
+                                          time_index=queries.prefix_is_broad(conn, query))
             except ValueError as exc:  # a page token that is not one
                 raise WebError(400, str(exc)) from exc
             count = queries.count_units(conn, query, cap=COUNT_CAP + 1)
@@ -170,7 +165,7 @@ def build_review_router(source: ReviewSource) -> Router:
 
     @router.get("/api/unit")
     def unit(request: Request) -> Response:
-        return Response.json(export.unit_detail(*one_unit(source, request)[1:]))
+        return Response.json(export.unit_detail(*one_unit(source, request)))
 
     @router.get("/api/figures")
     def figures(request: Request) -> Response:
@@ -178,13 +173,7 @@ def build_review_router(source: ReviewSource) -> Router:
         with source.reader() as step_log:
             fig = source.figure_cache.figures(step_log.connection, period)
         body: dict[str, Any] = figures_dict(fig)
-        body["charts"] = {
-            "nok": pareto_svg("NOK results by fastener position", fig.nok_by_position,
-                              "NOK results"),
-            "retries": pareto_svg("Retries by fastener position", fig.retries_by_position,
-                                  "retries"),
-            "cycle_time": histogram_svg("Cycle time distribution", fig.cycle_times),
-        }
+        body["charts"] = figure_charts(fig)
         return Response.json(body)
 
     @router.get("/api/trend")
@@ -220,8 +209,8 @@ def build_review_router(source: ReviewSource) -> Router:
     router.add("GET", "/api/export/units.json", lambda r: units_export(r, "json"))
 
     def unit_export(request: Request, kind: str) -> Response:
-        serial, row, steps, alarms = one_unit(source, request)
-        name = f"unit-{''.join(c if c.isalnum() or c in '-_' else '_' for c in serial)}"
+        row, steps, alarms = one_unit(source, request)
+        name = f"unit-{''.join(c if c.isalnum() or c in '-_' else '_' for c in row.serial)}"
         if kind == "csv":
             return _download(iter([export.unit_steps_csv(steps)]), f"{name}.csv",
                              "text/csv; charset=utf-8")
