@@ -99,6 +99,8 @@ def run(args: argparse.Namespace) -> int:
         return _usage("--limit must be >= 1")
     if not 10 <= args.points <= 5000:
         return _usage("--points must be in 10..5000")
+    if args.csv and (args.figures or args.report):
+        return _usage("--csv is for --units, --unit and --trend; figures come as text or --json")
     if not (args.units or args.unit or args.figures or args.trend or args.report):
         return _serve(args)
     with SqliteStepLog(args.log, readonly=True) as step_log:
@@ -203,7 +205,7 @@ def _print_figures(step_log: SqliteStepLog, args: argparse.Namespace, period: Pe
     from stationcheck.quality.json_views import figures_dict
 
     figures = figures_dict(station_figures(step_log.connection, period))
-    if args.json or args.csv:
+    if args.json:
         print(json.dumps(figures, ensure_ascii=False))
         return 0
     ftt, ci = figures["ftt_rate"], figures["ftt_interval_95"]

@@ -88,6 +88,7 @@ def _newer_log(path: Path) -> Path:
         (_newer_log, ["--figures"], StoreError.exit_code, "newer than this stationcheck"),
         (lambda p: p, ["--since", "someday"], EXIT_USAGE, ""),
         (lambda p: p, ["--units", "--limit", "0"], EXIT_USAGE, "--limit"),
+        (lambda p: p, ["--figures", "--csv"], EXIT_USAGE, "--csv is for"),
     ],
 )
 def test_bad_input_is_one_line(tmp_path: Path, capsys: pytest.CaptureFixture[str], make: object,
