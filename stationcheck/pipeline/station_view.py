@@ -39,6 +39,7 @@ REASON_WORDS = {
     "tip_not_at_target": "tip not at the next position",
     "dwelling": "hold the tool still at the position",
     "reset_hold": "hold the tool still at the position",
+    "new_attempt_dwell": "hold the tool still at the position",
     "pick_step": "take the part first",
     "check_step": "fastening done; check step",
     "confirm_step": "acknowledge first",

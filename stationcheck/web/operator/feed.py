@@ -87,7 +87,6 @@ class OperatorFeed:
         self.acks = AckInbox()
         self.frames_handed = 0
         self.frames_rendered = 0
-        self.pictures_rendered = 0
         self.sent_ms: deque[float] = deque(maxlen=20_000)  # handed -> picture written to a viewer
         self.last_sent_seq = 0
         self.ended: str | None = None
@@ -176,10 +175,6 @@ class OperatorFeed:
             with self._lock:
                 self._image_viewers -= 1
 
-    @property
-    def picture_viewers(self) -> int:
-        return self._image_viewers
-
     def note_sent(self, frame: ScreenFrame) -> None:
         """A viewer's stream has written ``frame``'s picture to its socket."""
         self.sent_ms.append((self.clock() - frame.handed_at_s) * 1e3)
@@ -207,10 +202,11 @@ class OperatorFeed:
                 if handed is None and self._again:
                     handed = self._last
                 self._slot, self._again = None, False
+                if handed is not None:
+                    self._last = handed  # under the lock: on_stop may hand it again
                 pictures = self._image_viewers > 0
             if handed is None or self.closed:
                 continue
-            self._last = handed
             try:
                 frame = self._render(handed, pictures)
             except Exception:
@@ -225,18 +221,11 @@ class OperatorFeed:
         view = handed.view
         steady = steady_state(view, self.wording, mode=self.mode,
                               recent=list(handed.recent_alarms),
-                              acks_allowed=self.decisions is not None)
-        if self.ended is not None:
-            steady["ended"] = self.ended
-            steady["tool"] = {"enabled": False, "meaning": "neutral", "words": "TOOL OFF",
-                              "reason": "the station program is not running"}
-            steady["ack"] = {**steady["ack"], "allowed": False}
+                              acks_allowed=self.decisions is not None, ended=self.ended)
         jpeg = self._picture(handed) if pictures else None
         self._seq += 1
         ready = self.clock()
         self.frames_rendered += 1
-        if jpeg is not None:
-            self.pictures_rendered += 1
         return ScreenFrame(self._seq, view.frame_index, steady,
                            json.dumps(steady, separators=(",", ":")),
                            tick_state(view, self._seq), jpeg, handed.handed_at_s, ready)

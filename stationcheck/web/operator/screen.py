@@ -7,7 +7,7 @@ import argparse
 from collections.abc import Iterator
 from contextlib import contextmanager
 from dataclasses import dataclass, field
-from typing import TYPE_CHECKING, Any
+from typing import TYPE_CHECKING
 
 from stationcheck.web.app import start_server
 from stationcheck.web.operator.feed import OperatorFeed, ScreenMode
@@ -20,8 +20,8 @@ if TYPE_CHECKING:
 
     from stationcheck.core.plan import StationPlan
     from stationcheck.live.loop import LiveLoop
+    from stationcheck.pipeline.session import Watcher
     from stationcheck.web.server import WebServer
-
 
 
 class OperatorScreen:
@@ -64,7 +64,7 @@ class ScreenWiring:
     """What a command hands its run: extra frame-and-step sinks, the screen if any."""
 
     screen: OperatorScreen | None = None
-    watchers: list[Any] = field(default_factory=list)
+    watchers: list[Watcher] = field(default_factory=list)
 
     @property
     def url(self) -> str | None:

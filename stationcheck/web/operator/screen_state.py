@@ -18,14 +18,14 @@ from stationcheck.core.events import Event
 from stationcheck.core.plan import ConfirmStep, FastenStep
 from stationcheck.overlay.scene import fastener_state
 from stationcheck.pipeline.station_view import Meaning, StationView
-from stationcheck.web.operator.wording import EVENT_ALARMS, Wording, condition_alarm
+from stationcheck.web.operator.wording import Wording, condition_alarm, event_alarm
 
 EVENT_ALARM_SHOWN_S = 8.0
-# enable reasons the station view has no words for: a fresh hold before the next attempt
-HOLD_WORDS = {
-    "new_attempt_dwell": "hold the tool still at the position",
-    "no_unit": "no unit on the station",
-}
+# the screen's own words for an enable reason, where the station view's differ
+SCREEN_REASON_WORDS = {"no_unit": "no unit on the station"}
+# the tool once the station program has stopped: off, whatever the last frame said
+ENDED_TOOL = {"enabled": False, "meaning": "neutral", "words": "TOOL OFF",
+              "reason": "the station program is not running"}
 POSITION_MEANING: dict[str, tuple[Meaning, str]] = {
     "enabled": ("normal", "ON"),
     "target": ("action", "NEXT"),
@@ -70,16 +70,13 @@ def alarms_shown(view: StationView, recent: list[str]) -> list[dict[str, str]]:
     """Conditions first (faults before abnormal), then recent one-off alarms; no repeats."""
     shown = [_alarm(code, *condition_alarm(code)) for code in view.output.alarms]
     shown.sort(key=lambda a: a["meaning"] != "fault")
-    for code in dict.fromkeys(recent):
-        meaning, words, todo = EVENT_ALARMS.get(
-            code, ("abnormal", code.replace("_", " ").capitalize(), ""))
-        shown.append(_alarm(code, meaning, words, todo))
+    shown.extend(_alarm(code, *event_alarm(code)) for code in dict.fromkeys(recent))
     return shown
 
 
 def _tool(view: StationView) -> dict[str, Any]:
     on = view.output.tool_enabled
-    reason = HOLD_WORDS.get(view.output.enable_reason, view.enable_reason_words)
+    reason = SCREEN_REASON_WORDS.get(view.output.enable_reason, view.enable_reason_words)
     return {"enabled": on, "meaning": view.enable_meaning,
             "words": "TOOL ON" if on else "TOOL OFF", "reason": reason}
 
@@ -138,10 +135,12 @@ def _ack(view: StationView, wording: Wording, acks_allowed: bool) -> dict[str, A
 
 
 def steady_state(view: StationView, wording: Wording, *, mode: str, recent: list[str],
-                 acks_allowed: bool) -> dict[str, Any]:
+                 acks_allowed: bool, ended: str | None = None) -> dict[str, Any]:
+    """``ended``: why the run ended (it did when given); the tool then shows off and no
+    acknowledge can be pressed."""
     instruction = wording.instruction(view, mode)
     positions, done, total = _positions(view, wording)
-    return {
+    state: dict[str, Any] = {
         "mode": mode,
         "station": wording.plan.station,
         "instruction": {"kind": instruction.kind, "text": instruction.text,
@@ -153,6 +152,11 @@ def steady_state(view: StationView, wording: Wording, *, mode: str, recent: list
         "alarms": alarms_shown(view, recent),
         "ack": _ack(view, wording, acks_allowed),
     }
+    if ended is not None:
+        state["ended"] = ended
+        state["tool"] = dict(ENDED_TOOL)
+        state["ack"]["allowed"] = False
+    return state
 
 
 def tick_state(view: StationView, seq: int) -> dict[str, Any]:

@@ -20,16 +20,17 @@ from stationcheck.pipeline.station_view import (
     StationViewBuilder,
 )
 
-# code -> (meaning, what happened, what to do); conditions last while their cause lasts
-CONDITION_ALARMS: dict[str, tuple[Meaning, str, str]] = {
-    "camera_moved": ("fault", "Camera moved", "Call setup to put the camera back and check it."),
-    "detector_fault": ("fault", "Tool detection failed", "Call setup. The tool stays off."),
-    "frame_stale": ("fault", "No fresh camera image",
+# code -> (what happened, what to do); conditions last while their cause lasts. Their meaning
+# is the station view's (ALARM_WORDS), the same as on the annotated video.
+CONDITION_WORDS: dict[str, tuple[str, str]] = {
+    "camera_moved": ("Camera moved", "Call setup to put the camera back and check it."),
+    "detector_fault": ("Tool detection failed", "Call setup. The tool stays off."),
+    "frame_stale": ("No fresh camera image",
                     "Check the camera cable and light, then call maintenance."),
-    "link_lost": ("fault", "PLC link lost", "Call maintenance. The tool stays off."),
-    "tool_lost": ("abnormal", "Tool not seen", "Bring the tool back into view of the camera."),
-    "wrong_position": ("abnormal", "Wrong position", "Move the tool to the marked position."),
-    "wrong_bin": ("abnormal", "Wrong bin", "Put the part back; take it from the marked bin."),
+    "link_lost": ("PLC link lost", "Call maintenance. The tool stays off."),
+    "tool_lost": ("Tool not seen", "Bring the tool back into view of the camera."),
+    "wrong_position": ("Wrong position", "Move the tool to the marked position."),
+    "wrong_bin": ("Wrong bin", "Put the part back; take it from the marked bin."),
 }
 # one-off alarms: shown for a while after they happened
 EVENT_ALARMS: dict[str, tuple[Meaning, str, str]] = {
@@ -172,9 +173,9 @@ class Wording:
 
     def _fault_words(self, view: StationView) -> str:
         for code in view.output.alarms:
-            found = CONDITION_ALARMS.get(code)
-            if found is not None and found[0] == "fault":
-                return f"{found[1]}. {found[2]}"
+            meaning, words, todo = condition_alarm(code)
+            if meaning == "fault" and code in CONDITION_WORDS:
+                return f"{words}. {todo}"
         return view.enable_reason_words
 
     def _finished(self, view: StationView) -> Instruction:
@@ -193,11 +194,17 @@ class Wording:
                            view.output.guidance.words, meaning)
 
 
+def _plain(code: str) -> str:
+    return code.replace("_", " ").capitalize()
+
+
 def condition_alarm(code: str) -> tuple[Meaning, str, str]:
     """Meaning, words and what to do for a condition alarm code (any code gets words)."""
-    if code in CONDITION_ALARMS:
-        return CONDITION_ALARMS[code]
-    if code in ALARM_WORDS:
-        meaning, words = ALARM_WORDS[code]
-        return meaning, words, ""
-    return "abnormal", code.replace("_", " ").capitalize(), ""
+    meaning, words = ALARM_WORDS.get(code, ("abnormal", _plain(code)))
+    words, todo = CONDITION_WORDS.get(code, (words, ""))
+    return meaning, words, todo
+
+
+def event_alarm(code: str) -> tuple[Meaning, str, str]:
+    """Meaning, words and what to do for a one-off alarm code (any code gets words)."""
+    return EVENT_ALARMS.get(code, ("abnormal", _plain(code), ""))

@@ -12,6 +12,7 @@ const screen = {
   connected: false,
   lastTickAt: 0,
   videoGen: 0,
+  videoWaiting: false,
   state: null,
   tick: null,
 };
