@@ -114,6 +114,8 @@ def usage_problem(args: argparse.Namespace) -> str | None:
         return "a VIDEO needs its station inputs (--inputs)"
     if args.observations is not None and args.annotate is not None:
         return "--annotate needs the VIDEO, not --observations"
+    if args.observations is not None and (args.screen or args.pace is not None):
+        return "--screen and --pace need the VIDEO, not --observations"
     for name in ("threads", "frames", "annotate_every"):
         value = getattr(args, name)
         if value is not None and value < 1:

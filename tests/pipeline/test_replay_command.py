@@ -159,3 +159,13 @@ def test_the_demo_never_writes_into_a_folder_that_holds_something(
     assert main(["demo", "--out", str(tmp_path)]) == 3
     _one_error_line(capfd, "is not empty")
     assert [p.name for p in tmp_path.iterdir()] == ["keep.txt"]
+
+
+@pytest.mark.parametrize("extra", [["--screen"], ["--pace", "2"]])
+def test_screen_and_pace_need_the_video(tmp_path: Path, capfd: pytest.CaptureFixture[str],
+                                        extra: list[str]) -> None:
+    capfd.readouterr()
+    argv = ["replay", "--observations", str(tmp_path / "seen.jsonl"), "--config", str(CONFIG),
+            *extra]
+    assert main(argv) == EXIT_USAGE
+    _one_error_line(capfd, "need the VIDEO")
