@@ -1,8 +1,10 @@
 """The live loop: newest frame -> frame path -> outputs to the link worker, with watchdogs.
 
 The loop never waits on the PLC (the link worker does the I/O) and waits for a frame at most
-one watchdog cycle. Observations from the PLC are applied before the next frame, stamped with
-the loop's current time, so time never runs backwards for the sequencer. A cycle's step-log
+one watchdog cycle. A frame's image judgements run on the frame path's judging thread while the
+loop waits for and detects the next frame; their findings are decided before anything else in
+the next cycle. Observations from the PLC come next, stamped with the loop's current time, so
+time never runs backwards for the sequencer; then the new frame's tool position. A cycle's step-log
 records are committed right after its outputs are handed to the link worker (the disk's sync
 time never delays the enable), and the PLC's handshakes are acknowledged only once what they
 brought is committed. Whatever ends the
@@ -21,9 +23,9 @@ from dataclasses import dataclass, field, replace
 from stationcheck.core.observations import LinkStatus, Observation
 from stationcheck.core.outputs import Output
 from stationcheck.core.records import Frame
-from stationcheck.live.grabber import FrameGrabber
+from stationcheck.live.grabber import FrameGrabber, GrabbedFrame
 from stationcheck.live.watchdog import WatchdogLimits, Watchdogs
-from stationcheck.pipeline.frame_path import FramePath, FrameResult
+from stationcheck.pipeline.frame_path import FramePath, FrameResult, Sighting
 from stationcheck.pipeline.loop import FrameSink
 from stationcheck.plc.signals import OutputEncoder, OutputSignals
 from stationcheck.plc.worker import LinkWorker
@@ -62,6 +64,7 @@ class LiveLoop:
         self.frame_sinks = frame_sinks
         self.on_frame_taken = on_frame_taken
         self._frame_in_hand_s: float | None = None
+        self._taken_at = 0.0
         path.on_decided = self._publish_decided  # the enable goes out before the judgements
         self._acks_taken = (0, 0)
         self._acks_committed = (0, 0)  # handshakes whose records are on disk
@@ -84,16 +87,19 @@ class LiveLoop:
                 self.stats.cycles += 1
                 now = time.perf_counter()
                 self._advance_clock(now)
-                healthy = False
+                sighting = None if grabbed is None else self._sight(grabbed)
+                previous = self.path.settle()  # the previous frame's judgements decided
                 for observation in self._link_observations(now):
                     self._apply(observation)
-                if grabbed is None:
+                healthy = False
+                if grabbed is None or sighting is None:
                     for observation in self.watchdogs.check_frames(now - self._last_frame_at,
                                                                   self.t_s):
                         self._apply(observation)
                     since_s = None
                 else:
-                    healthy = self._process(grabbed.frame, grabbed.grabbed_at_s)
+                    self._decide(sighting, grabbed.grabbed_at_s)
+                    healthy = sighting.keypoints is not None
                     since_s = grabbed.grabbed_at_s
                     self._last_frame_at = grabbed.grabbed_at_s
                 self._publish(healthy, since_s)
@@ -101,21 +107,20 @@ class LiveLoop:
                 self._acks_committed = self._acks_taken
                 if grabbed is not None:
                     self.stats.busy_ms.append((time.perf_counter() - now) * 1e3)
+                self._hand_on(previous)
+            self._hand_on(self.path.settle())
+            self.decisions.flush()
         except BaseException as exc:
             error = exc
             logger.error("live loop stopped: %s", exc)
             raise
         finally:
             self.stats.wall_s = time.perf_counter() - started
+            self.path.close()
             self._publish(False, None, force_inhibit=True)
             self.worker.stop()
             self.grabber.stop()
-            self.decisions.stop(error)
-            for sink in self.frame_sinks:
-                try:
-                    sink.on_stop(error)
-                except Exception:
-                    logger.exception("a frame sink failed while stopping")
+            self.decisions.stop(error, also=self.frame_sinks)
         return self.stats
 
     def _advance_clock(self, now: float) -> None:
@@ -130,24 +135,29 @@ class LiveLoop:
         return self.watchdogs.check_link(self.worker.up, self.worker.silent_s(),
                                          self.t_s) + found
 
-    def _process(self, frame: object, in_hand_s: float) -> bool:
-        assert isinstance(frame, Frame)
+    def _sight(self, grabbed: GrabbedFrame) -> Sighting:
+        frame = grabbed.frame
         if self.on_frame_taken is not None:
             self.on_frame_taken(frame)
         if frame.t_s < self.t_s:
             frame = replace(frame, t_s=self.t_s)
         self.watchdogs.frame_arrived()
-        t0 = time.perf_counter()
+        self._taken_at = time.perf_counter()
+        return self.path.sight(frame)
+
+    def _decide(self, sighting: Sighting, in_hand_s: float) -> None:
         self._frame_in_hand_s = in_hand_s
-        result: FrameResult = self.path.process(frame)
+        self.path.decide(sighting)
         self._frame_in_hand_s = None
-        self.stats.process_ms.append((time.perf_counter() - t0) * 1e3)
+        self.stats.process_ms.append((time.perf_counter() - self._taken_at) * 1e3)
         self.stats.frames += 1
-        self.t_s = frame.t_s
-        self._last_frame_t_s = frame.t_s
-        for sink in self.frame_sinks:
-            sink.on_frame(result)
-        return result.keypoints is not None
+        self.t_s = sighting.frame.t_s
+        self._last_frame_t_s = sighting.frame.t_s
+
+    def _hand_on(self, result: FrameResult | None) -> None:
+        if result is not None:
+            for sink in self.frame_sinks:
+                sink.on_frame(result)
 
     def _apply(self, observation: Observation) -> None:
         self.decisions.apply(observation)

@@ -105,10 +105,15 @@ class DecisionCore:
             if flush is not None:
                 flush()
 
-    def stop(self, error: BaseException | None) -> None:
-        """Tell every sink the run ended; a sink that fails here does not stop the others."""
-        for sink in self.sinks:
-            stop_safely(sink, error)
+    def stop(self, error: BaseException | None, also: Sequence[Stoppable] = ()) -> None:
+        """Tell every sink, then each of ``also`` (e.g. the loop's frame sinks), that the run
+        ended, each object once however many roles it has; a sink that fails here does not
+        stop the others."""
+        stopped: list[Stoppable] = []
+        for sink in (*self.sinks, *also):
+            if not any(sink is done for done in stopped):
+                stopped.append(sink)
+                stop_safely(sink, error)
 
 
 def stop_safely(sink: Stoppable, error: BaseException | None) -> None:

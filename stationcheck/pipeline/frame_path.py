@@ -2,9 +2,17 @@
 sequencer.
 
 The zone observation is decided first and handed to ``on_decided`` (the live loop sends the
-tool enable from there), so the image judgements' time never delays the enable signal; what
-they find is decided right after, in the same frame, and a change it makes (camera moved:
-inhibit) goes out at the end of the same cycle.
+tool enable from there), so the image judgements' time never delays the enable signal.
+
+Two ways to drive it. :meth:`FramePath.process` takes one frame from start to end. The loops
+use three calls instead, so that a frame's image judgements run on a second thread while the
+next frame is in the detector: :meth:`~FramePath.sight` (detector, tracker, zones: no decision
+yet), :meth:`~FramePath.settle` (waits for the previous frame's judgements and decides what they
+found, giving that frame's :class:`FrameResult`), then :meth:`~FramePath.decide` (the zone
+observation, then the judgements start). The sequencer sees the same observations in the same
+order either way: a frame's zone observation, its judgements', whatever the caller applies
+between frames, the next frame's zone observation. Only the decision steps ever touch the
+sequencer, always on the caller's thread.
 
 :class:`FramePath` holds the tracker and zone states for the caller's loop and hands every
 observation to a :class:`~stationcheck.pipeline.decisions.DecisionCore`. It does not know where
@@ -20,6 +28,7 @@ from __future__ import annotations
 import logging
 import time
 from collections.abc import Callable, Sequence
+from concurrent.futures import Future, ThreadPoolExecutor
 from dataclasses import dataclass
 
 from stationcheck.core.observations import DetectorFault, Observation, ZoneObservation
@@ -61,6 +70,29 @@ class FrameResult:
     times: StageTimes
 
 
+@dataclass(frozen=True)
+class Sighting:
+    """One frame as the detector, tracker and zones saw it, before any decision."""
+
+    frame: Frame
+    keypoints: Keypoints | None  # None when the detector failed on this frame
+    fault: DetectorFault | None
+    pose: ToolPose
+    zone: ZoneObservation
+    detect_ms: float
+    track_ms: float
+
+
+@dataclass
+class _Pending:
+    """A decided frame whose judgements' findings are not decided yet."""
+
+    sighting: Sighting
+    first: DecisionStep
+    decide_ms: float
+    judged: Future[tuple[list[Observation], float]] | None = None
+
+
 class FramePath:
     def __init__(
         self,
@@ -84,8 +116,18 @@ class FramePath:
         self.faults_in_a_row = 0
         self.last_pose: ToolPose | None = None
         self.on_decided: Callable[[Output], None] | None = None
+        self._pending: _Pending | None = None
+        self._executor: ThreadPoolExecutor | None = None
 
     def process(self, frame: Frame, frame_age_ms: float = 0.0) -> FrameResult:
+        """One frame from start to end, judgements included, on the caller's thread."""
+        self.decide(self.sight(frame, frame_age_ms), judge_now=True)
+        result = self.settle()
+        assert result is not None
+        return result
+
+    def sight(self, frame: Frame, frame_age_ms: float = 0.0) -> Sighting:
+        """What the detector, tracker and zones make of ``frame``; decides nothing."""
         t0 = time.perf_counter()
         keypoints, fault = self._detect(frame)
         t1 = time.perf_counter()
@@ -95,32 +137,71 @@ class FramePath:
             keypoints_for_tracker = keypoints
         self.tracker_state, pose = self.tracker.update(self.tracker_state, keypoints_for_tracker)
         self.visit, zone_obs = self.zone_map.observe(self.visit, pose, frame_age_ms)
+        self.last_pose = pose
         t2 = time.perf_counter()
-        first = self.decisions.apply(fault if fault is not None else zone_obs)
+        return Sighting(frame, keypoints, fault, pose, zone_obs,
+                        detect_ms=(t1 - t0) * 1e3, track_ms=(t2 - t1) * 1e3)
+
+    def decide(self, sighting: Sighting, judge_now: bool = False) -> None:
+        """Steps the sighting's zone observation (or detector fault), hands the output to
+        ``on_decided``, then starts the frame's image judgements: on the judging thread, or
+        at :meth:`settle` with ``judge_now``. Call :meth:`settle` first if a frame is pending."""
+        if self._pending is not None:
+            raise RuntimeError("settle the previous frame before deciding the next")
+        t0 = time.perf_counter()
+        first = self.decisions.apply(sighting.fault or sighting.zone)
         if self.on_decided is not None:
             self.on_decided(first.output)
-        t3 = time.perf_counter()
-        judged: list[Observation] = []
-        for judge in self.judges:
-            judged.extend(judge.judge(frame, pose, first.output))
-        t4 = time.perf_counter()
+        decide_ms = (time.perf_counter() - t0) * 1e3
+        pending = _Pending(sighting, first, decide_ms)
+        if self.judges and not judge_now:
+            pending.judged = self._judging_thread().submit(
+                self._judge, sighting.frame, sighting.pose, first.output)
+        self._pending = pending
+
+    def settle(self) -> FrameResult | None:
+        """The last decided frame's result once its judgements' findings are decided (None
+        when no frame is pending). Re-raises what a judgement raised."""
+        pending, self._pending = self._pending, None
+        if pending is None:
+            return None
+        sighting, first = pending.sighting, pending.first
+        if pending.judged is not None:
+            judged, judge_ms = pending.judged.result()
+        else:
+            judged, judge_ms = self._judge(sighting.frame, sighting.pose, first.output)
+        t0 = time.perf_counter()
         steps = [first] + [self.decisions.apply(observation) for observation in judged]
-        t5 = time.perf_counter()
-        self.last_pose = pose
+        decide_ms = pending.decide_ms + (time.perf_counter() - t0) * 1e3
         return FrameResult(
-            frame=frame,
-            keypoints=keypoints,
-            pose=pose,
-            zone=zone_obs,
+            frame=sighting.frame,
+            keypoints=sighting.keypoints,
+            pose=sighting.pose,
+            zone=sighting.zone,
             steps=tuple(steps),
             output=steps[-1].output,
-            times=StageTimes(
-                detect_ms=(t1 - t0) * 1e3,
-                track_ms=(t2 - t1) * 1e3,
-                judge_ms=(t4 - t3) * 1e3,
-                decide_ms=(t3 - t2 + t5 - t4) * 1e3,
-            ),
+            times=StageTimes(detect_ms=sighting.detect_ms, track_ms=sighting.track_ms,
+                             judge_ms=judge_ms, decide_ms=decide_ms),
         )
+
+    def close(self) -> None:
+        """Stops the judging thread (a pending frame's judgements finish first)."""
+        if self._executor is not None:
+            self._executor.shutdown(wait=True)
+            self._executor = None
+
+    def _judging_thread(self) -> ThreadPoolExecutor:
+        if self._executor is None:
+            self._executor = ThreadPoolExecutor(max_workers=1, thread_name_prefix="judging")
+        return self._executor
+
+    def _judge(self, frame: Frame, pose: ToolPose,
+               output: Output) -> tuple[list[Observation], float]:
+        t0 = time.perf_counter()
+        judged: list[Observation] = []
+        for judge in self.judges:
+            judged.extend(judge.judge(frame, pose, output))
+        return judged, (time.perf_counter() - t0) * 1e3
 
     def _detect(self, frame: Frame) -> tuple[Keypoints | None, DetectorFault | None]:
         hint = self.last_pose.tip_px if self.last_pose is not None else None

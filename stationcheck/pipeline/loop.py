@@ -16,7 +16,6 @@ from typing import Protocol
 
 from stationcheck.core.observations import Observation
 from stationcheck.core.records import Frame
-from stationcheck.pipeline.decisions import stop_safely
 from stationcheck.pipeline.frame_path import FramePath, FrameResult
 from stationcheck.sources.frame_source import FrameSource
 
@@ -100,18 +99,17 @@ def run_loop(
             last_t_s = frame.t_s
             if on_read is not None:
                 on_read(frame)
+            sighting = path.sight(frame)  # the previous frame's judgements run meanwhile
+            previous = path.settle()
+            t2 = time.perf_counter()
             for observation in schedule.due(frame.t_s):
                 decisions.apply(observation)
-            t2 = time.perf_counter()
-            result = path.process(frame)
             t3 = time.perf_counter()
-            for sink in frame_sinks:
-                sink.on_frame(result)
-            t4 = time.perf_counter()
-            _record(stats, result, read_ms=(t1 - t0) * 1e3, inputs_ms=(t2 - t1) * 1e3,
-                    outputs_ms=(t4 - t3) * 1e3)
-            if progress is not None:
-                progress(stats.frames, source.frame_count)
+            path.decide(sighting)
+            stats.add("read", (t1 - t0) * 1e3)
+            stats.add("inputs", (t3 - t2) * 1e3)
+            _hand_on(previous, stats, frame_sinks, progress, source.frame_count)
+        _hand_on(path.settle(), stats, frame_sinks, progress, source.frame_count)
         if last_t_s is not None:
             for observation in schedule.due(last_t_s + 1.0 / source.fps):
                 decisions.apply(observation)
@@ -125,19 +123,25 @@ def run_loop(
         raise
     finally:
         stats.wall_s = time.perf_counter() - started
-        decisions.stop(error)
-        for sink in frame_sinks:
-            stop_safely(sink, error)
+        path.close()
+        decisions.stop(error, also=frame_sinks)
     return stats
 
 
-def _record(stats: LoopStats, result: FrameResult, *, read_ms: float, inputs_ms: float,
-            outputs_ms: float) -> None:
+def _hand_on(result: FrameResult | None, stats: LoopStats, frame_sinks: Sequence[FrameSink],
+             progress: Progress | None, frame_count: int | None) -> None:
+    """A settled frame's result to the sinks and the figures."""
+    if result is None:
+        return
+    t0 = time.perf_counter()
+    for sink in frame_sinks:
+        sink.on_frame(result)
+    stats.add("outputs", (time.perf_counter() - t0) * 1e3)
     stats.frames += 1
     times = result.times
-    stats.add("read", read_ms)
     stats.add("detect", times.detect_ms)
     stats.add("track_zones", times.track_ms)
     stats.add("judge", times.judge_ms)
-    stats.add("decide_and_log", times.decide_ms + inputs_ms)
-    stats.add("outputs", outputs_ms)
+    stats.add("decide_and_log", times.decide_ms)
+    if progress is not None:
+        progress(stats.frames, frame_count)
