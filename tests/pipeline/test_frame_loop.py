@@ -3,6 +3,7 @@ detector failures and any error in the loop ending with the tool inhibited and l
 
 from __future__ import annotations
 
+import threading
 from collections.abc import Sequence
 from pathlib import Path
 
@@ -10,6 +11,7 @@ import numpy as np
 import pytest
 
 from stationcheck.core.observations import (
+    CameraMoved,
     Observation,
     TighteningResult,
     ToolRunning,
@@ -207,3 +209,86 @@ def test_inputs_just_after_the_last_frame_count_and_later_ones_are_left_out() ->
     _, collect = run(inputs, detector, 10)
     started = [s.observation.serial for s in collect.steps if isinstance(s.observation, UnitStarted)]
     assert started == ["U-1", "U-2"]
+
+
+class CameraBumps:
+    """A judge that reports the camera moved on some frames and back in place later, and notes
+    the thread it ran on."""
+
+    def __init__(self, moved_on: Sequence[int], back_on: Sequence[int],
+                 fail_on: int | None = None) -> None:
+        self.moved_on, self.back_on, self.fail_on = set(moved_on), set(back_on), fail_on
+        self.threads: set[str] = set()
+
+    def judge(self, frame: Frame, pose: object, output: object) -> list[Observation]:
+        self.threads.add(threading.current_thread().name)
+        if frame.index == self.fail_on:
+            raise RuntimeError(f"judge broke on frame {frame.index}")
+        if frame.index in self.moved_on:
+            return [CameraMoved(t_s=frame.t_s, moved=True, shift_px=9.0)]
+        if frame.index in self.back_on:
+            return [CameraMoved(t_s=frame.t_s, moved=False, shift_px=0.0)]
+        return []
+
+
+BUMP_INPUTS = [UnitStarted(t(2), "U-1"), ToolRunning(t(20), True), ToolRunning(t(30), False),
+               TighteningResult(t(30), True, 5.0, 30.0, 1), ToolRunning(t(52), True),
+               ToolRunning(t(58), False), TighteningResult(t(58), True, 5.0, 30.0, 2)]
+
+
+def step_kinds(steps: Sequence[DecisionStep]) -> list[tuple[str, float, bool]]:
+    return [(type(s.observation).__name__, s.observation.t_s, s.output.tool_enabled)
+            for s in steps]
+
+
+def test_the_loop_decides_what_the_judging_thread_found_as_one_frame_at_a_time_would() -> None:
+    """Judgements on their own thread change nothing the sequencer sees: same observations, same
+    order, same outputs as :meth:`FramePath.process` frame by frame with inputs between."""
+    spans = [(0, AWAY), (10, AT_A), (40, AT_B)]
+    bumps = dict(moved_on=[19, 45], back_on=[29, 47])  # frames just before inputs are due
+
+    one_by_one = Collect()
+    path = FramePath(PLAN, tip_track(spans, 80), DecisionCore(PLAN, sinks=[one_by_one]),
+                     [CameraBumps(**bumps)])
+    schedule = InputSchedule(BUMP_INPUTS)
+    for frame in MemoryFrameSource(images(80), FPS):
+        for observation in schedule.due(frame.t_s):
+            path.decisions.apply(observation)
+        one_by_one.on_frame(path.process(frame))
+
+    pipelined = Collect()
+    judge = CameraBumps(**bumps)
+    path = FramePath(PLAN, tip_track(spans, 80), DecisionCore(PLAN, sinks=[pipelined]), [judge])
+    run_loop(MemoryFrameSource(images(80), FPS), path, InputSchedule(BUMP_INPUTS), [pipelined])
+
+    assert judge.threads and all(name.startswith("judging") for name in judge.threads)
+    assert step_kinds(pipelined.steps) == step_kinds(one_by_one.steps)
+    kinds = [kind for kind, _, _ in step_kinds(pipelined.steps)]
+    assert kinds.count("CameraMoved") == 4 and kinds.count("TighteningResult") == 2
+    assert [f.frame.index for f in pipelined.frames] == list(range(80))
+    assert [f.output for f in pipelined.frames] == [f.output for f in one_by_one.frames]
+    assert [len(f.steps) for f in pipelined.frames] == [len(f.steps) for f in one_by_one.frames]
+
+
+def test_a_judgement_that_raises_stops_the_loop_inhibited_with_its_error() -> None:
+    collect = Collect()
+    decisions = DecisionCore(PLAN, sinks=[collect])
+    path = FramePath(PLAN, tip_track([(0, AT_A)], 40), decisions,
+                     [CameraBumps([], [], fail_on=20)])
+    with pytest.raises(RuntimeError, match="judge broke on frame 20"):
+        run_loop(MemoryFrameSource(images(40), FPS), path, InputSchedule(BUMP_INPUTS), [collect])
+    assert len(collect.stopped) == 1 and isinstance(collect.stopped[0], RuntimeError)
+    assert [f.frame.index for f in collect.frames] == list(range(20))  # up to the broken one
+    assert path._executor is None  # the judging thread was stopped
+
+
+def test_deciding_a_frame_before_the_previous_one_is_settled_is_refused() -> None:
+    path = FramePath(PLAN, tip_track([(0, AT_A)], 3), DecisionCore(PLAN), [CameraBumps([], [])])
+    frames = [Frame(i, t(i), image) for i, image in enumerate(images(3))]
+    path.decide(path.sight(frames[0]))
+    with pytest.raises(RuntimeError, match="settle the previous frame"):
+        path.decide(path.sight(frames[1]))
+    first = path.settle()
+    assert first is not None and first.frame.index == 0
+    assert path.settle() is None
+    path.close()
