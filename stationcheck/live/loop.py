@@ -65,6 +65,7 @@ class LiveLoop:
         self.on_frame_taken = on_frame_taken
         self._frame_in_hand_s: float | None = None
         self._taken_at = 0.0
+        self._frame_healthy = False
         path.on_decided = self._publish_decided  # the enable goes out before the judgements
         self._acks_taken = (0, 0)
         self._acks_committed = (0, 0)  # handshakes whose records are on disk
@@ -91,7 +92,6 @@ class LiveLoop:
                 previous = self.path.settle()  # the previous frame's judgements decided
                 for observation in self._link_observations(now):
                     self._apply(observation)
-                healthy = False
                 if grabbed is None or sighting is None:
                     for observation in self.watchdogs.check_frames(now - self._last_frame_at,
                                                                   self.t_s):
@@ -99,10 +99,9 @@ class LiveLoop:
                     since_s = None
                 else:
                     self._decide(sighting, grabbed.grabbed_at_s)
-                    healthy = sighting.keypoints is not None
                     since_s = grabbed.grabbed_at_s
                     self._last_frame_at = grabbed.grabbed_at_s
-                self._publish(healthy, since_s)
+                self._publish(since_s)
                 self.decisions.flush()
                 self._acks_committed = self._acks_taken
                 if grabbed is not None:
@@ -117,7 +116,7 @@ class LiveLoop:
         finally:
             self.stats.wall_s = time.perf_counter() - started
             self.path.close()
-            self._publish(False, None, force_inhibit=True)
+            self._publish(None, force_inhibit=True)
             self.worker.stop()
             self.grabber.stop()
             self.decisions.stop(error, also=self.frame_sinks)
@@ -147,6 +146,7 @@ class LiveLoop:
 
     def _decide(self, sighting: Sighting, in_hand_s: float) -> None:
         self._frame_in_hand_s = in_hand_s
+        self._frame_healthy = sighting.keypoints is not None
         self.path.decide(sighting)
         self._frame_in_hand_s = None
         self.stats.process_ms.append((time.perf_counter() - self._taken_at) * 1e3)
@@ -163,13 +163,14 @@ class LiveLoop:
         self.decisions.apply(observation)
 
     def _publish_decided(self, output: Output) -> None:
-        """The frame's tool-position decision, sent at once (heartbeat unchanged)."""
+        """The frame's tool-position decision, sent at once with the cycle's heartbeat (which
+        counts only for a frame the detector read and over a working link)."""
+        if self._frame_healthy and self.watchdogs.link_ok:
+            self.stats.heartbeat = (self.stats.heartbeat + 1) & 0xFFFF
         self._send(output, self._frame_in_hand_s)
 
-    def _publish(self, healthy: bool, since_s: float | None,
-                 force_inhibit: bool = False) -> None:
-        if healthy and self.watchdogs.link_ok:
-            self.stats.heartbeat = (self.stats.heartbeat + 1) & 0xFFFF
+    def _publish(self, since_s: float | None, force_inhibit: bool = False) -> None:
+        """The cycle's outputs; the link writes them only if they changed since the decision."""
         self._send(self.decisions.last_output, since_s, force_inhibit)
 
     def _send(self, output: Output | None, since_s: float | None,

@@ -1,8 +1,9 @@
 """The link worker: all PLC I/O on its own thread, so the frame loop never waits for the PLC.
 
 The loop :meth:`LinkWorker.publish` es its newest outputs and :meth:`LinkWorker.take` s the
-observations decoded since the last call; neither blocks on I/O. Every cycle the worker writes
-the newest outputs and reads the inputs. Any failure marks the link down (a ``LinkStatus(ok=False)``
+observations decoded since the last call; neither blocks on I/O. The worker writes the newest
+outputs when they differ from what it last wrote (and every ``refresh_s``), and reads the inputs
+after each write and at least every ``cycle_s``. Any failure marks the link down (a ``LinkStatus(ok=False)``
 for the sequencer), closes it, and retries with a growing back-off. Outputs the loop has not
 renewed for ``stale_outputs_s`` are written with the enable off: a stuck loop cannot leave the
 tool enabled as long as the link still works. When the link itself is gone, only the PLC can
@@ -30,9 +31,9 @@ Clock = Callable[[], float]
 
 @dataclass(frozen=True)
 class WorkerSettings:
-    # Inputs are read after every write the loop asks for (once per frame) and at least every
-    # cycle_s; outputs are written when they change and refreshed every refresh_s. A tighter
-    # cycle costs the loop: each Modbus request is Python work under the interpreter lock.
+    # Outputs are written when they change (about once per frame) and refreshed every
+    # refresh_s; inputs are read after every write and at least every cycle_s. A tighter cycle
+    # costs the loop: each Modbus request is Python work under the interpreter lock.
     cycle_s: float = 0.02
     refresh_s: float = 1.0
     stale_outputs_s: float = 0.1
@@ -70,6 +71,7 @@ class LinkWorker:
         self.last_written = OutputSignals()
         self._measured_since_s: float | None = None
         self._refreshed_at = float("-inf")
+        self._read_at = float("-inf")
 
     # --- the frame loop's side (never blocks on I/O) ---
     def publish(self, outputs: OutputSignals, since_s: float | None = None) -> None:
@@ -150,20 +152,23 @@ class LinkWorker:
                 and outputs.tool_enable:
             outputs = outputs.inhibited()
         now = time.perf_counter()
-        if (version != self._written_version or outputs != self.last_written
-                or now - self._refreshed_at >= self.settings.refresh_s):
+        wrote = outputs != self.last_written or now - self._refreshed_at >= self.settings.refresh_s
+        if wrote:
             self.link.write_outputs(outputs)
             self._refreshed_at = now
+            self.last_written = outputs
         if version != self._written_version:
             self._written_version = version
-            if since_s is not None and since_s != self._measured_since_s:
+            if wrote and since_s is not None and since_s != self._measured_since_s:
                 self._measured_since_s = since_s  # the first write that carries this frame
                 done = time.perf_counter()
                 coil_at = getattr(self.link, "coil_written_at", None) or done
                 self.coil_latency_ms.append((coil_at - since_s) * 1e3)
                 self.write_latency_ms.append((done - since_s) * 1e3)
                 self.publish_latency_ms.append((done - published_at) * 1e3)
-        self.last_written = outputs
+        if not wrote and now - self._read_at < self.settings.cycle_s:
+            return  # nothing new went out and the inputs are fresh
+        self._read_at = now
         inputs = self.link.read_inputs()
         now_s = self.clock()
         found = self.decoder.decode(inputs, now_s)

@@ -100,6 +100,29 @@ def test_worker_result_handshake_and_enable(server: ServerHost) -> None:
     assert server.get("coil", 0) == [0]  # stop writes the enable off
 
 
+def test_worker_writes_only_changed_outputs_and_keeps_reading_inputs(
+        server: ServerHost, packets: PacketLog) -> None:
+    def requests(code: int) -> int:
+        return sum(1 for pdu in packets.pdus() if pdu[0] == code)
+
+    worker = LinkWorker(client_for(server), settings=WorkerSettings(
+        cycle_s=0.02, refresh_s=60.0, stale_outputs_s=60.0)).start()
+    try:
+        worker.publish(OutputSignals(tool_enable=True, heartbeat=1))
+        wait_until(lambda: server.get("holding_register", 0) == [1], what="first outputs")
+        coil_writes = requests(0x05)
+        for _ in range(5):  # the loop publishes every cycle; nothing changed
+            worker.publish(OutputSignals(tool_enable=True, heartbeat=1))
+        worker.publish(OutputSignals(tool_enable=True, heartbeat=2))
+        wait_until(lambda: server.get("holding_register", 0) == [2], what="changed outputs")
+        assert requests(0x05) == coil_writes + 1  # FC 05 only for the change
+        reads = requests(0x02)  # FC 02 read discrete inputs: tool running, ack, reset
+        wait_until(lambda: requests(0x02) >= reads + 3, what="inputs read with nothing to write")
+        assert requests(0x05) == coil_writes + 1
+    finally:
+        worker.stop()
+
+
 def test_worker_drops_enable_when_the_loop_stops_publishing(server: ServerHost) -> None:
     worker = LinkWorker(client_for(server),
                         settings=WorkerSettings(stale_outputs_s=0.05)).start()
