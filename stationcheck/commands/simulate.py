@@ -1,7 +1,9 @@
 """``stationcheck simulate``: a PLC plus tightening controller on loopback, for demos and tests.
 
-Exit codes: 0 stopped (Ctrl-C, or a script ran out); 3 unreadable station-inputs file;
-5 the server could not listen; 64 bad command line.
+A scripted run keeps serving its last inputs after the script is done, so the station's run
+can end with its video instead of with a lost PLC link. Exit codes: 0 stopped (Ctrl-C or
+SIGTERM, or ``--units`` reached); 3 unreadable station-inputs file; 5 the server could not
+listen; 64 bad command line.
 """
 
 from __future__ import annotations
@@ -9,6 +11,7 @@ from __future__ import annotations
 import argparse
 import signal
 import sys
+import threading
 from pathlib import Path
 from types import FrameType
 
@@ -77,6 +80,10 @@ def run(args: argparse.Namespace) -> int:
           "Ctrl-C stops it", flush=True)
     try:
         simulator.wait()
+        if script and simulator.error is None:
+            print(f"script done ({simulator.units_presented} units, {simulator.results} "
+                  "results); still serving its last inputs; Ctrl-C stops it", flush=True)
+            threading.Event().wait()  # until Ctrl-C or SIGTERM
     except KeyboardInterrupt:
         pass
     finally:

@@ -7,6 +7,7 @@ import signal
 import socket
 import subprocess
 import sys
+import threading
 import time
 from pathlib import Path
 
@@ -147,3 +148,37 @@ def test_simulator_settings_table() -> None:
     assert SimulatorSettings(ok_rate=1.0, trigger_delay_s=(0.0, 0.0)).ok_rate == 1.0
     with pytest.raises(ValueError, match="trigger_delay_s"):
         SimulatorSettings(trigger_delay_s=(0.5, 0.1))
+
+
+def test_a_scripted_simulator_keeps_serving_after_its_script(tmp_path: Path) -> None:
+    """The station's dry run ends with its video, not with the PLC gone: after the script's
+    last input the simulator still answers, until it is told to stop."""
+    script = tmp_path / "inputs.jsonl"
+    script.write_text('{"t_s": 0.0, "kind": "unit_started", "serial": "PC-000009", '
+                      '"rework": false}\n')
+    port = free_port()
+    proc = subprocess.Popen(
+        [sys.executable, "-m", "stationcheck", "simulate", "--port", str(port),
+         "--inputs", str(script)], stdout=subprocess.PIPE, stderr=subprocess.DEVNULL, text=True)
+    assert proc.stdout is not None
+    lines: list[str] = []
+    reader = threading.Thread(target=lambda: lines.extend(proc.stdout or ()), daemon=True)
+    reader.start()
+    link = ModbusClientLink("127.0.0.1", port, timeout_ms=200)
+    try:
+        wait_until(lambda: _serving(port), timeout_s=20.0, what="simulator process listening")
+        link.connect()
+        link.write_outputs(OutputSignals(heartbeat=1))  # the station is alive: the script runs
+        wait_until(lambda: any("script done" in line for line in lines), timeout_s=10.0,
+                   what="the script's end")
+        assert "script done (1 units, 0 results)" in lines[-1]
+        assert link.read_inputs().serial == "PC-000009"  # still answering after the script
+        assert proc.poll() is None
+    finally:
+        link.close()
+        proc.terminate()
+        proc.wait(10)
+        reader.join(5)
+        proc.stdout.close()
+    assert proc.returncode == 0
+    assert "station simulator stopped" in lines[-1]
