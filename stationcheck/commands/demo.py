@@ -10,6 +10,7 @@ import json
 import sys
 from datetime import datetime
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 from stationcheck.demo_station.files import (
     DEMO_CONFIG,
@@ -19,6 +20,9 @@ from stationcheck.demo_station.files import (
     TRUTH_NAME,
     VIDEO_NAME,
 )
+
+if TYPE_CHECKING:
+    from stationcheck.pipeline.report import ReplayReport
 
 ANNOTATE_EVERY = 2  # a 15 fps annotated video keeps the demo well under a minute
 
@@ -106,6 +110,15 @@ def run(args: argparse.Namespace) -> int:
         if screen.url is not None:
             print(f"Operator screen: {screen.url}", file=sys.stderr, flush=True)
         report = run_replay(settings, progress, screen.watchers)
+        _tell(report, out, args.json)
+        screen.hold()
+    return 0
+
+
+def _tell(report: ReplayReport, out: Path, as_json: bool) -> None:
+    """The summary into the output folder and to the console."""
+    from stationcheck.cli import SAFETY_NOTE
+
     summary = report.to_json()
     summary["out_dir"] = str(out)
     summary["safety"] = SAFETY_NOTE
@@ -113,9 +126,9 @@ def run(args: argparse.Namespace) -> int:
     lines = report.text_lines()
     (out / "summary.txt").write_text("\n".join([f"Safety: {SAFETY_NOTE}", *lines]) + "\n",
                                      encoding="utf-8")
-    if args.json:
-        print(json.dumps(summary))
-        return 0
+    if as_json:
+        print(json.dumps(summary), flush=True)
+        return
     for line in lines:
         print(line)
     print(f"\nEverything is in {out}:")
@@ -134,4 +147,3 @@ def run(args: argparse.Namespace) -> int:
           "screen with 'stationcheck demo --screen', or draw zones with "
           "'stationcheck setup configs/demo_station.yaml'.")
     sys.stdout.flush()
-    return 0

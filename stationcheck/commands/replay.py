@@ -205,5 +205,6 @@ def run(args: argparse.Namespace) -> int:
         if screen.url is not None:
             print(f"Operator screen: {screen.url}", file=sys.stderr, flush=True)
         report = run_replay(settings, progress, screen.watchers)
-    print_report(report, args.json)
+        print_report(report, args.json)
+        screen.hold()
     return exit_code(report)

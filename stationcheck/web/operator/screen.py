@@ -4,6 +4,7 @@ the command line asks (see :mod:`.options`)."""
 from __future__ import annotations
 
 import argparse
+import sys
 from collections.abc import Iterator
 from contextlib import contextmanager
 from dataclasses import dataclass, field
@@ -69,6 +70,21 @@ class ScreenWiring:
     @property
     def url(self) -> str | None:
         return self.screen.url if self.screen is not None else None
+
+    def hold(self, interactive: bool | None = None) -> None:
+        """After a replay: keep the screen up, showing how the run ended, until Ctrl-C, so
+        the viewer is not left with "not connected". Only for a person at a terminal
+        (``interactive`` defaults to whether standard input is one); scripts go on at once."""
+        if interactive is None:
+            interactive = sys.stdin.isatty()
+        if self.screen is None or not interactive:
+            return
+        print(f"The operator screen stays at {self.screen.url} (Ctrl-C stops it)",
+              file=sys.stderr, flush=True)
+        try:
+            self.screen.server.wait()
+        except KeyboardInterrupt:
+            pass
 
 
 def _plan(config_path: Path) -> StationPlan:

@@ -227,3 +227,26 @@ def test_replay_command_serves_the_screen_when_asked(tmp_path: Any, capsys: Any,
     assert code == 0
     err = capsys.readouterr().err
     assert ("Operator screen: http://127.0.0.1:" in err) == says_screen
+
+
+def test_after_a_replay_the_screen_stays_up_for_a_person_until_stopped(
+        confirm_plan: StationPlan) -> None:
+    from stationcheck.web.operator.screen import OperatorScreen, ScreenWiring
+
+    wiring = ScreenWiring(OperatorScreen.start(confirm_plan, mode="replay", port=0))
+    assert wiring.screen is not None
+    served = Served(wiring.screen.feed, wiring.screen.server)
+    wiring.screen.feed.on_frame(Station(confirm_plan).frame())
+    wiring.screen.feed.on_stop(None)  # the replay ended
+    wiring.hold(interactive=False)  # a script goes on at once
+    holder = threading.Thread(target=wiring.hold, kwargs={"interactive": True})
+    holder.start()
+    try:
+        wait_frame(wiring.screen.feed, lambda f: "ended" in f.steady, "the end of the run")
+        status, body = served.request("GET", "/api/state")
+        assert status == 200 and json.loads(body)["state"]["ended"] == "ended"
+        assert holder.is_alive()  # held until stopped
+    finally:
+        wiring.screen.close()
+        holder.join(5)
+    assert not holder.is_alive()
