@@ -62,6 +62,7 @@ class DecisionCore:
         self.plan = plan
         self.sequencer = Sequencer(plan)
         resume = tuple(resume_from)
+        self.resumed_from = resume  # the open unit's events from the log, for late viewers
         self.state: SequencerState = (
             self.sequencer.rebuild(resume) if resume else self.sequencer.initial_state()
         )

@@ -245,7 +245,7 @@ def test_the_loop_decides_what_the_judging_thread_found_as_one_frame_at_a_time_w
     """Judgements on their own thread change nothing the sequencer sees: same observations, same
     order, same outputs as :meth:`FramePath.process` frame by frame with inputs between."""
     spans = [(0, AWAY), (10, AT_A), (40, AT_B)]
-    bumps = dict(moved_on=[19, 45], back_on=[29, 47])  # frames just before inputs are due
+    bumps = {"moved_on": [19, 45], "back_on": [29, 47]}  # frames just before inputs are due
 
     one_by_one = Collect()
     path = FramePath(PLAN, tip_track(spans, 80), DecisionCore(PLAN, sinks=[one_by_one]),

@@ -50,7 +50,9 @@ class OperatorScreen:
 
     def attach_live(self, loop: LiveLoop) -> None:
         """Follow a live loop (a ``run_live`` ``on_ready`` hook): every step and frame, and
-        acknowledge presses applied on the loop's thread."""
+        acknowledge presses applied on the loop's thread. A unit the loop continues from the
+        step log shows the positions it had done before the restart."""
+        self.feed.views.fold(loop.decisions.resumed_from)
         self.feed.decisions = loop.decisions
         loop.decisions.add_sink(self.feed)
         loop.frame_sinks = (*loop.frame_sinks, self.feed)

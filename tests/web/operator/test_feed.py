@@ -250,3 +250,43 @@ def test_after_a_replay_the_screen_stays_up_for_a_person_until_stopped(
         wiring.screen.close()
         holder.join(5)
     assert not holder.is_alive()
+
+
+def test_a_unit_continued_after_a_restart_shows_the_positions_done_before(
+        tmp_path: Any, demo_plan: StationPlan) -> None:
+    """The station stops mid-unit and starts again: the screen's positions come from the
+    step log, not only from what happens after the restart."""
+    from types import SimpleNamespace
+
+    from stationcheck.cli import main
+    from stationcheck.pipeline.decisions import DecisionCore
+    from stationcheck.store.sqlite_log import SqliteStepLog
+    from stationcheck.web.operator.screen import OperatorScreen
+    from tests.web.operator.conftest import CONFIG, INPUTS, TRUTH, VIDEO
+
+    log_path = tmp_path / "log.sqlite"
+    assert main(["replay", str(VIDEO), "--config", str(CONFIG), "--inputs", str(INPUTS),
+                 "--truth", str(TRUTH), "--detector", "truth", "--judgements", "truth",
+                 "--frames", "300", "--log", str(log_path), "--json"]) == 0
+    log = SqliteStepLog(log_path)
+    try:
+        open_unit = log.open_unit_events()
+    finally:
+        log.close()
+    done_before = [e.data["zone"] for e in open_unit if e.kind == "position_completed"]
+    assert 2 <= len(done_before) < 6  # mid-unit: some of its six positions fastened
+
+    station = Station(demo_plan)
+    station.decisions = DecisionCore(demo_plan, resume_from=open_unit)
+    screen = OperatorScreen.start(demo_plan, mode="live", port=0)
+    try:
+        screen.attach_live(SimpleNamespace(  # type: ignore[arg-type]
+            decisions=station.decisions, frame_sinks=()))
+        screen.feed.on_frame(station.frame())
+        shown = wait_frame(screen.feed, lambda f: f.steady["unit"] is not None, "the unit")
+        assert shown.steady["unit"]["serial"] == open_unit[0].serial
+        assert shown.steady["unit"]["done"] == len(done_before)
+        assert {p["zone"] for p in shown.steady["positions"] if p["state"] == "done"} == set(
+            done_before)
+    finally:
+        screen.close()
