@@ -1,9 +1,10 @@
 """``stationcheck simulate``: a PLC plus tightening controller on loopback, for demos and tests.
 
 A scripted run keeps serving its last inputs after the script is done, so the station's run
-can end with its video instead of with a lost PLC link. Exit codes: 0 stopped (Ctrl-C or
-SIGTERM, or ``--units`` reached); 3 unreadable station-inputs file; 5 the server could not
-listen; 64 bad command line.
+can end with its video instead of with a lost PLC link (``--exit-after-script`` stops it
+there). Exit codes: 0 stopped (Ctrl-C, SIGTERM, ``--units`` reached or the script done with
+``--exit-after-script``); 3 unreadable station-inputs file; 5 the server could not listen;
+64 bad command line.
 """
 
 from __future__ import annotations
@@ -44,6 +45,9 @@ def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[ty
                         "time 0 is when the station's heartbeat first counts")
     p.add_argument("--speed", type=float, default=1.0,
                    help="present the --inputs this many times faster (match run --speed)")
+    p.add_argument("--exit-after-script", action="store_true",
+                   help="with --inputs: stop once the script is done instead of serving on "
+                        "(for scripts that start the simulator and may not stop it)")
     p.set_defaults(handler=run)
 
 
@@ -80,7 +84,7 @@ def run(args: argparse.Namespace) -> int:
           "Ctrl-C stops it", flush=True)
     try:
         simulator.wait()
-        if script and simulator.error is None:
+        if script and simulator.error is None and not args.exit_after_script:
             print(f"script done ({simulator.units_presented} units, {simulator.results} "
                   "results); still serving its last inputs; Ctrl-C stops it", flush=True)
             threading.Event().wait()  # until Ctrl-C or SIGTERM

@@ -62,7 +62,8 @@ def start_simulator(port: int, errors: IO[bytes], speed: float = 1.0) -> subproc
     connection (its complaints go to ``errors``)."""
     proc = subprocess.Popen(
         [sys.executable, "-m", "stationcheck", "simulate", "--inputs", str(SAMPLE_INPUTS),
-         "--host", "127.0.0.1", "--port", str(port), "--speed", str(speed)],
+         "--host", "127.0.0.1", "--port", str(port), "--speed", str(speed),
+         "--exit-after-script"],  # ends by itself even if this process is killed
         stdout=subprocess.DEVNULL, stderr=errors)
     deadline = time.monotonic() + SIMULATOR_START_S
     while True:

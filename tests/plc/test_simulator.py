@@ -182,3 +182,25 @@ def test_a_scripted_simulator_keeps_serving_after_its_script(tmp_path: Path) -> 
         proc.stdout.close()
     assert proc.returncode == 0
     assert "station simulator stopped" in lines[-1]
+
+
+def test_a_scripted_simulator_told_to_exit_after_its_script_does(tmp_path: Path) -> None:
+    script = tmp_path / "inputs.jsonl"
+    script.write_text('{"t_s": 0.0, "kind": "unit_started", "serial": "PC-000010", '
+                      '"rework": false}\n')
+    port = free_port()
+    proc = subprocess.Popen(
+        [sys.executable, "-m", "stationcheck", "simulate", "--port", str(port),
+         "--inputs", str(script), "--exit-after-script"],
+        stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
+    link = ModbusClientLink("127.0.0.1", port, timeout_ms=200)
+    try:
+        wait_until(lambda: _serving(port), timeout_s=20.0, what="simulator process listening")
+        link.connect()
+        link.write_outputs(OutputSignals(heartbeat=1))  # the station is alive: the script runs
+        assert proc.wait(20) == 0  # ends by itself once the script is done
+    finally:
+        link.close()
+        if proc.poll() is None:
+            proc.kill()
+            proc.wait(10)
