@@ -189,12 +189,12 @@ def measure(options: BenchOptions) -> list[BenchRow]:
         BenchRow(SECTION_NAME, f"loop frames/s, video at {camera_fps:.0f}", stats.fps, None,
                  "f/s", extra={"dropped": float(grabber.counts.dropped),
                                "frames": float(stats.frames)}),
-        BenchRow(SECTION_NAME, f"keeps up at 4x: frames/s taken of {4 * camera_fps:.0f} offered",
-                 at_4x_fps, None, "f/s", f"{CAPACITY_TARGET} (>= {4 * camera_fps:.0f})",
-                 extra={"taken_share": at_4x_share}),
+        BenchRow(SECTION_NAME, f"offered 4x ({4 * camera_fps:.0f} f/s): share of frames taken",
+                 100.0 * at_4x_share, None, "%", "the rest dropped, never queued",
+                 extra={"taken_fps": at_4x_fps}),
         BenchRow(SECTION_NAME, "loop capacity: most frames/s taken, offered "
                  + ", ".join(f"{speed:.0f}x" for speed in CAPACITY_SPEEDS),
-                 capacity_fps, None, "f/s",
+                 capacity_fps, None, "f/s", f"{CAPACITY_TARGET} (>= {4 * camera_fps:.0f})",
                  extra={"headroom_x": capacity_fps / camera_fps,
                         **{f"taken_fps_at_{speed:.0f}x": fps for speed, fps, _ in taken},
                         "busy_share_at_camera_rate": float(busy.sum()) / 1000.0 / stats.wall_s
