@@ -4,7 +4,7 @@ table detector, and the loop wired to an in-memory signal link."""
 from __future__ import annotations
 
 import threading
-from collections.abc import Iterator
+from collections.abc import Iterator, Sequence
 
 import numpy as np
 
@@ -15,6 +15,7 @@ from stationcheck.live.loop import LiveLoop
 from stationcheck.live.watchdog import WatchdogLimits
 from stationcheck.pipeline.decisions import DecisionCore
 from stationcheck.pipeline.frame_path import FramePath
+from stationcheck.pipeline.judging import ImageJudge
 from stationcheck.plc.link import MemoryLink
 from stationcheck.plc.signals import InputSignals
 from stationcheck.plc.worker import LinkWorker, WorkerSettings
@@ -61,9 +62,10 @@ def detector_at(where: tuple[float, float], frames: int) -> ReplayKeypointDetect
 
 
 def live_loop(source: StallingSource, link: MemoryLink, *,
-              detector: object | None = None) -> LiveLoop:
+              detector: object | None = None, judges: Sequence[ImageJudge] = ()) -> LiveLoop:
     decisions = DecisionCore(PLAN)
-    path = FramePath(PLAN, detector or detector_at(AT_A, source.frames), decisions)  # type: ignore[arg-type]
+    path = FramePath(PLAN, detector or detector_at(AT_A, source.frames), decisions,  # type: ignore[arg-type]
+                     judges)
     grabber = FrameGrabber(lambda: source, pace=True, retry=False).start()
     worker = LinkWorker(link, settings=WorkerSettings(cycle_s=0.002)).start()
     return LiveLoop(path, grabber, worker, limits=WatchdogLimits())

@@ -7,6 +7,7 @@ import threading
 
 import pytest
 
+from stationcheck.core.observations import Observation
 from stationcheck.core.records import Frame, Keypoints
 from stationcheck.errors import ModelError
 from stationcheck.plc.link import MemoryLink
@@ -111,6 +112,35 @@ def test_error_in_the_loop_ends_with_enable_off() -> None:
     assert isinstance(box.get("error"), ModelError)
     assert any(on for _, address, on in link.coil_writes if address == 0)  # it was enabled
     assert link.value("tool_enable") == [0]  # and the last write is off
+
+
+class BrokenJudge:
+    """An image judgement that fails on one frame (on the judging thread)."""
+
+    def __init__(self, fail_at: int) -> None:
+        self.fail_at = fail_at
+
+    def judge(self, frame: Frame, pose: object, output: object) -> list[Observation]:
+        if frame.index == self.fail_at:
+            raise RuntimeError(f"judgement broke on frame {frame.index}")
+        return []
+
+
+def test_an_error_on_the_judging_thread_ends_the_loop_with_enable_off() -> None:
+    source = StallingSource(frames=60)
+    link = memory_link_with_unit()
+    loop = live_loop(source, link, judges=[BrokenJudge(fail_at=40)])
+    thread, box = run_in_thread(loop)
+    try:
+        wait_until(lambda: "error" in box, what="the judgement's error")
+        thread.join(5.0)
+        assert not thread.is_alive(), "the live loop did not end"
+    finally:
+        source.release.set()
+    assert "judgement broke on frame 40" in str(box["error"])
+    assert any(on for _, address, on in link.coil_writes if address == 0)  # it was enabled
+    assert link.value("tool_enable") == [0]  # and the last write is off
+    assert loop.path._executor is None  # the judging thread was stopped
 
 
 @pytest.mark.parametrize("healthy_frames", [30])
