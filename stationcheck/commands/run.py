@@ -11,6 +11,10 @@ import signal
 import sys
 from pathlib import Path
 from types import FrameType
+from typing import TYPE_CHECKING
+
+if TYPE_CHECKING:
+    from stationcheck.live.loop import LiveLoop
 
 
 def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
@@ -61,15 +65,34 @@ def run(args: argparse.Namespace) -> int:
         raise KeyboardInterrupt
 
     signal.signal(signal.SIGTERM, stop)
+    loops: list[LiveLoop] = []
+
+    def ready(loop: LiveLoop) -> None:
+        loops.append(loop)
+        if screen.screen is not None:
+            screen.screen.attach_live(loop)
+
+    ended = "run ended"
     try:
         with command_screen(args, args.config, "live") as screen:
             if screen.screen is not None:
                 print(f"Operator screen: {screen.url}", flush=True)
-            stats = run_live(settings, on_ready=screen.screen.attach_live
-                             if screen.screen is not None else None)
+            run_live(settings, on_ready=ready)
     except KeyboardInterrupt:
-        print("stopped; tool enable written off", flush=True)
-        return 0
-    print(f"run ended: {stats.frames} frames at {stats.fps:.1f} frames/s, "
-          f"heartbeat {stats.heartbeat}; tool enable written off", flush=True)
+        ended = "stopped"
+    print(f"{ended}: {summary(loops[0]) if loops else 'no frames'}; tool enable written off",
+          flush=True)
     return 0
+
+
+def summary(loop: LiveLoop) -> str:
+    """Frames, drops, decision latency and heartbeat of a finished live run, in one line."""
+    stats, worker = loop.stats, loop.worker
+    text = (f"{stats.frames} frames at {stats.fps:.1f} frames/s, "
+            f"{loop.grabber.counts.dropped} dropped")
+    latency = sorted(worker.coil_latency_ms)
+    if latency:
+        p50 = latency[len(latency) // 2]
+        p99 = latency[min(len(latency) - 1, int(0.99 * len(latency)))]
+        text += f", decision to enable coil p50 {p50:.1f} ms / p99 {p99:.1f} ms"
+    return f"{text}, heartbeat {stats.heartbeat}"

@@ -23,6 +23,7 @@ from dataclasses import dataclass, field, replace
 from stationcheck.core.observations import LinkStatus, Observation
 from stationcheck.core.outputs import Output
 from stationcheck.core.records import Frame
+from stationcheck.errors import first_line
 from stationcheck.live.grabber import FrameGrabber, GrabbedFrame
 from stationcheck.live.watchdog import WatchdogLimits, Watchdogs
 from stationcheck.pipeline.frame_path import FramePath, FrameResult, Sighting
@@ -109,9 +110,13 @@ class LiveLoop:
                 self._hand_on(previous)
             self._hand_on(self.path.settle())
             self.decisions.flush()
+        except KeyboardInterrupt as exc:  # Ctrl-C or SIGTERM: an ordinary stop
+            error = exc
+            logger.info("live loop stopped on request")
+            raise
         except BaseException as exc:
             error = exc
-            logger.error("live loop stopped: %s", exc)
+            logger.error("live loop stopped: %s", first_line(exc))
             raise
         finally:
             self.stats.wall_s = time.perf_counter() - started
