@@ -17,6 +17,7 @@ from stationcheck.store.step_log import StepLog
 logger = logging.getLogger(__name__)
 
 STOPPED_ON_ERROR = "stopped_on_error"
+STOPPED_ON_REQUEST = "stopped_on_request"  # Ctrl-C, or SIGTERM from a service manager
 
 
 def rework_positions_from_log(log: StepLog, serial: str) -> tuple[PositionRef, ...]:
@@ -77,13 +78,11 @@ class StepLogSink:
         self.flush()
         if error is None:
             return
-        message = first_line(error)
-        event = Event(
-            t_s=self._last_t_s,
-            kind="tool_inhibited",
-            serial=self._last_serial,
-            data={"reason": STOPPED_ON_ERROR, "was_enabled": self._enabled, "error": message[:300]},
-        )
+        data: dict[str, object] = {"reason": STOPPED_ON_REQUEST, "was_enabled": self._enabled}
+        if not isinstance(error, KeyboardInterrupt):
+            data.update(reason=STOPPED_ON_ERROR, error=first_line(error)[:300])
+        event = Event(t_s=self._last_t_s, kind="tool_inhibited", serial=self._last_serial,
+                      data=data)
         self.log.append([event], recorded_at_s=self.clock())
         self.events_written += 1
-        logger.info("run stopped on an error; tool inhibited and recorded in the log")
+        logger.info("run stopped (%s); tool inhibited and recorded in the log", data["reason"])

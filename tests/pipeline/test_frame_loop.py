@@ -22,7 +22,12 @@ from stationcheck.core.records import Frame, Keypoints
 from stationcheck.errors import InputFileError, ModelError
 from stationcheck.pipeline.decisions import DecisionCore, DecisionStep
 from stationcheck.pipeline.frame_path import FramePath, FrameResult
-from stationcheck.pipeline.log_sink import STOPPED_ON_ERROR, StepLogSink, rework_positions_from_log
+from stationcheck.pipeline.log_sink import (
+    STOPPED_ON_ERROR,
+    STOPPED_ON_REQUEST,
+    StepLogSink,
+    rework_positions_from_log,
+)
 from stationcheck.pipeline.loop import run_loop
 from stationcheck.pipeline.station_inputs import InputSchedule
 from stationcheck.pipeline.trace import RunTrace
@@ -201,6 +206,28 @@ def test_a_source_that_breaks_mid_run_leaves_the_log_with_everything_before_it(
     assert last.serial == "U-1"
     assert last.data == {"reason": STOPPED_ON_ERROR, "was_enabled": True,
                          "error": "video x is damaged: decoding stopped"}
+
+
+def test_a_run_stopped_on_request_is_logged_as_a_stop_not_an_error(tmp_path: Path) -> None:
+    """Ctrl-C (or SIGTERM from a service manager) mid-run: the log says the tool went off
+    because the run was stopped, with no error attached."""
+    class StopAt:  # a frame sink that is the operator pressing Ctrl-C at frame 30
+        def on_frame(self, result: FrameResult) -> None:
+            if result.frame.index == 30:
+                raise KeyboardInterrupt
+
+        def on_stop(self, error: BaseException | None) -> None:
+            pass
+
+    log = MemoryStepLog()
+    decisions = DecisionCore(PLAN, sinks=[StepLogSink(log, clock=lambda: 0.0)])
+    path = FramePath(PLAN, tip_track([(0, AT_A)], 60), decisions)
+    with pytest.raises(KeyboardInterrupt):
+        run_loop(MemoryFrameSource(images(60), FPS), path,
+                 InputSchedule([UnitStarted(t(1), "U-1")]), [StopAt()])
+    last = log.events()[-1].event
+    assert last.kind == "tool_inhibited"
+    assert last.data == {"reason": STOPPED_ON_REQUEST, "was_enabled": True}
 
 
 def test_inputs_just_after_the_last_frame_count_and_later_ones_are_left_out() -> None:
