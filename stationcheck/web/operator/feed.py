@@ -27,6 +27,7 @@ from typing import Any, Literal
 import cv2
 
 from stationcheck.core.plan import StationPlan
+from stationcheck.errors import first_line
 from stationcheck.overlay.scene import draw_scene
 from stationcheck.overlay.symbols import Image
 from stationcheck.pipeline.decisions import DecisionCore, DecisionStep
@@ -133,7 +134,12 @@ class OperatorFeed:
 
     def on_stop(self, error: BaseException | None) -> None:
         """The run ended: the screen says so and shows the tool off."""
-        self.ended = f"stopped: {error}" if error is not None else "ended"
+        if error is None:
+            self.ended = "ended"
+        elif isinstance(error, KeyboardInterrupt):
+            self.ended = "stopped"  # Ctrl-C or a service manager: nothing went wrong
+        else:
+            self.ended = f"stopped: {first_line(error)}"
         with self._lock:
             if self._slot is None and self._last is not None:
                 self._slot = self._last

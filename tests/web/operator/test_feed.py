@@ -290,3 +290,16 @@ def test_a_unit_continued_after_a_restart_shows_the_positions_done_before(
             done_before)
     finally:
         screen.close()
+
+
+def test_a_run_stopped_on_request_ends_the_screen_without_an_error(
+        confirm_plan: StationPlan) -> None:
+    feed = OperatorFeed(confirm_plan, mode="live")
+    try:
+        feed.on_frame(Station(confirm_plan).frame())
+        feed.on_stop(KeyboardInterrupt())  # Ctrl-C, or SIGTERM from a service manager
+        ended = wait_frame(feed, lambda f: "ended" in f.steady, "the end of the run")
+        assert ended.steady["ended"] == "stopped"
+        assert ended.steady["tool"]["enabled"] is False
+    finally:
+        feed.close()

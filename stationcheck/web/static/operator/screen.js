@@ -124,10 +124,11 @@ function render(s) {
   const ended = $("ended");
   ended.hidden = !s.ended;
   if (s.ended) {
-    ended.textContent = s.ended === "ended"
-      ? "The run has ended. The tool is off."
+    const ordinary = s.ended === "ended" || s.ended === "stopped";
+    ended.textContent = s.ended === "ended" ? "The run has ended. The tool is off."
+      : s.ended === "stopped" ? "The station program was stopped. The tool is off."
       : `The station program stopped (${s.ended}). The tool is off.`;
-    setMeaning(ended, s.ended === "ended" ? "neutral" : "fault");
+    setMeaning(ended, ordinary ? "neutral" : "fault");
   }
 }
 
