@@ -150,25 +150,46 @@ def test_simulator_settings_table() -> None:
         SimulatorSettings(trigger_delay_s=(0.5, 0.1))
 
 
-def test_a_scripted_simulator_keeps_serving_after_its_script(tmp_path: Path) -> None:
-    """The station's dry run ends with its video, not with the PLC gone: after the script's
-    last input the simulator still answers, until it is told to stop."""
+def start_scripted(tmp_path: Path, serial: str, *extra: str
+                   ) -> tuple[subprocess.Popen[str], ModbusClientLink]:
+    """``simulate --inputs`` with a one-line script (a unit start at 0 s) in a child process,
+    and a client link to it that has told it the station is alive, so the script has run."""
     script = tmp_path / "inputs.jsonl"
-    script.write_text('{"t_s": 0.0, "kind": "unit_started", "serial": "PC-000009", '
+    script.write_text(f'{{"t_s": 0.0, "kind": "unit_started", "serial": "{serial}", '
                       '"rework": false}\n')
     port = free_port()
     proc = subprocess.Popen(
         [sys.executable, "-m", "stationcheck", "simulate", "--port", str(port),
-         "--inputs", str(script)], stdout=subprocess.PIPE, stderr=subprocess.DEVNULL, text=True)
-    assert proc.stdout is not None
-    lines: list[str] = []
-    reader = threading.Thread(target=lambda: lines.extend(proc.stdout or ()), daemon=True)
-    reader.start()
+         "--inputs", str(script), *extra],
+        stdout=subprocess.PIPE, stderr=subprocess.DEVNULL, text=True)
     link = ModbusClientLink("127.0.0.1", port, timeout_ms=200)
     try:
         wait_until(lambda: _serving(port), timeout_s=20.0, what="simulator process listening")
         link.connect()
         link.write_outputs(OutputSignals(heartbeat=1))  # the station is alive: the script runs
+    except BaseException:
+        stop(proc, link)
+        raise
+    return proc, link
+
+
+def stop(proc: subprocess.Popen[str], link: ModbusClientLink) -> None:
+    link.close()
+    if proc.poll() is None:
+        proc.terminate()
+    proc.wait(10)
+    if proc.stdout is not None:
+        proc.stdout.close()
+
+
+def test_a_scripted_simulator_keeps_serving_after_its_script(tmp_path: Path) -> None:
+    """The station's dry run ends with its video, not with the PLC gone: after the script's
+    last input the simulator still answers, until it is told to stop."""
+    proc, link = start_scripted(tmp_path, "PC-000009")
+    lines: list[str] = []
+    reader = threading.Thread(target=lambda: lines.extend(proc.stdout or ()), daemon=True)
+    reader.start()
+    try:
         wait_until(lambda: any("script done" in line for line in lines), timeout_s=10.0,
                    what="the script's end")
         assert "script done (1 units, 0 results)" in lines[-1]
@@ -177,30 +198,15 @@ def test_a_scripted_simulator_keeps_serving_after_its_script(tmp_path: Path) -> 
     finally:
         link.close()
         proc.terminate()
-        proc.wait(10)
         reader.join(5)
-        proc.stdout.close()
+        stop(proc, link)
     assert proc.returncode == 0
     assert "station simulator stopped" in lines[-1]
 
 
 def test_a_scripted_simulator_told_to_exit_after_its_script_does(tmp_path: Path) -> None:
-    script = tmp_path / "inputs.jsonl"
-    script.write_text('{"t_s": 0.0, "kind": "unit_started", "serial": "PC-000010", '
-                      '"rework": false}\n')
-    port = free_port()
-    proc = subprocess.Popen(
-        [sys.executable, "-m", "stationcheck", "simulate", "--port", str(port),
-         "--inputs", str(script), "--exit-after-script"],
-        stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
-    link = ModbusClientLink("127.0.0.1", port, timeout_ms=200)
+    proc, link = start_scripted(tmp_path, "PC-000010", "--exit-after-script")
     try:
-        wait_until(lambda: _serving(port), timeout_s=20.0, what="simulator process listening")
-        link.connect()
-        link.write_outputs(OutputSignals(heartbeat=1))  # the station is alive: the script runs
         assert proc.wait(20) == 0  # ends by itself once the script is done
     finally:
-        link.close()
-        if proc.poll() is None:
-            proc.kill()
-            proc.wait(10)
+        stop(proc, link)
