@@ -125,13 +125,20 @@ def count_units(conn: sqlite3.Connection, query: UnitQuery, cap: int | None = No
     return int(conn.execute(sql, tag_params + params).fetchone()[0])
 
 
-def prefix_is_broad(conn: sqlite3.Connection, query: UnitQuery) -> bool:
+def prefix_is_broad(conn: sqlite3.Connection, query: UnitQuery,
+                    counted: tuple[int, int] | None = None) -> bool:
     """True when the query's serial prefix matches more than ``BROAD_PREFIX_UNITS`` units: a
-    page in time order should then walk the time index (``find_units(time_index=True)``)."""
+    page in time order should then walk the time index (``find_units(time_index=True)``).
+    ``counted`` is ``(count_units(conn, query, cap), cap)`` when the caller has it: for a
+    query whose only filter is the prefix it answers without counting again."""
     if query.serial_prefix is None:
         return False
-    matching = count_units(conn, UnitQuery(serial_prefix=query.serial_prefix),
-                           cap=BROAD_PREFIX_UNITS + 1)
+    prefix_only = UnitQuery(serial_prefix=query.serial_prefix)
+    if (counted is not None and counted[1] > BROAD_PREFIX_UNITS
+            and _unit_filters(query) == _unit_filters(prefix_only)
+            and _source(query) == _source(prefix_only)):
+        return counted[0] > BROAD_PREFIX_UNITS
+    matching = count_units(conn, prefix_only, cap=BROAD_PREFIX_UNITS + 1)
     return matching > BROAD_PREFIX_UNITS
 
 

@@ -146,12 +146,12 @@ def build_review_router(source: ReviewSource) -> Router:
         query = unit_query(request, request.int_arg("limit", PAGE_UNITS, 1, MAX_PAGE_UNITS))
         with source.reader() as step_log:
             conn = step_log.connection
+            count = queries.count_units(conn, query, cap=COUNT_CAP + 1)
+            broad = queries.prefix_is_broad(conn, query, counted=(count, COUNT_CAP + 1))
             try:
-                page = queries.find_units(conn, query,
-                                          time_index=queries.prefix_is_broad(conn, query))
+                page = queries.find_units(conn, query, time_index=broad)
             except ValueError as exc:  # a page token that is not one
                 raise WebError(400, str(exc)) from exc
-            count = queries.count_units(conn, query, cap=COUNT_CAP + 1)
         return Response.json({
             "units": [export.unit_dict(u) for u in page.rows], "next_after": page.next_after,
             "count": min(count, COUNT_CAP), "count_is_exact": count <= COUNT_CAP,

@@ -162,3 +162,25 @@ def test_walking_the_time_index_gives_the_same_pages(review_conn: sqlite3.Connec
 
     assert pages(True) == pages(False)
     assert sum(len(p) for p in pages(True)) == (5 if result is None else 4)
+
+
+@pytest.mark.parametrize(("query", "counts_again"), [
+    (UnitQuery(serial_prefix="QA-", order="oldest", limit=2), False),  # the prefix alone
+    (UnitQuery(serial_prefix="QA-", result="OK"), True),  # another filter: count the prefix
+])
+def test_a_prefix_only_list_is_counted_once(review_conn: sqlite3.Connection, query: UnitQuery,
+                                            counts_again: bool) -> None:
+    from stationcheck.store import queries
+
+    statements: list[str] = []
+    review_conn.set_trace_callback(statements.append)
+    try:
+        count = queries.count_units(review_conn, query, cap=queries.BROAD_PREFIX_UNITS + 1)
+        broad = queries.prefix_is_broad(review_conn, query,
+                                        counted=(count, queries.BROAD_PREFIX_UNITS + 1))
+    finally:
+        review_conn.set_trace_callback(None)
+    counts = [s for s in statements if "count(*)" in s]
+    assert len(counts) == (2 if counts_again else 1)
+    assert broad == queries.prefix_is_broad(review_conn, query)  # same answer either way
+    assert broad is False  # five QA- units in this log
