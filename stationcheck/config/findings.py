@@ -13,6 +13,7 @@ from typing import TYPE_CHECKING, Any, Literal
 from stationcheck.config.wording import Location, format_path
 
 if TYPE_CHECKING:
+    from stationcheck.config.parts import ConfigParts
     from stationcheck.config.schema import StationConfig
 
 Severity = Literal["error", "warning"]
@@ -78,6 +79,7 @@ class CheckResult:
     source: str
     findings: tuple[Finding, ...]
     config: StationConfig | None = field(default=None, compare=False)
+    parts: ConfigParts | None = field(default=None, compare=False)  # zones and steps as read
 
     @property
     def errors(self) -> list[Finding]:

@@ -60,7 +60,7 @@ def check_document(document: YamlDocument, base_dir: Path, source: str) -> Check
     ordered = tuple(sort_findings(located, document.position_of))
     has_errors = any(f.severity == "error" for f in ordered)
     usable = config.with_base_dir(base_dir) if config is not None and not has_errors else None
-    return CheckResult(source=source, findings=ordered, config=usable)
+    return CheckResult(source=source, findings=ordered, config=usable, parts=parts)
 
 
 def load_config(path: Path | str) -> StationConfig:

@@ -17,7 +17,7 @@ from stationcheck.core import bolt_pattern
 
 def check_for_page(data: dict[str, Any], base_dir: Path, source: str) -> dict[str, Any]:
     result = check_data(data, base_dir=base_dir, source=source)
-    parts = parts_of_data(data)
+    parts = result.parts if result.parts is not None else parts_of_data(data)
     order = tightening_numbers(data)
     zones = [
         {

@@ -165,3 +165,24 @@ def test_dry_run_refuses_a_config_with_errors(setup_server: ServerFactory) -> No
     data["steps"][0]["zone"] = "nowhere"
     status, out = client.call("POST", "/api/dry-run", {"data": data, "video": "x.mp4"})
     assert status == 400 and "steps[0].zone" in out["error"]
+
+
+def test_a_check_reads_the_zones_and_steps_once(monkeypatch: pytest.MonkeyPatch) -> None:
+    """The page's check and its drawing share one reading of the document's parts."""
+    from stationcheck.config import parts, validation
+    from stationcheck.demo_station.files import DEMO_CONFIG
+    from stationcheck.web.setup import checking
+
+    calls: list[int] = []
+    real = parts.parts_of_data
+
+    def counted(data: dict[str, object]) -> parts.ConfigParts:
+        calls.append(1)
+        return real(data)
+
+    monkeypatch.setattr(validation, "parts_of_data", counted)
+    monkeypatch.setattr(checking, "parts_of_data", counted)
+    data = yaml.safe_load(DEMO_CONFIG.read_text(encoding="utf-8"))
+    page = checking.check_for_page(data, DEMO_CONFIG.parent, "demo")
+    assert page["ok"] and len(page["zones"]) == len(data["zones"])
+    assert len(calls) == 1
