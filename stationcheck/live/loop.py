@@ -4,12 +4,11 @@ The loop never waits on the PLC (the link worker does the I/O) and waits for a f
 one watchdog cycle. A frame's image judgements run on the frame path's judging thread while the
 loop waits for and detects the next frame; their findings are decided before anything else in
 the next cycle. Observations from the PLC come next, stamped with the loop's current time, so
-time never runs backwards for the sequencer; then the new frame's tool position. A cycle's step-log
-records are committed right after its outputs are handed to the link worker (the disk's sync
-time never delays the enable), and the PLC's handshakes are acknowledged only once what they
-brought is committed. Whatever ends the
-loop, the ``finally`` block publishes the enable off and stops the link worker, whose last act
-is writing it.
+time never runs backwards for the sequencer; then the new frame's tool position. A cycle's
+step-log records are committed right after its outputs are handed to the link worker (the
+disk's sync time never delays the enable), and the PLC's handshakes are acknowledged only once
+what they brought is committed. Whatever ends the loop, the ``finally`` block publishes the
+enable off and stops the link worker, whose last act is writing it.
 """
 
 from __future__ import annotations
@@ -23,8 +22,8 @@ from dataclasses import dataclass, field, replace
 from stationcheck.core.observations import LinkStatus, Observation
 from stationcheck.core.outputs import Output
 from stationcheck.core.records import Frame
-from stationcheck.errors import first_line
-from stationcheck.live.grabber import FrameGrabber, GrabbedFrame
+from stationcheck.errors import first_line, stop_requested
+from stationcheck.live.grabber import FrameGrabber
 from stationcheck.live.watchdog import WatchdogLimits, Watchdogs
 from stationcheck.pipeline.frame_path import FramePath, FrameResult, Sighting
 from stationcheck.pipeline.loop import FrameSink
@@ -66,7 +65,6 @@ class LiveLoop:
         self.on_frame_taken = on_frame_taken
         self._frame_in_hand_s: float | None = None
         self._taken_at = 0.0
-        self._frame_healthy = False
         path.on_decided = self._publish_decided  # the enable goes out before the judgements
         self._acks_taken = (0, 0)
         self._acks_committed = (0, 0)  # handshakes whose records are on disk
@@ -89,19 +87,20 @@ class LiveLoop:
                 self.stats.cycles += 1
                 now = time.perf_counter()
                 self._advance_clock(now)
-                sighting = None if grabbed is None else self._sight(grabbed)
+                taken = (None if grabbed is None
+                         else (self._sight(grabbed.frame), grabbed.grabbed_at_s))
                 previous = self.path.settle()  # the previous frame's judgements decided
                 for observation in self._link_observations(now):
                     self._apply(observation)
-                if grabbed is None or sighting is None:
+                if taken is None:
                     for observation in self.watchdogs.check_frames(now - self._last_frame_at,
                                                                   self.t_s):
                         self._apply(observation)
                     since_s = None
                 else:
-                    self._decide(sighting, grabbed.grabbed_at_s)
-                    since_s = grabbed.grabbed_at_s
-                    self._last_frame_at = grabbed.grabbed_at_s
+                    sighting, since_s = taken
+                    self._decide(sighting, since_s)
+                    self._last_frame_at = since_s
                 self._publish(since_s)
                 self.decisions.flush()
                 self._acks_committed = self._acks_taken
@@ -110,13 +109,12 @@ class LiveLoop:
                 self._hand_on(previous)
             self._hand_on(self.path.settle())
             self.decisions.flush()
-        except KeyboardInterrupt as exc:  # Ctrl-C or SIGTERM: an ordinary stop
-            error = exc
-            logger.info("live loop stopped on request")
-            raise
         except BaseException as exc:
             error = exc
-            logger.error("live loop stopped: %s", first_line(exc))
+            if stop_requested(exc):
+                logger.info("live loop stopped on request")
+            else:
+                logger.error("live loop stopped: %s", first_line(exc))
             raise
         finally:
             self.stats.wall_s = time.perf_counter() - started
@@ -139,8 +137,7 @@ class LiveLoop:
         return self.watchdogs.check_link(self.worker.up, self.worker.silent_s(),
                                          self.t_s) + found
 
-    def _sight(self, grabbed: GrabbedFrame) -> Sighting:
-        frame = grabbed.frame
+    def _sight(self, frame: Frame) -> Sighting:
         if self.on_frame_taken is not None:
             self.on_frame_taken(frame)
         if frame.t_s < self.t_s:
@@ -151,7 +148,8 @@ class LiveLoop:
 
     def _decide(self, sighting: Sighting, in_hand_s: float) -> None:
         self._frame_in_hand_s = in_hand_s
-        self._frame_healthy = sighting.keypoints is not None
+        if sighting.keypoints is not None and self.watchdogs.link_ok:
+            self.stats.heartbeat = (self.stats.heartbeat + 1) & 0xFFFF  # goes out with the decision
         self.path.decide(sighting)
         self._frame_in_hand_s = None
         self.stats.process_ms.append((time.perf_counter() - self._taken_at) * 1e3)
@@ -170,8 +168,6 @@ class LiveLoop:
     def _publish_decided(self, output: Output) -> None:
         """The frame's tool-position decision, sent at once with the cycle's heartbeat (which
         counts only for a frame the detector read and over a working link)."""
-        if self._frame_healthy and self.watchdogs.link_ok:
-            self.stats.heartbeat = (self.stats.heartbeat + 1) & 0xFFFF
         self._send(output, self._frame_in_hand_s)
 
     def _publish(self, since_s: float | None, force_inhibit: bool = False) -> None:
