@@ -14,6 +14,12 @@ def first_line(exc: BaseException) -> str:
     return text.splitlines()[0] if text else type(exc).__name__
 
 
+def stop_requested(error: BaseException | None) -> bool:
+    """True when a run ended because it was asked to (Ctrl-C, or SIGTERM, which the commands
+    turn into KeyboardInterrupt) rather than because something failed."""
+    return isinstance(error, KeyboardInterrupt)
+
+
 class StationcheckError(Exception):
     """Root of every error stationcheck raises on purpose."""
 

@@ -9,7 +9,7 @@ from collections.abc import Callable
 
 from stationcheck.core.events import Event
 from stationcheck.core.observations import PositionRef
-from stationcheck.errors import StoreError, first_line
+from stationcheck.errors import StoreError, first_line, stop_requested
 from stationcheck.pipeline.decisions import DecisionStep
 from stationcheck.pipeline.evidence import EvidenceWriter
 from stationcheck.store.step_log import StepLog
@@ -79,7 +79,7 @@ class StepLogSink:
         if error is None:
             return
         data: dict[str, object] = {"reason": STOPPED_ON_REQUEST, "was_enabled": self._enabled}
-        if not isinstance(error, KeyboardInterrupt):
+        if not stop_requested(error):
             data.update(reason=STOPPED_ON_ERROR, error=first_line(error)[:300])
         event = Event(t_s=self._last_t_s, kind="tool_inhibited", serial=self._last_serial,
                       data=data)

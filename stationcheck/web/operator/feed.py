@@ -27,7 +27,7 @@ from typing import Any, Literal
 import cv2
 
 from stationcheck.core.plan import StationPlan
-from stationcheck.errors import first_line
+from stationcheck.errors import first_line, stop_requested
 from stationcheck.overlay.scene import draw_scene
 from stationcheck.overlay.symbols import Image
 from stationcheck.pipeline.decisions import DecisionCore, DecisionStep
@@ -136,8 +136,8 @@ class OperatorFeed:
         """The run ended: the screen says so and shows the tool off."""
         if error is None:
             self.ended = "ended"
-        elif isinstance(error, KeyboardInterrupt):
-            self.ended = "stopped"  # Ctrl-C or a service manager: nothing went wrong
+        elif stop_requested(error):
+            self.ended = "stopped"  # nothing went wrong
         else:
             self.ended = f"stopped: {first_line(error)}"
         with self._lock:
