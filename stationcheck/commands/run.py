@@ -90,9 +90,9 @@ def summary(loop: LiveLoop) -> str:
     stats, worker = loop.stats, loop.worker
     text = (f"{stats.frames} frames at {stats.fps:.1f} frames/s, "
             f"{loop.grabber.counts.dropped} dropped")
-    latency = sorted(worker.coil_latency_ms)
-    if latency:
-        p50 = latency[len(latency) // 2]
-        p99 = latency[min(len(latency) - 1, int(0.99 * len(latency)))]
+    if worker.coil_latency_ms:
+        import numpy as np
+
+        p50, p99 = np.percentile(worker.coil_latency_ms, [50, 99])  # as the benchmark does
         text += f", decision to enable coil p50 {p50:.1f} ms / p99 {p99:.1f} ms"
     return f"{text}, heartbeat {stats.heartbeat}"
