@@ -19,8 +19,10 @@ Headroom comes from further runs with the video and the simulator both faster th
 whether the loop keeps up (the share of offered frames it took; the grabber keeps only the
 newest frame, so a loop that falls behind drops frames rather than lagging). The most
 frames/s taken in any of these runs is the capacity, and headroom is capacity / camera rate.
-The grabber's decoding of every offered frame counts against it, as a camera's would. A last row times a fixed ~1 ms numpy burst
-after 30 ms of idle, as a reference for how much the machine itself stretches a latency tail.
+The grabber's decoding of every offered frame counts against it, as a camera's would.
+
+A last row times a fixed ~1 ms numpy burst after 30 ms of idle, as a reference for how much the
+machine itself stretches a latency tail.
 """
 
 from __future__ import annotations

@@ -3,8 +3,8 @@
 The loop :meth:`LinkWorker.publish` es its newest outputs and :meth:`LinkWorker.take` s the
 observations decoded since the last call; neither blocks on I/O. The worker writes the newest
 outputs when they differ from what it last wrote (and every ``refresh_s``), and reads the inputs
-after each write and at least every ``cycle_s``. Any failure marks the link down (a ``LinkStatus(ok=False)``
-for the sequencer), closes it, and retries with a growing back-off. Outputs the loop has not
+after each write and at least every ``cycle_s``. Any failure marks the link down (a
+``LinkStatus(ok=False)`` for the sequencer), closes it, and retries with a growing back-off. Outputs the loop has not
 renewed for ``stale_outputs_s`` are written with the enable off: a stuck loop cannot leave the
 tool enabled as long as the link still works. When the link itself is gone, only the PLC can
 act: it must drop the enable when the heartbeat stops changing.
