@@ -1,8 +1,9 @@
 """The client link against a real pymodbus server on 127.0.0.1.
 
 Frame layout checked against the Modbus Application Protocol Specification V1.1b3
-(modbus.org): 4.1 MBAP header of 7 bytes before the PDU; 6.5 Write Single Coil, function code
-0x05, output value 0xFF00 for ON and 0x0000 for OFF; 6.12 Write Multiple Registers 0x10.
+(modbus.org): 4.1 MBAP header of 7 bytes before the PDU; 6.2 Read Discrete Inputs, function
+code 0x02; 6.5 Write Single Coil, function code 0x05, output value 0xFF00 for ON and 0x0000 for
+OFF; 6.12 Write Multiple Registers 0x10.
 """
 
 from __future__ import annotations
