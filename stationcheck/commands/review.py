@@ -127,7 +127,8 @@ def _serve(args: argparse.Namespace) -> int:
     from stationcheck.web.review import ReviewSource, build_review_router
 
     source = ReviewSource(args.log)
-    server = start_server(build_review_router(source), args.host, args.port, args.token)
+    server = start_server(build_review_router(source), args.host, args.port, args.token,
+                          tuple(args.allow_host))
     return serve_until_interrupted(server, f"stationcheck review of {args.log}",
                                    not args.no_browser)
 

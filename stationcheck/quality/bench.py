@@ -88,7 +88,7 @@ def measure(options: BenchOptions) -> list[BenchRow]:
     from stationcheck.store.sqlite_log import SqliteStepLog
     from stationcheck.web.access import AccessRule
     from stationcheck.web.review import ReviewSource, build_review_router
-    from stationcheck.web.server import WebServer
+    from stationcheck.web.listener import WebServer
 
     path, units = bench_log_path()
     prepare_s = ensure_log(path, units)

@@ -11,7 +11,8 @@ from pathlib import Path
 import pytest
 
 from stationcheck.web.access import AccessRule, is_loopback
-from stationcheck.web.server import Request, Response, Router, WebError, WebServer, resolve_static
+from stationcheck.web.listener import WebServer
+from stationcheck.web.server import Request, Response, Router, WebError, resolve_static
 
 
 @pytest.fixture
@@ -42,6 +43,9 @@ def server(site: Path) -> Iterator[WebServer]:
     srv = serve(site)
     yield srv
     srv.close()
+
+
+WRITE = {"Content-Type": "application/json", "X-Stationcheck-Request": "1"}
 
 
 def fetch(srv: WebServer, method: str, path: str, body: bytes | None = None,
@@ -79,14 +83,13 @@ def test_static_files_stay_inside_their_folder(server: WebServer, path: str, sta
 def test_json_routes_and_errors(server: WebServer) -> None:
     code, body, _ = fetch(server, "GET", "/api/echo?a=1&b=two")
     assert (code, json.loads(body)) == (200, {"q": {"a": "1", "b": "two"}})
-    code, body, _ = fetch(server, "POST", "/api/echo", b'{"x": [1, 2]}',
-                          {"Content-Type": "application/json"})
+    code, body, _ = fetch(server, "POST", "/api/echo", b'{"x": [1, 2]}', WRITE)
     assert (code, json.loads(body)) == (200, {"x": [1, 2]})
-    code, body, _ = fetch(server, "POST", "/api/echo", b"{not json")
+    code, body, _ = fetch(server, "POST", "/api/echo", b"{not json", WRITE)
     assert code == 400 and b"not JSON" in body
     code, body, _ = fetch(server, "GET", "/api/boom")
     assert code == 500 and b"internal error" in body
-    code, _, _ = fetch(server, "DELETE", "/api/echo")
+    code, _, _ = fetch(server, "DELETE", "/api/echo", None, WRITE)
     assert code == 405  # a known path, a method it does not take
 
 
@@ -94,21 +97,26 @@ def test_json_routes_and_errors(server: WebServer) -> None:
     ({}, "/", 401),
     ({}, "/?token=wrong-token-xyz", 401),
     ({"X-Access-Token": "wrong-token-xyz"}, "/api/echo", 401),
-    ({}, "/?token=correct-token-123", 200),
+    ({}, "/?token=correct-token-123", 303),
     ({"X-Access-Token": "correct-token-123"}, "/api/echo", 200),
-    ({"Cookie": "other=1; stationcheck_token=correct-token-123"}, "/api/echo", 200),
-    ({"Cookie": "stationcheck_token=nope"}, "/api/echo", 401),
+    ({"Cookie": "other=1; stationcheck_screen_PORT=correct-token-123"}, "/api/echo", 200),
+    ({"Cookie": "stationcheck_screen_PORT=nope"}, "/api/echo", 401),
+    ({"Cookie": "stationcheck_screen_1=correct-token-123"}, "/api/echo", 401),
 ])
 def test_token_required_when_set(site: Path, headers: dict[str, str], path: str,
                                  status: int) -> None:
     srv = serve(site, token="correct-token-123")
     try:
+        port = str(srv.server_address[1])
+        headers = {k: v.replace("PORT", port) for k, v in headers.items()}
         code, body, got = fetch(srv, "GET", path, headers=headers)
         assert code == status
         if status == 401:
             assert b"home" not in body and b"access token" in body
-        if "token=correct" in path:
-            assert "stationcheck_token=correct-token-123" in got.get("Set-Cookie", "")
+        if "token=correct" in path:  # the page goes on without the token in its address
+            assert got["Set-Cookie"] == (f"stationcheck_screen_{port}=correct-token-123; "
+                                         "Path=/; HttpOnly; SameSite=Strict")
+            assert got["Location"] == "/"
     finally:
         srv.close()
 

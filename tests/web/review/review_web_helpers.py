@@ -12,7 +12,7 @@ from typing import Any
 from stationcheck.pipeline.report import ReplayReport
 from stationcheck.web.access import AccessRule
 from stationcheck.web.review import ReviewSource, build_review_router
-from stationcheck.web.server import WebServer
+from stationcheck.web.listener import WebServer
 
 
 @dataclass
