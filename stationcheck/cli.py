@@ -16,6 +16,7 @@ from collections.abc import Sequence
 
 from stationcheck import __version__
 from stationcheck.errors import StationcheckError, first_line
+from stationcheck.shown_text import terminal_text
 
 EXIT_USAGE = 64
 EXIT_INTERNAL = 70
@@ -89,7 +90,7 @@ def main(argv: Sequence[str] | None = None) -> int:
     try:
         return int(handler(args))
     except StationcheckError as exc:
-        print(f"stationcheck {args.command}: error: {exc}", file=sys.stderr)
+        print(f"stationcheck {args.command}: error: {terminal_text(str(exc))}", file=sys.stderr)
         return exc.exit_code
     except KeyboardInterrupt:
         print(f"stationcheck {args.command}: interrupted", file=sys.stderr)
@@ -103,7 +104,7 @@ def main(argv: Sequence[str] | None = None) -> int:
         logging.getLogger("stationcheck").debug("internal error", exc_info=True)
         hint = "" if args.verbose else "; run again with -v for the traceback"
         print(f"stationcheck {args.command}: internal error: {type(exc).__name__}: "
-              f"{first_line(exc)} (at {where}){hint}; please report it", file=sys.stderr)
+              f"{terminal_text(first_line(exc))} (at {where}){hint}; please report it", file=sys.stderr)
         if args.verbose:
             traceback.print_exc(file=sys.stderr)
         return EXIT_INTERNAL

@@ -38,7 +38,7 @@ class LimitError(MarkedYAMLError):
     """A file past one of the limits (its message names which)."""
 
 
-class _LimitedComposer(Composer):  # type: ignore[misc]  # ruamel.yaml's classes are untyped
+class _LimitedComposer(Composer):
     aliases = 0
     nodes = 0
 
@@ -92,7 +92,7 @@ def compose(text: str, name: str, yaml: YAML | None = None) -> Node | None:
     try:
         with warnings.catch_warnings():
             warnings.simplefilter("ignore", ReusedAnchorWarning)
-            node = yaml.compose(text)
+            node: Node | None = yaml.compose(text)
     except MarkedYAMLError as exc:
         raise ConfigError(syntax_message(name, exc)) from exc
     except YAMLError as exc:

@@ -27,7 +27,6 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, Literal
 
-
 from stationcheck.config import yaml_text
 from stationcheck.errors import ConfigError, InputFileError
 

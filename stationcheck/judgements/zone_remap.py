@@ -14,7 +14,6 @@ import re
 from collections.abc import Sequence
 from pathlib import Path
 
-
 from stationcheck.config import check_data, yaml_text
 from stationcheck.core.plan import ZoneSpec
 from stationcheck.errors import ConfigError

@@ -6,9 +6,9 @@ from pathlib import Path
 
 import numpy as np
 import pytest
-from stationcheck.config.yaml_text import load_plain
 
 from stationcheck.config import check_file, load_config
+from stationcheck.config.yaml_text import load_plain
 from stationcheck.core.plan import ZoneSpec
 from stationcheck.errors import ConfigError
 from stationcheck.judgements.camera_shift import apply_matrix, remap_zones
