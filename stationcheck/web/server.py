@@ -21,6 +21,7 @@ from typing import TYPE_CHECKING, Any
 from urllib.parse import parse_qs, unquote, urlencode, urlsplit
 
 from stationcheck.errors import StationcheckError
+from stationcheck.pipeline.json_lines import nests_deeper
 from stationcheck.web.access import Head, WebError, hide_token
 
 if TYPE_CHECKING:
@@ -51,7 +52,7 @@ class Request:
             raise WebError(400, f"request body is not JSON: {exc}") from exc
         except RecursionError as exc:
             raise WebError(400, "request body nests too deep") from exc
-        if _depth_over(value, MAX_JSON_DEPTH):
+        if nests_deeper(value, MAX_JSON_DEPTH):
             raise WebError(400, f"request body nests deeper than {MAX_JSON_DEPTH} levels")
         return value
 
@@ -65,18 +66,6 @@ class Request:
         except ValueError as exc:
             raise WebError(400, f"{name} must be a whole number, got {raw!r}") from exc
         return max(lo, min(hi, value))
-
-
-def _depth_over(value: Any, limit: int) -> bool:
-    stack: list[tuple[Any, int]] = [(value, 1)]
-    while stack:
-        item, depth = stack.pop()
-        if isinstance(item, dict | list):
-            if depth > limit:
-                return True
-            children = item.values() if isinstance(item, dict) else item
-            stack.extend((child, depth + 1) for child in children)
-    return False
 
 
 @dataclass
