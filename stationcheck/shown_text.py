@@ -17,8 +17,11 @@ _UNSAFE = re.compile("[\x00-\x08\x0a-\x1f\x7f-\x9f\u061c\u200e\u200f\u202a-\u202
 FORMULA_STARTS = ("=", "+", "-", "@", "\t", "\r")
 
 
-def terminal_text(text: str) -> str:
-    """``text`` with control and bidi-override characters escaped (tabs become a space)."""
+def terminal_text(text: str, keep_newlines: bool = False) -> str:
+    """``text`` with control and bidi-override characters escaped (tabs become a space; line
+    breaks too unless ``keep_newlines``, so one record cannot forge another line)."""
+    if keep_newlines:
+        return "\n".join(terminal_text(line) for line in text.split("\n"))
     return _UNSAFE.sub(lambda m: f"\\u{ord(m.group()):04x}", text.replace("\t", " "))
 
 

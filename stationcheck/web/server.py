@@ -15,6 +15,7 @@ import logging
 import mimetypes
 from collections.abc import Callable, Iterator
 from dataclasses import dataclass, field
+from http import HTTPStatus
 from http.server import BaseHTTPRequestHandler
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
@@ -271,12 +272,22 @@ class RequestHandler(BaseHTTPRequestHandler):
             if method != "HEAD":
                 self.wfile.write(response.body)
         except OSError:  # the viewer went away, or stopped reading for the write timeout
-            log.debug("viewer went away during %s %s", method, hide_token(self.path))
+            log.debug("viewer went away during %s %s", method,
+                      hide_token(getattr(self, "path", "")))
         finally:
             if stream is not None:
                 _close(stream)
             if slot:
                 self.server.stream_done()
+
+    def send_error(self, code: int, message: str | None = None,
+                   explain: str | None = None) -> None:
+        """Errors found by the standard library's parsing (request line, headers) answer as
+        the routes do: an HTTP/1.1 status line and a one-line JSON error."""
+        self.request_version = "HTTP/1.1"
+        self.close_connection = True
+        text = message or HTTPStatus(code).phrase
+        self._send("GET", Response.json({"error": f"bad request: {text}"}, code))
 
     def log_message(self, format: str, *args: Any) -> None:
         log.debug("%s %s", self.address_string(), hide_token(format % args))
