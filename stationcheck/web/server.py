@@ -116,6 +116,10 @@ class Router:
         else:
             self._routes[(method, path)] = route
 
+    def routes(self) -> dict[tuple[str, str], Route]:
+        """Every exact-path route by ``(METHOD, path)``."""
+        return dict(self._routes)
+
     def route(self, method: str, path: str) -> Route:
         """The route for a request, the static folder for GET/HEAD; WebError 404/405."""
         found = self._routes.get((method, path))
@@ -234,6 +238,8 @@ class RequestHandler(BaseHTTPRequestHandler):
             else:
                 response = route.handler(Request(method, split.path, query, headers, body))
         except WebError as exc:
+            if exc.status in (401, 403, 413, 415, 421):
+                log.info("refused %s %s: %s", method, hide_token(split.path), exc)
             response = Response.json({"error": str(exc)}, exc.status)
         except StationcheckError as exc:
             response = Response.json({"error": str(exc)}, 400)
