@@ -5,7 +5,8 @@
 - At most ``max_connections`` are open; a new one beyond that pushes out the longest-idle
   waiting connection (or is closed at once when all are busy), so idle floods cannot lock the
   screen out.
-- A fixed pool of daemon workers serves requests, one request per connection. Reading a
+- A bounded pool of daemon workers (started only when all are busy) serves requests, one
+  request per connection. Reading a
   request's head and body has ``request_timeout_s`` in all (a trickling sender is cut off);
   every socket write has the same timeout.
 - Live views (server-sent events, MJPEG) hold a worker each, at most ``max_streams`` of them;
@@ -35,7 +36,7 @@ _TICK_S = 0.05
 
 @dataclass(frozen=True)
 class ServerLimits:
-    max_connections: int = 128
+    max_connections: int = 256
     workers: int = 8
     max_streams: int = 16
     idle_timeout_s: float = 10.0
@@ -68,11 +69,7 @@ class WebServer(HTTPServer):
         except OSError as exc:
             raise StationcheckError(
                 f"cannot listen on {host}:{port}: {exc.strerror or exc}") from exc
-        self._workers = [threading.Thread(target=self._work, name=f"web-{router.name}-{n}",
-                                          daemon=True)
-                         for n in range(limits.workers + limits.max_streams)]
-        for worker in self._workers:
-            worker.start()
+        self._idle_workers = 0
 
     @property
     def url(self) -> str:
@@ -146,6 +143,16 @@ class WebServer(HTTPServer):
         with self._lock:
             address, _ = self._waiting.pop(connection)
             self._reading[connection] = time.monotonic() + self.limits.request_timeout_s
+            grow = False
+            if self._idle_workers > 0:  # an idle worker takes it
+                self._idle_workers -= 1
+            elif len(self._workers) < self.limits.workers + self.limits.max_streams:
+                grow = True  # a worker only when all are busy: a quiet screen keeps few
+                worker = threading.Thread(target=self._work, daemon=True,
+                                          name=f"web-{self.router.name}-{len(self._workers)}")
+                self._workers.append(worker)
+        if grow:
+            worker.start()
         self._jobs.put((connection, address))
 
     def _sweep(self, selector: selectors.BaseSelector) -> None:
@@ -181,6 +188,7 @@ class WebServer(HTTPServer):
                 with self._lock:
                     self._reading.pop(connection, None)
                     self._open -= 1
+                    self._idle_workers += 1
                 _shut(connection)
 
     def shutdown(self) -> None:
