@@ -82,8 +82,7 @@ def read_yaml_file(path: Path, shown_as: str | None = None) -> YamlDocument:
 
 
 def parse_yaml_text(text: str, name: str) -> YamlDocument:
-    yaml = yaml_text.loader()
-    node = yaml_text.compose(text, name, yaml)
+    node = yaml_text.compose(text, name)
     if node is None:
         what = "is empty" if not text.strip() else "holds only comments"
         raise ConfigError(
@@ -92,7 +91,7 @@ def parse_yaml_text(text: str, name: str) -> YamlDocument:
     lines: dict[Location, int] = {(): node.start_mark.line + 1}
     problems: list[Finding] = []
     _index(node, (), lines, problems)  # before constructing: that merges '<<' keys in place
-    data = yaml_text.construct(node, name, yaml)
+    data = yaml_text.construct(node, name)
     if not isinstance(data, dict):
         raise ConfigError(
             f"{name}:{node.start_mark.line + 1}: the top level must be a mapping of keys "

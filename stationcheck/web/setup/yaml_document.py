@@ -49,7 +49,7 @@ def new_yaml() -> YAML:
 
 
 def load_text(text: str, name: str) -> CommentedMap:
-    yaml_text.compose(text, name, new_yaml())  # the limits, before anything is built
+    yaml_text.compose(text, name)  # the limits, before anything is built
     try:
         data = new_yaml().load(text)
     except YAMLError as exc:
