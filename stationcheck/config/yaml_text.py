@@ -27,7 +27,7 @@ from ruamel.yaml.nodes import MappingNode, Node, SequenceNode
 from ruamel.yaml.resolver import VersionedResolver
 
 try:
-    from ruamel.yaml.main import CParser
+    from ruamel.yaml.main import CParser  # type: ignore[attr-defined]
 except ImportError:  # pragma: no cover - the C parser is an optional speed-up
     CParser = None
 
