@@ -3,8 +3,8 @@
 from __future__ import annotations
 
 import http.client
-import logging
 import json
+import logging
 import os
 from collections.abc import Iterator
 from pathlib import Path
