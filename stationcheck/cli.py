@@ -11,10 +11,12 @@ import argparse
 import importlib
 import logging
 import sys
+import traceback
 from collections.abc import Sequence
 
 from stationcheck import __version__
-from stationcheck.errors import StationcheckError
+from stationcheck.errors import StationcheckError, first_line
+from stationcheck.shown_text import terminal_text
 
 EXIT_USAGE = 64
 EXIT_INTERNAL = 70
@@ -54,7 +56,7 @@ def build_parser() -> argparse.ArgumentParser:
     )
     parser.add_argument("--version", action="version", version=f"stationcheck {__version__}")
     parser.add_argument(
-        "-v", "--verbose", action="count", default=0, help="more log output (-vv for debug)"
+        "-v", "--verbose", action="count", default=0, help="more log output (-vv for debug); with -v an internal error also prints its traceback"
     )
     subparsers = parser.add_subparsers(dest="command", metavar="COMMAND")
     for name in COMMAND_MODULES:
@@ -88,8 +90,32 @@ def main(argv: Sequence[str] | None = None) -> int:
     try:
         return int(handler(args))
     except StationcheckError as exc:
-        print(f"stationcheck {args.command}: error: {exc}", file=sys.stderr)
+        print(f"stationcheck {args.command}: error: {terminal_text(str(exc))}", file=sys.stderr)
         return exc.exit_code
     except KeyboardInterrupt:
         print(f"stationcheck {args.command}: interrupted", file=sys.stderr)
         return 130
+    except MemoryError:
+        print(f"stationcheck {args.command}: error: out of memory; the input is too large "
+              "for this PC", file=sys.stderr)
+        return EXIT_INTERNAL
+    except Exception as exc:  # a bug: one line, the traceback only with -v or in the log
+        where = _where(exc)
+        logging.getLogger("stationcheck").debug("internal error", exc_info=True)
+        hint = "" if args.verbose else "; run again with -v for the traceback"
+        print(f"stationcheck {args.command}: internal error: {type(exc).__name__}: "
+              f"{terminal_text(first_line(exc))} (at {where}){hint}; please report it", file=sys.stderr)
+        if args.verbose:
+            traceback.print_exc(file=sys.stderr)
+        return EXIT_INTERNAL
+
+
+def _where(exc: BaseException) -> str:
+    """The innermost stationcheck source line the error passed through."""
+    frames = traceback.extract_tb(exc.__traceback__)
+    ours = [f for f in frames if "stationcheck" in f.filename] or frames
+    if not ours:
+        return "unknown place"
+    last = ours[-1]
+    name = last.filename.split("stationcheck/", 1)[-1]
+    return f"stationcheck/{name}:{last.lineno}"

@@ -6,7 +6,7 @@ import sys
 import pytest
 
 from stationcheck import __version__
-from stationcheck.cli import EXIT_USAGE, main
+from stationcheck.cli import EXIT_INTERNAL, EXIT_USAGE, main
 
 
 def test_version_is_printed(capsys: pytest.CaptureFixture[str]) -> None:
@@ -31,3 +31,39 @@ def test_console_script_runs() -> None:
     )
     assert result.returncode == 0
     assert "usage: stationcheck" in result.stdout
+
+
+@pytest.mark.parametrize("verbose", [False, True])
+def test_an_internal_error_is_one_line_with_exit_70(
+        monkeypatch: pytest.MonkeyPatch, capsys: pytest.CaptureFixture[str],
+        verbose: bool) -> None:
+    import stationcheck.commands.check as check_command
+
+    def broken(args: object) -> int:
+        raise KeyError("zones")
+
+    monkeypatch.setattr(check_command, "run", broken)
+    assert main([*(["-v"] if verbose else []), "check", "x.yaml"]) == EXIT_INTERNAL
+    err = capsys.readouterr().err
+    first = err.splitlines()[0]
+    assert first.startswith("stationcheck check: internal error: KeyError: 'zones' (at ")
+    assert "tests/test_cli.py" in first or "stationcheck/" in first
+    if verbose:
+        assert "Traceback (most recent call last)" in err
+    else:
+        assert len(err.splitlines()) == 1 and "run again with -v" in first
+
+
+def test_an_error_message_cannot_steer_the_terminal(
+        monkeypatch: pytest.MonkeyPatch, capsys: pytest.CaptureFixture[str]) -> None:
+    import stationcheck.commands.check as check_command
+    from stationcheck.errors import ConfigError
+
+    def refusing(args: object) -> int:
+        raise ConfigError("bad\x1b[2J name \u202eevil\nsecond line")
+
+    monkeypatch.setattr(check_command, "run", refusing)
+    assert main(["check", "x.yaml"]) == 2
+    err = capsys.readouterr().err
+    assert err == ("stationcheck check: error: bad\\u001b[2J name \\u202eevil\\u000asecond "
+                   "line\n")

@@ -61,6 +61,7 @@ def run(args: argparse.Namespace) -> int:
     from stationcheck.config import check_file
     from stationcheck.config.expansion import expanded_sections, expanded_yaml
     from stationcheck.errors import ConfigError
+    from stationcheck.shown_text import terminal_text
 
     try:
         result = check_file(args.config)
@@ -78,10 +79,10 @@ def run(args: argparse.Namespace) -> int:
         return code
     if args.expand and result.config is not None:
         for line in [*result.lines(), result.summary()]:
-            print(f"# {line}")
-        sys.stdout.write(expanded_yaml(result.config))
+            print(terminal_text(f"# {line}"))
+        sys.stdout.write(terminal_text(expanded_yaml(result.config), keep_newlines=True))
         return code
     for line in result.lines():
-        print(line)
-    print(result.summary())
+        print(terminal_text(line))
+    print(terminal_text(result.summary()))
     return code

@@ -12,7 +12,7 @@ import json
 import sys
 from itertools import islice
 from pathlib import Path
-from typing import TYPE_CHECKING, Any
+from typing import TYPE_CHECKING, Any, TextIO
 
 if TYPE_CHECKING:
     from stationcheck.quality.period import Period
@@ -118,7 +118,7 @@ def run(args: argparse.Namespace) -> int:
 def _usage(message: str) -> int:
     from stationcheck.cli import EXIT_USAGE
 
-    print(f"stationcheck review: error: {message}", file=sys.stderr)
+    _say(f"stationcheck review: error: {message}", file=sys.stderr)
     return EXIT_USAGE
 
 
@@ -127,7 +127,8 @@ def _serve(args: argparse.Namespace) -> int:
     from stationcheck.web.review import ReviewSource, build_review_router
 
     source = ReviewSource(args.log)
-    server = start_server(build_review_router(source), args.host, args.port, args.token)
+    server = start_server(build_review_router(source), args.host, args.port, args.token,
+                          tuple(args.allow_host))
     return serve_until_interrupted(server, f"stationcheck review of {args.log}",
                                    not args.no_browser)
 
@@ -152,7 +153,7 @@ def _print_units(step_log: SqliteStepLog, args: argparse.Namespace, period: Peri
     if args.json:
         sys.stdout.writelines(export.json_array_chunks(rows))
         return 0
-    print(f"{'serial':<14} {'started':<19} {'result':<8} {'passes':>6} {'retries':>7} "
+    _say(f"{'serial':<14} {'started':<19} {'result':<8} {'passes':>6} {'retries':>7} "
           f"{'NOK':>4} {'cycle s':>8}  failed positions")
     shown = 0
     for row in rows:
@@ -160,11 +161,11 @@ def _print_units(step_log: SqliteStepLog, args: argparse.Namespace, period: Peri
         cycle = f"{row['cycle_time_s']:8.1f}" if row["cycle_time_s"] is not None else " " * 8
         status = {"NotOK": "NOK", "NotDecidable": "aborted"}.get(row["status"], row["status"])
         status += "*" if row["reworked"] else ""
-        print(f"{row['serial']:<14} {(row['started_at'] or '')[:19]:<19} {status:<8} "
+        _say(f"{row['serial']:<14} {(row['started_at'] or '')[:19]:<19} {status:<8} "
               f"{row['passes']:>6} {row['retries']:>7} {row['nok_results']:>4} {cycle}  "
               f"{', '.join(row['failed_positions']) or '-'}")
     total = queries.count_units(conn, query)
-    print(f"{total:,} unit{'s' if total != 1 else ''} match; {shown:,} shown (* reworked)")
+    _say(f"{total:,} unit{'s' if total != 1 else ''} match; {shown:,} shown (* reworked)")
     return 0
 
 
@@ -184,19 +185,19 @@ def _print_unit(step_log: SqliteStepLog, args: argparse.Namespace) -> int:
         print(json.dumps(detail, ensure_ascii=False))
         return 0
     u = detail["unit"]
-    print(f"unit {u['serial']}: {u['status']}{' (reworked)' if u['reworked'] else ''}, "
+    _say(f"unit {u['serial']}: {u['status']}{' (reworked)' if u['reworked'] else ''}, "
           f"{u['passes']} pass(es), started {u['started_at']}, cycle time "
           f"{u['cycle_time_s'] or 0:.1f} s, rework time {u['rework_time_s']:.1f} s")
-    print(f"{'pass':<6} {'step':<16} {'position':<10} {'try':>3} {'result':<13} "
+    _say(f"{'pass':<6} {'step':<16} {'position':<10} {'try':>3} {'result':<13} "
           f"{'torque N·m':>11} {'angle °':>8}")
     for s in steps:
         torque = f"{s.torque_nm:11.2f}" if s.torque_nm is not None else " " * 11
         angle = f"{s.angle_deg:8.1f}" if s.angle_deg is not None else " " * 8
         decided = " (left)" if s.position_result == "NotOK" else ""
-        print(f"{'rework' if s.is_rework else 'first':<6} {s.step:<16} {s.position or '-':<10} "
+        _say(f"{'rework' if s.is_rework else 'first':<6} {s.step:<16} {s.position or '-':<10} "
               f"{s.attempt:>3} {s.result + decided:<13} {torque} {angle}")
     for a in alarms:
-        print(f"alarm {a.code} ({a.severity}): {a.message}")
+        _say(f"alarm {a.code} ({a.severity}): {a.message}")
     return 0
 
 
@@ -209,24 +210,24 @@ def _print_figures(step_log: SqliteStepLog, args: argparse.Namespace, period: Pe
         print(json.dumps(figures, ensure_ascii=False))
         return 0
     ftt, ci = figures["ftt_rate"], figures["ftt_interval_95"]
-    print(f"period: {figures['period']['text']}")
-    print(f"units started {figures['units']:,}: OK {figures['ok']:,}, NOK {figures['nok']:,}, "
+    _say(f"period: {figures['period']['text']}")
+    _say(f"units started {figures['units']:,}: OK {figures['ok']:,}, NOK {figures['nok']:,}, "
           f"aborted {figures['aborted']:,}, open {figures['open']:,}, reworked "
           f"{figures['reworked']:,}")
     if ftt is not None:
-        print(f"first-time-through {figures['first_time_through']:,} = {100 * ftt:.1f} % "
+        _say(f"first-time-through {figures['first_time_through']:,} = {100 * ftt:.1f} % "
               f"(95 % Wilson interval {100 * ci[0]:.1f} to {100 * ci[1]:.1f} %)")
-    print(f"NOK results {figures['nok_results']:,}, retries {figures['retries']:,}")
+    _say(f"NOK results {figures['nok_results']:,}, retries {figures['retries']:,}")
     for title, key in (("NOK by position", "nok_by_position"), ("retries by position",
                                                                 "retries_by_position")):
         bars = ", ".join(f"{b['position']} {b['count']}" for b in figures[key]) or "none"
-        print(f"{title}: {bars}")
+        _say(f"{title}: {bars}")
     ct = figures["cycle_time"]
     if ct["count"]:
-        print(f"cycle time (first pass, {ct['count']:,} units): median {ct['median_s']:.1f} s, "
+        _say(f"cycle time (first pass, {ct['count']:,} units): median {ct['median_s']:.1f} s, "
               f"p90 {ct['p90_s']:.1f} s, mean {ct['mean_s']:.1f} s, max {ct['max_s']:.1f} s")
     alarms = ", ".join(f"{a['code']} {a['count']}" for a in figures["alarms"]) or "none"
-    print(f"alarms: {alarms}")
+    _say(f"alarms: {alarms}")
     return 0
 
 
@@ -248,12 +249,12 @@ def _print_trend(step_log: SqliteStepLog, args: argparse.Namespace, period: Peri
         sys.stdout.writelines(export.csv_chunks(rows, ("seq", "serial", "recorded_at_s", "value",
                                                        "ewma")))
         return 0
-    print(f"{args.trend} final {args.measure}: {body['count']} units")
+    _say(f"{args.trend} final {args.measure}: {body['count']} units")
     if body["sigma"] is not None:
-        print(f"centre {body['centre']:.3f} {trend.unit}, sigma {body['sigma']:.4f} (first "
+        _say(f"centre {body['centre']:.3f} {trend.unit}, sigma {body['sigma']:.4f} (first "
               f"{body['baseline']} values)")
     for finding in trend_findings(trend) or ["no signal: within its control limits and run rules"]:
-        print(finding)
+        _say(finding)
     return 0
 
 
@@ -266,5 +267,12 @@ def _write_report(step_log: SqliteStepLog, args: argparse.Namespace, period: Per
         args.report.write_text(html, encoding="utf-8")
     except OSError as exc:
         raise InputFileError(f"cannot write the report {args.report}: {exc}") from exc
-    print(f"report written: {args.report} ({len(html) // 1024} kB)")
+    _say(f"report written: {args.report} ({len(html) // 1024} kB)")
     return 0
+
+
+def _say(text: str, file: TextIO | None = None) -> None:
+    """One line for a person at a terminal: what came from the log cannot steer it."""
+    from stationcheck.shown_text import terminal_text
+
+    print(terminal_text(text), file=file or sys.stdout)

@@ -43,5 +43,6 @@ def run(args: argparse.Namespace) -> int:
     if args.config is not None and not args.config.resolve().is_relative_to(workspace.root):
         raise InputFileError(f"{args.config} lies outside the setup folder {workspace.root}")
     session = SetupSession.open(workspace, args.config)
-    server = start_server(build_router(session), args.host, args.port, args.token)
+    server = start_server(build_router(session), args.host, args.port, args.token,
+                          tuple(args.allow_host))
     return serve_until_interrupted(server, "stationcheck setup", not args.no_browser)

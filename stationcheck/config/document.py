@@ -12,8 +12,9 @@ from functools import cached_property
 from pathlib import Path
 from typing import Any
 
-import yaml
+from ruamel.yaml.nodes import MappingNode, Node, ScalarNode, SequenceNode
 
+from stationcheck.config import yaml_text
 from stationcheck.config.findings import Finding
 from stationcheck.config.wording import Location, describe_value
 from stationcheck.errors import ConfigError
@@ -81,24 +82,16 @@ def read_yaml_file(path: Path, shown_as: str | None = None) -> YamlDocument:
 
 
 def parse_yaml_text(text: str, name: str) -> YamlDocument:
-    loader = yaml.SafeLoader(text)
-    try:
-        node = loader.get_single_node()
-        if node is None:
-            what = "is empty" if not text.strip() else "holds only comments"
-            raise ConfigError(
-                f"{name}: the file {what}; a station config starts with 'format_version: 1'"
-            )
-        lines: dict[Location, int] = {(): node.start_mark.line + 1}
-        problems: list[Finding] = []
-        _index(node, (), lines, problems)  # before constructing: that merges '<<' keys in place
-        data = loader.construct_document(node)
-    except yaml.MarkedYAMLError as exc:
-        raise ConfigError(_syntax_message(name, exc)) from exc
-    except yaml.YAMLError as exc:
-        raise ConfigError(f"{name}: not valid YAML ({exc})") from exc
-    finally:
-        loader.dispose()
+    node = yaml_text.compose(text, name)
+    if node is None:
+        what = "is empty" if not text.strip() else "holds only comments"
+        raise ConfigError(
+            f"{name}: the file {what}; a station config starts with 'format_version: 1'"
+        )
+    lines: dict[Location, int] = {(): node.start_mark.line + 1}
+    problems: list[Finding] = []
+    _index(node, (), lines, problems)  # before constructing: that merges '<<' keys in place
+    data = yaml_text.construct(node, name)
     if not isinstance(data, dict):
         raise ConfigError(
             f"{name}:{node.start_mark.line + 1}: the top level must be a mapping of keys "
@@ -107,29 +100,13 @@ def parse_yaml_text(text: str, name: str) -> YamlDocument:
     return YamlDocument(data=data, lines=lines, problems=tuple(problems))
 
 
-def _syntax_message(name: str, exc: yaml.MarkedYAMLError) -> str:
-    mark = exc.problem_mark or exc.context_mark
-    where = f"{name}:{mark.line + 1}:{mark.column + 1}" if mark else name
-    problem = exc.problem or exc.context or "unreadable"
-    context = exc.context or ""
-    if problem.startswith("but ") and context:
-        problem = f"{context} {problem}"
-    elif context and exc.context_mark is not None and exc.problem_mark is not None:
-        problem += f" ({context} that starts on line {exc.context_mark.line + 1})"
-    if "\\t" in problem:
-        problem += "; indent with spaces, YAML does not allow tabs"
-    if "single document" in problem:
-        problem += "; a station config is one document, so remove the '---' line"
-    return f"{where}: not valid YAML: {problem}"
-
-
 def _index(
-    node: yaml.Node, path: Location, lines: dict[Location, int], problems: list[Finding]
+    node: Node, path: Location, lines: dict[Location, int], problems: list[Finding]
 ) -> None:
-    if isinstance(node, yaml.MappingNode):
+    if isinstance(node, MappingNode):
         first_seen: dict[str, int] = {}
         for key_node, value_node in node.value:
-            key = key_node.value if isinstance(key_node, yaml.ScalarNode) else None
+            key = key_node.value if isinstance(key_node, ScalarNode) else None
             if not isinstance(key, str):
                 continue
             line = key_node.start_mark.line + 1
@@ -137,12 +114,12 @@ def _index(
                 problems.append(Finding(
                     "error", path + (key,),
                     f"'{key}' is given twice in the same mapping (first on line "
-                    f"{first_seen[key]}); YAML keeps only the last one, so remove one", line,
+                    f"{first_seen[key]}); only the first one counts, so remove one", line,
                 ))
             first_seen.setdefault(key, line)
             lines[path + (key,)] = line
             _index(value_node, path + (key,), lines, problems)
-    elif isinstance(node, yaml.SequenceNode):
+    elif isinstance(node, SequenceNode):
         for index, item in enumerate(node.value):
             lines[path + (index,)] = item.start_mark.line + 1
             _index(item, path + (index,), lines, problems)

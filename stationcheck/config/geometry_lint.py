@@ -15,7 +15,10 @@ Rules (E = error, W = warning):
 
 from __future__ import annotations
 
+import math
+
 import shapely
+from shapely import STRtree
 from shapely.geometry import MultiPoint, Polygon, box
 
 from stationcheck.config.findings import Finding, error, warning
@@ -23,6 +26,7 @@ from stationcheck.config.parts import ConfigParts, LocatedZone
 from stationcheck.config.wording import Location
 
 _AREA_EPS_PX2 = 1e-6
+_MAX_COORD_PX = 1e6
 
 
 def lint_geometry(parts: ConfigParts) -> list[Finding]:
@@ -51,8 +55,11 @@ def _name(zone: LocatedZone) -> str:
 
 
 def _shape_problem(zone: LocatedZone, points: tuple[tuple[float, float], ...]) -> Finding | None:
-    distinct = len(set(points))
     where = zone.path + ("polygon",) if zone.path[-1] != "bolt_circle" else zone.path
+    if not all(math.isfinite(v) and abs(v) <= _MAX_COORD_PX for point in points for v in point):
+        return error(where, f"{_name(zone)} has a point that is not a pixel position (each "
+                     f"coordinate a finite number within ±{_MAX_COORD_PX:g})")
+    distinct = len(set(points))
     if distinct < 3:
         return error(where, f"{_name(zone)} has {distinct} distinct point"
                      f"{'' if distinct == 1 else 's'}; a zone needs at least 3")
@@ -92,23 +99,39 @@ def _frame_findings(
     return []
 
 
+def _near_pairs(
+    shapes: list[tuple[LocatedZone, Polygon]], distance_px: float
+) -> list[tuple[int, int]]:
+    """Index pairs ``(i, j)``, ``j < i``, of shapes closer than ``distance_px`` (touching
+    included), from a spatial index (shapely STRtree): near-linear in the number of zones."""
+    if len(shapes) < 2:
+        return []
+    geometries = [shape for _, shape in shapes]
+    tree = STRtree(geometries)
+    if distance_px > 0:
+        found = tree.query(geometries, predicate="dwithin", distance=distance_px)
+    else:
+        found = tree.query(geometries, predicate="intersects")
+    return sorted((int(i), int(j)) for i, j in zip(found[0], found[1], strict=True) if j < i)
+
+
 def _overlap_findings(shapes: list[tuple[LocatedZone, Polygon]]) -> list[Finding]:
     findings: list[Finding] = []
-    for i, (zone, shape) in enumerate(shapes):
-        for other, other_shape in shapes[:i]:
-            if zone.kind != other.kind or zone.kind not in ("fastener", "bin"):
-                continue
-            overlap_px2 = shape.intersection(other_shape).area
-            if overlap_px2 <= _AREA_EPS_PX2:
-                continue
-            if zone.kind == "fastener":
-                findings.append(error(zone.path, (
-                    f"{_name(zone)} overlaps fastener zone '{other.id}' by "
-                    f"{overlap_px2:.0f} px²; a tip there would be at two positions at once")))
-            else:
-                findings.append(warning(zone.path, (
-                    f"{_name(zone)} overlaps bin zone '{other.id}' by {overlap_px2:.0f} "
-                    "px²; a reach into the overlap counts as a pick from both bins")))
+    for i, j in _near_pairs(shapes, 0.0):
+        (zone, shape), (other, other_shape) = shapes[i], shapes[j]
+        if zone.kind != other.kind or zone.kind not in ("fastener", "bin"):
+            continue
+        overlap_px2 = shape.intersection(other_shape).area
+        if overlap_px2 <= _AREA_EPS_PX2:
+            continue
+        if zone.kind == "fastener":
+            findings.append(error(zone.path, (
+                f"{_name(zone)} overlaps fastener zone '{other.id}' by "
+                f"{overlap_px2:.0f} px²; a tip there would be at two positions at once")))
+        else:
+            findings.append(warning(zone.path, (
+                f"{_name(zone)} overlaps bin zone '{other.id}' by {overlap_px2:.0f} "
+                "px²; a reach into the overlap counts as a pick from both bins")))
     return findings
 
 
@@ -117,15 +140,15 @@ def _hysteresis_findings(
 ) -> list[Finding]:
     fasteners = [(zone, shape) for zone, shape in shapes if zone.kind == "fastener"]
     findings = _size_findings(fasteners, hysteresis_px)
-    for i, (zone, shape) in enumerate(fasteners):
-        for other, other_shape in fasteners[:i]:
-            gap_px = shape.distance(other_shape)
-            overlapping = shape.intersection(other_shape).area > _AREA_EPS_PX2
-            if gap_px < hysteresis_px and not overlapping:
-                findings.append(warning(zone.path, (
-                    f"{_name(zone)} is only {gap_px:.1f} px from fastener zone "
-                    f"'{other.id}', less than hysteresis_px ({hysteresis_px:g}); the tip "
-                    f"would still count as at '{other.id}' when it reaches this one")))
+    for i, j in _near_pairs(fasteners, hysteresis_px):
+        (zone, shape), (other, other_shape) = fasteners[i], fasteners[j]
+        gap_px = shape.distance(other_shape)
+        overlapping = shape.intersection(other_shape).area > _AREA_EPS_PX2
+        if gap_px < hysteresis_px and not overlapping:
+            findings.append(warning(zone.path, (
+                f"{_name(zone)} is only {gap_px:.1f} px from fastener zone "
+                f"'{other.id}', less than hysteresis_px ({hysteresis_px:g}); the tip "
+                f"would still count as at '{other.id}' when it reaches this one")))
     return findings
 
 
@@ -134,12 +157,15 @@ def _size_findings(
 ) -> list[Finding]:
     """One finding per entry: the zones of a bolt circle share their size."""
     findings: list[Finding] = []
+    ids_by_entry: dict[Location, list[str]] = {}
+    for zone, _ in fasteners:
+        ids_by_entry.setdefault(zone.path, []).append(zone.id)
     checked: set[Location] = set()
     for zone, shape in fasteners:
         if zone.path in checked:
             continue
         checked.add(zone.path)
-        ids = [z.id for z, _ in fasteners if z.path == zone.path]
+        ids = ids_by_entry[zone.path]
         subject = _name(zone) + " is" if len(ids) == 1 else f"zones {ids[0]} to {ids[-1]} are"
         radius_px = shapely.maximum_inscribed_circle(shape).length
         sizes = f"inscribed radius {radius_px:.1f} px, hysteresis_px {hysteresis_px:g}"

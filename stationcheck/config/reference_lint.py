@@ -80,21 +80,28 @@ def _zone_ref_finding(
     step_kind: str,
     zones: dict[str, LocatedZone],
 ) -> Finding | None:
-    of_kind = [zid for zid, zone in zones.items() if zone.kind == wanted]
-    listing = (f"{wanted} zones are: {', '.join(of_kind)}" if of_kind
-               else f"there are no {wanted} zones")
     zone = zones.get(name)
     if zone is None:
         close = difflib.get_close_matches(name, list(zones), n=1, cutoff=0.6)
         hint = f" (did you mean '{close[0]}'?)" if close else ""
-        return error(path, f"no zone named '{name}'{hint}; {listing}")
+        return error(path, f"no zone named '{name}'{hint}; {_listing(zones, wanted)}")
     if zone.kind is None:
         return None  # the zone's kind has its own error
     if zone.kind != wanted:
         article = "an" if step_kind[0] in "aeiou" else "a"
         return error(path, f"'{name}' is a {zone.kind} zone, but {article} {step_kind} step "
-                     f"needs a {wanted} zone; {listing}")
+                     f"needs a {wanted} zone; {_listing(zones, wanted)}")
     return None
+
+
+def _listing(zones: dict[str, LocatedZone], wanted: str) -> str:
+    """The zones of the wanted kind, written only for a finding (a list per reference would
+    make a large station's check quadratic)."""
+    of_kind = [zid for zid, zone in zones.items() if zone.kind == wanted]
+    if not of_kind:
+        return f"there are no {wanted} zones"
+    more = f" and {len(of_kind) - 20} more" if len(of_kind) > 20 else ""
+    return f"{wanted} zones are: {', '.join(of_kind[:20])}{more}"
 
 
 def _unused_zone_findings(parts: ConfigParts) -> list[Finding]:

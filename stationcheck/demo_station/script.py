@@ -27,8 +27,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, Literal
 
-import yaml
-
+from stationcheck.config import yaml_text
 from stationcheck.errors import ConfigError, InputFileError
 
 PinAction = Literal["push", "leave_out", "keep", "none"]
@@ -105,11 +104,10 @@ class Limits:
 
 def load_script(path: Path, limits: Limits) -> SceneScript:
     try:
-        doc = yaml.safe_load(path.read_text(encoding="utf-8"))
-    except OSError as exc:
+        text = path.read_text(encoding="utf-8")
+    except (OSError, UnicodeDecodeError) as exc:
         raise InputFileError(f"cannot read scene script {path}: {exc}") from exc
-    except yaml.YAMLError as exc:
-        raise ConfigError(f"{path}: not valid YAML: {exc}") from exc
+    doc = yaml_text.load_plain(text, str(path))
     return parse_script(doc, limits, str(path))
 
 

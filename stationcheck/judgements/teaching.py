@@ -24,8 +24,8 @@ from typing import Any
 
 import cv2
 import numpy as np
-import yaml
 
+from stationcheck.config import yaml_text
 from stationcheck.config.schema import StationConfig
 from stationcheck.core.plan import ZoneSpec
 from stationcheck.errors import ConfigError, InputFileError
@@ -101,9 +101,10 @@ def read_manifest(folder: Path) -> Manifest | None:
     if not path.exists():
         return None
     try:
-        data = yaml.safe_load(path.read_text(encoding="utf-8"))
-    except (OSError, UnicodeDecodeError, yaml.YAMLError) as exc:
+        text = path.read_text(encoding="utf-8")
+    except (OSError, UnicodeDecodeError) as exc:
         raise ConfigError(f"{path}: cannot be read as YAML ({exc})") from exc
+    data = yaml_text.load_plain(text, str(path))
     try:
         return _manifest_from_data(data)
     except (KeyError, TypeError, ValueError) as exc:
@@ -137,8 +138,8 @@ def write_manifest(folder: Path, manifest: Manifest) -> None:
     head = {
         "format_version": FORMAT_VERSION,
         "zone": manifest.zone,
-        "zone_box_px": list(manifest.zone_box_px),
-        "crop_box_px": list(manifest.crop_box_px),
+        "zone_box_px": yaml_text.flow_list(manifest.zone_box_px),
+        "crop_box_px": yaml_text.flow_list(manifest.crop_box_px),
         "method": METHOD,
     }
     images = {"images": [{"file": image.file, "class": image.label, "source": image.source}
@@ -149,8 +150,8 @@ def write_manifest(folder: Path, manifest: Manifest) -> None:
     try:
         folder.mkdir(parents=True, exist_ok=True)
         (folder / MANIFEST_NAME).write_text(
-            header + yaml.safe_dump(head, sort_keys=False, default_flow_style=None)
-            + yaml.safe_dump(images, sort_keys=False, width=100), encoding="utf-8")
+            header + yaml_text.dump_text(head) + yaml_text.dump_text(images, width=100),
+            encoding="utf-8")
     except OSError as exc:
         raise InputFileError(f"cannot write {folder / MANIFEST_NAME}: {exc}") from exc
 

@@ -14,9 +14,7 @@ import re
 from collections.abc import Sequence
 from pathlib import Path
 
-import yaml
-
-from stationcheck.config import check_data
+from stationcheck.config import check_data, yaml_text
 from stationcheck.core.plan import ZoneSpec
 from stationcheck.errors import ConfigError
 
@@ -30,7 +28,7 @@ def _number(value: float) -> str:
 
 
 def _scalar(text: str) -> str:
-    return str(yaml.safe_dump(text, width=1000)).strip().removesuffix("\n...").strip()
+    return yaml_text.scalar_text(text)
 
 
 def zones_yaml(zones: Sequence[ZoneSpec], note: str = "") -> str:
@@ -87,7 +85,7 @@ def write_remapped_config(source: Path, target: Path, zones: Sequence[ZoneSpec],
         raise ConfigError(f"{source}: cannot be read ({exc})") from exc
     relative = Path(os.path.relpath(reference_image.resolve(), target.resolve().parent)).as_posix()
     new_text = rewrite_config_text(text, zones_yaml(zones, note), relative)
-    result = check_data(yaml.safe_load(new_text), base_dir=target.resolve().parent,
+    result = check_data(yaml_text.load_plain(new_text, str(target)), base_dir=target.resolve().parent,
                         source=str(target))
     if not result.ok:
         first = result.errors[0].format(result.source)

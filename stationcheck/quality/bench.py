@@ -87,8 +87,8 @@ def measure(options: BenchOptions) -> list[BenchRow]:
     from stationcheck.store.records import UnitQuery
     from stationcheck.store.sqlite_log import SqliteStepLog
     from stationcheck.web.access import AccessRule
+    from stationcheck.web.listener import WebServer
     from stationcheck.web.review import ReviewSource, build_review_router
-    from stationcheck.web.server import WebServer
 
     path, units = bench_log_path()
     prepare_s = ensure_log(path, units)

@@ -12,6 +12,7 @@ from dataclasses import replace
 from typing import Any
 
 from stationcheck.quality.period import format_time
+from stationcheck.shown_text import csv_cell
 from stationcheck.store import queries
 from stationcheck.store.records import AlarmRow, StepRow, UnitQuery, UnitRow
 
@@ -89,15 +90,16 @@ def iter_units(conn: sqlite3.Connection, query: UnitQuery,
 
 def _csv_cell(value: Any) -> Any:
     if isinstance(value, list):
-        return ";".join(str(v) for v in value)
+        return csv_cell(";".join(str(v) for v in value))
     if isinstance(value, bool):
         return "true" if value else "false"
-    return "" if value is None else value
+    return "" if value is None else csv_cell(value)
 
 
 def csv_chunks(rows: Iterable[dict[str, Any]], fields: Sequence[str],
                rows_per_chunk: int = 500) -> Iterator[str]:
-    """CSV text (header first) in chunks of rows; lists joined with ``;``."""
+    """CSV text (header first) in chunks of rows; lists joined with ``;``; text that a
+    spreadsheet would run as a formula starts with ``'``."""
     buffer = io.StringIO()
     writer = csv.writer(buffer, lineterminator="\r\n")
     writer.writerow(fields)

@@ -8,7 +8,8 @@ import webbrowser
 from pathlib import Path
 
 from stationcheck.web.access import AccessRule
-from stationcheck.web.server import Request, Response, Router, WebServer, resolve_static
+from stationcheck.web.listener import WebServer
+from stationcheck.web.server import Request, Response, Router, resolve_static
 
 log = logging.getLogger(__name__)
 
@@ -26,6 +27,9 @@ def add_web_arguments(p: argparse.ArgumentParser, default_port: int) -> None:
     p.add_argument("--no-browser", action="store_true", help="do not open a browser")
     p.add_argument("--token", help="access token to require (default: none on 127.0.0.1, "
                                    "a random one printed at start-up elsewhere)")
+    p.add_argument("--allow-host", action="append", default=[], metavar="NAME",
+                   help="a host name of this PC that browsers may use in the address (repeat "
+                        "for more; localhost and IP addresses need none)")
 
 
 def add_common_files(router: Router) -> None:
@@ -34,14 +38,16 @@ def add_common_files(router: Router) -> None:
     def common(request: Request) -> Response:
         file = resolve_static(COMMON_ROOT, request.path.removeprefix("/common"))
         kind = "text/css" if file.suffix == ".css" else "text/html"
-        return Response(200, file.read_bytes(), f"{kind}; charset=utf-8")
+        return Response(200, file.read_bytes(), f"{kind}; charset=utf-8",
+                        {"Cache-Control": "no-cache"})
 
     router.add("GET", "/common/*", common)
 
 
-def start_server(router: Router, host: str, port: int, token: str | None) -> WebServer:
+def start_server(router: Router, host: str, port: int, token: str | None,
+                 host_names: tuple[str, ...] = ()) -> WebServer:
     """Bind and serve in a background thread; raises a one-line error when the port is taken."""
-    access = AccessRule.for_host(host, token)
+    access = AccessRule.for_host(host, token, host_names)
     return WebServer(router, host, port, access).start()
 
 

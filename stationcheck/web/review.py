@@ -127,10 +127,9 @@ def alarm_codes(conn: sqlite3.Connection) -> list[str]:
 
 
 def build_review_router(source: ReviewSource) -> Router:
-    router = Router(REVIEW_STATIC)
+    router = Router(REVIEW_STATIC, name="review")
     add_common_files(router)
 
-    @router.get("/api/info")
     def info(request: Request) -> Response:
         with source.reader() as step_log:
             positions = fastener_positions(step_log.connection)
@@ -141,7 +140,6 @@ def build_review_router(source: ReviewSource) -> Router:
             "results": list(RESULT_FILTERS), "orders": list(UNIT_ORDERS), "count_cap": COUNT_CAP,
         })
 
-    @router.get("/api/units")
     def units(request: Request) -> Response:
         query = unit_query(request, request.int_arg("limit", PAGE_UNITS, 1, MAX_PAGE_UNITS))
         with source.reader() as step_log:
@@ -157,17 +155,14 @@ def build_review_router(source: ReviewSource) -> Router:
             "count": min(count, COUNT_CAP), "count_is_exact": count <= COUNT_CAP,
         })
 
-    @router.get("/api/units/count")
     def units_count(request: Request) -> Response:
         query = unit_query(request)
         with source.reader() as step_log:
             return Response.json({"count": queries.count_units(step_log.connection, query)})
 
-    @router.get("/api/unit")
     def unit(request: Request) -> Response:
         return Response.json(export.unit_detail(*one_unit(source, request)))
 
-    @router.get("/api/figures")
     def figures(request: Request) -> Response:
         period = period_of(request)
         with source.reader() as step_log:
@@ -176,7 +171,6 @@ def build_review_router(source: ReviewSource) -> Router:
         body["charts"] = figure_charts(fig)
         return Response.json(body)
 
-    @router.get("/api/trend")
     def trend(request: Request) -> Response:
         position = _text_arg(request, "position")
         if position is None:
@@ -220,7 +214,6 @@ def build_review_router(source: ReviewSource) -> Router:
     router.add("GET", "/api/export/unit.csv", lambda r: unit_export(r, "csv"))
     router.add("GET", "/api/export/unit.json", lambda r: unit_export(r, "json"))
 
-    @router.get("/api/report.html")
     def report(request: Request) -> Response:
         period = period_of(request)
         with source.reader() as step_log:
@@ -230,7 +223,6 @@ def build_review_router(source: ReviewSource) -> Router:
         return Response(200, html.encode("utf-8"), "text/html; charset=utf-8",
                         {"Content-Disposition": 'attachment; filename="review-report.html"'})
 
-    @router.get("/api/evidence")
     def evidence(request: Request) -> Response:
         serial = _text_arg(request, "serial")
         seq = request.int_arg("seq", 0, 0, 2**62)
@@ -241,4 +233,15 @@ def build_review_router(source: ReviewSource) -> Router:
         file = resolve_static(source.path.resolve().parent, found[0].evidence_path)
         return Response(200, file.read_bytes(), "image/png", {"Cache-Control": "no-cache"})
 
+    for path, handler in (
+            ("/api/info", info),
+            ("/api/units", units),
+            ("/api/units/count", units_count),
+            ("/api/unit", unit),
+            ("/api/figures", figures),
+            ("/api/trend", trend),
+            ("/api/report.html", report),
+            ("/api/evidence", evidence),
+    ):
+        router.add("GET", path, handler)
     return router

@@ -1,10 +1,11 @@
 """A small local web server shared by the setup, review and operator screens.
 
-Standard library only (``http.server``), threaded so a slow viewer never holds up another.
-An app is a :class:`Router`: exact-path JSON/bytes handlers plus one static folder. Static
-files are resolved strictly inside their folder (no ``..``, no symlink escapes). When the
-server is bound beyond loopback an access token is required on every request (see
-:mod:`stationcheck.web.access`).
+Standard library only (``http.server``). An app is a :class:`Router`: one way to register a
+route, ``router.add(METHOD, path, handler, max_body_bytes=...)``, plus one static folder.
+Static files are resolved strictly inside their folder (no ``..``, no symlink escapes). Every
+request passes the guard of :mod:`stationcheck.web.access` (host, token, origin of writes)
+before its body is read, and its body must fit the route's limit. Connections, workers and
+timeouts are bounded by :mod:`stationcheck.web.listener`.
 """
 
 from __future__ import annotations
@@ -12,30 +13,27 @@ from __future__ import annotations
 import json
 import logging
 import mimetypes
-import threading
 from collections.abc import Callable, Iterator
 from dataclasses import dataclass, field
-from http.server import BaseHTTPRequestHandler, ThreadingHTTPServer
+from http import HTTPStatus
+from http.server import BaseHTTPRequestHandler
 from pathlib import Path
-from typing import Any
-from urllib.parse import parse_qs, unquote, urlsplit
+from typing import TYPE_CHECKING, Any
+from urllib.parse import parse_qs, unquote, urlencode, urlsplit
 
 from stationcheck.errors import StationcheckError
-from stationcheck.web.access import AccessRule
+from stationcheck.pipeline.json_lines import nests_deeper
+from stationcheck.web.access import Head, WebError, hide_token
+
+if TYPE_CHECKING:
+    from stationcheck.web.listener import WebServer
+
+__all__ = ["MAX_JSON_DEPTH", "Request", "Response", "Router", "WebError", "resolve_static"]
 
 log = logging.getLogger(__name__)
 
-MAX_BODY_BYTES = 32 * 1024 * 1024
-
-
-class WebError(StationcheckError):
-    """A web request cannot be served (bad body, unknown path, refused); carries its status."""
-
-    exit_code = 1
-
-    def __init__(self, status: int, message: str) -> None:
-        super().__init__(message)
-        self.status = status
+SMALL_BODY_BYTES = 64 * 1024
+MAX_JSON_DEPTH = 64
 
 
 @dataclass(frozen=True)
@@ -47,11 +45,17 @@ class Request:
     body: bytes = b""
 
     def json(self) -> Any:
-        """The body as JSON; a WebError 400 when it is not."""
+        """The body as JSON; a WebError 400 when it is not, or nests deeper than
+        :data:`MAX_JSON_DEPTH`."""
         try:
-            return json.loads(self.body.decode("utf-8") or "null")
+            value = json.loads(self.body.decode("utf-8") or "null")
         except (UnicodeDecodeError, json.JSONDecodeError) as exc:
             raise WebError(400, f"request body is not JSON: {exc}") from exc
+        except RecursionError as exc:
+            raise WebError(400, "request body nests too deep") from exc
+        if nests_deeper(value, MAX_JSON_DEPTH):
+            raise WebError(400, f"request body nests deeper than {MAX_JSON_DEPTH} levels")
+        return value
 
     def int_arg(self, name: str, default: int, lo: int, hi: int) -> int:
         """A query argument as an int clamped to ``[lo, hi]``; 400 when not a number."""
@@ -81,45 +85,60 @@ class Response:
 Handler = Callable[[Request], Response]
 
 
-class Router:
-    """Exact-path handlers per method plus one static folder served at ``/``."""
+@dataclass(frozen=True)
+class Route:
+    handler: Handler
+    max_body_bytes: int
 
-    def __init__(self, static_root: Path | None = None, index: str = "index.html") -> None:
+
+class Router:
+    """Routes per method (exact paths, or a prefix for paths ending in ``/*``) plus one static
+    folder served at ``/``; ``name`` names the screen (its cookie, its log lines)."""
+
+    def __init__(self, static_root: Path | None = None, index: str = "index.html",
+                 name: str = "screen") -> None:
         self.static_root = static_root.resolve() if static_root else None
         self.index = index
-        self._routes: dict[tuple[str, str], Handler] = {}
-        self._prefix_routes: list[tuple[str, str, Handler]] = []
+        self.name = name
+        self._routes: dict[tuple[str, str], Route] = {}
+        self._prefix_routes: list[tuple[str, str, Route]] = []
 
-    def add(self, method: str, path: str, handler: Handler) -> None:
-        """Route ``METHOD path``; a path ending in ``/*`` matches anything below it."""
+    def add(self, method: str, path: str, handler: Handler, *,
+            max_body_bytes: int | None = None) -> None:
+        """Route ``METHOD path``. Bodies: none on GET/HEAD, up to ``max_body_bytes``
+        (default 64 KiB) otherwise."""
+        method = method.upper()
+        if max_body_bytes is None:
+            max_body_bytes = 0 if method in ("GET", "HEAD") else SMALL_BODY_BYTES
+        route = Route(handler, max_body_bytes)
         if path.endswith("/*"):
-            self._prefix_routes.append((method.upper(), path[:-1], handler))
+            self._prefix_routes.append((method, path[:-1], route))
         else:
-            self._routes[(method.upper(), path)] = handler
+            self._routes[(method, path)] = route
 
-    def get(self, path: str) -> Callable[[Handler], Handler]:
-        return self._decorator("GET", path)
+    def routes(self) -> dict[tuple[str, str], Route]:
+        """Every exact-path route by ``(METHOD, path)``."""
+        return dict(self._routes)
 
-    def _decorator(self, method: str, path: str) -> Callable[[Handler], Handler]:
-        def wrap(handler: Handler) -> Handler:
-            self.add(method, path, handler)
-            return handler
-        return wrap
+    def route(self, method: str, path: str) -> Route:
+        """The route for a request, the static folder for GET/HEAD; WebError 404/405."""
+        found = self._routes.get((method, path))
+        if found is None:
+            lookup = "GET" if method == "HEAD" else method
+            found = self._routes.get((lookup, path))
+            for candidate_method, prefix, candidate in self._prefix_routes:
+                if found is None and candidate_method == lookup and path.startswith(prefix):
+                    found = candidate
+        if found is not None:
+            return found
+        if method in ("GET", "HEAD") and self.static_root is not None:
+            return Route(lambda request: self._static(request.path), 0)
+        if any(known == path for _, known in self._routes):
+            raise WebError(405, f"{method} not allowed on {path}")
+        raise WebError(404, f"no such page: {path}")
 
     def dispatch(self, request: Request) -> Response:
-        handler = self._routes.get((request.method, request.path))
-        if handler is None:
-            for method, prefix, candidate in self._prefix_routes:
-                if method == request.method and request.path.startswith(prefix):
-                    handler = candidate
-                    break
-        if handler is not None:
-            return handler(request)
-        if request.method in ("GET", "HEAD") and self.static_root is not None:
-            return self._static(request.path)
-        if any(path == request.path for _, path in self._routes):
-            raise WebError(405, f"{request.method} not allowed on {request.path}")
-        raise WebError(404, f"no such page: {request.path}")
+        return self.route(request.method, request.path).handler(request)
 
     def _static(self, url_path: str) -> Response:
         assert self.static_root is not None
@@ -154,9 +173,32 @@ def resolve_static(root: Path, url_path: str, index: str = "index.html") -> Path
     return resolved
 
 
-class _RequestHandler(BaseHTTPRequestHandler):
+def body_length(headers: Any, limit: int) -> int:
+    """The declared body length, checked before anything is read: 400 for a malformed,
+    negative or repeated length or a chunked body, 413 above ``limit``."""
+    if headers.get("Transfer-Encoding") is not None:
+        raise WebError(400, "chunked request bodies are not taken; send Content-Length")
+    values = headers.get_all("Content-Length") or []
+    if not values:
+        return 0
+    if len(set(values)) != 1 or not values[0].strip().isdigit() or len(values[0]) > 12:
+        raise WebError(400, "Content-Length must be one whole number of bytes")
+    length = int(values[0])
+    if length > limit:
+        raise WebError(413, f"request body too large ({length} bytes; this address takes "
+                            f"at most {limit})")
+    return length
+
+
+class RequestHandler(BaseHTTPRequestHandler):
+    """One request per connection: guard, route, body, answer, close."""
+
     server: WebServer
     protocol_version = "HTTP/1.1"
+
+    def handle(self) -> None:
+        self.close_connection = True
+        self.handle_one_request()
 
     def do_GET(self) -> None:
         self._handle("GET")
@@ -173,45 +215,61 @@ class _RequestHandler(BaseHTTPRequestHandler):
     def do_DELETE(self) -> None:
         self._handle("DELETE")
 
+    def do_PATCH(self) -> None:
+        self._handle("PATCH")
+
     def _handle(self, method: str) -> None:
+        cookie: str | None = None
         try:
-            request = self._read_request(method)
-            token_cookie = self.server.access.check(request)
-            response = self.server.router.dispatch(request)
-            if token_cookie:
-                response.headers.setdefault("Set-Cookie", token_cookie)
+            split = urlsplit(self.path)
+            query = {k: v[-1] for k, v in parse_qs(split.query, keep_blank_values=True).items()}
+            headers = {k.lower(): v for k, v in self.headers.items()}
+            head = Head(method, split.path, query, headers)
+            cookie = self.server.admit(head)
+            route = self.server.router.route(method, split.path)
+            length = body_length(self.headers, route.max_body_bytes)
+            body = self.rfile.read(length) if length else b""
+            if len(body) != length:
+                raise WebError(400, "the request body ended early")
+            self.server.read_done(self.connection)
+            if cookie and method == "GET" and not split.path.startswith("/api/"):
+                response = Response(303, b"", "text/plain",
+                                    {"Location": _without_token(split.path, query)})
+            else:
+                response = route.handler(Request(method, split.path, query, headers, body))
         except WebError as exc:
+            if exc.status in (401, 403, 413, 415, 421):
+                log.info("refused %s %s: %s", method, hide_token(split.path), exc)
             response = Response.json({"error": str(exc)}, exc.status)
         except StationcheckError as exc:
             response = Response.json({"error": str(exc)}, 400)
         except Exception:  # a bug in a handler must not kill the server thread
-            log.exception("unhandled error serving %s %s", method, self.path)
+            log.exception("unhandled error serving %s %s", method, hide_token(self.path))
             response = Response.json({"error": "internal error (see the server log)"}, 500)
+        if cookie:
+            response.headers.setdefault("Set-Cookie", cookie)
         self._send(method, response)
 
-    def _read_request(self, method: str) -> Request:
-        split = urlsplit(self.path)
-        query = {k: v[-1] for k, v in parse_qs(split.query, keep_blank_values=True).items()}
-        length = int(self.headers.get("Content-Length") or 0)
-        if length > MAX_BODY_BYTES:
-            raise WebError(413, f"request body too large ({length} bytes)")
-        body = self.rfile.read(length) if length else b""
-        headers = {k.lower(): v for k, v in self.headers.items()}
-        return Request(method, split.path, query, headers, body)
-
     def _send(self, method: str, response: Response) -> None:
+        stream = response.stream
+        slot = stream is not None and self.server.stream_slot()
+        if stream is not None and not slot:
+            _close(stream)
+            stream, response = None, Response.json(
+                {"error": "too many open live views; close one and reload"}, 503)
         try:
             self.send_response(response.status)
             self.send_header("Content-Type", response.content_type)
             self.send_header("X-Content-Type-Options", "nosniff")
+            self.send_header("Referrer-Policy", "same-origin")
+            self.send_header("X-Frame-Options", "DENY")
+            self.send_header("Connection", "close")
             for key, value in response.headers.items():
                 self.send_header(key, value)
-            if response.stream is not None:
+            if stream is not None:
                 self.send_header("Cache-Control", "no-cache")
-                self.send_header("Connection", "close")
                 self.end_headers()
-                self.close_connection = True
-                for chunk in response.stream:
+                for chunk in stream:
                     self.wfile.write(chunk)
                     self.wfile.flush()
                 return
@@ -219,54 +277,36 @@ class _RequestHandler(BaseHTTPRequestHandler):
             self.end_headers()
             if method != "HEAD":
                 self.wfile.write(response.body)
-        except (BrokenPipeError, ConnectionResetError):
-            log.debug("viewer went away during %s %s", method, self.path)
+        except OSError:  # the viewer went away, or stopped reading for the write timeout
+            log.debug("viewer went away during %s %s", method,
+                      hide_token(getattr(self, "path", "")))
         finally:
-            if response.stream is not None and hasattr(response.stream, "close"):
-                response.stream.close()
+            if stream is not None:
+                _close(stream)
+            if slot:
+                self.server.stream_done()
+
+    def send_error(self, code: int, message: str | None = None,
+                   explain: str | None = None) -> None:
+        """Errors found by the standard library's parsing (request line, headers) answer as
+        the routes do: an HTTP/1.1 status line and a one-line JSON error."""
+        self.request_version = "HTTP/1.1"
+        self.close_connection = True
+        text = message or HTTPStatus(code).phrase
+        self._send("GET", Response.json({"error": f"bad request: {text}"}, code))
 
     def log_message(self, format: str, *args: Any) -> None:
-        log.debug("%s " + format, self.address_string(), *args)
+        log.debug("%s %s", self.address_string(), hide_token(format % args))
 
 
-class WebServer(ThreadingHTTPServer):
-    """A threaded HTTP server for one :class:`Router`; daemon threads, reusable address."""
+def _close(stream: Iterator[bytes]) -> None:
+    close = getattr(stream, "close", None)
+    if close is not None:
+        close()
 
-    daemon_threads = True
-    allow_reuse_address = True
 
-    def __init__(self, router: Router, host: str, port: int, access: AccessRule) -> None:
-        self.router = router
-        self.access = access
-        try:
-            super().__init__((host, port), _RequestHandler)
-        except OSError as exc:
-            raise StationcheckError(
-                f"cannot listen on {host}:{port}: {exc.strerror or exc}") from exc
-        self._thread: threading.Thread | None = None
-
-    @property
-    def url(self) -> str:
-        host, port = self.server_address[:2]
-        shown = host if isinstance(host, str) else host.decode()
-        if ":" in shown:
-            shown = f"[{shown}]"
-        return f"http://{shown}:{port}/"
-
-    def start(self) -> WebServer:
-        """Serve in a background thread (for tests and for screens beside a live loop)."""
-        self._thread = threading.Thread(target=self.serve_forever, args=(0.05,), name="web",
-                                        daemon=True)
-        self._thread.start()
-        return self
-
-    def wait(self) -> None:
-        """Block until the serving thread ends (Ctrl-C raises KeyboardInterrupt here)."""
-        if self._thread is not None:
-            self._thread.join()
-
-    def close(self) -> None:
-        self.shutdown()
-        self.server_close()
-        if self._thread is not None:
-            self._thread.join(timeout=5)
+def _without_token(path: str, query: dict[str, str]) -> str:
+    """The same address without its token, always on this site (never ``//other``)."""
+    rest = urlencode({k: v for k, v in query.items() if k != "token"})
+    local = "/" + path.lstrip("/\\")
+    return f"{local}?{rest}" if rest else local

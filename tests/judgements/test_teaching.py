@@ -128,7 +128,7 @@ def test_a_zone_changed_since_teaching_is_refused(teach_pin: TeachPin, render: R
     (("format_version: 1\nzone: locking_pin\nzone_box_px: [1, 1, 5, 5]\n"
       "crop_box_px: [0, 0, 9, 9]\nimages: [{file: a.png, class: maybe}]\n"),
      "'present' or 'absent'"),
-    (": : :\n", "cannot be read as YAML"),
+    ("zone: [1, 2\n", "not valid YAML"),
 ])
 def test_a_broken_manifest_is_a_config_error(tmp_path: Path, text: str, message: str) -> None:
     (tmp_path / "references.yaml").write_text(text)

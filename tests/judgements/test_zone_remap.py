@@ -6,9 +6,9 @@ from pathlib import Path
 
 import numpy as np
 import pytest
-import yaml
 
 from stationcheck.config import check_file, load_config
+from stationcheck.config.yaml_text import load_plain
 from stationcheck.core.plan import ZoneSpec
 from stationcheck.errors import ConfigError
 from stationcheck.judgements.camera_shift import apply_matrix, remap_zones
@@ -24,7 +24,7 @@ SHIFT = np.array([[1.0, 0.0, 10.0], [0.0, 1.0, -7.0]])
 
 def test_zones_yaml_reads_back_as_the_same_zones(demo_zones: list[ZoneSpec]) -> None:
     moved = remap_zones(demo_zones, SHIFT)
-    data = yaml.safe_load(zones_yaml(moved, note="moved by a test\nsecond line"))
+    data = load_plain(zones_yaml(moved, note="moved by a test\nsecond line"), "zones")
     assert [z["id"] for z in data["zones"]] == [z.id for z in demo_zones]
     for written, zone in zip(data["zones"], moved, strict=True):
         assert written["kind"] == zone.kind and written.get("label", "") == zone.label
@@ -34,7 +34,7 @@ def test_zones_yaml_reads_back_as_the_same_zones(demo_zones: list[ZoneSpec]) -> 
 @pytest.mark.parametrize("label", ["plain", "with: colon", "yes", "#hash", "it's"])
 def test_labels_that_need_quoting_survive(label: str) -> None:
     zone = ZoneSpec("z", "bin", ((0.0, 0.0), (1.0, 0.0), (1.0, 1.0)), label)
-    assert yaml.safe_load(zones_yaml([zone]))["zones"][0]["label"] == label
+    assert load_plain(zones_yaml([zone]), "zones")["zones"][0]["label"] == label
 
 
 def test_the_new_config_keeps_everything_but_zones_and_reference(tmp_path: Path) -> None:

@@ -105,3 +105,25 @@ def test_an_unknown_unit_is_one_line(scripted_log: Path,
                                      capsys: pytest.CaptureFixture[str]) -> None:
     code, _, err = run(capsys, str(scripted_log), "--unit", "NOPE")
     assert code == 1 and "no unit with serial 'NOPE'" in err
+
+
+def test_hostile_serials_cannot_steer_a_terminal_or_a_spreadsheet(
+        tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    """A serial is whatever the PLC sent: the text listing escapes control and bidi-override
+    characters; the CSV export neutralises formulas as the OWASP CSV-injection guidance says
+    (a leading single quote)."""
+    from review_logs import sequencer_events, write_log
+
+    from stationcheck.store.synthetic import StationScript
+
+    script = StationScript()
+    script.unit("=cmd|' /C calc'!A0", {})
+    script.frames(None, 200)
+    script.unit("PC\x1b[2J\u202e01", {})
+    log = write_log(tmp_path / "log.sqlite", sequencer_events(script))
+    code, out, _ = run(capsys, str(log), "--units")
+    assert code == 0 and "\x1b" not in out and "\u202e" not in out
+    assert "PC\\u001b[2J\\u202e01" in out
+    code, out, _ = run(capsys, str(log), "--units", "--csv", "--order", "oldest")
+    serials = [r["serial"] for r in csv.DictReader(io.StringIO(out))]
+    assert serials == ["'=cmd|' /C calc'!A0", "PC\x1b[2J\u202e01"]

@@ -23,6 +23,9 @@ def add_screen_arguments(p: argparse.ArgumentParser, *, replay: bool) -> None:
     group.add_argument("--screen-token", default=None,
                        help="access token for the screen (default: none on 127.0.0.1, a "
                             "random one printed at start-up elsewhere)")
+    group.add_argument("--screen-allow-host", action="append", default=[], metavar="NAME",
+                       help="a host name of this PC that browsers may use for the screen "
+                            "(repeat for more; localhost and IP addresses need none)")
     if replay:
         group.add_argument("--pace", type=float, default=None, metavar="SPEED",
                            help="play at SPEED times the video's own rate so it can be "

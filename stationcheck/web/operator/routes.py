@@ -124,10 +124,10 @@ def add_operator_routes(router: Router, feed: OperatorFeed) -> None:
     router.add("GET", "/api/video.mjpg", video)
     router.add("GET", "/api/frame.jpg", frame)
     router.add("GET", "/api/state", state)
-    router.add("POST", "/api/ack", ack)
+    router.add("POST", "/api/ack", ack, max_body_bytes=4096)
 
 
 def operator_router(feed: OperatorFeed) -> Router:
-    router = Router(OPERATOR_ROOT)
+    router = Router(OPERATOR_ROOT, name="operator")
     add_operator_routes(router, feed)
     return router

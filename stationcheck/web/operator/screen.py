@@ -22,7 +22,7 @@ if TYPE_CHECKING:
     from stationcheck.core.plan import StationPlan
     from stationcheck.live.loop import LiveLoop
     from stationcheck.pipeline.session import Watcher
-    from stationcheck.web.server import WebServer
+    from stationcheck.web.listener import WebServer
 
 
 class OperatorScreen:
@@ -34,10 +34,11 @@ class OperatorScreen:
 
     @classmethod
     def start(cls, plan: StationPlan, *, mode: ScreenMode, host: str = "127.0.0.1",
-              port: int = DEFAULT_SCREEN_PORT, token: str | None = None) -> OperatorScreen:
+              port: int = DEFAULT_SCREEN_PORT, token: str | None = None,
+              host_names: tuple[str, ...] = ()) -> OperatorScreen:
         feed = OperatorFeed(plan, mode=mode)
         try:
-            server = start_server(operator_router(feed), host, port, token)
+            server = start_server(operator_router(feed), host, port, token, host_names)
         except BaseException:
             feed.close()
             raise
@@ -108,7 +109,8 @@ def command_screen(args: argparse.Namespace, config_path: Path,
     if args.screen:
         wiring.screen = OperatorScreen.start(_plan(config_path), mode=mode,
                                              host=args.screen_host, port=args.screen_port,
-                                             token=args.screen_token)
+                                             token=args.screen_token,
+                                             host_names=tuple(getattr(args, "screen_allow_host", ())))
         if mode == "replay":
             wiring.watchers.append(wiring.screen.feed)
     if speed is not None:

@@ -8,6 +8,7 @@ import math
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
+from urllib.parse import unquote, urlsplit
 
 import cv2
 
@@ -22,6 +23,7 @@ log = logging.getLogger(__name__)
 STREAM_WARMUP_FRAMES = 5
 MAX_SAMPLES = 20
 IMAGE_SUFFIXES = (".png", ".jpg", ".jpeg")
+STREAM_SCHEMES = ("rtsp", "rtsps", "http", "https")
 
 
 @dataclass(frozen=True)
@@ -55,8 +57,13 @@ class FrameRequest:
             return cls("camera", camera=index, count=int(count), every_s=every_s)
         if kind == "stream":
             url = str(body.get("url") or "")
-            if "://" not in url:
-                raise WebError(400, "a stream is a URL such as rtsp://camera/stream")
+            scheme = url.split("://", 1)[0].lower() if "://" in url else ""
+            if scheme == "file":  # a file named as a URL is a file: inside the setup folder
+                video = session.resolve(unquote(urlsplit(url).path))
+                return cls("video", video=video, at_s=0.0, count=int(count), every_s=every_s)
+            if scheme not in STREAM_SCHEMES or any(c in url for c in "\x00\r\n|"):
+                raise WebError(400, "a stream is a camera URL starting with "
+                                    f"{', '.join(s + '://' for s in STREAM_SCHEMES)}")
             return cls("stream", url=url, count=int(count), every_s=every_s)
         raise WebError(400, "source must be 'video', 'camera' or 'stream'")
 

@@ -14,6 +14,8 @@ from stationcheck.web.setup import checking, dry_run, frames, teaching_service
 from stationcheck.web.setup.workspace import SetupSession
 
 SETUP_STATIC = STATIC_ROOT / "setup"
+# the page sends the whole config with most requests: room for ten thousand zones
+DOCUMENT_BODY_BYTES = 8 * 1024 * 1024
 
 
 class SetupApp:
@@ -22,7 +24,7 @@ class SetupApp:
         self.dry_runs = dry_run.DryRunStore()
 
     def router(self) -> Router:
-        router = Router(SETUP_STATIC)
+        router = Router(SETUP_STATIC, name="setup")
         add_common_files(router)
         routes = {
             ("GET", "/api/state"): self.state,
@@ -40,7 +42,8 @@ class SetupApp:
             ("GET", "/api/dry-run/frame"): self.dry_run_frame,
         }
         for (method, path), handler in routes.items():
-            router.add(method, path, handler)
+            router.add(method, path, handler,
+                       max_body_bytes=None if method == "GET" else DOCUMENT_BODY_BYTES)
         return router
 
     def _source(self) -> str:

@@ -17,7 +17,7 @@ from ruamel.yaml import YAML
 from ruamel.yaml.comments import CommentedMap, CommentedSeq
 from ruamel.yaml.error import YAMLError
 
-from stationcheck.config import schema
+from stationcheck.config import schema, yaml_text
 from stationcheck.errors import ConfigError
 
 Key = str | int
@@ -39,8 +39,9 @@ _FLOW_MAPS = {"torque_nm", "angle_deg"}
 
 
 def new_yaml() -> YAML:
-    """The round-trip reader/writer in the house style (2-space maps, '- ' lists inset by 2)."""
-    yaml = YAML(typ="rt")
+    """The round-trip reader/writer in the house style (2-space maps, '- ' lists inset by 2),
+    YAML 1.2 with the limits of :mod:`stationcheck.config.yaml_text`."""
+    yaml = yaml_text.round_trip()
     yaml.preserve_quotes = True
     yaml.width = 4096
     yaml.indent(mapping=2, sequence=4, offset=2)
@@ -48,6 +49,7 @@ def new_yaml() -> YAML:
 
 
 def load_text(text: str, name: str) -> CommentedMap:
+    yaml_text.compose(text, name)  # the limits, before anything is built
     try:
         data = new_yaml().load(text)
     except YAMLError as exc:

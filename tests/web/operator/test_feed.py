@@ -131,7 +131,8 @@ def test_acknowledge_press_is_checked_then_applied_by_the_loop(
     served.feed.on_frame(station.frame())
     wait_frame(served.feed, lambda f: f.steady["ack"]["needed"], "the acknowledge step")
     got, answer = served.request("POST", "/api/ack", json.dumps(body).encode(),
-                                 {"Content-Type": "application/json"})
+                                 {"Content-Type": "application/json",
+                                  "X-Stationcheck-Request": "1"})
     assert got == status, answer
     assert station.output.guidance.kind == "acknowledge"  # nothing applied on the web thread
     served.feed.on_frame(station.frame())

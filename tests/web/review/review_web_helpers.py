@@ -11,8 +11,8 @@ from typing import Any
 
 from stationcheck.pipeline.report import ReplayReport
 from stationcheck.web.access import AccessRule
+from stationcheck.web.listener import WebServer
 from stationcheck.web.review import ReviewSource, build_review_router
-from stationcheck.web.server import WebServer
 
 
 @dataclass

@@ -14,7 +14,7 @@ from typing import Any
 import pytest
 
 from stationcheck.web.access import AccessRule
-from stationcheck.web.server import WebServer
+from stationcheck.web.listener import WebServer
 from stationcheck.web.setup import SetupSession, Workspace, build_router
 
 REPO = Path(__file__).resolve().parents[3]
@@ -33,7 +33,10 @@ class Client:
         conn = http.client.HTTPConnection(str(host), int(port), timeout=30)
         try:
             payload = json.dumps(body).encode() if body is not None else None
-            conn.request(method, path, body=payload, headers=self.headers)
+            headers = dict(self.headers)
+            if method != "GET":  # what the screen's own page sends with a write
+                headers |= {"Content-Type": "application/json", "X-Stationcheck-Request": "1"}
+            conn.request(method, path, body=payload, headers=headers)
             resp = conn.getresponse()
             raw = resp.read()
             kind = resp.getheader("Content-Type") or ""

@@ -186,3 +186,37 @@ def test_a_check_reads_the_zones_and_steps_once(monkeypatch: pytest.MonkeyPatch)
     page = checking.check_for_page(data, DEMO_CONFIG.parent, "demo")
     assert page["ok"] and len(page["zones"]) == len(data["zones"])
     assert len(calls) == 1
+
+
+def test_words_yaml_1_1_read_as_true_or_false_round_trip_as_text(
+        setup_server: ServerFactory, workspace: Path,
+        capsys: pytest.CaptureFixture[str]) -> None:
+    """YAML 1.2 (https://yaml.org/spec/1.2.2/, the core schema) reads ``on`` and ``no`` as
+    text; what the setup screen saves, ``check`` reads back the same."""
+    from stationcheck.cli import main
+    from stationcheck.config import load_config
+
+    client = setup_server()
+    data = client.call("GET", "/api/state")[1]["data"]
+    data["station"]["name"] = "on"
+    data["zones"][0]["label"] = "no"
+    status, saved = client.call("POST", "/api/save", {"data": data})
+    assert status == 200 and saved["check"]["ok"], saved
+    text = (workspace / CONFIG).read_text(encoding="utf-8")
+    assert "name: on\n" in text and "label: no\n" in text  # written plain, as 1.2 allows
+    assert main(["check", str(workspace / CONFIG)]) == 0
+    assert "OK" in capsys.readouterr().out
+    config = load_config(workspace / CONFIG)
+    assert config.station.name == "on"
+    assert config.zones[0].label == "no"  # type: ignore[union-attr]
+    # a 1.1 reader would have taken them for true and false
+    assert yaml.safe_load(text)["station"]["name"] is True
+
+
+def test_a_file_url_stream_stays_inside_the_setup_folder(setup_server: ServerFactory) -> None:
+    client = setup_server()
+    for url, status in (("file:///etc/passwd", 403), ("file://../../x.mp4", 403),
+                        ("concat:/etc/passwd|x", 400), ("ftp://camera/stream", 400)):
+        got, body = client.call("POST", "/api/reference", {
+            "source": "stream", "url": url, "reference_frame": "demo_station/new.png"})
+        assert got == status, (url, body)

@@ -14,7 +14,7 @@ import yaml
 
 from stationcheck.config import check_file
 from stationcheck.web.access import AccessRule
-from stationcheck.web.server import WebServer
+from stationcheck.web.listener import WebServer
 from stationcheck.web.setup import SetupSession, Workspace, build_router
 
 CONFIG = "configs/demo_station.yaml"

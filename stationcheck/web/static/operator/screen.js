@@ -209,7 +209,7 @@ async function acknowledge() {
   try {
     const response = await fetch("api/ack", {
       method: "POST",
-      headers: { "Content-Type": "application/json" },
+      headers: { "Content-Type": "application/json", "X-Stationcheck-Request": "1" },
       body: JSON.stringify({ serial: ack.serial, step: ack.step }),
     });
     const body = await response.json().catch(() => ({}));

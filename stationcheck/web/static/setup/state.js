@@ -24,7 +24,8 @@ let checkTimer = null;
 let checkSeq = 0;
 
 export async function api(method, path, body) {
-  const opts = { method, headers: {} };
+  // every write carries the header the server requires of the screen's own page
+  const opts = { method, headers: method === "GET" ? {} : { "X-Stationcheck-Request": "1" } };
   if (body !== undefined) {
     opts.body = JSON.stringify(body);
     opts.headers["Content-Type"] = "application/json";
