@@ -34,6 +34,7 @@ COMMAND_MODULES = (
     "bench",
     "render",
     "teach",
+    "alarms",
 )
 
 SAFETY_NOTE = (

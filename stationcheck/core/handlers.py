@@ -17,6 +17,7 @@ from stationcheck.core.observations import (
     CheckVerdict,
     DetectorFault,
     FrameStale,
+    LinkEvent,
     LinkStatus,
     ObservationBase,
     OperatorAck,
@@ -331,3 +332,7 @@ def note_detector_fault(tx: Transaction, obs: DetectorFault) -> None:
 
 def note_frame_stale(tx: Transaction, obs: FrameStale) -> None:
     tx.set_health(frame_stale=True)
+
+
+def note_link_event(tx: Transaction, obs: LinkEvent) -> None:
+    tx.alarm(obs.code, subject="plc", message=obs.detail)

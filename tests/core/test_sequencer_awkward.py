@@ -147,3 +147,20 @@ def test_without_hysteresis_the_same_flicker_breaks_the_visit(fasten_only: Any) 
     enabled, entries, _ = flicker_at_edge(fasten_only().plan, hysteresis_px=0.0)
     assert len(entries) > 10
     assert not any(enabled[12:])
+
+
+def test_a_link_event_is_logged_as_its_one_off_alarm_and_latched(fasten_only: Any) -> None:
+    from stationcheck.core.observations import LinkEvent
+
+    run = fasten_only().add(LinkEvent(0.0, "plc_session_restart", "result_sequence 6 -> 0")).run()
+    assert run.raised() == ["plc_session_restart"]
+    assert (run.last.last_event, run.last.event_count) == ("plc_session_restart", 1)
+
+
+def test_a_link_event_must_name_a_one_off_alarm() -> None:
+    import pytest
+
+    from stationcheck.core.observations import LinkEvent
+
+    with pytest.raises(ValueError, match="one-off alarm"):
+        LinkEvent(0.0, "link_lost")
