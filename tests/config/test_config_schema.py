@@ -40,7 +40,7 @@ GOOD: list[Any] = [
         "tool_running": {"table": "discrete_input", "address": 0},
         "serial": {"table": "input_register", "address": 0, "count": 10},
         "heartbeat": {"table": "holding_register", "address": 0},
-        "step": {"table": "holding_register", "address": 1}})], id="address map"),
+        "step_number": {"table": "holding_register", "address": 1}})], id="address map"),
     pytest.param([("judgements", {
         "bin_activity": {"changed_fraction": 0.1, "settle_ms": 0, "release_ms": 250},
         "presence": {"min_match": 0.8, "min_margin": 0.5, "confirm_ms": 200, "search_px": 0},

@@ -36,7 +36,7 @@ def test_make_link_by_mode() -> None:
     server = make_link(config, LiveSettings(CONFIG, link="server", port=1503))
     assert isinstance(server, ModbusServerLink)
     assert server.address_map["tool_running"].table == "coil"  # the PLC writes input bits
-    assert server.silence_ms == pytest.approx(50.0)
+    assert server.host.unit_ids == frozenset({0, 1, 255})  # the usual Modbus TCP unit ids too
 
 
 def test_link_timeout_covers_a_blocked_request() -> None:

@@ -36,9 +36,11 @@ def test_enable_coil_is_function_05_with_spec_value(server: ServerHost, packets:
     assert coil_writes == [b"\x05\x00\x00" + value_bytes]  # FC 05, address 0, value
     assert server.get("coil", 0) == [int(on)]
     register_writes = [pdu for pdu in packets.pdus() if pdu[0] == 0x10]
-    assert len(register_writes) == 1  # heartbeat..result_ack in one FC 16 request
-    assert register_writes[0][1:5] == b"\x00\x00\x00\x08"  # start 0, 8 registers
-    assert server.get("holding_register", 0, 8) == [7, 0, 0, 0, 0, 0, 0, 0]
+    # heartbeat..unit_reason in one FC 16 request (Modbus Application Protocol V1.1b3, 6.12:
+    # starting address, quantity of registers)
+    assert len(register_writes) == 1
+    assert register_writes[0][1:5] == b"\x00\x00\x00\x0c"  # start 0, 12 registers
+    assert server.get("holding_register", 0, 12) == [7] + [0] * 11
 
 
 def test_outputs_land_at_their_addresses(server: ServerHost) -> None:
@@ -46,9 +48,12 @@ def test_outputs_land_at_their_addresses(server: ServerHost) -> None:
     link.connect()
     link.write_outputs(OutputSignals(tool_enable=True, heartbeat=65535, step_number=3,
                                      position_number=2, unit_status=1, alarm_code=6,
-                                     rework_mask=0b101, unit_ack=4, result_ack=11))
+                                     rework_mask=0b101, unit_ack=4, result_ack=11,
+                                     result_status=3, event_code=31, event_count=2,
+                                     unit_reason=1))
     link.close()
-    assert server.get("holding_register", 0, 8) == [65535, 3, 2, 1, 6, 0b101, 4, 11]
+    assert server.get("holding_register", 0, 12) == [65535, 3, 2, 1, 6, 0b101, 4, 11, 3, 31,
+                                                     2, 1]
 
 
 def test_inputs_are_read_and_decoded(server: ServerHost) -> None:
@@ -116,10 +121,13 @@ def test_worker_writes_only_changed_outputs_and_keeps_reading_inputs(
             worker.publish(OutputSignals(tool_enable=True, heartbeat=1))
         worker.publish(OutputSignals(tool_enable=True, heartbeat=2))
         wait_until(lambda: server.get("holding_register", 0) == [2], what="changed outputs")
-        assert requests(0x05) == coil_writes + 1  # FC 05 only for the change
+        assert requests(0x05) == coil_writes  # the enable did not change: no FC 05
         reads = requests(0x02)  # FC 02 read discrete inputs: tool running, ack, reset
         wait_until(lambda: requests(0x02) >= reads + 3, what="inputs read with nothing to write")
-        assert requests(0x05) == coil_writes + 1
+        assert requests(0x05) == coil_writes
+        worker.publish(OutputSignals(tool_enable=False, heartbeat=2))
+        wait_until(lambda: server.get("coil", 0) == [0], what="enable off")
+        assert requests(0x05) == coil_writes + 1  # FC 05 (6.5) once for the change
     finally:
         worker.stop()
 
