@@ -150,10 +150,8 @@ def address_map_findings(overrides: Mapping[str, object], server: bool = False
         if table not in allowed:
             problems.append((path + ("table",), f"must be one of {allowed}, got {table}"))
         if not isinstance(address, int) or not 0 <= address <= 65535 - default.count + 1:
-            last = 65536 - default.count
-            problems.append((path + ("address",),
-                             f"must be 0..{last} ({default.count} addresses from there), "
-                             f"got {address}"))
+            span = f"0..{65536 - default.count} ({default.count} addresses from there)"
+            problems.append((path + ("address",), f"must be {span}, got {address}"))
         if len(problems) == found:
             signals[name] = SignalSpec(name, default.direction, table, address,  # type: ignore[arg-type]
                                        default.count, default.meaning)
