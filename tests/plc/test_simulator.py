@@ -210,3 +210,32 @@ def test_a_scripted_simulator_told_to_exit_after_its_script_does(tmp_path: Path)
         assert proc.wait(20) == 0  # ends by itself once the script is done
     finally:
         stop(proc, link)
+
+
+def test_a_station_that_stops_leaves_the_simulated_tool_without_power() -> None:
+    """The station dies with the enable coil left at 1 in the PLC: the simulator (as a PLC
+    should) drops tool power once the heartbeat has not changed for heartbeat_timeout_s, and
+    the run in progress ends without a result."""
+    settings = SimulatorSettings(seed=5, trigger_delay_s=(0.0, 0.0), run_time_s=30.0,
+                                 heartbeat_timeout_s=0.2, liveness_period_s=0.02)
+    with StationSimulator("127.0.0.1", free_port(), settings) as sim:
+        station = ModbusClientLink("127.0.0.1", sim.port, timeout_ms=500)
+        station.connect()
+        beat = 0
+
+        def alive() -> bool:
+            nonlocal beat
+            beat += 1
+            station.write_outputs(OutputSignals(tool_enable=True, heartbeat=beat))
+            return sim.inputs.tool_running
+
+        liveness = sim.liveness
+        wait_until(alive, what="the tool runs while the heartbeat counts")
+        assert sim.liveness > liveness  # the simulated PLC counts its liveness register
+        station.close()  # killed: no more heartbeats, the enable stays 1 in the PLC
+        stopped = time.perf_counter()
+        wait_until(lambda: not sim.inputs.tool_running, timeout_s=3.0, what="tool stopped")
+        stopped_after_s = time.perf_counter() - stopped
+        assert sim.output("tool_enable") == 1  # the coil alone would have let it run on
+    assert 0.2 <= stopped_after_s < 1.5, stopped_after_s
+    assert (sim.power_drops, sim.results) == (1, 0)
