@@ -189,6 +189,8 @@ class LinkWorker:
                 self._measured_since_s = since_s  # the first write that carries this frame
                 done = time.perf_counter()
                 coil_at = getattr(self.link, "coil_written_at", None) or done
+                if coil_at < now:  # the enable did not change: the decision went out as written
+                    coil_at = done
                 self.coil_latency_ms.append((coil_at - since_s) * 1e3)
                 self.write_latency_ms.append((done - since_s) * 1e3)
                 self.publish_latency_ms.append((done - published_at) * 1e3)
