@@ -68,3 +68,21 @@ def test_run_command_bad_config_is_one_line(tmp_path: Path,
     assert code != 0
     assert err.count("\n") == 1 and "Traceback" not in err
     assert "missing.yaml" in err
+
+
+def test_check_and_run_refuse_the_same_overlapping_address(
+        tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    from stationcheck.errors import ConfigError
+
+    text = CONFIG.read_text(encoding="utf-8")
+    assert "\nplc:\n" in text
+    (tmp_path / "demo_station").symlink_to(CONFIG.parent / "demo_station")  # its reference
+    bad = tmp_path / "station.yaml"
+    bad.write_text(text.replace("\nplc:\n", "\nplc:\n  address_map:\n    step_number: "
+                                "{table: holding_register, address: 0}\n", 1), encoding="utf-8")
+    assert main(["check", str(bad)]) == 1
+    printed = capsys.readouterr()
+    assert "plc.address_map.step_number.address: holding_register 0 is taken by both " \
+        "step_number and heartbeat" in printed.out + printed.err
+    with pytest.raises(ConfigError, match="taken by both step_number and heartbeat"):
+        make_link(load_config(bad), LiveSettings(bad, link="client"))

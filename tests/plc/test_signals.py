@@ -76,3 +76,25 @@ def test_serial_problems_are_named(words: list[int], problem: str) -> None:
 
 def test_two_garbage_serials_never_read_the_same() -> None:
     assert decode_ascii([0xC3A9] + [0] * 9) != decode_ascii([0xC3A8] + [0] * 9)
+
+
+def test_encoder_carries_result_status_event_and_unit_reason() -> None:
+    from pathlib import Path
+
+    from stationcheck.config import load_config
+    from stationcheck.core.outputs import Guidance, Output
+    from stationcheck.plc.signals import OutputEncoder
+
+    plan = load_config(Path(__file__).resolve().parents[2] / "configs" /
+                       "demo_station.yaml").to_plan()
+    output = Output(t_s=1.0, tool_enabled=False, guidance=Guidance("unit_finished", None, "x"),
+                    unit_status="nok", ended_by="check_failed",
+                    result_status="rejected_not_credited", last_event="check_failed",
+                    event_count=3)
+    signals = OutputEncoder(plan).encode(output, heartbeat=1, unit_ack=2, result_ack=3)
+    assert (signals.result_status, signals.event_code, signals.event_count,
+            signals.unit_reason) == (3, 17, 3, 3)
+    ok = Output(t_s=1.0, tool_enabled=False, guidance=Guidance("unit_finished", None, "x"),
+                unit_status="ok", ended_by="completed", result_status="accepted")
+    signals = OutputEncoder(plan).encode(ok, heartbeat=1, unit_ack=2, result_ack=3)
+    assert (signals.result_status, signals.event_code, signals.unit_reason) == (1, 0, 0)
