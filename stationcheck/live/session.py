@@ -94,12 +94,14 @@ def source_opener(config: StationConfig, settings: LiveSettings,
 
 def link_limits(config: StationConfig, timeout_ms: float | None = None) -> WatchdogLimits:
     """A frozen PLC blocks one request for (retries + 1) x timeout; the loop calls the link
-    lost once no full exchange happened for that long plus a margin of two requests."""
+    lost once no full exchange happened for that long plus one link cycle (inputs are read once
+    per cycle) and a margin of two requests."""
     plc = config.plc
     request_s = (timeout_ms if timeout_ms is not None else plc.timeout_ms) / 1000.0
     stale_s = min(config.to_plan().thresholds.stale_frame_ms / 1000.0, 0.08)
     return WatchdogLimits(frame_timeout_s=stale_s,
-                          link_timeout_s=(plc.retries + 1) * request_s + 2 * request_s)
+                          link_timeout_s=(plc.retries + 1) * request_s + 2 * request_s
+                          + WorkerSettings().cycle_s)
 
 
 def run_live(settings: LiveSettings, should_stop: Callable[[], bool] = lambda: False,
