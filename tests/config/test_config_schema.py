@@ -49,6 +49,9 @@ GOOD: list[Any] = [
 ]
 
 BAD: list[Any] = [
+    pytest.param([("plc.serial_pattern", "PC-("), ("plc.liveness_timeout_ms", 5)], [
+        ("error", "plc.serial_pattern", "not a regular expression"),
+        ("error", "plc.liveness_timeout_ms", "20")], id="plc session fields"),
     pytest.param([("zone", [])], [
         ("error", "zone", "unknown key 'zone'; did you mean 'zones'?")], id="unknown top key"),
     pytest.param([("camera.widht_px", 640), ("camera.width_px", DELETE)], [

@@ -86,3 +86,11 @@ def test_check_and_run_refuse_the_same_overlapping_address(
         "step_number and heartbeat" in printed.out + printed.err
     with pytest.raises(ConfigError, match="taken by both step_number and heartbeat"):
         make_link(load_config(bad), LiveSettings(bad, link="client"))
+
+
+def test_worker_settings_watch_the_plc_liveness_and_check_serials() -> None:
+    from stationcheck.live.session import worker_settings
+
+    settings = worker_settings(load_config(CONFIG))
+    assert settings.liveness_timeout_s == pytest.approx(0.5)  # the default plc.liveness_timeout_ms
+    assert settings.session.serial_pattern == r"[\x20-\x7e]+"

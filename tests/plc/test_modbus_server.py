@@ -118,3 +118,19 @@ def test_unit_ids_0_255_and_the_configured_one_are_answered(
         assert response.registers == [4242]
     else:
         assert response.isError() and response.exception_code == 0x0B
+
+
+def test_a_fault_reaches_the_image_at_once(
+        station: tuple[ModbusServerLink, LinkWorker, ModbusTcpClient]) -> None:
+    """The loop publishes the inhibit (a fault); an outside client reads coil 0 = 0 right after:
+    the worker writes the image when woken by the publish, not on the PLC's next poll."""
+    _, worker, client = station
+    plc = Plc(client, worker)
+    plc.poll_until(lambda: worker.up, "link up")
+    worker.publish(OutputSignals(tool_enable=True, heartbeat=1))
+    plc.poll_until(plc.enable, "enable on")
+    published = time.perf_counter()
+    worker.publish(OutputSignals(tool_enable=False, heartbeat=2))  # e.g. a detector fault
+    wait_until(lambda: not plc.enable(), timeout_s=1.0, what="enable off in the image")
+    assert time.perf_counter() - published < 1.0
+    assert worker.up  # the link itself is fine
