@@ -1,9 +1,10 @@
 """The client link against a real pymodbus server on 127.0.0.1.
 
-Frame layout checked against the Modbus Application Protocol Specification V1.1b3
-(modbus.org): 4.1 MBAP header of 7 bytes before the PDU; 6.2 Read Discrete Inputs, function
-code 0x02; 6.5 Write Single Coil, function code 0x05, output value 0xFF00 for ON and 0x0000 for
-OFF; 6.12 Write Multiple Registers 0x10.
+Frame layout per the Modbus Messaging on TCP/IP Implementation Guide V1.0b, 3.1.3: an MBAP
+header of 7 bytes (transaction id, protocol id 0, length, unit id) before the PDU. Function codes
+per the Modbus Application Protocol Specification V1.1b3 (modbus.org): 6.2 Read Discrete Inputs
+0x02; 6.3 Read Holding Registers 0x03; 6.5 Write Single Coil 0x05, output value 0xFF00 for ON and
+0x0000 for OFF; 6.12 Write Multiple Registers 0x10. Section numbers from memory.
 """
 
 from __future__ import annotations
@@ -115,7 +116,9 @@ def test_worker_writes_only_changed_outputs_and_keeps_reading_inputs(
         cycle_s=0.02, refresh_s=60.0, stale_outputs_s=60.0)).start()
     try:
         worker.publish(OutputSignals(tool_enable=True, heartbeat=1))
-        wait_until(lambda: server.get("holding_register", 0) == [1], what="first outputs")
+        # the enable goes out only once the link is up (the first write may carry it off)
+        wait_until(lambda: server.get("holding_register", 0) == [1]
+                   and server.get("coil", 0) == [1], what="first outputs")
         coil_writes = requests(0x05)
         for _ in range(5):  # the loop publishes every cycle; nothing changed
             worker.publish(OutputSignals(tool_enable=True, heartbeat=1))
@@ -171,3 +174,15 @@ def test_killed_server_gives_link_loss_then_reconnect(packets: PacketLog) -> Non
     finally:
         worker.stop()
     assert worker.connects == 2
+
+
+def test_inputs_come_in_one_read_per_table(server: ServerHost, packets: PacketLog) -> None:
+    """Three bits (FC 02, 6.2) and holding registers 16-32 (FC 03, 6.3): two requests."""
+    link = client_for(server)
+    link.connect()
+    try:
+        link.read_inputs()
+    finally:
+        link.close()
+    reads = [(pdu[0], pdu[1:5]) for pdu in packets.pdus()]
+    assert sorted(reads) == [(0x02, b"\x00\x00\x00\x03"), (0x03, b"\x00\x10\x00\x11")]
