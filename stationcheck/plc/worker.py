@@ -65,6 +65,8 @@ class LinkWorker:
             getattr(link, "has_liveness", False)
         self._liveness: int | None = None
         self._liveness_at: float | None = None  # perf_counter of its last change
+        self._first_liveness_at = 0.0  # its first reading on this connection
+        self._liveness_hint_given = False
         self._connected = False
         self._up_since = 0.0
         self._lock = threading.Lock()
@@ -243,9 +245,17 @@ class LinkWorker:
         if self._liveness is None or liveness != self._liveness:
             if self._liveness is not None:
                 self._liveness_at = now
+            else:
+                self._first_liveness_at = now
             self._liveness = liveness
         timeout_s = self.settings.liveness_timeout_s
         assert timeout_s is not None
+        if self._liveness_at is None and now - self._first_liveness_at > timeout_s \
+                and not self._liveness_hint_given:
+            self._liveness_hint_given = True
+            self.last_error = (f"the PLC's plc_liveness counter stays at {liveness}: the link "
+                               "stays down until the PLC program counts it up")
+            logger.warning("signal link %s: %s", self.link.name, self.last_error)
         return self._liveness_at is not None and now - self._liveness_at <= timeout_s
 
     def _not_up(self, outputs: OutputSignals) -> None:

@@ -134,3 +134,13 @@ def test_a_fault_reaches_the_image_at_once(
     wait_until(lambda: not plc.enable(), timeout_s=1.0, what="enable off in the image")
     assert time.perf_counter() - published < 1.0
     assert worker.up  # the link itself is fine
+
+
+def test_a_plc_that_never_counts_keeps_the_link_down_and_says_why(
+        station: tuple[ModbusServerLink, LinkWorker, ModbusTcpClient]) -> None:
+    _, worker, client = station
+    worker.publish(OutputSignals(tool_enable=True, heartbeat=1))
+    wait_until(lambda: "plc_liveness counter stays at 0" in worker.last_error, timeout_s=3.0,
+               what="the hint")
+    assert not worker.up
+    assert client.read_coils(0, count=1, device_id=1).bits[0] is False
