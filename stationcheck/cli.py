@@ -36,6 +36,7 @@ COMMAND_MODULES = (
     "bench",
     "render",
     "teach",
+    "alarms",
 )
 
 SAFETY_NOTE = (

@@ -40,6 +40,9 @@ def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[ty
     p.add_argument("--angle-deg", type=float, default=30.0, help="target angle (degrees)")
     p.add_argument("--unit-gap-s", type=float, default=2.0,
                    help="seconds between a finished unit and the next serial")
+    p.add_argument("--heartbeat-timeout-ms", type=float, default=200.0,
+                   help="tool power drops when the station heartbeat has not changed for this "
+                        "long (default 200 ms)")
     p.add_argument("--inputs", type=Path, default=None,
                    help="station-inputs JSON lines to present at their times (scripted mode); "
                         "time 0 is when the station's heartbeat first counts")
@@ -66,7 +69,8 @@ def run(args: argparse.Namespace) -> int:
             serials=tuple(s.strip() for s in args.serials.split(",") if s.strip()),
             torque_target_nm=args.torque_nm, angle_target_deg=args.angle_deg,
             unit_gap_s=args.unit_gap_s, units=args.units,
-            script_waits_for_station=bool(script), script_speed=args.speed)
+            script_waits_for_station=bool(script), script_speed=args.speed,
+            heartbeat_timeout_s=args.heartbeat_timeout_ms / 1000.0)
     except ValueError as exc:
         print(f"stationcheck simulate: error: {exc}", file=sys.stderr)
         return 64
@@ -81,7 +85,8 @@ def run(args: argparse.Namespace) -> int:
     mode = (f"presenting {args.inputs} from the station's first heartbeat" if script
             else "generating units")
     print(f"station simulator (demo data) listening on {args.host}:{args.port}, {mode}; "
-          "Ctrl-C stops it", flush=True)
+          f"tool power only while the station heartbeat changes (timeout "
+          f"{args.heartbeat_timeout_ms:g} ms); Ctrl-C stops it", flush=True)
     try:
         simulator.wait()
         if script and simulator.error is None and not args.exit_after_script:
@@ -93,5 +98,6 @@ def run(args: argparse.Namespace) -> int:
     finally:
         simulator.stop()
     print(f"station simulator stopped: {simulator.units_presented} units, "
-          f"{simulator.results} results", flush=True)
+          f"{simulator.results} results, {simulator.power_drops} tool power drops (station "
+          "heartbeat stopped)", flush=True)
     return 0

@@ -63,6 +63,7 @@ class ConfigParts:
     thresholds: ThresholdsSection | None
     signals: tuple[LocatedSignal, ...]
     referenced_zone_ids: frozenset[str]  # named by any step, even one with errors
+    plc_server: bool = False  # plc.mode is server (the PLC writes the input bits as coils)
 
 
 def parts_of_data(data: dict[str, Any]) -> ConfigParts:
@@ -75,6 +76,7 @@ def parts_of_data(data: dict[str, Any]) -> ConfigParts:
         thresholds=_salvage(ThresholdsSection, data.get("thresholds", {})),
         signals=tuple(_signals(address_map)),
         referenced_zone_ids=frozenset(_referenced_zone_ids(_as_list(data.get("steps")))),
+        plc_server=isinstance(plc, dict) and plc.get("mode") == "server",
     )
 
 

@@ -140,23 +140,10 @@ def _timing_findings(parts: ConfigParts) -> list[Finding]:
 
 
 def _address_findings(parts: ConfigParts) -> list[Finding]:
-    findings = []
-    taken: list[tuple[str, str, int, int]] = []  # table, signal, first, last
-    for signal in parts.signals:
-        entry, path = signal.entry, signal.path
-        first, last = entry.address, entry.address + entry.count - 1
-        if last > 65535:
-            findings.append(error(path + ("count",), (
-                f"{entry.count} addresses from {first} run past the last Modbus address 65535")))
-        for table, other, other_first, other_last in taken:
-            if table == entry.table and first <= other_last and other_first <= last:
-                findings.append(error(path + ("address",), (
-                    f"{entry.table} {_span(first, last)} overlaps signal '{other}' "
-                    f"({table} {_span(other_first, other_last)}); each signal needs its "
-                    "own addresses")))
-        taken.append((entry.table, signal.name, first, last))
-    return findings
+    """The same check ``run`` makes when it builds the map: unknown signals, wrong tables or
+    counts, addresses past the end, overlaps with any signal (moved or at its default)."""
+    from stationcheck.plc.address_map import address_map_findings
 
-
-def _span(first: int, last: int) -> str:
-    return f"address {first}" if first == last else f"addresses {first}-{last}"
+    overrides = {signal.name: signal.entry for signal in parts.signals}
+    _, problems = address_map_findings(overrides, server=parts.plc_server)
+    return [error(path, message) for path, message in problems]

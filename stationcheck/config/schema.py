@@ -22,6 +22,7 @@ from pydantic import (
     PrivateAttr,
     Strict,
     Tag,
+    field_validator,
     model_validator,
 )
 from pydantic_core import PydanticCustomError
@@ -294,6 +295,19 @@ class PlcSection(_Section):
     timeout_ms: Number = Field(default=50.0, gt=0)
     retries: Whole = Field(default=0, ge=0, le=10)
     address_map: dict[Ident, AddressEntry] = Field(default_factory=dict)
+    # PLC link session (stationcheck.plc.session): the PLC's liveness counter must change
+    # within liveness_timeout_ms; a unit serial must match serial_pattern (Python regex)
+    liveness_timeout_ms: Number = Field(default=500.0, ge=20, le=10_000)
+    serial_pattern: Text = r"[\x20-\x7e]+"
+
+    @field_validator("serial_pattern")
+    @classmethod
+    def _serial_pattern_compiles(cls, value: str) -> str:
+        try:
+            re.compile(value)
+        except re.error as exc:
+            raise ValueError(f"not a regular expression: {exc}") from exc
+        return value
 
 
 class LogSection(_Section):

@@ -116,4 +116,8 @@ def render_output(index: PlanIndex, state: SequencerState) -> Output:
         failed_positions=shown.failed_positions if shown is not None else (),
         alarms=tuple(sorted({alarm.code for alarm in state.alarms})),
         enable_reason=state.control.reason,
+        ended_by=shown.ended_by if shown is not None else None,
+        result_status=state.control.result_status,
+        last_event=state.last_event,
+        event_count=state.event_count,
     )

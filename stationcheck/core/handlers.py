@@ -17,6 +17,7 @@ from stationcheck.core.observations import (
     CheckVerdict,
     DetectorFault,
     FrameStale,
+    LinkEvent,
     LinkStatus,
     ObservationBase,
     OperatorAck,
@@ -64,7 +65,7 @@ def replace_unit(tx: Transaction, obs: UnitStarted) -> None:
 
 def abort_unit(tx: Transaction, obs: Abort) -> None:
     abandon_unit(tx, "abort", obs.reason)
-    tx.set_control(running_for=None, result_pending=False)
+    tx.set_control(running_for=None, result_pending=False, credit_for=None)
 
 
 def reset_station(tx: Transaction, obs: Reset) -> None:
@@ -75,6 +76,7 @@ def reset_station(tx: Transaction, obs: Reset) -> None:
         running_for=None,
         attempt_started_t_s=None,
         result_pending=False,
+        credit_for=None,
         hold_off_until_t_s=tx.now_t_s + tx.index.dwell_ms / 1000.0,
         hold_off_reason="reset_hold",
         quiet_visit=tx.state.tool.visit,
@@ -89,6 +91,7 @@ def _is_new_result(tx: Transaction, obs: TighteningResult) -> bool:
             subject=str(obs.sequence),
             message=f"tightening result {obs.sequence} reported again; ignored",
         )
+        tx.set_control(result_status="rejected_duplicate")
         return False
     if obs.sequence is not None:
         tx.set_control(last_sequence=obs.sequence)
@@ -109,17 +112,26 @@ def _within_limits(obs: TighteningResult, step: FastenStep) -> bool:
     return all(limits is None or value is None or limits.contains(value) for value, limits in pairs)
 
 
-def _reject(tx: Transaction, obs: TighteningResult) -> None:
+def _reject(tx: Transaction, obs: TighteningResult, reason: str = "not_enabled") -> None:
+    """Logged, never credited; ``reason`` says why (see :data:`REJECT_REASONS`)."""
     tx.alarm(
         "result_without_enable",
         subject=str(obs.sequence) if obs.sequence is not None else "",
-        message="a tightening result came while the tool was not enabled for the position",
+        message=f"tightening result rejected: {REJECT_REASONS[reason]}",
+        reason=reason,
         result=RESULT_OK if obs.ok else RESULT_NOK,
         torque_nm=obs.torque_nm,
         angle_deg=obs.angle_deg,
         sequence=obs.sequence,
     )
-    tx.set_control(running_for=None, result_pending=False)
+    tx.set_control(running_for=None, result_pending=False, credit_for=None,
+                   result_status=f"rejected_{reason}")
+
+
+REJECT_REASONS: dict[str, str] = {
+    "not_enabled": "no fastener position is enabled (no unit, or not a fasten step)",
+    "not_credited": "the run did not start while the tool was enabled at the target position",
+}
 
 
 def reject_result(tx: Transaction, obs: TighteningResult) -> None:
@@ -133,8 +145,11 @@ def take_result(tx: Transaction, obs: TighteningResult) -> None:
     if not _is_new_result(tx, obs):
         return
     step, target, control = tx.fasten_step(), tx.target(), tx.state.control
-    if step is None or target is None or control.enabled_for != target.ref:
+    if step is None or target is None:
         _reject(tx, obs)
+        return
+    if control.credit_for != target.ref:  # only a run that started enabled here counts
+        _reject(tx, obs, "not_credited")
         return
     unit = tx.unit
     assert unit is not None
@@ -166,6 +181,8 @@ def take_result(tx: Transaction, obs: TighteningResult) -> None:
         enabled_for=None,
         running_for=None,
         result_pending=False,
+        credit_for=None,
+        result_status="accepted",
         attempt_started_t_s=None,
         hold_off_until_t_s=tx.now_t_s + tx.index.dwell_ms / 1000.0,
         hold_off_reason="new_attempt_dwell",
@@ -202,11 +219,12 @@ def note_running(tx: Transaction, obs: ToolRunning) -> None:
             running=True,
             running_for=target.ref,
             result_pending=True,
+            credit_for=target.ref,
             attempt_started_t_s=tx.now_t_s,
         )
         tx.emit("run_started", step=target.ref.step, zone=target.ref.zone, position=target.number)
         return
-    tx.set_control(running=True, result_pending=False)
+    tx.set_control(running=True, result_pending=False, credit_for=None)
     tx.alarm(
         "ran_while_inhibited",
         subject="",
@@ -314,3 +332,7 @@ def note_detector_fault(tx: Transaction, obs: DetectorFault) -> None:
 
 def note_frame_stale(tx: Transaction, obs: FrameStale) -> None:
     tx.set_health(frame_stale=True)
+
+
+def note_link_event(tx: Transaction, obs: LinkEvent) -> None:
+    tx.alarm(obs.code, subject="plc", message=obs.detail)

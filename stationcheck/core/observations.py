@@ -269,6 +269,24 @@ class FrameStale(ObservationBase):
         require_at_least("FrameStale", "age_ms", self.age_ms, 0.0)
 
 
+@dataclass(frozen=True)
+class LinkEvent(ObservationBase):
+    """Something the signal link saw that the station logs and the PLC can read back: a PLC
+    session restart, a refused serial. ``code`` names a one-off alarm of the alarm list."""
+
+    kind: ClassVar[str] = "link_event"
+    code: str
+    detail: str = ""
+
+    def __post_init__(self) -> None:
+        from stationcheck.core.alarms import ALARMS
+
+        super().__post_init__()
+        require_text("LinkEvent", "code", self.code)
+        if self.code not in ALARMS or ALARMS[self.code].condition:
+            raise ValueError(f"LinkEvent.code must be a one-off alarm, got {self.code!r}")
+
+
 Observation = (
     ZoneObservation
     | UnitStarted
@@ -284,6 +302,7 @@ Observation = (
     | LinkStatus
     | DetectorFault
     | FrameStale
+    | LinkEvent
 )
 OBSERVATION_TYPES: dict[str, type[ObservationBase]] = {
     cls.kind: cls for cls in get_args(Observation)

@@ -46,7 +46,7 @@ class Output:
     """The station outputs after one observation.
 
     ``alarms`` lists the alarm codes active now (conditions such as ``camera_moved`` and
-    ``wrong_position``); one-off alarms appear only as events.
+    ``wrong_position``); one-off alarms are events, the latest latched in ``last_event``.
     """
 
     t_s: float
@@ -64,6 +64,10 @@ class Output:
     failed_positions: tuple[PositionRef, ...] = ()
     alarms: tuple[str, ...] = ()
     enable_reason: str = "no_unit"  # the rule that decided tool_enabled (see core.conditions)
+    ended_by: str | None = None  # how the shown unit ended (None while open or none)
+    result_status: str = "none"  # the last tightening result: accepted or rejected_<reason>
+    last_event: str | None = None  # the latest one-off alarm or warning, latched
+    event_count: int = 0  # one-off alarms and warnings so far
 
     def __post_init__(self) -> None:
         require_finite("Output", "t_s", self.t_s)

@@ -52,6 +52,8 @@ class ToolControl:
     running: bool = False
     running_for: PositionRef | None = None  # a tightening in progress here keeps enable on
     result_pending: bool = False
+    credit_for: PositionRef | None = None  # the run now going started enabled at this position
+    result_status: str = "none"  # the last result: "accepted" or "rejected_<reason>"
     hold_off_until_t_s: float | None = None  # after a reset or a result, dwell again first
     hold_off_reason: str = "reset_hold"  # the enable reason while the hold lasts
     last_sequence: int | None = None
@@ -74,6 +76,8 @@ class SequencerState:
     active_bins: tuple[tuple[str, float], ...] = ()  # bin zone, active since
     check_verdict: str | None = None  # latest verdict during the current check step
     alarms: tuple[ActiveAlarm, ...] = ()
+    last_event: str | None = None  # the latest one-off alarm or warning (latched)
+    event_count: int = 0  # one-off alarms and warnings since the start
 
     @property
     def phase(self) -> Phase:

@@ -77,6 +77,9 @@ class Transaction:
     def alarm(self, code: str, subject: str = "", message: str = "", **details: Any) -> None:
         """Raise an alarm of the catalogue in :mod:`alarms` (its number and severity go along)."""
         info = ALARMS[code]
+        if not info.condition:
+            self.state = replace(self.state, last_event=code,
+                                 event_count=self.state.event_count + 1)
         self.emit(
             "alarm_raised",
             code=code,

@@ -64,6 +64,7 @@ TABLE: tuple[Row, ...] = (
     Row(ANY,                 "link_status",       h.note_link,            "same"),
     Row(ANY,                 "detector_fault",    h.note_detector_fault,  "same"),
     Row(ANY,                 "frame_stale",       h.note_frame_stale,     "same"),
+    Row(ANY,                 "link_event",        h.note_link_event,      "same"),
     Row(ANY,                 "tick",              h.ignore,               "same"),
 )
 # fmt: on

@@ -18,7 +18,8 @@ from stationcheck.live.loop import LiveLoop, LiveStats
 from stationcheck.live.watchdog import WatchdogLimits
 from stationcheck.plc.address_map import address_map_from
 from stationcheck.plc.link import ConsoleLink, SignalLink
-from stationcheck.plc.worker import LinkWorker
+from stationcheck.plc.session import SessionSettings
+from stationcheck.plc.worker import LinkWorker, WorkerSettings
 
 logger = logging.getLogger(__name__)
 
@@ -58,16 +59,21 @@ def make_link(config: StationConfig, settings: LiveSettings) -> SignalLink:
     if mode == "server":
         from stationcheck.plc.modbus_server import ModbusServerLink
 
-        # the PLC must poll at least every (retries + 1) x timeout, like a client's answer
         return ModbusServerLink(settings.host or plc.host, settings.port or plc.port,
                                 device_id=plc.device_id,
-                                silence_ms=(plc.retries + 1) * plc.timeout_ms,
                                 address_map=address_map_from(plc.address_map, server=True))
     from stationcheck.plc.modbus_client import ModbusClientLink
 
     return ModbusClientLink(settings.host or plc.host, settings.port or plc.port,
                             device_id=plc.device_id, timeout_ms=plc.timeout_ms,
                             retries=plc.retries, address_map=address_map_from(plc.address_map))
+
+
+def worker_settings(config: StationConfig) -> WorkerSettings:
+    """The PLC's liveness counter is watched (Modbus links; a console link has none)."""
+    plc = config.plc
+    return WorkerSettings(liveness_timeout_s=plc.liveness_timeout_ms / 1000.0,
+                          session=SessionSettings(serial_pattern=plc.serial_pattern))
 
 
 def source_opener(config: StationConfig, settings: LiveSettings,
@@ -88,12 +94,14 @@ def source_opener(config: StationConfig, settings: LiveSettings,
 
 def link_limits(config: StationConfig, timeout_ms: float | None = None) -> WatchdogLimits:
     """A frozen PLC blocks one request for (retries + 1) x timeout; the loop calls the link
-    lost once no full exchange happened for that long plus a margin of two requests."""
+    lost once no full exchange happened for that long plus one link cycle (inputs are read once
+    per cycle) and a margin of two requests."""
     plc = config.plc
     request_s = (timeout_ms if timeout_ms is not None else plc.timeout_ms) / 1000.0
     stale_s = min(config.to_plan().thresholds.stale_frame_ms / 1000.0, 0.08)
     return WatchdogLimits(frame_timeout_s=stale_s,
-                          link_timeout_s=(plc.retries + 1) * request_s + 2 * request_s)
+                          link_timeout_s=(plc.retries + 1) * request_s + 2 * request_s
+                          + WorkerSettings().cycle_s)
 
 
 def run_live(settings: LiveSettings, should_stop: Callable[[], bool] = lambda: False,
@@ -145,7 +153,7 @@ def run_live(settings: LiveSettings, should_stop: Callable[[], bool] = lambda: F
         shutdown = getattr(link, "shutdown", None)
         if shutdown is not None:
             stack.callback(shutdown)  # a server link serves until the run ends
-        worker = LinkWorker(link, clock).start()
+        worker = LinkWorker(link, clock, worker_settings(config)).start()
         stack.callback(worker.stop)
         loop = LiveLoop(path, grabber, worker, limits=link_limits(config, settings.timeout_ms),
                         on_frame_taken=evidence.see if evidence is not None else None)

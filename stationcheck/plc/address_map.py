@@ -1,7 +1,7 @@
 """Where each station signal lives in the PLC's Modbus tables (PDU addresses from 0).
 
-The default map keeps every signal the station writes in coil 0 and holding registers 0-7, and
-every signal it reads in discrete inputs 0-2 and holding registers 16-31, so a PLC programmer
+The default map keeps every signal the station writes in coil 0 and holding registers 0-11, and
+every signal it reads in discrete inputs 0-2 and holding registers 16-32, so a PLC programmer
 maps two small blocks. With the station as Modbus server (the PLC polls it) the three input
 bits are coils 16-18 instead, since a Modbus client cannot write discrete inputs. A config's ``plc.address_map`` moves single signals; the result is
 checked for overlaps and for the register count a signal needs.
@@ -49,6 +49,17 @@ DEFAULT_SIGNALS: tuple[SignalSpec, ...] = (
                "echo of the last unit_sequence taken in"),
     SignalSpec("result_ack", "out", "holding_register", 7, 1,
                "echo of the last result_sequence taken in"),
+    SignalSpec("result_status", "out", "holding_register", 8, 1,
+               "verdict on the result result_ack echoes: 0 none yet, 1 accepted, 2 rejected "
+               "(no position enabled), 3 rejected (run did not start enabled at the target), "
+               "4 rejected (same sequence again)"),
+    SignalSpec("event_code", "out", "holding_register", 9, 1,
+               "number of the latest one-off alarm or warning (latched; 0 = none since start)"),
+    SignalSpec("event_count", "out", "holding_register", 10, 1,
+               "adds 1 (wrapping) per one-off alarm or warning: a change means a new event_code"),
+    SignalSpec("unit_reason", "out", "holding_register", 11, 1,
+               "why the last unit is NOK or aborted: 0 none, 1 positions failed, 2 stopped on a "
+               "failed position, 3 check failed, 4 a new unit came, 5 aborted or reset"),
     SignalSpec("tool_running", "in", "discrete_input", 0, 1, "1 while the tool runs"),
     SignalSpec("operator_ack", "in", "discrete_input", 1, 1,
                "operator acknowledge; acts on the 0 -> 1 edge"),
@@ -64,6 +75,9 @@ DEFAULT_SIGNALS: tuple[SignalSpec, ...] = (
     SignalSpec("torque", "in", "holding_register", 30, 1, "final torque, unsigned, 0.01 N*m"),
     SignalSpec("angle", "in", "holding_register", 31, 1,
                "final angle, signed 16-bit two's complement, 0.1 degree"),
+    SignalSpec("plc_liveness", "in", "holding_register", 32, 1,
+               "PLC adds 1 (wrapping) every scan or poll; the link is down when it stops "
+               "changing for plc.liveness_timeout_ms, and a restart (back to 0) is a new session"),
 )
 SIGNAL_NAMES: tuple[str, ...] = tuple(spec.name for spec in DEFAULT_SIGNALS)
 BIT_TABLES: tuple[Table, ...] = ("coil", "discrete_input")
@@ -96,19 +110,32 @@ def default_address_map(server: bool = False) -> AddressMap:
     return AddressMap(signals)
 
 
+Location = tuple[str, ...]
+
+
 def address_map_from(overrides: Mapping[str, object], server: bool = False) -> AddressMap:
     """The default map with config entries (``table``, ``address``, ``count``) laid over it.
 
     Each entry may be the config schema's model or a plain mapping; errors are collected.
     ``server``: the station is the Modbus server, so inputs must be tables the PLC can write.
     """
+    amap, problems = address_map_findings(overrides, server)
+    if problems:
+        raise ConfigError("; ".join(f"{'.'.join(path)}: {message}" for path, message in problems))
+    return amap
+
+
+def address_map_findings(overrides: Mapping[str, object], server: bool = False
+                         ) -> tuple[AddressMap, list[tuple[Location, str]]]:
+    """The map and every problem with its config path: the one check ``check`` and ``run``
+    share (unknown signals, wrong tables or counts, overlaps with any signal, moved or not)."""
     base = default_address_map(server).signals
     signals = dict(base)
-    problems: list[str] = []
+    problems: list[tuple[Location, str]] = []
     for name, entry in overrides.items():
+        path = ("plc", "address_map", name)
         if name not in base:
-            problems.append(f"plc.address_map.{name}: unknown signal (known: "
-                            f"{', '.join(SIGNAL_NAMES)})")
+            problems.append((path, f"unknown signal (known: {', '.join(SIGNAL_NAMES)})"))
             continue
         table = _field(entry, "table")
         address = _field(entry, "address")
@@ -116,20 +143,20 @@ def address_map_from(overrides: Mapping[str, object], server: bool = False) -> A
         if "count" not in getattr(entry, "model_fields_set", {"count"}):
             count = base[name].count  # a config entry that leaves count out means the signal's
         default = base[name]
+        found = len(problems)
         if count != default.count:
-            problems.append(f"plc.address_map.{name}: count must be {default.count}, got {count}")
+            problems.append((path + ("count",), f"must be {default.count}, got {count}"))
         allowed = _allowed_tables(default, server)
         if table not in allowed:
-            problems.append(f"plc.address_map.{name}: table must be one of {allowed}, got {table}")
+            problems.append((path + ("table",), f"must be one of {allowed}, got {table}"))
         if not isinstance(address, int) or not 0 <= address <= 65535 - default.count + 1:
-            problems.append(f"plc.address_map.{name}: address must be 0..65535, got {address}")
-        if not problems:
+            span = f"0..{65536 - default.count} ({default.count} addresses from there)"
+            problems.append((path + ("address",), f"must be {span}, got {address}"))
+        if len(problems) == found:
             signals[name] = SignalSpec(name, default.direction, table, address,  # type: ignore[arg-type]
                                        default.count, default.meaning)
-    problems.extend(_overlaps(signals.values()))
-    if problems:
-        raise ConfigError("; ".join(problems))
-    return AddressMap(signals)
+    problems.extend(_overlaps(signals.values(), set(overrides)))
+    return AddressMap(signals), problems
 
 
 def _allowed_tables(spec: SignalSpec, server: bool = False) -> tuple[Table, ...]:
@@ -145,15 +172,17 @@ def _field(entry: object, name: str, default: object = None) -> object:
     return getattr(entry, name, default)
 
 
-def _overlaps(specs: object) -> list[str]:
+def _overlaps(specs: object, moved: set[str]) -> list[tuple[Location, str]]:
     taken: dict[tuple[str, int], str] = {}
-    problems: list[str] = []
+    problems: list[tuple[Location, str]] = []
     for spec in specs:  # type: ignore[attr-defined]
         for address in range(spec.address, spec.address + spec.count):
             other = taken.setdefault((spec.table, address), spec.name)
             if other != spec.name:
-                problems.append(f"plc.address_map: {spec.name} and {other} share "
-                                f"{spec.table} {address}")
+                name = spec.name if spec.name in moved else other
+                message = (f"{spec.table} {address} is taken by both {spec.name} and {other}; "
+                           "each signal needs its own addresses")
+                problems.append((("plc", "address_map", name, "address"), message))
                 break
     return problems
 

@@ -3,7 +3,8 @@
 A :class:`SignalLink` does blocking I/O and is only ever called from the link worker's thread
 (:mod:`stationcheck.plc.worker`), never from the frame loop. :class:`TableLink` lays the address
 map over four Modbus-style tables, so the Modbus client and the in-memory fake share the
-grouping of signals into as few requests as possible.
+grouping of signals into as few requests as possible: the enable coil alone (FC 05), the output
+registers as one FC 16 when they are consecutive, each input table in one read.
 """
 
 from __future__ import annotations
@@ -31,7 +32,7 @@ class SignalLink(Protocol):
 
     def connect(self) -> None: ...
 
-    def write_outputs(self, outputs: OutputSignals) -> None: ...
+    def write_outputs(self, outputs: OutputSignals, refresh: bool = False) -> None: ...
 
     def read_inputs(self) -> InputSignals: ...
 
@@ -39,15 +40,19 @@ class SignalLink(Protocol):
 
 
 class TableLink(ABC):
-    """Signals to table requests: outputs written bit by bit (coils) and in runs of
-    consecutive registers; inputs read one span per table."""
+    """Signals to table requests: coils written when they change, registers in runs of
+    consecutive registers when one of them changed (everything on ``refresh``); inputs read one
+    span per table."""
 
     name = "tables"
+    has_liveness = True  # the PLC presents plc_liveness
+    write_unchanged = False  # a local image (server mode) is rewritten in full every time
 
     def __init__(self, address_map: AddressMap | None = None) -> None:
         self.address_map = address_map or default_address_map()
         self._read_plan = _read_plan(self.address_map.of("in"))
         self.coil_written_at: float | None = None
+        self._written: dict[tuple[str, int], int] = {}
 
     @abstractmethod
     def read_table(self, table: Table, address: int, count: int) -> list[int]: ...
@@ -64,20 +69,30 @@ class TableLink(ABC):
     def close(self) -> None:
         """Nothing to close by default."""
 
-    def write_outputs(self, outputs: OutputSignals) -> None:
-        """The coils (the tool enable) first, then the registers in consecutive runs;
-        ``coil_written_at`` is the perf_counter when the last coil was written."""
+    def write_outputs(self, outputs: OutputSignals, refresh: bool = False) -> None:
+        """The coil (the tool enable) first, then the registers in consecutive runs, each only
+        when it changed; ``coil_written_at`` is the perf_counter when the coil was written."""
         words = outputs.words()
+        everything = refresh or self.write_unchanged
         registers: dict[int, int] = {}
         for spec in self.address_map.of("out"):
             if spec.table == "coil":
-                self.write_coil(spec.address, bool(words[spec.name][0]))
-                self.coil_written_at = time.perf_counter()
+                on = words[spec.name][0]
+                if everything or self._written.get(("coil", spec.address)) != on:
+                    self._written.pop(("coil", spec.address), None)  # unknown if it fails
+                    self.write_coil(spec.address, bool(on))
+                    self._written[("coil", spec.address)] = on
+                    self.coil_written_at = time.perf_counter()
             else:
                 for offset, value in enumerate(words[spec.name]):
                     registers[spec.address + offset] = value
         for start, values in _runs(registers):
-            self.write_registers(start, values)
+            keys = [("holding_register", start + i) for i in range(len(values))]
+            if everything or any(self._written.get(k) != v for k, v in zip(keys, values)):
+                for key in keys:
+                    self._written.pop(key, None)
+                self.write_registers(start, values)
+                self._written.update(zip(keys, values))
 
     def read_inputs(self) -> InputSignals:
         words: dict[str, list[int]] = {}
@@ -175,7 +190,7 @@ class ConsoleLink:
     def connect(self) -> None:
         logger.info("console link: outputs are logged, no PLC is connected")
 
-    def write_outputs(self, outputs: OutputSignals) -> None:
+    def write_outputs(self, outputs: OutputSignals, refresh: bool = False) -> None:
         if self.last is None or _without_heartbeat(outputs) != _without_heartbeat(self.last):
             self.changes += 1
             logger.info("outputs: %s", _describe(outputs))

@@ -33,11 +33,13 @@ class ServerHost:
     """Starts a pymodbus ``ModbusTcpServer`` on ``host:port`` in a daemon thread."""
 
     def __init__(self, host: str, port: int, *, size: int = 64, device_id: int = 1,
-                 on_packet: PacketTrace | None = None) -> None:
+                 on_packet: PacketTrace | None = None,
+                 unit_ids: frozenset[int] | None = None) -> None:
         self.host = host
         self.port = port
         self.size = size
         self.device_id = device_id
+        self.unit_ids = unit_ids if unit_ids is not None else frozenset({device_id})
         self.on_packet = on_packet
         self._loop: asyncio.AbstractEventLoop | None = None
         self._server: Any = None
@@ -124,6 +126,7 @@ class ServerHost:
             address=(self.host, self.port),
             trace_packet=self._trace if self.on_packet is not None else None,
         )
+        self._server.context = _UnitIds(self._server.context, self.unit_ids, self.device_id)
         await self._server.serve_forever(background=True)  # raises if it cannot listen
         self._ready.set()
         await self._server.serving
@@ -142,3 +145,31 @@ def _device(size: int, device_id: int) -> Any:
     holding = [SimData(0, count=size, values=0, datatype=DataType.UINT16)]
     inputs = [SimData(0, count=size, values=0, datatype=DataType.UINT16)]
     return SimDevice(device_id, simdata=(coils, bits, holding, inputs))
+
+
+class _UnitIds:
+    """The datastore answered under each of ``unit_ids``; other ids are unknown devices
+    (pymodbus answers them with exception 0x0B)."""
+
+    def __init__(self, core: Any, unit_ids: frozenset[int], device_id: int) -> None:
+        self.core = core
+        self.unit_ids = unit_ids
+        self.device_id = device_id
+
+    def _device(self, unit_id: int) -> int:
+        from pymodbus.exceptions import NoSuchIdException
+
+        if unit_id not in self.unit_ids:
+            raise NoSuchIdException(f"unit id {unit_id} is not served")
+        return self.device_id
+
+    def device_ids(self) -> list[int]:
+        return [self.device_id]
+
+    async def async_getValues(self, unit_id: int, func_code: int, address: int,
+                              count: int = 1) -> Any:
+        return await self.core.async_getValues(self._device(unit_id), func_code, address, count)
+
+    async def async_setValues(self, unit_id: int, func_code: int, address: int,
+                              values: Any) -> Any:
+        return await self.core.async_setValues(self._device(unit_id), func_code, address, values)

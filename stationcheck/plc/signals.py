@@ -1,4 +1,5 @@
-"""Station signals as records, their register encoding, and inputs turned into observations.
+"""Station signals as records and their register encoding (the decoder of inputs into
+observations is :mod:`stationcheck.plc.session`).
 
 Scaled integers on the wire: torque in 0.01 N*m (unsigned 16 bit, 0-655.35 N*m), angle in
 0.1 degree (signed 16 bit, -3276.8 to 3276.7 degrees), serial as ASCII two characters per
@@ -11,15 +12,7 @@ import logging
 from dataclasses import dataclass
 
 from stationcheck.core.alarms import ALARMS
-from stationcheck.core.observations import (
-    Observation,
-    OperatorAck,
-    PositionRef,
-    Reset,
-    TighteningResult,
-    ToolRunning,
-    UnitStarted,
-)
+from stationcheck.core.observations import PositionRef
 from stationcheck.core.outputs import Output
 from stationcheck.core.plan import FastenStep, StationPlan
 from stationcheck.plc.address_map import SERIAL_REGISTERS
@@ -27,6 +20,15 @@ from stationcheck.plc.address_map import SERIAL_REGISTERS
 logger = logging.getLogger(__name__)
 
 UNIT_STATUS_CODES: dict[str, int] = {"idle": 0, "running": 1, "ok": 2, "nok": 3, "aborted": 4}
+# result_status register: the core's verdict on the last result (see core.handlers)
+RESULT_STATUS_CODES: dict[str, int] = {
+    "none": 0, "accepted": 1, "rejected_not_enabled": 2, "rejected_not_credited": 3,
+    "rejected_duplicate": 4,
+}
+# unit_reason register: how a unit that is not OK ended (the core's ``ended_by``)
+UNIT_REASON_CODES: dict[str, int] = {
+    "completed": 1, "stopped_on_failure": 2, "check_failed": 3, "new_unit": 4, "abort": 5,
+}
 TORQUE_SCALE_NM = 0.01
 ANGLE_SCALE_DEG = 0.1
 WORD = 0xFFFF
@@ -45,12 +47,15 @@ class OutputSignals:
     rework_mask: int = 0
     unit_ack: int = 0
     result_ack: int = 0
+    result_status: int = 0
+    event_code: int = 0
+    event_count: int = 0
+    unit_reason: int = 0
 
     def __post_init__(self) -> None:
         if not isinstance(self.tool_enable, bool):
             raise TypeError(f"OutputSignals.tool_enable must be bool, got {self.tool_enable!r}")
-        for name in ("heartbeat", "step_number", "position_number", "unit_status", "alarm_code",
-                     "rework_mask", "unit_ack", "result_ack"):
+        for name in REGISTER_OUTPUTS:
             value = getattr(self, name)
             if not isinstance(value, int) or not 0 <= value <= WORD:
                 raise ValueError(f"OutputSignals.{name} must be 0..65535, got {value!r}")
@@ -62,17 +67,15 @@ class OutputSignals:
 
     def words(self) -> dict[str, list[int]]:
         """Register (or bit) values per output signal, as written to the PLC."""
-        return {
-            "tool_enable": [1 if self.tool_enable else 0],
-            "heartbeat": [self.heartbeat],
-            "step_number": [self.step_number],
-            "position_number": [self.position_number],
-            "unit_status": [self.unit_status],
-            "alarm_code": [self.alarm_code],
-            "rework_mask": [self.rework_mask],
-            "unit_ack": [self.unit_ack],
-            "result_ack": [self.result_ack],
-        }
+        words = {"tool_enable": [1 if self.tool_enable else 0]}
+        words.update({name: [getattr(self, name)] for name in REGISTER_OUTPUTS})
+        return words
+
+
+REGISTER_OUTPUTS: tuple[str, ...] = (
+    "heartbeat", "step_number", "position_number", "unit_status", "alarm_code", "rework_mask",
+    "unit_ack", "result_ack", "result_status", "event_code", "event_count", "unit_reason",
+)
 
 
 @dataclass(frozen=True)
@@ -89,6 +92,8 @@ class InputSignals:
     result_ok: bool = False
     torque_nm: float = 0.0
     angle_deg: float = 0.0
+    plc_liveness: int = 0
+    serial_problem: str = ""  # why the serial registers hold no valid text ("" = none)
 
     @classmethod
     def from_words(cls, words: dict[str, list[int]]) -> InputSignals:
@@ -99,10 +104,12 @@ class InputSignals:
             unit_sequence=words["unit_sequence"][0],
             rework=bool(words["unit_flags"][0] & 1),
             serial=decode_ascii(words["serial"]),
+            serial_problem=serial_problem(words["serial"]),
             result_sequence=words["result_sequence"][0],
             result_ok=words["result_ok"][0] == 1,
             torque_nm=round(words["torque"][0] * TORQUE_SCALE_NM, 2),
             angle_deg=round(to_signed(words["angle"][0]) * ANGLE_SCALE_DEG, 1),
+            plc_liveness=words["plc_liveness"][0],
         )
 
     def words(self) -> dict[str, list[int]]:
@@ -118,6 +125,7 @@ class InputSignals:
             "result_ok": [int(self.result_ok)],
             "torque": [scale_unsigned(self.torque_nm, TORQUE_SCALE_NM)],
             "angle": [scale_signed(self.angle_deg, ANGLE_SCALE_DEG)],
+            "plc_liveness": [self.plc_liveness & WORD],
         }
 
 
@@ -129,10 +137,28 @@ def encode_ascii(text: str, registers: int) -> list[int]:
     return [(raw[i] << 8) | raw[i + 1] for i in range(0, len(raw), 2)]
 
 
-def decode_ascii(words: list[int]) -> str:
+def _raw(words: list[int]) -> bytes:
     raw = b"".join(((w >> 8) & 0xFF).to_bytes(1, "big") + (w & 0xFF).to_bytes(1, "big")
                    for w in words)
-    return raw.split(b"\0", 1)[0].decode("ascii", errors="replace").strip()
+    return raw.split(b"\0", 1)[0]
+
+
+def decode_ascii(words: list[int]) -> str:
+    """The serial as text; bytes that are not printable ASCII show as ``\\xNN`` (so two
+    different garbage serials never read the same), see :func:`serial_problem`."""
+    return _raw(words).decode("ascii", errors="backslashreplace").strip()
+
+
+def serial_problem(words: list[int]) -> str:
+    """Why the serial registers hold no valid serial, or "" when they hold printable ASCII."""
+    if words and all(w == WORD for w in words):
+        return "all serial registers are 0xFFFF"
+    for byte in _raw(words):
+        if byte >= 0x80:
+            return f"non-ASCII byte 0x{byte:02X}"
+        if byte < 0x20 or byte == 0x7F:
+            return f"control character 0x{byte:02X}"
+    return ""
 
 
 def to_signed(word: int) -> int:
@@ -165,6 +191,8 @@ class OutputEncoder:
 
     def encode(self, output: Output, *, heartbeat: int, unit_ack: int, result_ack: int,
                extra_alarms: tuple[str, ...] = (), force_inhibit: bool = False) -> OutputSignals:
+        """``result_status`` is decided with the result, one cycle before ``result_ack`` echoes
+        it, so it is valid whenever ``result_ack`` equals the PLC's ``result_sequence``."""
         mask = 0
         for ref in output.failed_positions:
             if ref in self.bit_of:
@@ -179,6 +207,10 @@ class OutputEncoder:
             rework_mask=mask,
             unit_ack=unit_ack & WORD,
             result_ack=result_ack & WORD,
+            result_status=RESULT_STATUS_CODES.get(output.result_status, 0),
+            event_code=ALARMS[output.last_event].number if output.last_event in ALARMS else 0,
+            event_count=output.event_count & WORD,
+            unit_reason=unit_reason(output),
         )
 
 
@@ -187,50 +219,8 @@ def alarm_number(codes: tuple[str, ...]) -> int:
     return min(numbers) if numbers else 0
 
 
-class InputDecoder:
-    """Turns successive :class:`InputSignals` into observations.
-
-    Sequence counters start new units and results when they change. The first reading sets the
-    baseline: a unit already presented (sequence not 0, serial set) is started, a result left
-    in the PLC from before is not taken. Bits act on their edges (tool_running both ways,
-    acknowledge and reset on 0 -> 1).
-    """
-
-    def __init__(self) -> None:
-        self.last: InputSignals | None = None
-        self.unit_ack = 0
-        self.result_ack = 0
-
-    def decode(self, inputs: InputSignals, t_s: float) -> list[Observation]:
-        last = self.last
-        self.last = inputs
-        found: list[Observation] = []
-        if last is None:
-            self.unit_ack = inputs.unit_sequence
-            self.result_ack = inputs.result_sequence
-            if inputs.unit_sequence != 0 and inputs.serial:
-                found.append(UnitStarted(t_s=t_s, serial=inputs.serial, rework=inputs.rework))
-            if inputs.tool_running:
-                found.append(ToolRunning(t_s=t_s, on=True))
-            return found
-        if inputs.reset and not last.reset:
-            found.append(Reset(t_s=t_s, reason="PLC reset input"))
-        if inputs.unit_sequence != self.unit_ack:
-            if inputs.serial:
-                self.unit_ack = inputs.unit_sequence
-                found.append(UnitStarted(t_s=t_s, serial=inputs.serial, rework=inputs.rework))
-            elif last.unit_sequence != inputs.unit_sequence:
-                logger.warning("unit_sequence changed to %d without a serial; waiting for it",
-                               inputs.unit_sequence)
-        if inputs.tool_running != last.tool_running:
-            found.append(ToolRunning(t_s=t_s, on=inputs.tool_running))
-        if inputs.result_sequence != self.result_ack:
-            self.result_ack = inputs.result_sequence
-            found.append(TighteningResult(t_s=t_s, ok=inputs.result_ok,
-                                          torque_nm=inputs.torque_nm,
-                                          angle_deg=inputs.angle_deg,
-                                          sequence=inputs.result_sequence))
-        if inputs.operator_ack and not last.operator_ack:
-            found.append(OperatorAck(t_s=t_s))
-        return found
-
+def unit_reason(output: Output) -> int:
+    """0 while a unit is open or ended OK; else the code of how it ended."""
+    if output.unit_status not in ("nok", "aborted") or output.ended_by is None:
+        return 0
+    return UNIT_REASON_CODES.get(output.ended_by, UNIT_REASON_CODES["abort"])

@@ -9,10 +9,16 @@ probability ``ok_rate``, torque and angle around their targets with Gaussian noi
 ``result_ack`` (or drops the enable). When the station reports the unit OK or NOK it waits a moment
 and presents the next serial.
 
+Like a PLC, it adds 1 to ``plc_liveness`` every ``liveness_period_s`` and watches the station's
+heartbeat: when it has not changed for ``heartbeat_timeout_s`` (the station stopped, hung or lost
+the link) the simulated tool loses power: a run in progress stops at once without a result, and
+no run starts until the heartbeat counts again. Each power drop is logged and counted.
+
 Scripted mode: station inputs from a JSON-lines file (the sample video's sidecar) are presented
 at their ``t_s`` after :meth:`StationSimulator.start` (or, with ``script_waits_for_station``,
 after the station's heartbeat first counts, so a simulator started before ``run`` keeps time
-with the video), whatever the station does.
+with the video), whatever the station does (a power drop is logged and counted, the script goes
+on).
 """
 
 from __future__ import annotations
@@ -60,8 +66,13 @@ class SimulatorSettings:
     poll_s: float = 0.005
     script_waits_for_station: bool = False  # scripted mode: t = 0 at the first heartbeat
     script_speed: float = 1.0  # scripted mode: present inputs this many times faster
+    heartbeat_timeout_s: float = 0.2  # no heartbeat change this long: tool power off
+    liveness_period_s: float = 0.05  # plc_liveness counts up this often (a PLC's poll period)
 
     def __post_init__(self) -> None:
+        if self.heartbeat_timeout_s <= 0 or self.liveness_period_s <= 0:
+            raise ValueError("heartbeat_timeout_s and liveness_period_s must be > 0, got "
+                             f"{self.heartbeat_timeout_s} and {self.liveness_period_s}")
         if self.script_speed <= 0:
             raise ValueError(f"script_speed must be > 0, got {self.script_speed}")
         if not 0.0 <= self.ok_rate <= 1.0:
@@ -87,7 +98,12 @@ class StationSimulator:
         self.results = 0
         self._stop = threading.Event()
         self._thread: threading.Thread | None = None
+        self._scan: threading.Thread | None = None
         self.error: BaseException | None = None
+        self._inputs_lock = threading.RLock()
+        self.tool_power = threading.Event()  # set while the station's heartbeat counts
+        self.power_drops = 0
+        self.liveness = 0
 
     @property
     def port(self) -> int:
@@ -103,6 +119,9 @@ class StationSimulator:
         return self
 
     def begin(self) -> Self:
+        self._scan = threading.Thread(target=self._guarded, args=(self._run_scan,),
+                                      name="simulator-scan", daemon=True)
+        self._scan.start()
         target = self._run_script if self.script else self._run_generated
         self._thread = threading.Thread(target=self._guarded, args=(target,),
                                         name="station-simulator", daemon=True)
@@ -111,8 +130,9 @@ class StationSimulator:
 
     def stop(self) -> None:
         self._stop.set()
-        if self._thread is not None:
-            self._thread.join(5.0)
+        for thread in (self._thread, self._scan):
+            if thread is not None:
+                thread.join(5.0)
         self.server.stop()
 
     def wait(self) -> None:
@@ -142,7 +162,8 @@ class StationSimulator:
         self.inputs = inputs
 
     def _set(self, **changes: object) -> None:
-        self._present(replace(self.inputs, **changes))  # type: ignore[arg-type]
+        with self._inputs_lock:  # the scan thread drops tool_running on its own
+            self._present(replace(self.inputs, **changes))  # type: ignore[arg-type]
 
     def _guarded(self, target: object) -> None:
         try:
@@ -156,6 +177,32 @@ class StationSimulator:
     def _wait(self, seconds: float) -> bool:
         """False when stopped meanwhile."""
         return not self._stop.wait(max(0.0, seconds))
+
+    # --- the PLC's scan: liveness counter and heartbeat watchdog ---
+    def _run_scan(self) -> None:
+        spec = self.address_map["plc_liveness"]
+        timeout_s = self.settings.heartbeat_timeout_s
+        heartbeat, changed_at = self.output("heartbeat"), time.monotonic()
+        next_count = time.monotonic()
+        while self._wait(min(self.settings.poll_s, self.settings.liveness_period_s)):
+            now = time.monotonic()
+            if now >= next_count:
+                self.liveness = (self.liveness + 1) & 0xFFFF
+                self.server.set(spec.table, spec.address, [self.liveness])
+                next_count = now + self.settings.liveness_period_s
+            beat = self.output("heartbeat")
+            if beat != heartbeat:
+                heartbeat, changed_at = beat, now
+                if not self.tool_power.is_set():
+                    logger.info("simulator: station heartbeat counts; tool power on")
+                    self.tool_power.set()
+            elif self.tool_power.is_set() and now - changed_at > timeout_s:
+                self.tool_power.clear()
+                self.power_drops += 1
+                logger.warning("simulator: station heartbeat stopped at %d for %.0f ms; tool "
+                               "power off (drop %d)", beat, timeout_s * 1e3, self.power_drops)
+                if not self.script and self.inputs.tool_running:
+                    self._set(tool_running=False)
 
     # --- generated mode ---
     def _next_serial(self) -> str:
@@ -185,10 +232,10 @@ class StationSimulator:
                     return
                 self._new_unit()
                 continue
-            if self.output("tool_enable"):
+            if self.output("tool_enable") and self.tool_power.is_set():
                 if not self._wait(self.random.uniform(*settings.trigger_delay_s)):
                     return
-                if self.output("tool_enable"):
+                if self.output("tool_enable") and self.tool_power.is_set():
                     self._tighten()
                 continue
             if not self._wait(settings.poll_s):
@@ -197,8 +244,13 @@ class StationSimulator:
     def _tighten(self) -> None:
         settings = self.settings
         self._set(tool_running=True)
-        if not self._wait(settings.run_time_s):
-            return
+        ends = time.monotonic() + settings.run_time_s
+        while time.monotonic() < ends:
+            if not self._wait(min(settings.poll_s, ends - time.monotonic())):
+                return
+            if not self.tool_power.is_set():
+                logger.warning("simulator: the run stopped without a result (no power)")
+                return
         ok = self.random.random() < settings.ok_rate
         target = settings.torque_target_nm * (1.0 if ok else settings.nok_torque_factor)
         torque = max(0.0, self.random.gauss(target, settings.torque_noise_nm))

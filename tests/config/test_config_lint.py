@@ -141,21 +141,27 @@ REFERENCES: list[Any] = [
         ("error", "thresholds.typo", "unknown key 'typo'"),
         ("error", "thresholds.stale_frame_ms", "is not longer than one frame")],
         id="section with a schema error is still linted"),
+    # the same check as run's (stationcheck.plc.address_map.address_map_findings)
     pytest.param([("plc.address_map", {
-        "heartbeat": {"table": "holding_register", "address": 10, "count": 2},
-        "step": {"table": "holding_register", "address": 11}})], [
-        ("error", "plc.address_map.step.address", ("holding_register address 11 overlaps signal "
-         "'heartbeat' (holding_register addresses 10-11); each signal needs its own addresses"))],
+        "heartbeat": {"table": "holding_register", "address": 40},
+        "step_number": {"table": "holding_register", "address": 40}})], [
+        ("error", "plc.address_map.step_number.address", ("holding_register 40 is taken by both "
+         "step_number and heartbeat; each signal needs its own addresses"))],
         id="overlapping registers"),
     pytest.param([("plc.address_map", {
-        "enable": {"table": "coil", "address": 0}, "lamp": {"table": "coil", "address": 0},
+        "step_number": {"table": "holding_register", "address": 0}})], [
+        ("error", "plc.address_map.step_number.address", ("holding_register 0 is taken by both "
+         "step_number and heartbeat"))], id="overlaps a signal left at its default"),
+    pytest.param([("plc.address_map", {
+        "reset": {"table": "coil", "address": 0}, "lamp": {"table": "coil", "address": 5},
         "bad": {"table": "relay", "address": 0}})], [
-        ("error", "plc.address_map.lamp.address", "coil address 0 overlaps signal 'enable'"),
+        ("error", "plc.address_map.lamp", "unknown signal"),
+        ("error", "plc.address_map.reset.address", "coil 0 is taken by both reset and tool_enable"),
         ("error", "plc.address_map.bad.table", "expected 'coil'")], id="same coil twice"),
     pytest.param([("plc.address_map", {
-        "serial": {"table": "input_register", "address": 65535, "count": 2}})], [
-        ("error", "plc.address_map.serial.count", ("2 addresses from 65535 run past the last "
-         "Modbus address 65535"))], id="past the last address"),
+        "serial": {"table": "input_register", "address": 65530}})], [
+        ("error", "plc.address_map.serial.address", ("must be 0..65526 (10 addresses from "
+         "there), got 65530"))], id="past the last address"),
 ]
 
 

@@ -40,7 +40,7 @@ GOOD: list[Any] = [
         "tool_running": {"table": "discrete_input", "address": 0},
         "serial": {"table": "input_register", "address": 0, "count": 10},
         "heartbeat": {"table": "holding_register", "address": 0},
-        "step": {"table": "holding_register", "address": 1}})], id="address map"),
+        "step_number": {"table": "holding_register", "address": 1}})], id="address map"),
     pytest.param([("judgements", {
         "bin_activity": {"changed_fraction": 0.1, "settle_ms": 0, "release_ms": 250},
         "presence": {"min_match": 0.8, "min_margin": 0.5, "confirm_ms": 200, "search_px": 0},
@@ -49,6 +49,9 @@ GOOD: list[Any] = [
 ]
 
 BAD: list[Any] = [
+    pytest.param([("plc.serial_pattern", "PC-("), ("plc.liveness_timeout_ms", 5)], [
+        ("error", "plc.serial_pattern", "not a regular expression"),
+        ("error", "plc.liveness_timeout_ms", "20")], id="plc session fields"),
     pytest.param([("zone", [])], [
         ("error", "zone", "unknown key 'zone'; did you mean 'zones'?")], id="unknown top key"),
     pytest.param([("camera.widht_px", 640), ("camera.width_px", DELETE)], [

@@ -13,11 +13,30 @@ from stationcheck.core.tracker import Tracker, TrackerSettings
 from stationcheck.core.zones import ZoneMap
 
 
-def test_result_before_running_counts_and_the_late_running_signal_alarms(fasten_only: Any) -> None:
-    run = fasten_only().unit("U-1").arrive("s1").result(ok=True).running(True).running(False).run()
-    assert [e.data["zone"] for e in run.of("position_completed")] == ["s1"]
-    assert run.raised() == ["ran_while_inhibited"]
-    assert run.last.target is not None and run.last.target.zone == "s2"
+def test_a_result_with_no_run_started_while_enabled_is_rejected(fasten_only: Any) -> None:
+    run = fasten_only().unit("U-1").arrive("s1").result(ok=True).run()
+    assert run.of("position_completed") == []
+    assert run.raised() == ["result_without_enable"]
+    assert run.of("alarm_raised")[0].data["reason"] == "not_credited"
+    assert run.last.result_status == "rejected_not_credited"
+    assert run.last.last_event == "result_without_enable" and run.last.event_count == 1
+    assert run.last.target is not None and run.last.target.zone == "s1"
+
+
+def test_a_run_while_inhibited_is_never_credited_to_the_target(fasten_only: Any) -> None:
+    """The target was granted once (enabled_for), then the tip left and the tool ran while
+    inhibited: its result is rejected, not credited to the target."""
+    run = (fasten_only().unit("U-1").arrive("s1").tip(None).running(True).running(False)
+           .result(ok=True).run())
+    assert run.of("position_completed") == []
+    assert run.raised() == ["ran_while_inhibited", "result_without_enable"]
+    assert run.last.result_status == "rejected_not_credited"
+
+
+def test_an_accepted_result_says_so_in_the_output(fasten_only: Any) -> None:
+    run = fasten_only().unit("U-1").arrive("s1").run_tightening(ok=True).run()
+    assert run.last.result_status == "accepted"
+    assert run.last.event_count == 0
 
 
 def test_two_results_for_one_enable_count_once(fasten_only: Any) -> None:
@@ -31,7 +50,7 @@ def test_a_repeated_result_with_the_same_sequence_is_ignored(fasten_only: Any) -
         fasten_only()
         .unit("U-1")
         .arrive("s1")
-        .result(ok=False, sequence=7)
+        .run_tightening(ok=False, sequence=7)
         .result(ok=False, sequence=7)
         .run()
     )
@@ -128,3 +147,20 @@ def test_without_hysteresis_the_same_flicker_breaks_the_visit(fasten_only: Any) 
     enabled, entries, _ = flicker_at_edge(fasten_only().plan, hysteresis_px=0.0)
     assert len(entries) > 10
     assert not any(enabled[12:])
+
+
+def test_a_link_event_is_logged_as_its_one_off_alarm_and_latched(fasten_only: Any) -> None:
+    from stationcheck.core.observations import LinkEvent
+
+    run = fasten_only().add(LinkEvent(0.0, "plc_session_restart", "result_sequence 6 -> 0")).run()
+    assert run.raised() == ["plc_session_restart"]
+    assert (run.last.last_event, run.last.event_count) == ("plc_session_restart", 1)
+
+
+def test_a_link_event_must_name_a_one_off_alarm() -> None:
+    import pytest
+
+    from stationcheck.core.observations import LinkEvent
+
+    with pytest.raises(ValueError, match="one-off alarm"):
+        LinkEvent(0.0, "link_lost")

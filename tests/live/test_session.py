@@ -36,15 +36,15 @@ def test_make_link_by_mode() -> None:
     server = make_link(config, LiveSettings(CONFIG, link="server", port=1503))
     assert isinstance(server, ModbusServerLink)
     assert server.address_map["tool_running"].table == "coil"  # the PLC writes input bits
-    assert server.silence_ms == pytest.approx(50.0)
+    assert server.host.unit_ids == frozenset({0, 1, 255})  # the usual Modbus TCP unit ids too
 
 
 def test_link_timeout_covers_a_blocked_request() -> None:
     config = load_config(CONFIG)  # timeout_ms 50, retries 0
     limits = link_limits(config)
-    assert limits.link_timeout_s == pytest.approx(0.15)
+    assert limits.link_timeout_s == pytest.approx(0.2)  # + one 50 ms link cycle
     assert limits.frame_timeout_s <= 0.08
-    assert link_limits(config, timeout_ms=100).link_timeout_s == pytest.approx(0.3)
+    assert link_limits(config, timeout_ms=100).link_timeout_s == pytest.approx(0.35)
 
 
 @pytest.mark.skipif(not VIDEO.is_file(), reason="no sample video")
@@ -68,3 +68,29 @@ def test_run_command_bad_config_is_one_line(tmp_path: Path,
     assert code != 0
     assert err.count("\n") == 1 and "Traceback" not in err
     assert "missing.yaml" in err
+
+
+def test_check_and_run_refuse_the_same_overlapping_address(
+        tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    from stationcheck.errors import ConfigError
+
+    text = CONFIG.read_text(encoding="utf-8")
+    assert "\nplc:\n" in text
+    (tmp_path / "demo_station").symlink_to(CONFIG.parent / "demo_station")  # its reference
+    bad = tmp_path / "station.yaml"
+    bad.write_text(text.replace("\nplc:\n", "\nplc:\n  address_map:\n    step_number: "
+                                "{table: holding_register, address: 0}\n", 1), encoding="utf-8")
+    assert main(["check", str(bad)]) == 1
+    printed = capsys.readouterr()
+    assert "plc.address_map.step_number.address: holding_register 0 is taken by both " \
+        "step_number and heartbeat" in printed.out + printed.err
+    with pytest.raises(ConfigError, match="taken by both step_number and heartbeat"):
+        make_link(load_config(bad), LiveSettings(bad, link="client"))
+
+
+def test_worker_settings_watch_the_plc_liveness_and_check_serials() -> None:
+    from stationcheck.live.session import worker_settings
+
+    settings = worker_settings(load_config(CONFIG))
+    assert settings.liveness_timeout_s == pytest.approx(0.5)  # the default plc.liveness_timeout_ms
+    assert settings.session.serial_pattern == r"[\x20-\x7e]+"

@@ -138,8 +138,8 @@ def test_a_rework_pass_gets_its_positions_from_the_log_and_enables_only_those() 
               TighteningResult(t(25), True, 5.0, 30.0, 1),
               ToolRunning(t(70), True), ToolRunning(t(75), False),
               TighteningResult(t(75), False, 3.0, 60.0, 2),
-              ToolRunning(t(80), True), ToolRunning(t(85), False),
-              TighteningResult(t(85), False, 3.1, 61.0, 3),
+              ToolRunning(t(88), True), ToolRunning(t(93), False),  # after the new dwell
+              TighteningResult(t(93), False, 3.1, 61.0, 3),
               UnitStarted(t(105), "U-1", rework=True)]
     trace, collect = run(inputs, detector, 200)
     started = [s.observation for s in collect.steps if isinstance(s.observation, UnitStarted)]

@@ -33,12 +33,12 @@ def test_markdown_table_lists_every_signal() -> None:
         ({"tool_enable": {"table": "coil", "address": 100}}, None),
         ({"tool_running": {"table": "coil", "address": 5}}, None),
         ({"torque": {"table": "input_register", "address": 40}}, None),
-        ({"tool_enable": {"table": "holding_register", "address": 100}}, "table must be"),
-        ({"heartbeat": {"table": "input_register", "address": 3}}, "table must be"),
-        ({"serial": {"table": "holding_register", "address": 40, "count": 4}}, "count must be 10"),
+        ({"tool_enable": {"table": "holding_register", "address": 100}}, "table: must be"),
+        ({"heartbeat": {"table": "input_register", "address": 3}}, "table: must be"),
+        ({"serial": {"table": "holding_register", "address": 40, "count": 4}}, "count: must be 10"),
         ({"nonsense": {"table": "coil", "address": 1}}, "unknown signal"),
-        ({"heartbeat": {"table": "holding_register", "address": 5}}, "share holding_register 5"),
-        ({"alarm_code": {"table": "holding_register", "address": 20}}, "share holding_register 20"),
+        ({"heartbeat": {"table": "holding_register", "address": 5}}, "heartbeat.address: holding_register 5 is taken by both rework_mask and heartbeat"),
+        ({"alarm_code": {"table": "holding_register", "address": 20}}, "alarm_code.address: holding_register 20 is taken by both serial and alarm_code"),
     ],
 )
 def test_overrides_are_checked(overrides: dict[str, dict[str, object]],
@@ -61,7 +61,7 @@ def test_config_entries_are_accepted() -> None:
                              "serial": AddressEntry(table="holding_register", address=40)})
     assert amap["reset"].address == 9
     assert (amap["serial"].address, amap["serial"].count) == (40, 10)  # count left out
-    with pytest.raises(ConfigError, match="count must be 10"):
+    with pytest.raises(ConfigError, match="count: must be 10"):
         address_map_from({"serial": AddressEntry(table="holding_register", address=40, count=4)})
 
 
@@ -69,8 +69,8 @@ def test_config_entries_are_accepted() -> None:
     ("overrides", "problem"),
     [({}, None),
      ({"reset": {"table": "coil", "address": 40}}, None),
-     ({"reset": {"table": "discrete_input", "address": 2}}, "table must be"),
-     ({"torque": {"table": "input_register", "address": 30}}, "table must be")],
+     ({"reset": {"table": "discrete_input", "address": 2}}, "table: must be"),
+     ({"torque": {"table": "input_register", "address": 30}}, "table: must be")],
 )
 def test_server_mode_inputs_must_be_writable_by_the_plc(
         overrides: dict[str, dict[str, object]], problem: str | None) -> None:

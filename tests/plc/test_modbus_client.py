@@ -1,9 +1,10 @@
 """The client link against a real pymodbus server on 127.0.0.1.
 
-Frame layout checked against the Modbus Application Protocol Specification V1.1b3
-(modbus.org): 4.1 MBAP header of 7 bytes before the PDU; 6.2 Read Discrete Inputs, function
-code 0x02; 6.5 Write Single Coil, function code 0x05, output value 0xFF00 for ON and 0x0000 for
-OFF; 6.12 Write Multiple Registers 0x10.
+Frame layout per the Modbus Messaging on TCP/IP Implementation Guide V1.0b, 3.1.3: an MBAP
+header of 7 bytes (transaction id, protocol id 0, length, unit id) before the PDU. Function codes
+per the Modbus Application Protocol Specification V1.1b3 (modbus.org): 6.2 Read Discrete Inputs
+0x02; 6.3 Read Holding Registers 0x03; 6.5 Write Single Coil 0x05, output value 0xFF00 for ON and
+0x0000 for OFF; 6.12 Write Multiple Registers 0x10. Section numbers from memory.
 """
 
 from __future__ import annotations
@@ -36,9 +37,11 @@ def test_enable_coil_is_function_05_with_spec_value(server: ServerHost, packets:
     assert coil_writes == [b"\x05\x00\x00" + value_bytes]  # FC 05, address 0, value
     assert server.get("coil", 0) == [int(on)]
     register_writes = [pdu for pdu in packets.pdus() if pdu[0] == 0x10]
-    assert len(register_writes) == 1  # heartbeat..result_ack in one FC 16 request
-    assert register_writes[0][1:5] == b"\x00\x00\x00\x08"  # start 0, 8 registers
-    assert server.get("holding_register", 0, 8) == [7, 0, 0, 0, 0, 0, 0, 0]
+    # heartbeat..unit_reason in one FC 16 request (Modbus Application Protocol V1.1b3, 6.12:
+    # starting address, quantity of registers)
+    assert len(register_writes) == 1
+    assert register_writes[0][1:5] == b"\x00\x00\x00\x0c"  # start 0, 12 registers
+    assert server.get("holding_register", 0, 12) == [7] + [0] * 11
 
 
 def test_outputs_land_at_their_addresses(server: ServerHost) -> None:
@@ -46,9 +49,12 @@ def test_outputs_land_at_their_addresses(server: ServerHost) -> None:
     link.connect()
     link.write_outputs(OutputSignals(tool_enable=True, heartbeat=65535, step_number=3,
                                      position_number=2, unit_status=1, alarm_code=6,
-                                     rework_mask=0b101, unit_ack=4, result_ack=11))
+                                     rework_mask=0b101, unit_ack=4, result_ack=11,
+                                     result_status=3, event_code=31, event_count=2,
+                                     unit_reason=1))
     link.close()
-    assert server.get("holding_register", 0, 8) == [65535, 3, 2, 1, 6, 0b101, 4, 11]
+    assert server.get("holding_register", 0, 12) == [65535, 3, 2, 1, 6, 0b101, 4, 11, 3, 31,
+                                                     2, 1]
 
 
 def test_inputs_are_read_and_decoded(server: ServerHost) -> None:
@@ -110,16 +116,21 @@ def test_worker_writes_only_changed_outputs_and_keeps_reading_inputs(
         cycle_s=0.02, refresh_s=60.0, stale_outputs_s=60.0)).start()
     try:
         worker.publish(OutputSignals(tool_enable=True, heartbeat=1))
-        wait_until(lambda: server.get("holding_register", 0) == [1], what="first outputs")
+        # the enable goes out only once the link is up (the first write may carry it off)
+        wait_until(lambda: server.get("holding_register", 0) == [1]
+                   and server.get("coil", 0) == [1], what="first outputs")
         coil_writes = requests(0x05)
         for _ in range(5):  # the loop publishes every cycle; nothing changed
             worker.publish(OutputSignals(tool_enable=True, heartbeat=1))
         worker.publish(OutputSignals(tool_enable=True, heartbeat=2))
         wait_until(lambda: server.get("holding_register", 0) == [2], what="changed outputs")
-        assert requests(0x05) == coil_writes + 1  # FC 05 only for the change
+        assert requests(0x05) == coil_writes  # the enable did not change: no FC 05
         reads = requests(0x02)  # FC 02 read discrete inputs: tool running, ack, reset
         wait_until(lambda: requests(0x02) >= reads + 3, what="inputs read with nothing to write")
-        assert requests(0x05) == coil_writes + 1
+        assert requests(0x05) == coil_writes
+        worker.publish(OutputSignals(tool_enable=False, heartbeat=2))
+        wait_until(lambda: server.get("coil", 0) == [0], what="enable off")
+        assert requests(0x05) == coil_writes + 1  # FC 05 (6.5) once for the change
     finally:
         worker.stop()
 
@@ -163,3 +174,15 @@ def test_killed_server_gives_link_loss_then_reconnect(packets: PacketLog) -> Non
     finally:
         worker.stop()
     assert worker.connects == 2
+
+
+def test_inputs_come_in_one_read_per_table(server: ServerHost, packets: PacketLog) -> None:
+    """Three bits (FC 02, 6.2) and holding registers 16-32 (FC 03, 6.3): two requests."""
+    link = client_for(server)
+    link.connect()
+    try:
+        link.read_inputs()
+    finally:
+        link.close()
+    reads = [(pdu[0], pdu[1:5]) for pdu in packets.pdus()]
+    assert sorted(reads) == [(0x02, b"\x00\x00\x00\x03"), (0x03, b"\x00\x10\x00\x11")]

@@ -2,20 +2,13 @@ from __future__ import annotations
 
 import pytest
 
-from stationcheck.core.observations import (
-    OperatorAck,
-    Reset,
-    TighteningResult,
-    ToolRunning,
-    UnitStarted,
-)
 from stationcheck.plc.signals import (
-    InputDecoder,
     InputSignals,
     OutputSignals,
     alarm_number,
     decode_ascii,
     encode_ascii,
+    serial_problem,
 )
 
 
@@ -67,36 +60,41 @@ def test_alarm_number_is_the_lowest_active() -> None:
     assert alarm_number(("wrong_position",)) == 6
 
 
-def test_decoder_takes_baseline_then_edges_and_sequences() -> None:
-    decoder = InputDecoder()
-    assert decoder.decode(InputSignals(unit_sequence=4, serial="OLD", result_sequence=9),
-                          0.0) == [UnitStarted(t_s=0.0, serial="OLD")]  # presented before start
-    unit = InputSignals(unit_sequence=5, serial="PC-000001", result_sequence=9)
-    assert decoder.decode(unit, 1.0) == [UnitStarted(t_s=1.0, serial="PC-000001")]
-    assert decoder.decode(unit, 1.1) == []  # same sequence: nothing new
-    running = InputSignals(unit_sequence=5, serial="PC-000001", result_sequence=9,
-                           tool_running=True)
-    assert decoder.decode(running, 2.0) == [ToolRunning(t_s=2.0, on=True)]
-    result = InputSignals(unit_sequence=5, serial="PC-000001", result_sequence=10,
-                          result_ok=False, torque_nm=4.5, angle_deg=20.0)
-    found = decoder.decode(result, 3.0)
-    assert found == [ToolRunning(t_s=3.0, on=False),
-                     TighteningResult(t_s=3.0, ok=False, torque_nm=4.5, angle_deg=20.0,
-                                      sequence=10)]
-    assert (decoder.unit_ack, decoder.result_ack) == (5, 10)
-    ack = InputSignals(unit_sequence=5, serial="PC-000001", result_sequence=10,
-                       operator_ack=True, reset=True)
-    assert decoder.decode(ack, 4.0) == [Reset(t_s=4.0, reason="PLC reset input"),
-                                        OperatorAck(t_s=4.0)]
-    assert decoder.decode(ack, 4.1) == []  # held bits act once
+@pytest.mark.parametrize(
+    ("words", "problem"),
+    [
+        (encode_ascii("PC-000123", 10), ""),
+        ([0xFFFF] * 10, "all serial registers are 0xFFFF"),
+        ([0x5043, 0xC3A9] + [0] * 8, "non-ASCII byte 0xC3"),
+        ([0x5043, 0x0A41] + [0] * 8, "control character 0x0A"),
+        ([0x507F] + [0] * 9, "control character 0x7F"),
+    ],
+)
+def test_serial_problems_are_named(words: list[int], problem: str) -> None:
+    assert serial_problem(words) == problem
 
 
-def test_decoder_ignores_unit_without_serial() -> None:
-    decoder = InputDecoder()
-    decoder.decode(InputSignals(), 0.0)
-    assert decoder.decode(InputSignals(unit_sequence=1, serial=""), 1.0) == []
-    assert decoder.unit_ack == 0  # not taken in: the serial is still missing
-    assert decoder.decode(InputSignals(unit_sequence=1, serial="S1"), 1.5) == [
-        UnitStarted(t_s=1.5, serial="S1")]
-    assert decoder.decode(InputSignals(unit_sequence=2, serial="S2", rework=True), 2.0) == [
-        UnitStarted(t_s=2.0, serial="S2", rework=True)]
+def test_two_garbage_serials_never_read_the_same() -> None:
+    assert decode_ascii([0xC3A9] + [0] * 9) != decode_ascii([0xC3A8] + [0] * 9)
+
+
+def test_encoder_carries_result_status_event_and_unit_reason() -> None:
+    from pathlib import Path
+
+    from stationcheck.config import load_config
+    from stationcheck.core.outputs import Guidance, Output
+    from stationcheck.plc.signals import OutputEncoder
+
+    plan = load_config(Path(__file__).resolve().parents[2] / "configs" /
+                       "demo_station.yaml").to_plan()
+    output = Output(t_s=1.0, tool_enabled=False, guidance=Guidance("unit_finished", None, "x"),
+                    unit_status="nok", ended_by="check_failed",
+                    result_status="rejected_not_credited", last_event="check_failed",
+                    event_count=3)
+    signals = OutputEncoder(plan).encode(output, heartbeat=1, unit_ack=2, result_ack=3)
+    assert (signals.result_status, signals.event_code, signals.event_count,
+            signals.unit_reason) == (3, 17, 3, 3)
+    ok = Output(t_s=1.0, tool_enabled=False, guidance=Guidance("unit_finished", None, "x"),
+                unit_status="ok", ended_by="completed", result_status="accepted")
+    signals = OutputEncoder(plan).encode(ok, heartbeat=1, unit_ack=2, result_ack=3)
+    assert (signals.result_status, signals.event_code, signals.unit_reason) == (1, 0, 0)

@@ -26,8 +26,8 @@ from stationcheck.plc.simulator import SimulatorSettings, StationSimulator
 from stationcheck.plc.worker import LinkWorker, WorkerSettings
 from tests.plc.conftest import free_port, wait_until
 
-# the run lasts longer than the worker's 20 ms input poll, as a real run does
-FAST = SimulatorSettings(seed=3, ok_rate=0.5, trigger_delay_s=(0.0, 0.01), run_time_s=0.06,
+# the run lasts well over the worker's 50 ms input cycle, as a real run does
+FAST = SimulatorSettings(seed=3, ok_rate=0.5, trigger_delay_s=(0.0, 0.01), run_time_s=0.15,
                          unit_gap_s=0.01, units=2)
 
 
@@ -43,18 +43,31 @@ def test_generated_units_and_results_follow_the_enable() -> None:
 
             wait_until(lambda: collect(UnitStarted) == 1, what="first serial")
             assert not any(isinstance(o, ToolRunning) for o in seen)  # no enable, no run
+            heartbeat = 0
+
+            def enabled(on: bool) -> OutputSignals:  # the heartbeat counts, as a station's does
+                nonlocal heartbeat
+                heartbeat += 1
+                return OutputSignals(tool_enable=on, heartbeat=heartbeat, unit_status=1,
+                                     unit_ack=worker.decoder.unit_ack,
+                                     result_ack=worker.decoder.result_ack)
+
             for position in range(1, 4):
-                heartbeat = position
-                worker.publish(OutputSignals(tool_enable=True, heartbeat=heartbeat,
-                                             unit_status=1, unit_ack=worker.decoder.unit_ack,
+                def resulted(p: int = position) -> bool:
+                    worker.publish(enabled(True))
+                    return collect(TighteningResult) == p
+
+                wait_until(resulted, what="a result")
+                worker.publish(enabled(False))
+            def finished() -> bool:
+                nonlocal heartbeat
+                heartbeat += 1
+                worker.publish(OutputSignals(heartbeat=heartbeat, unit_status=3,
+                                             unit_ack=worker.decoder.unit_ack,
                                              result_ack=worker.decoder.result_ack))
-                wait_until(lambda p=position: collect(TighteningResult) == p, what="a result")
-                worker.publish(OutputSignals(tool_enable=False, heartbeat=heartbeat,
-                                             unit_status=1, unit_ack=worker.decoder.unit_ack,
-                                             result_ack=worker.decoder.result_ack))
-            worker.publish(OutputSignals(unit_status=3, unit_ack=worker.decoder.unit_ack,
-                                         result_ack=worker.decoder.result_ack))
-            wait_until(lambda: collect(UnitStarted) == 2, what="second serial")
+                return collect(UnitStarted) == 2
+
+            wait_until(finished, what="second serial")
         finally:
             worker.stop()
     serials = [o.serial for o in seen if isinstance(o, UnitStarted)]
@@ -210,3 +223,32 @@ def test_a_scripted_simulator_told_to_exit_after_its_script_does(tmp_path: Path)
         assert proc.wait(20) == 0  # ends by itself once the script is done
     finally:
         stop(proc, link)
+
+
+def test_a_station_that_stops_leaves_the_simulated_tool_without_power() -> None:
+    """The station dies with the enable coil left at 1 in the PLC: the simulator (as a PLC
+    should) drops tool power once the heartbeat has not changed for heartbeat_timeout_s, and
+    the run in progress ends without a result."""
+    settings = SimulatorSettings(seed=5, trigger_delay_s=(0.0, 0.0), run_time_s=30.0,
+                                 heartbeat_timeout_s=0.2, liveness_period_s=0.02)
+    with StationSimulator("127.0.0.1", free_port(), settings) as sim:
+        station = ModbusClientLink("127.0.0.1", sim.port, timeout_ms=500)
+        station.connect()
+        beat = 0
+
+        def alive() -> bool:
+            nonlocal beat
+            beat += 1
+            station.write_outputs(OutputSignals(tool_enable=True, heartbeat=beat))
+            return sim.inputs.tool_running
+
+        liveness = sim.liveness
+        wait_until(alive, what="the tool runs while the heartbeat counts")
+        assert sim.liveness > liveness  # the simulated PLC counts its liveness register
+        station.close()  # killed: no more heartbeats, the enable stays 1 in the PLC
+        stopped = time.perf_counter()
+        wait_until(lambda: not sim.inputs.tool_running, timeout_s=3.0, what="tool stopped")
+        stopped_after_s = time.perf_counter() - stopped
+        assert sim.output("tool_enable") == 1  # the coil alone would have let it run on
+    assert 0.2 <= stopped_after_s < 1.5, stopped_after_s
+    assert (sim.power_drops, sim.results) == (1, 0)
