@@ -68,8 +68,9 @@ def test_polling_plc_reads_enable_and_writes_inputs(
     plc = Plc(client, worker)
     plc.poll_until(lambda: worker.up, "link up")
     worker.publish(OutputSignals(tool_enable=True, heartbeat=5))
-    plc.poll_until(plc.enable, "enable on")
-    assert client.read_holding_registers(0, count=1, device_id=1).registers == [5]
+    # the coil is written before the registers, so a poll may see the enable a moment earlier
+    plc.poll_until(lambda: plc.enable() and client.read_holding_registers(
+        0, count=1, device_id=1).registers == [5], "enable on and heartbeat 5")
     client.write_registers(17, [0, *encode_ascii("PC-000777", 10)], device_id=1)
     client.write_register(16, 1, device_id=1)  # the strobe last
     client.write_coil(16, True, device_id=1)  # tool_running in server mode
