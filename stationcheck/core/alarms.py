@@ -39,4 +39,8 @@ ALARMS: dict[str, AlarmInfo] = {
     "result_outside_limits": AlarmInfo(15, "warning", False, "OK result outside the limits"),
     "run_without_result": AlarmInfo(16, "warning", False, "a tightening run gave no result"),
     "check_failed": AlarmInfo(17, "alarm", False, "a check was acknowledged without passing"),
+    "run_too_long": AlarmInfo(18, "alarm", True, "a tightening ran past its run-time limit"),
+    "image_frozen": AlarmInfo(19, "alarm", True, "the camera picture stopped changing"),
+    "result_of_cut_run": AlarmInfo(20, "warning", False, "a result for a run whose enable was cut"),
+    "tip_left_during_run": AlarmInfo(21, "alarm", False, "the tool ran away from its position"),
 }

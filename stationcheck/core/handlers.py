@@ -154,7 +154,15 @@ def take_result(tx: Transaction, obs: TighteningResult) -> None:
         sequence=obs.sequence,
         started_t_s=control.attempt_started_t_s,
         ended_t_s=tx.now_t_s,
+        **({"run_cut": control.run_cut} if control.run_cut else {}),
     )
+    if control.run_cut:
+        tx.alarm(
+            "result_of_cut_run",
+            subject=target.ref.zone,
+            message=f"result for {tx.index.label(target.ref.zone)} after its enable was cut "
+                    f"({control.run_cut}); check the fastener",
+        )
     if obs.ok and not within:
         tx.alarm(
             "result_outside_limits",
@@ -167,6 +175,7 @@ def take_result(tx: Transaction, obs: TighteningResult) -> None:
         running_for=None,
         result_pending=False,
         attempt_started_t_s=None,
+        run_cut="",
         hold_off_until_t_s=tx.now_t_s + tx.index.dwell_ms / 1000.0,
         hold_off_reason="new_attempt_dwell",
     )
@@ -188,7 +197,7 @@ def note_running(tx: Transaction, obs: ToolRunning) -> None:
     if obs.on == control.running:
         return
     if not obs.on:
-        tx.set_control(running=False, running_for=None)
+        tx.set_control(running=False, running_for=None, run_started_t_s=None)
         tx.emit("run_stopped", awaiting_result=control.result_pending)
         return
     if control.result_pending:
@@ -203,10 +212,12 @@ def note_running(tx: Transaction, obs: ToolRunning) -> None:
             running_for=target.ref,
             result_pending=True,
             attempt_started_t_s=tx.now_t_s,
+            run_started_t_s=tx.now_t_s,
+            run_cut="",
         )
         tx.emit("run_started", step=target.ref.step, zone=target.ref.zone, position=target.number)
         return
-    tx.set_control(running=True, result_pending=False)
+    tx.set_control(running=True, result_pending=False, run_started_t_s=tx.now_t_s)
     tx.alarm(
         "ran_while_inhibited",
         subject="",
@@ -220,6 +231,7 @@ def note_zone(tx: Transaction, obs: ZoneObservation) -> None:
     tx.set_tool(
         last_frame_t_s=obs.t_s if last is None else max(last, obs.t_s),
         frame_age_ms=obs.frame_age_ms,
+        frozen_ms=obs.frozen_ms,
         visible=obs.visible,
         seen_once=tx.state.tool.seen_once or obs.visible,
         zone=obs.zone if known else None,

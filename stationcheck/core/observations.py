@@ -67,6 +67,8 @@ class ZoneObservation(ObservationBase):
 
     ``since_t_s`` is when the tip entered ``zone``; with the zone it names one visit.
     ``frame_age_ms`` is how old the frame was when it was judged (0 when unknown, e.g. replay).
+    ``frozen_ms`` is how long the picture has shown no change beyond the camera's noise (0 when
+    it changed, or when nobody measured it).
     """
 
     kind: ClassVar[str] = "zone"
@@ -78,6 +80,7 @@ class ZoneObservation(ObservationBase):
     visible: bool
     tip_px: tuple[float, float] | None = None
     frame_age_ms: float = 0.0
+    frozen_ms: float = 0.0
 
     def __post_init__(self) -> None:
         super().__post_init__()
@@ -86,6 +89,7 @@ class ZoneObservation(ObservationBase):
         require_bool("ZoneObservation", "visible", self.visible)
         require_at_least("ZoneObservation", "dwell_ms", self.dwell_ms, 0.0)
         require_at_least("ZoneObservation", "frame_age_ms", self.frame_age_ms, 0.0)
+        require_at_least("ZoneObservation", "frozen_ms", self.frozen_ms, 0.0)
         require_point("ZoneObservation", "tip_px", self.tip_px)
         if self.zone is not None and not self.visible:
             raise ValueError(

@@ -17,6 +17,7 @@ class ToolView:
 
     last_frame_t_s: float | None = None
     frame_age_ms: float = 0.0
+    frozen_ms: float = 0.0  # the picture has not changed for this long
     visible: bool = False
     seen_once: bool = False
     zone: str | None = None
@@ -51,6 +52,8 @@ class ToolControl:
     attempt_started_t_s: float | None = None
     running: bool = False
     running_for: PositionRef | None = None  # a tightening in progress here keeps enable on
+    run_started_t_s: float | None = None  # start of the run in progress, granted or not
+    run_cut: str = ""  # why the enable was cut during this attempt's run ("" = not cut)
     result_pending: bool = False
     hold_off_until_t_s: float | None = None  # after a reset or a result, dwell again first
     hold_off_reason: str = "reset_hold"  # the enable reason while the hold lasts
