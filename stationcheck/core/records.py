@@ -24,6 +24,7 @@ class Frame:
     index: int
     t_s: float
     image: npt.NDArray[np.uint8]  # H x W x 3, BGR (OpenCV order)
+    source_t_s: float | None = None  # the source's own timestamp, when it gives one
 
     def __post_init__(self) -> None:
         if self.index < 0:
