@@ -68,3 +68,16 @@ def test_run_command_bad_config_is_one_line(tmp_path: Path,
     assert code != 0
     assert err.count("\n") == 1 and "Traceback" not in err
     assert "missing.yaml" in err
+
+
+@pytest.mark.parametrize("source", ["missing.mp4", "not_a_video.mp4"])
+def test_run_on_a_source_that_cannot_be_opened_exits_3_with_one_line(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str], source: str,
+) -> None:
+    (tmp_path / "not_a_video.mp4").write_text("this is not a video\n")
+    code = main(["run", "--config", str(CONFIG), "--source", str(tmp_path / source),
+                 "--link", "console", "--log", str(tmp_path / "log.sqlite")])
+    err = capsys.readouterr().err
+    assert code == 3
+    assert err.count("\n") == 1 and "Traceback" not in err
+    assert "cannot open the frame source" in err and source in err
