@@ -32,6 +32,7 @@ COMMAND_MODULES = (
     "eval",
     "train",
     "bench",
+    "soak",
     "render",
     "teach",
 )

@@ -6,8 +6,10 @@ Enable (fail towards inhibit) is on only when, in this order:
    visible tip (an occlusion shorter than ``lost_track_grace_ms`` is not a loss); then
 3. a tightening granted at that position is running, within its run-time limit and with the tip
    still in the target zone (hysteresis absorbs the tool's reaction wobble), or
-4. the tip has arrived (dwelled) in the target zone and no hold after a reset or a result is on
-   (the tip dwells again from then: ``reset_hold`` / ``new_attempt_dwell``).
+4. the tip has arrived (dwelled) in the target zone, no hold after a reset or a result is on
+   (the tip dwells again from then: ``reset_hold`` / ``new_attempt_dwell``), and, to turn the
+   enable on, the tip was measured in this frame (a tip held through the lost-track grace keeps
+   an enable but never grants one).
 
 A fault or a leaving tip during a running tightening drops the enable at once and ends that
 run's grant (``run_cut``): while the tool goes on running without a grant (cut, past its limit,
@@ -206,6 +208,8 @@ def decide_enable(tx: Transaction) -> tuple[bool, str]:
         return False, control.hold_off_reason
     if control.running:
         return False, control.run_cut or "wait_tool_stop"
+    if not control.enabled and not tool.seen:
+        return False, "tip_not_seen"  # the grace keeps an enable, it never grants one
     return True, "tip_at_target"
 
 

@@ -233,6 +233,7 @@ def note_zone(tx: Transaction, obs: ZoneObservation) -> None:
         frame_age_ms=obs.frame_age_ms,
         frozen_ms=obs.frozen_ms,
         visible=obs.visible,
+        seen=obs.visible and obs.seen,
         seen_once=tx.state.tool.seen_once or obs.visible,
         zone=obs.zone if known else None,
         arrived_zone=obs.arrived_zone if known else None,

@@ -19,6 +19,7 @@ class ToolView:
     frame_age_ms: float = 0.0
     frozen_ms: float = 0.0  # the picture has not changed for this long
     visible: bool = False
+    seen: bool = False  # measured in the latest frame (not only held through the grace)
     seen_once: bool = False
     zone: str | None = None
     arrived_zone: str | None = None

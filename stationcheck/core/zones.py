@@ -128,6 +128,7 @@ class ZoneMap:
             visible=pose.visible,
             tip_px=pose.tip_px,
             frame_age_ms=frame_age_ms,
+            seen=pose.seen,
         )
 
     def _visit(self, state: ZoneVisit, tip_px: tuple[float, float], t_s: float,

@@ -118,6 +118,7 @@ class FramePath:
         self.visit: ZoneVisit = self.zone_map.initial_state()
         self.max_detector_faults = max_detector_faults
         self.faults_in_a_row = 0
+        self.unusable_in_a_row = 0
         self.last_pose: ToolPose | None = None
         self.on_decided: Callable[[Output], None] | None = None
         self._pending: _Pending | None = None
@@ -216,7 +217,9 @@ class FramePath:
         try:
             keypoints = self.detector.detect(frame, hint)
         except ModelOutputError as exc:
-            logger.warning("frame %d: %s", frame.index, exc)
+            if self.unusable_in_a_row == 0:
+                logger.warning("frame %d: %s; tool inhibited", frame.index, exc)
+            self.unusable_in_a_row += 1
             return None, DetectorFault(t_s=frame.t_s, reason=str(exc)[:200])
         except StationcheckError:
             raise
@@ -230,5 +233,7 @@ class FramePath:
                     f"(last at frame {frame.index}: {reason})"
                 ) from exc
             return None, DetectorFault(t_s=frame.t_s, reason=reason)
-        self.faults_in_a_row = 0
+        if self.unusable_in_a_row:
+            logger.info("model output usable again after %d frames", self.unusable_in_a_row)
+        self.faults_in_a_row = self.unusable_in_a_row = 0
         return keypoints, None
