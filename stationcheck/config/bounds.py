@@ -145,7 +145,7 @@ def _values(data: Any) -> Iterator[tuple[str, Location, float]]:
             field = key.removeprefix("steps[].")
             steps = data.get("steps")
             for index, step in enumerate(steps if isinstance(steps, list) else []):
-                value = step.get(field) if isinstance(step, dict) else None
+                value: Any = step.get(field) if isinstance(step, dict) else None
                 if _is_number(value):
                     yield key, ("steps", index, field), float(value)
             continue

@@ -169,7 +169,7 @@ def opened_first(opener: SourceOpener, name: str) -> SourceOpener:
         first = opener()
     except StationcheckError as exc:
         raise InputFileError(f"cannot open the frame source {name}: {first_line(exc)}") from exc
-    except Exception as exc:  # noqa: BLE001 - OpenCV and FFmpeg raise their own errors
+    except Exception as exc:  # OpenCV and FFmpeg raise their own errors
         raise InputFileError(f"cannot open the frame source {name}: {first_line(exc)}") from exc
     handed = [first]
 

@@ -52,8 +52,8 @@ DURATION_MS: dict[str, tuple[float, float]] = {
     "result_jump": (0.0, 0.0), "reset_during_run": (0.0, 0.0),
 }
 
-TRIGGER: dict[str, Trigger] = {kind: "enabled" for kind in KINDS} | {
-    "reset_during_run": "running"}
+TRIGGER: dict[str, Trigger] = {kind: ("running" if kind == "reset_during_run" else "enabled")
+                               for kind in KINDS}
 
 
 @dataclass(frozen=True)

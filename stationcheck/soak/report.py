@@ -87,12 +87,13 @@ class SoakReport:
         head = (f"{self.frames} frames in {self.wall_s:.1f} s ({self.fps:.0f} frames/s), "
                 f"keypoints: {self.keypoints}, seed {self.seed}; enabled in "
                 f"{self.enabled_frames} frames")
-        lines = [head, f"false enables: {self.false_enables}; enabled with the tip away in a "
-                       f"fault's window (before detectable + bound): "
-                       f"{self.enabled_in_fault_window} frames",
-                 f"fault-to-inhibit (ms, from the moment it became detectable, faults that found "
-                 f"the enable on; bound {self.bound_ms:.0f} ms):",
-                 f"  {'kind':<20}{'injected':>9}{'on':>5}{'p50':>8}{'p99':>8}{'max':>8}{'over':>6}"]
+        window = (f"false enables: {self.false_enables}; enabled with the tip away in a "
+                  f"fault's window (before detectable + bound): "
+                  f"{self.enabled_in_fault_window} frames")
+        title = (f"fault-to-inhibit (ms, from the moment it became detectable, faults that "
+                 f"found the enable on; bound {self.bound_ms:.0f} ms):")
+        columns = f"  {'kind':<20}{'injected':>9}{'on':>5}{'p50':>8}{'p99':>8}{'max':>8}{'over':>6}"
+        lines = [head, window, title, columns]
         for kind, row in self.per_kind().items():
             figures = "".join(f"{row.get(key, float('nan')):>8.1f}"
                               for key in ("p50_ms", "p99_ms", "max_ms"))

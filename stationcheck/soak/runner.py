@@ -128,6 +128,9 @@ class Soak:
                 self.watching.ignored = True
         self._check_inhibit(out.t_s)
 
+    def on_stop(self, error: BaseException | None) -> None:
+        """Nothing to make safe: the soak writes nothing."""
+
     def _rework(self, serial: str) -> tuple[PositionRef, ...]:
         return self.failed.get(serial, ())
 
