@@ -48,6 +48,7 @@ CYCLE_S = 0.01  # the live loop checks its watchdogs this often without frames
 IMAGE_SIZE = (60, 80)  # the frozen-picture check's own size: nothing is lost by not rendering
 NOISE_SIGMA = 1.8  # the demo camera's sensor noise, grey levels
 LINK_KINDS = ("link_drop", "plc_freeze")
+SEAM_S = 1.0  # no frames where the looped footage starts again
 
 
 @dataclass
@@ -85,8 +86,8 @@ class Soak:
         self.detector = _Scripted()
         self.failed: dict[str, tuple[PositionRef, ...]] = {}
         self.decisions = DecisionCore(self.plan, sinks=[self], rework_lookup=self._rework)
-        self.path = FramePath(self.plan, self.detector, self.decisions,
-                              [TruthJudge(footage.truth, self.plan)])
+        self.judge = TruthJudge(footage.truth, self.plan)
+        self.path = FramePath(self.plan, self.detector, self.decisions, [self.judge])
         noise = np.random.default_rng(seed)
         base = noise.integers(40, 215, (*IMAGE_SIZE, 3)).astype(np.float32)
         self.bank = [np.clip(np.round(base + noise.normal(0, NOISE_SIGMA, base.shape)), 0, 255)
@@ -138,15 +139,16 @@ class Soak:
     def run(self, frames: int, progress: Callable[[int], None] | None = None) -> SoakReport:
         started = time.perf_counter()
         period_s = 1.0 / self.f.fps
-        loop_s = self.f.frame_count * period_s
+        loop_s = self.f.frame_count * period_s + SEAM_S
         inputs = sorted(self.f.inputs, key=lambda o: o.t_s)
         next_input, loop = 0, 0
         self._arm(0.0)
         for slot in range(frames):
-            t_s = slot * period_s
             source = slot % self.f.frame_count
             if source == 0 and slot > 0:
                 loop, next_input = loop + 1, 0
+                self._seam(loop * loop_s, period_s)
+            t_s = loop * loop_s + source * period_s
             while next_input < len(inputs) and inputs[next_input].t_s + loop * loop_s <= t_s + 1e-4:
                 self._station_input(replace(inputs[next_input],
                                             t_s=inputs[next_input].t_s + loop * loop_s))
@@ -160,6 +162,14 @@ class Soak:
         self.report.frames = frames
         self.report.wall_s = time.perf_counter() - started
         return self.report
+
+    def _seam(self, t_s: float, period_s: float) -> None:
+        """Where the footage starts again the tool would jump across the bench in one frame:
+        the camera gives no frame for ``SEAM_S`` instead (not judged, not a fault)."""
+        tick = self.last_frame_t_s + CYCLE_S
+        while tick < t_s - 1e-9:
+            self.decisions.apply(Tick(tick))
+            tick += CYCLE_S
 
     def _station_input(self, obs: Observation) -> None:
         kind = self.active.planned.kind if self.active is not None else ""
@@ -252,7 +262,8 @@ class Soak:
         if kind == "tool_running_stuck":
             self.injected.append(ToolRunning(t_s, self.running_input))
         if kind == "camera_moved" and active.record.detect_t_s is not None:
-            self.injected.append(CameraMoved(t_s + self.camera_detect_s, False, 0.0))
+            back = self.judge.moved  # the footage's own camera state is what returns
+            self.injected.append(CameraMoved(t_s + self.camera_detect_s, back, 0.0))
         active.record.ended = True
         self._arm(t_s)
 
