@@ -149,6 +149,8 @@ class Soak:
                 loop, next_input = loop + 1, 0
                 self._seam(loop * loop_s, period_s)
             t_s = loop * loop_s + source * period_s
+            if self.stalled:  # the loop's watchdog cycles until this slot, before its inputs
+                self._cycles(t_s - period_s, t_s)
             while next_input < len(inputs) and inputs[next_input].t_s + loop * loop_s <= t_s + 1e-4:
                 self._station_input(replace(inputs[next_input],
                                             t_s=inputs[next_input].t_s + loop * loop_s))
@@ -166,8 +168,12 @@ class Soak:
     def _seam(self, t_s: float, period_s: float) -> None:
         """Where the footage starts again the tool would jump across the bench in one frame:
         the camera gives no frame for ``SEAM_S`` instead (not judged, not a fault)."""
-        tick = self.last_frame_t_s + CYCLE_S
-        while tick < t_s - 1e-9:
+        self._cycles(self.last_frame_t_s, t_s)
+
+    def _cycles(self, from_t_s: float, to_t_s: float) -> None:
+        """Ticks every ``CYCLE_S`` after ``from_t_s`` and before ``to_t_s``."""
+        tick = from_t_s + CYCLE_S
+        while tick < to_t_s - 1e-9:
             self.decisions.apply(Tick(tick))
             tick += CYCLE_S
 
@@ -283,11 +289,8 @@ class Soak:
     # -- one frame slot
     def _slot(self, slot: int, source: int, t_s: float, period_s: float) -> None:
         kind = self.active.planned.kind if self.active is not None else ""
-        if kind == "stall" or self.stalled:  # the loop's cycles until a frame comes again
-            tick = t_s - period_s + CYCLE_S
-            while tick < t_s - 1e-9:
-                self.decisions.apply(Tick(tick))
-                tick += CYCLE_S
+        if kind == "stall" and not self.stalled:  # from the last frame on
+            self._cycles(t_s - period_s, t_s)
         self.stalled = kind == "stall"
         if self.stalled:
             self.decisions.apply(Tick(t_s))
