@@ -34,6 +34,7 @@ COMMAND_MODULES = (
     "eval",
     "train",
     "bench",
+    "soak",
     "render",
     "teach",
     "alarms",

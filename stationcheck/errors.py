@@ -44,6 +44,11 @@ class ModelError(StationcheckError):
     exit_code = 4
 
 
+class ModelOutputError(ModelError):
+    """A loaded model gave unusable output on one frame (NaN, infinite or all zero): that frame
+    inhibits the tool with an alarm and the run goes on."""
+
+
 class SignalLinkError(StationcheckError):
     """The PLC link is down, frozen or answered wrongly."""
 

@@ -27,6 +27,7 @@ from pydantic import (
 )
 from pydantic_core import PydanticCustomError
 
+from stationcheck.config.bounds import hard
 from stationcheck.config.wording import describe_value
 from stationcheck.core import bolt_pattern
 from stationcheck.core.plan import (
@@ -135,14 +136,19 @@ class CameraSection(_Section):
 class ModelSection(_Section):
     path: ModelPath = BUNDLED_MODEL
     threads: Whole = Field(default=1, ge=1, le=64)
-    min_score: Number = Field(default=Thresholds.min_score, ge=0, le=1)
+    min_score: Annotated[Number, hard("model.min_score")] = Thresholds.min_score
 
 
 class ThresholdsSection(_Section):
-    dwell_ms: Number = Field(default=Thresholds.dwell_ms, ge=0)
-    lost_track_grace_ms: Number = Field(default=Thresholds.lost_track_grace_ms, ge=0)
-    hysteresis_px: Number = Field(default=Thresholds.hysteresis_px, ge=0)
-    stale_frame_ms: Number = Field(default=Thresholds.stale_frame_ms, gt=0)
+    """Hard and sane ranges with their reasons: :mod:`stationcheck.config.bounds`."""
+
+    dwell_ms: Annotated[Number, hard("thresholds.dwell_ms")] = Thresholds.dwell_ms
+    lost_track_grace_ms: Annotated[Number, hard("thresholds.lost_track_grace_ms")] = (
+        Thresholds.lost_track_grace_ms)
+    hysteresis_px: Annotated[Number, hard("thresholds.hysteresis_px")] = Thresholds.hysteresis_px
+    stale_frame_ms: Annotated[Number, hard("thresholds.stale_frame_ms")] = (
+        Thresholds.stale_frame_ms)
+    max_run_ms: Annotated[Number, hard("thresholds.max_run_ms")] = Thresholds.max_run_ms
 
 
 class PolygonZone(_Section):
@@ -228,6 +234,7 @@ class FastenSection(_Section):
     on_failure: Literal["continue", "stop_unit"] = "continue"
     torque_nm: LimitsSection | None = None
     angle_deg: LimitsSection | None = None
+    max_run_ms: Annotated[Number, hard("steps[].max_run_ms")] | None = None
 
     def tightening_order(self) -> list[str]:
         """Zones in the order they are tightened (``cross``: zones listed as bolts 1..N)."""
@@ -243,6 +250,7 @@ class FastenSection(_Section):
             on_failure=self.on_failure,
             torque_nm=self.torque_nm.to_limits() if self.torque_nm else None,
             angle_deg=self.angle_deg.to_limits() if self.angle_deg else None,
+            max_run_ms=self.max_run_ms,
         )
 
 
@@ -250,7 +258,7 @@ class PickSection(_Section):
     id: Ident
     kind: Literal["pick"]
     zone: Ident
-    min_time_ms: Number = Field(default=300.0, ge=0)
+    min_time_ms: Annotated[Number, hard("steps[].min_time_ms")] = 300.0
 
     def to_step(self) -> PickStep:
         return PickStep(id=self.id, zone=self.zone, min_time_ms=self.min_time_ms)
@@ -292,7 +300,7 @@ class PlcSection(_Section):
     host: Text = "127.0.0.1"
     port: Whole = Field(default=502, ge=1, le=65535)
     device_id: Whole = Field(default=1, ge=0, le=247)
-    timeout_ms: Number = Field(default=50.0, gt=0)
+    timeout_ms: Annotated[Number, hard("plc.timeout_ms")] = 50.0
     retries: Whole = Field(default=0, ge=0, le=10)
     address_map: dict[Ident, AddressEntry] = Field(default_factory=dict)
     # PLC link session (stationcheck.plc.session): the PLC's liveness counter must change
@@ -319,21 +327,25 @@ class LogSection(_Section):
 class BinActivitySection(_Section):
     changed_fraction: Number = Field(
         default=judgement_defaults.BinActivitySettings.changed_fraction, gt=0, le=1)
-    settle_ms: Number = Field(default=judgement_defaults.BinActivitySettings.settle_ms, ge=0)
-    release_ms: Number = Field(default=judgement_defaults.BinActivitySettings.release_ms, ge=0)
+    settle_ms: Annotated[Number, hard("judgements.bin_activity.settle_ms")] = (
+        judgement_defaults.BinActivitySettings.settle_ms)
+    release_ms: Annotated[Number, hard("judgements.bin_activity.release_ms")] = (
+        judgement_defaults.BinActivitySettings.release_ms)
 
 
 class PresenceSection(_Section):
     min_match: Number = Field(default=judgement_defaults.PresenceSettings.min_match, ge=0, le=1)
     min_margin: Number = Field(default=judgement_defaults.PresenceSettings.min_margin, ge=0, le=2)
-    confirm_ms: Number = Field(default=judgement_defaults.PresenceSettings.confirm_ms, ge=0)
+    confirm_ms: Annotated[Number, hard("judgements.presence.confirm_ms")] = (
+        judgement_defaults.PresenceSettings.confirm_ms)
     search_px: Whole = Field(default=judgement_defaults.PresenceSettings.search_px, ge=0, le=32)
 
 
 class CameraShiftSection(_Section):
     tolerance_px: Number = Field(
         default=judgement_defaults.CameraShiftSettings.tolerance_px, ge=0.5)
-    interval_ms: Number = Field(default=judgement_defaults.CameraShiftSettings.interval_ms, ge=0)
+    interval_ms: Annotated[Number, hard("judgements.camera_shift.interval_ms")] = (
+        judgement_defaults.CameraShiftSettings.interval_ms)
     confirm_checks: Whole = Field(
         default=judgement_defaults.CameraShiftSettings.confirm_checks, ge=1, le=20)
 
@@ -415,6 +427,7 @@ class StationConfig(_Section):
             lost_track_grace_ms=self.thresholds.lost_track_grace_ms,
             hysteresis_px=self.thresholds.hysteresis_px,
             stale_frame_ms=self.thresholds.stale_frame_ms,
+            max_run_ms=self.thresholds.max_run_ms,
         )
         steps: list[Step] = [step.to_step() for step in self.steps]
         return StationPlan(zones=tuple(self.zone_specs()), steps=tuple(steps),

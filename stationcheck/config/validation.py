@@ -8,6 +8,7 @@ from typing import Any
 
 from pydantic import ValidationError
 
+from stationcheck.config.bounds import lint_bounds
 from stationcheck.config.document import YamlDocument, read_yaml_file
 from stationcheck.config.findings import CheckResult, Finding, sort_findings
 from stationcheck.config.geometry_lint import lint_geometry
@@ -49,6 +50,7 @@ def check_document(document: YamlDocument, base_dir: Path, source: str) -> Check
             Finding("error", plain.path, plain.message)
             for plain in plain_errors(StationConfig, exc.errors(include_url=False))
         ]
+    findings += lint_bounds(document.data)
     parts = parts_of_data(document.data)
     findings += lint_geometry(parts)
     findings += lint_references(parts)

@@ -61,6 +61,14 @@ ALARMS: dict[str, AlarmInfo] = {
                                     "check the tightening controller's result mapping"),
     "check_failed": AlarmInfo(17, "alarm", False, "a check was acknowledged without passing",
                               "the unit is not released; send it to rework"),
+    "run_too_long": AlarmInfo(18, "alarm", True, "a tightening ran past its run-time limit",
+                              "the position is marked NOK; check the tool and the joint, then rework"),
+    "image_frozen": AlarmInfo(19, "alarm", True, "the camera picture stopped changing",
+                              "check the camera, its cable and the capture device"),
+    "result_of_cut_run": AlarmInfo(20, "warning", False, "a result for a run whose enable was cut",
+                                   "the result is flagged; inspect that position"),
+    "tip_left_during_run": AlarmInfo(21, "alarm", False, "the tool ran away from its position",
+                                     "keep the tool on the fastener until the run ends"),
     "plc_session_restart": AlarmInfo(
         30, "alarm", False,
         "the PLC's unit or result counter went backwards or to 0, or its liveness counter "

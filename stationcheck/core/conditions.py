@@ -2,11 +2,19 @@
 
 Enable (fail towards inhibit) is on only when, in this order:
 1. the PLC link is up and a fasten step has a target position; then
-2. a tightening granted at that position is running (kept on through vision faults and tip
-   wobble so a tightening is never cut in half; ends at the result or when the tool stops), or
-3. no camera move, no detector fault, a fresh frame, a visible tip that has arrived (dwelled) in
-   the target zone, and no hold after a reset or a result (the tip dwells again from then:
-   ``reset_hold`` / ``new_attempt_dwell``).
+2. no fault: no camera move, no detector fault, a fresh frame whose picture still changes, a
+   visible tip (an occlusion shorter than ``lost_track_grace_ms`` is not a loss); then
+3. a tightening granted at that position is running, within its run-time limit and with the tip
+   still in the target zone (hysteresis absorbs the tool's reaction wobble), or
+4. the tip has arrived (dwelled) in the target zone, no hold after a reset or a result is on
+   (the tip dwells again from then: ``reset_hold`` / ``new_attempt_dwell``), and, to turn the
+   enable on, the tip was measured in this frame (a tip held through the lost-track grace keeps
+   an enable but never grants one).
+
+A fault or a leaving tip during a running tightening drops the enable at once and ends that
+run's grant (``run_cut``): while the tool goes on running without a grant (cut, past its limit,
+or started while inhibited) the enable stays off until it stops. The result that follows a cut
+run still counts (the controller's verdict; usually NOK) and is flagged.
 """
 
 from __future__ import annotations
@@ -29,6 +37,26 @@ def frame_is_fresh(state: SequencerState, index: PlanIndex) -> bool:
         return False
     age_ms = max(elapsed_ms(tool.last_frame_t_s, now), tool.frame_age_ms)
     return not exceeded(age_ms, index.stale_frame_ms)
+
+
+def image_is_frozen(state: SequencerState, index: PlanIndex) -> bool:
+    return reached(state.tool.frozen_ms, index.stale_frame_ms)
+
+
+def run_limit_ms(tx: Transaction) -> float:
+    step = tx.fasten_step()
+    if step is not None and step.max_run_ms is not None:
+        return step.max_run_ms
+    return tx.index.max_run_ms
+
+
+def check_run_time(tx: Transaction) -> None:
+    """A granted run past its limit loses its grant (a stuck tool_running, a welded contactor)."""
+    control, target = tx.state.control, tx.target()
+    if target is None or control.running_for != target.ref or control.run_started_t_s is None:
+        return
+    if exceeded(elapsed_ms(control.run_started_t_s, tx.now_t_s), run_limit_ms(tx)):
+        tx.set_control(running_for=None, run_cut="run_too_long")
 
 
 def complete_pick_if_due(tx: Transaction) -> None:
@@ -57,7 +85,21 @@ def _station_conditions(tx: Transaction) -> list[tuple[ActiveAlarm, Details]]:
         found.append((ActiveAlarm("detector_fault"), {"message": message}))
     if state.tool.last_frame_t_s is not None and not frame_is_fresh(state, tx.index):
         found.append((ActiveAlarm("frame_stale"), {"message": "no fresh camera frame"}))
+    elif image_is_frozen(state, tx.index):
+        message = f"the camera picture has not changed for {state.tool.frozen_ms:.0f} ms"
+        found.append((ActiveAlarm("image_frozen"), {"message": message}))
+    control = state.control
+    if control.running and control.run_cut == "run_too_long":
+        found.append(_run_too_long(tx))
     return found
+
+
+def _run_too_long(tx: Transaction) -> tuple[ActiveAlarm, Details]:
+    target = tx.target()
+    zone = target.ref.zone if target is not None else ""
+    where = tx.index.label(zone) if zone else "the position"
+    message = f"the tool ran longer than {run_limit_ms(tx):.0f} ms at {where}; enable dropped"
+    return ActiveAlarm("run_too_long", zone), {"message": message, "zone": zone}
 
 
 def _unit_conditions(tx: Transaction) -> list[tuple[ActiveAlarm, Details]]:
@@ -125,6 +167,23 @@ def update_alarms(tx: Transaction) -> None:
     tx.set(alarms=tuple(active))
 
 
+def _fault(tx: Transaction) -> str | None:
+    """The first station fault that forbids the enable, running tightening or not."""
+    state = tx.state
+    health = state.health
+    if health.camera_moved:
+        return "camera_moved"
+    if health.detector_fault is not None:
+        return "detector_fault"
+    if not frame_is_fresh(state, tx.index):
+        return "frame_stale"
+    if image_is_frozen(state, tx.index):
+        return "image_frozen"
+    if not state.tool.visible:
+        return "tool_not_visible"
+    return None
+
+
 def decide_enable(tx: Transaction) -> tuple[bool, str]:
     """(enable, reason); the reason names the first rule that decided."""
     state, target = tx.state, tx.target()
@@ -135,27 +194,41 @@ def decide_enable(tx: Transaction) -> tuple[bool, str]:
         return False, "no_unit"
     if target is None:
         return False, f"{tx.phase}_step"
+    fault = _fault(tx)
+    if fault is not None:
+        return False, fault
     if control.running_for == target.ref:
+        if tool.zone != target.ref.zone:
+            return False, "tip_left_during_run"
         return True, "tightening_running"
-    if health.camera_moved:
-        return False, "camera_moved"
-    if health.detector_fault is not None:
-        return False, "detector_fault"
-    if not frame_is_fresh(state, tx.index):
-        return False, "frame_stale"
-    if not tool.visible:
-        return False, "tool_not_visible"
     if tool.arrived_zone != target.ref.zone:
         return False, "dwelling" if tool.zone == target.ref.zone else "tip_not_at_target"
     hold_off = control.hold_off_until_t_s
     if hold_off is not None and exceeded(elapsed_ms(tx.now_t_s, hold_off), 0.0):
         return False, control.hold_off_reason
+    if control.running:
+        return False, control.run_cut or "wait_tool_stop"
+    if not control.enabled and not tool.seen:
+        return False, "tip_not_seen"  # the grace keeps an enable, it never grants one
     return True, "tip_at_target"
+
+
+def _cut_run(tx: Transaction, reason: str) -> None:
+    """The enable dropped during a granted run: the grant ends, the tool must stop first."""
+    target = tx.target()
+    tx.set_control(running_for=None, run_cut=reason)
+    if reason == "tip_left_during_run" and target is not None:
+        where = tx.index.label(target.ref.zone)
+        tx.alarm("tip_left_during_run", subject=target.ref.zone,
+                 message=f"the tip left {where} while the tool ran; enable dropped")
 
 
 def update_enable(tx: Transaction) -> None:
     enabled, reason = decide_enable(tx)
     control, target = tx.state.control, tx.target()
+    if not enabled and target is not None and control.running_for == target.ref:
+        _cut_run(tx, reason)
+        control = tx.state.control
     if enabled and target is not None and control.enabled_for != target.ref:
         tx.set_control(enabled_for=target.ref, attempt_started_t_s=tx.now_t_s)
     if enabled != control.enabled:
@@ -170,5 +243,6 @@ def update_enable(tx: Transaction) -> None:
 
 def settle(tx: Transaction) -> None:
     complete_pick_if_due(tx)
+    check_run_time(tx)
     update_alarms(tx)
     update_enable(tx)

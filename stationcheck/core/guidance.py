@@ -14,6 +14,8 @@ BLOCKING_WORDS = {
     "camera_moved": "the camera has moved; call setup to check it",
     "detector_fault": "tool detection failed",
     "frame_stale": "no fresh camera image",
+    "image_frozen": "the camera picture is frozen",
+    "run_too_long": "the tool ran too long; let go of the trigger",
 }
 
 

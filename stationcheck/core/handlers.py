@@ -169,7 +169,15 @@ def take_result(tx: Transaction, obs: TighteningResult) -> None:
         sequence=obs.sequence,
         started_t_s=control.attempt_started_t_s,
         ended_t_s=tx.now_t_s,
+        **({"run_cut": control.run_cut} if control.run_cut else {}),
     )
+    if control.run_cut:
+        tx.alarm(
+            "result_of_cut_run",
+            subject=target.ref.zone,
+            message=f"result for {tx.index.label(target.ref.zone)} after its enable was cut "
+                    f"({control.run_cut}); check the fastener",
+        )
     if obs.ok and not within:
         tx.alarm(
             "result_outside_limits",
@@ -184,6 +192,7 @@ def take_result(tx: Transaction, obs: TighteningResult) -> None:
         credit_for=None,
         result_status="accepted",
         attempt_started_t_s=None,
+        run_cut="",
         hold_off_until_t_s=tx.now_t_s + tx.index.dwell_ms / 1000.0,
         hold_off_reason="new_attempt_dwell",
     )
@@ -205,7 +214,7 @@ def note_running(tx: Transaction, obs: ToolRunning) -> None:
     if obs.on == control.running:
         return
     if not obs.on:
-        tx.set_control(running=False, running_for=None)
+        tx.set_control(running=False, running_for=None, run_started_t_s=None)
         tx.emit("run_stopped", awaiting_result=control.result_pending)
         return
     if control.result_pending:
@@ -221,10 +230,13 @@ def note_running(tx: Transaction, obs: ToolRunning) -> None:
             result_pending=True,
             credit_for=target.ref,
             attempt_started_t_s=tx.now_t_s,
+            run_started_t_s=tx.now_t_s,
+            run_cut="",
         )
         tx.emit("run_started", step=target.ref.step, zone=target.ref.zone, position=target.number)
         return
-    tx.set_control(running=True, result_pending=False, credit_for=None)
+    tx.set_control(running=True, result_pending=False, credit_for=None,
+                   run_started_t_s=tx.now_t_s)
     tx.alarm(
         "ran_while_inhibited",
         subject="",
@@ -238,7 +250,9 @@ def note_zone(tx: Transaction, obs: ZoneObservation) -> None:
     tx.set_tool(
         last_frame_t_s=obs.t_s if last is None else max(last, obs.t_s),
         frame_age_ms=obs.frame_age_ms,
+        frozen_ms=obs.frozen_ms,
         visible=obs.visible,
+        seen=obs.visible and obs.seen,
         seen_once=tx.state.tool.seen_once or obs.visible,
         zone=obs.zone if known else None,
         arrived_zone=obs.arrived_zone if known else None,

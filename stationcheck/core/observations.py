@@ -67,6 +67,9 @@ class ZoneObservation(ObservationBase):
 
     ``since_t_s`` is when the tip entered ``zone``; with the zone it names one visit.
     ``frame_age_ms`` is how old the frame was when it was judged (0 when unknown, e.g. replay).
+    ``frozen_ms`` is how long the picture has shown no change beyond the camera's noise (0 when
+    it changed, or when nobody measured it). ``seen`` is False while the tracker holds an
+    unseen tip through its lost-track grace: such a frame may keep an enable, never grant one.
     """
 
     kind: ClassVar[str] = "zone"
@@ -78,14 +81,18 @@ class ZoneObservation(ObservationBase):
     visible: bool
     tip_px: tuple[float, float] | None = None
     frame_age_ms: float = 0.0
+    frozen_ms: float = 0.0
+    seen: bool = True  # the tip was measured in this frame (False: held through the grace)
 
     def __post_init__(self) -> None:
         super().__post_init__()
         if self.frame_index < 0:
             raise ValueError(f"ZoneObservation.frame_index must be >= 0, got {self.frame_index}")
         require_bool("ZoneObservation", "visible", self.visible)
+        require_bool("ZoneObservation", "seen", self.seen)
         require_at_least("ZoneObservation", "dwell_ms", self.dwell_ms, 0.0)
         require_at_least("ZoneObservation", "frame_age_ms", self.frame_age_ms, 0.0)
+        require_at_least("ZoneObservation", "frozen_ms", self.frozen_ms, 0.0)
         require_point("ZoneObservation", "tip_px", self.tip_px)
         if self.zone is not None and not self.visible:
             raise ValueError(

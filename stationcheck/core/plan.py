@@ -47,6 +47,7 @@ class FastenStep:
     on_failure: FailurePolicy = "continue"
     torque_nm: Limits | None = None
     angle_deg: Limits | None = None
+    max_run_ms: float | None = None  # None: the station's thresholds.max_run_ms
     kind: Literal["fasten"] = "fasten"
 
 
@@ -89,6 +90,7 @@ class Thresholds:
     lost_track_grace_ms: float = 300.0
     hysteresis_px: float = 4.0
     stale_frame_ms: float = 100.0
+    max_run_ms: float = 5000.0  # longest tightening run; past it the enable drops
 
 
 @dataclass(frozen=True)

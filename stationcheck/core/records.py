@@ -24,6 +24,7 @@ class Frame:
     index: int
     t_s: float
     image: npt.NDArray[np.uint8]  # H x W x 3, BGR (OpenCV order)
+    source_t_s: float | None = None  # the source's own timestamp, when it gives one
 
     def __post_init__(self) -> None:
         if self.index < 0:
@@ -85,7 +86,8 @@ class Keypoints:
 class ToolPose:
     """The tracker's belief about the tool in one frame.
 
-    ``tip_px``/``rear_px`` are smoothed positions; during the lost-track grace period they hold
+    ``tip_px``/``rear_px`` are smoothed positions (``measured_tip_px`` is the frame's own tip
+    when seen, which a zone is left by as soon as it is); during the lost-track grace period they hold
     the last smoothed position and ``visible`` stays true while ``seen`` is false. After the grace
     period ``visible`` is false and both positions are None.
     """
@@ -99,6 +101,7 @@ class ToolPose:
     score: float
     track_age_s: float = 0.0
     unseen_ms: float = 0.0
+    measured_tip_px: tuple[float, float] | None = None  # this frame's tip before smoothing
 
     def __post_init__(self) -> None:
         require_finite("ToolPose", "t_s", self.t_s)

@@ -17,7 +17,9 @@ class ToolView:
 
     last_frame_t_s: float | None = None
     frame_age_ms: float = 0.0
+    frozen_ms: float = 0.0  # the picture has not changed for this long
     visible: bool = False
+    seen: bool = False  # measured in the latest frame (not only held through the grace)
     seen_once: bool = False
     zone: str | None = None
     arrived_zone: str | None = None
@@ -51,6 +53,8 @@ class ToolControl:
     attempt_started_t_s: float | None = None
     running: bool = False
     running_for: PositionRef | None = None  # a tightening in progress here keeps enable on
+    run_started_t_s: float | None = None  # start of the run in progress, granted or not
+    run_cut: str = ""  # why the enable was cut during this attempt's run ("" = not cut)
     result_pending: bool = False
     credit_for: PositionRef | None = None  # the run now going started enabled at this position
     result_status: str = "none"  # the last result: "accepted" or "rejected_<reason>"

@@ -78,7 +78,8 @@ class Tracker:
             tip = None
         if tip is not None:
             state = self._follow(state, keypoints, tip, t_s)
-            return state, self._pose(state, keypoints, seen=True, score=tip.score)
+            pose = self._pose(state, keypoints, seen=True, score=tip.score)
+            return state, replace(pose, measured_tip_px=(tip.x_px, tip.y_px))
         grace_ms = self.settings.lost_track_grace_ms
         if (
             state.tip is not None

@@ -28,6 +28,7 @@ class PlanIndex:
         self._labels = {zone.id: zone.label for zone in plan.zones}
         self.stale_frame_ms = plan.thresholds.stale_frame_ms
         self.dwell_ms = plan.thresholds.dwell_ms
+        self.max_run_ms = plan.thresholds.max_run_ms
 
     def label(self, zone_id: str) -> str:
         return self._labels.get(zone_id) or zone_id

@@ -1,8 +1,9 @@
 """Which zone the tool tip is in, with hysteresis and dwell, from shapely geometry.
 
 Membership: a point on the boundary counts as inside (as OpenCV's ``pointPolygonTest`` >= 0).
-A tip enters a zone when inside it and leaves only when it is more than ``hysteresis_px`` outside;
-until then it stays in the zone it is in, even if it touches a neighbour. It has "arrived" once it
+A tip enters a zone when inside it and leaves once the smoothed tip or the frame's measured tip
+is more than ``hysteresis_px`` outside (the smoothing lags a tip that starts to move); until then
+it stays in the zone it is in, even if it touches a neighbour. It has "arrived" once it
 has stayed ``dwell_ms`` (measured on frame timestamps). Lookup goes through an STRtree over the
 zones, so many zones cost little. Overlapping zones are a config error; if they occur anyway the
 smallest zone containing the tip wins (ties: the first in the config), and nothing crashes.
@@ -110,7 +111,7 @@ class ZoneMap:
         if not pose.visible or pose.tip_px is None:
             state = ZoneVisit()
         else:
-            state = self._visit(state, pose.tip_px, pose.t_s)
+            state = self._visit(state, pose.tip_px, pose.t_s, pose.measured_tip_px)
         dwell_ms = 0.0
         if state.since_t_s is not None:
             dwell_ms = max(0.0, elapsed_ms(state.since_t_s, pose.t_s))
@@ -127,13 +128,20 @@ class ZoneMap:
             visible=pose.visible,
             tip_px=pose.tip_px,
             frame_age_ms=frame_age_ms,
+            seen=pose.seen,
         )
 
-    def _visit(self, state: ZoneVisit, tip_px: tuple[float, float], t_s: float) -> ZoneVisit:
+    def _visit(self, state: ZoneVisit, tip_px: tuple[float, float], t_s: float,
+               measured_px: tuple[float, float] | None = None) -> ZoneVisit:
+        """A visit goes on while the smoothed tip and this frame's measured tip (when seen)
+        are both within the hysteresis: the smoothing lags a tip that starts to move, and a
+        tip that truly left must not keep the enable for that lag."""
         if (
             state.zone is not None
             and state.zone in self._index
             and -self.signed_distance_px(state.zone, tip_px) <= self.hysteresis_px
+            and (measured_px is None
+                 or -self.signed_distance_px(state.zone, measured_px) <= self.hysteresis_px)
         ):
             return state
         inside = self.zones_at(tip_px)

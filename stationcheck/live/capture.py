@@ -1,7 +1,8 @@
 """Frames from a camera index or a stream URL, through OpenCV (FFmpeg backend for URLs).
 
 Each frame is stamped with the time it was read on the run's clock, since a live camera has no
-file time. Opening failures and a source that stops giving frames raise
+file time; the backend's own timestamp, when it gives one, goes along as ``source_t_s`` (a
+timestamp that stops advancing is a frozen source). Opening failures and a source that stops giving frames raise
 :class:`~stationcheck.errors.InputFileError`; the grabber retries them.
 """
 
@@ -45,7 +46,9 @@ class CaptureSource:
                 raise InputFileError(f"{self.name} stopped giving frames")
             if image.ndim == 2:
                 image = cv2.cvtColor(image, cv2.COLOR_GRAY2BGR)
-            yield Frame(index=index, t_s=self.clock(), image=np.ascontiguousarray(image))
+            stamp_ms = float(self._capture.get(cv2.CAP_PROP_POS_MSEC) or 0.0)
+            yield Frame(index=index, t_s=self.clock(), image=np.ascontiguousarray(image),
+                        source_t_s=stamp_ms / 1000.0 if stamp_ms > 0 else None)
             index += 1
 
     def close(self) -> None:

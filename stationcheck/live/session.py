@@ -13,6 +13,7 @@ from typing import Literal
 
 from stationcheck.config import StationConfig, load_config
 from stationcheck.core.observations import PositionRef
+from stationcheck.errors import InputFileError, StationcheckError, first_line
 from stationcheck.live.grabber import FrameGrabber, SourceOpener
 from stationcheck.live.loop import LiveLoop, LiveStats
 from stationcheck.live.watchdog import WatchdogLimits
@@ -20,6 +21,7 @@ from stationcheck.plc.address_map import address_map_from
 from stationcheck.plc.link import ConsoleLink, SignalLink
 from stationcheck.plc.session import SessionSettings
 from stationcheck.plc.worker import LinkWorker, WorkerSettings
+from stationcheck.sources.frame_source import FrameSource
 
 logger = logging.getLogger(__name__)
 
@@ -124,6 +126,7 @@ def run_live(settings: LiveSettings, should_stop: Callable[[], bool] = lambda: F
         return time.perf_counter() - started
 
     opener, is_file, source_name = source_opener(config, settings, clock)
+    opener = opened_first(opener, source_name)
     log_path = settings.log_path or config.resolve(config.log.path)
     with ExitStack() as stack:
         detector = load_detector(settings.model_path or config.model_path,
@@ -160,4 +163,25 @@ def run_live(settings: LiveSettings, should_stop: Callable[[], bool] = lambda: F
         if on_ready is not None:
             on_ready(loop)
         logger.info("live run: %s, link %s, log %s", source_name, link.name, log_path)
-        return loop.run(should_stop)
+        stats = loop.run(should_stop)
+        if stats.frames == 0 and grabber.last_error:
+            raise InputFileError(f"{source_name}: no frame could be read ({grabber.last_error})")
+        return stats
+
+
+def opened_first(opener: SourceOpener, name: str) -> SourceOpener:
+    """Opens the source once now, so a source that cannot be opened at start-up ends the run
+    with one line (exit 3) instead of a retrying grabber; the grabber gets that opened source
+    first and re-opens through ``opener`` after a failure."""
+    try:
+        first = opener()
+    except StationcheckError as exc:
+        raise InputFileError(f"cannot open the frame source {name}: {first_line(exc)}") from exc
+    except Exception as exc:  # OpenCV and FFmpeg raise their own errors
+        raise InputFileError(f"cannot open the frame source {name}: {first_line(exc)}") from exc
+    handed = [first]
+
+    def reopen() -> FrameSource:
+        return handed.pop() if handed else opener()
+
+    return reopen

@@ -19,8 +19,11 @@ observation to a :class:`~stationcheck.pipeline.decisions.DecisionCore`. It does
 frames come from or where outputs go.
 
 A detector that raises on a frame becomes a ``DetectorFault`` observation (the tool is
-inhibited); after ``max_detector_faults`` failures in a row the path gives up with a
-:class:`~stationcheck.errors.ModelError`.
+inhibited); after ``max_detector_faults`` unexpected failures in a row the path gives up with a
+:class:`~stationcheck.errors.ModelError`. Unusable model output (NaN, infinite, all zero) is a
+``DetectorFault`` on every frame it happens and never ends the run. Each frame's picture is also
+compared with the last one (:mod:`~stationcheck.vision.frozen_image`): how long it has not
+changed goes to the sequencer as the zone observation's ``frozen_ms``.
 """
 
 from __future__ import annotations
@@ -29,7 +32,7 @@ import logging
 import time
 from collections.abc import Callable, Sequence
 from concurrent.futures import Future, ThreadPoolExecutor
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 from stationcheck.core.observations import DetectorFault, Observation, ZoneObservation
 from stationcheck.core.outputs import Output
@@ -37,10 +40,11 @@ from stationcheck.core.plan import StationPlan
 from stationcheck.core.records import Frame, Keypoints, ToolPose
 from stationcheck.core.tracker import Tracker, TrackerSettings, TrackerState
 from stationcheck.core.zones import ZoneMap, ZoneVisit
-from stationcheck.errors import ModelError, StationcheckError
+from stationcheck.errors import ModelError, ModelOutputError, StationcheckError
 from stationcheck.pipeline.decisions import DecisionCore, DecisionStep
 from stationcheck.pipeline.judging import ImageJudge
 from stationcheck.vision.detector import KeypointDetector
+from stationcheck.vision.frozen_image import FrozenImageWatch
 
 logger = logging.getLogger(__name__)
 
@@ -114,10 +118,12 @@ class FramePath:
         self.visit: ZoneVisit = self.zone_map.initial_state()
         self.max_detector_faults = max_detector_faults
         self.faults_in_a_row = 0
+        self.unusable_in_a_row = 0
         self.last_pose: ToolPose | None = None
         self.on_decided: Callable[[Output], None] | None = None
         self._pending: _Pending | None = None
         self._executor: ThreadPoolExecutor | None = None
+        self.frozen_image = FrozenImageWatch()
 
     def process(self, frame: Frame, frame_age_ms: float = 0.0) -> FrameResult:
         """One frame from start to end, judgements included, on the caller's thread."""
@@ -137,6 +143,9 @@ class FramePath:
             keypoints_for_tracker = keypoints
         self.tracker_state, pose = self.tracker.update(self.tracker_state, keypoints_for_tracker)
         self.visit, zone_obs = self.zone_map.observe(self.visit, pose, frame_age_ms)
+        frozen_ms = self.frozen_image.see(frame, frame.source_t_s)
+        if frozen_ms > 0.0:
+            zone_obs = replace(zone_obs, frozen_ms=frozen_ms)
         self.last_pose = pose
         t2 = time.perf_counter()
         return Sighting(frame, keypoints, fault, pose, zone_obs,
@@ -207,6 +216,11 @@ class FramePath:
         hint = self.last_pose.tip_px if self.last_pose is not None else None
         try:
             keypoints = self.detector.detect(frame, hint)
+        except ModelOutputError as exc:
+            if self.unusable_in_a_row == 0:
+                logger.warning("frame %d: %s; tool inhibited", frame.index, exc)
+            self.unusable_in_a_row += 1
+            return None, DetectorFault(t_s=frame.t_s, reason=str(exc)[:200])
         except StationcheckError:
             raise
         except Exception as exc:
@@ -219,5 +233,7 @@ class FramePath:
                     f"(last at frame {frame.index}: {reason})"
                 ) from exc
             return None, DetectorFault(t_s=frame.t_s, reason=reason)
-        self.faults_in_a_row = 0
+        if self.unusable_in_a_row:
+            logger.info("model output usable again after %d frames", self.unusable_in_a_row)
+        self.faults_in_a_row = self.unusable_in_a_row = 0
         return keypoints, None

@@ -27,8 +27,11 @@ ALARM_WORDS: dict[str, tuple[Meaning, str]] = {
     "tool_lost": ("abnormal", "Tool not seen: bring it back into view"),
     "wrong_position": ("abnormal", "Wrong position"),
     "wrong_bin": ("abnormal", "Wrong bin"),
+    "image_frozen": ("fault", "Camera picture frozen"),
+    "run_too_long": ("fault", "Tool ran too long: enable dropped"),
 }
-FAULT_REASONS = {"camera_moved", "detector_fault", "frame_stale", "link_lost"}
+FAULT_REASONS = {"camera_moved", "detector_fault", "frame_stale", "link_lost", "image_frozen",
+                 "run_too_long"}
 REASON_WORDS = {
     "no_unit": "no unit open",
     "link_lost": "PLC link lost",
@@ -45,6 +48,11 @@ REASON_WORDS = {
     "confirm_step": "acknowledge first",
     "tip_at_target": "tip at the target",
     "tightening_running": "tightening running",
+    "image_frozen": "camera picture frozen",
+    "run_too_long": "the tool ran too long",
+    "tip_left_during_run": "the tip left the position while the tool ran",
+    "wait_tool_stop": "let go of the trigger: the tool must stop first",
+    "tip_not_seen": "hold the tool still at the position",
 }
 GUIDANCE_MEANING: dict[str, Meaning] = {
     "wait_for_unit": "neutral",

@@ -96,6 +96,11 @@ class TruthJudge:
         self._moved = False
         self._verdicts: dict[str, Verdict] = {}
 
+    @property
+    def moved(self) -> bool:
+        """Whether the camera is moved, as this judge last said."""
+        return self._moved
+
     def judge(self, frame: Frame, pose: ToolPose, output: Output | None) -> list[Observation]:
         row = self.table.row(frame.index)
         found: list[Observation] = []

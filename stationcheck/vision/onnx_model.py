@@ -9,7 +9,7 @@ import numpy as np
 import numpy.typing as npt
 import onnxruntime as ort
 
-from stationcheck.errors import ModelError, first_line
+from stationcheck.errors import ModelError, ModelOutputError, first_line
 from stationcheck.vision.model_contract import ModelInfo, parse_metadata
 
 logger = logging.getLogger(__name__)
@@ -101,7 +101,9 @@ class KeypointModel:
                 f"metadata (expected {self.expected_output_shape})"
             )
         if not np.isfinite(out).all():
-            raise ModelError(f"{self.path}: the model produced NaN or infinite output")
+            raise ModelOutputError(f"{self.path.name}: the model produced NaN or infinite output")
+        if not out.any():
+            raise ModelOutputError(f"{self.path.name}: the model produced all-zero output")
         return np.asarray(out[0], dtype=np.float32)
 
 

@@ -73,7 +73,7 @@ def test_warnings_alone_exit_0(
     path = write_yaml(data)
     code, out, _ = run_check([str(path)], capsys)
     assert code == 0
-    assert out.splitlines()[-1] == f"{path}: OK with warnings: 0 errors, 1 warning"
+    assert out.splitlines()[-1] == f"{path}: OK with warnings: 0 errors, 2 warnings"
 
 
 @pytest.mark.parametrize(

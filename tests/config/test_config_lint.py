@@ -33,8 +33,9 @@ GEOMETRY: list[Any] = [
                  id="check zone over a fastener"),
     pytest.param([("zones[0].polygon", sq(100, 100, 17))], [],
                  id="inscribed radius above twice the hysteresis"),
-    pytest.param([("thresholds.hysteresis_px", 0), ("zones[0].polygon", sq(100, 100, 2))], [],
-                 id="no hysteresis, tiny zone"),
+    pytest.param([("thresholds.hysteresis_px", 0), ("zones[0].polygon", sq(100, 100, 2))], [
+        ("warning", "thresholds.hysteresis_px", "0 px is below the usual 1 px")],
+        id="no hysteresis, tiny zone"),
     pytest.param([("zones[0].polygon", [[100, 100], [130, 130], [130, 100], [100, 130]])], [
         ("error", "zones[0].polygon", ("zone 'screw_a' has an outline that crosses itself near "
          "(115, 115); list the points in order around the zone"))], id="bow tie"),
@@ -129,17 +130,23 @@ REFERENCES: list[Any] = [
         id="zone with bad points is still known to its step"),
     pytest.param([("thresholds.stale_frame_ms", 30)], [
         ("error", "thresholds.stale_frame_ms", ("30 ms is not longer than one frame (one frame at "
-         "30 fps is 33.3 ms); every frame would count as stale"))], id="stale within a frame"),
+         "30 fps is 33.3 ms); every frame would count as stale")),
+        ("warning", "thresholds.stale_frame_ms", "30 ms is below the usual 60 ms")],
+        id="stale within a frame"),
     pytest.param([("thresholds.dwell_ms", 20), ("thresholds.lost_track_grace_ms", 10)], [
         ("warning", "thresholds.dwell_ms", "20 ms is shorter than one frame"),
         ("warning", "thresholds.lost_track_grace_ms", "10 ms is shorter than one frame")],
         id="timing below a frame"),
-    pytest.param([("thresholds.dwell_ms", 0)], [], id="no dwell"),
-    pytest.param([("camera.fps", 5), ("thresholds.stale_frame_ms", 250)], [],
-                 id="slow camera, dwell of one frame"),
+    pytest.param([("thresholds.dwell_ms", 0)], [
+        ("warning", "thresholds.dwell_ms", "0 ms is below the usual 100 ms: a tip passing")],
+        id="no dwell"),
+    pytest.param([("camera.fps", 5), ("thresholds.stale_frame_ms", 250)], [
+        ("warning", "thresholds.stale_frame_ms", "250 ms is above the usual 200 ms")],
+        id="slow camera, dwell of one frame"),
     pytest.param([("thresholds.stale_frame_ms", 30), ("thresholds.typo", 1)], [
         ("error", "thresholds.typo", "unknown key 'typo'"),
-        ("error", "thresholds.stale_frame_ms", "is not longer than one frame")],
+        ("error", "thresholds.stale_frame_ms", "is not longer than one frame"),
+        ("warning", "thresholds.stale_frame_ms", "is below the usual")],
         id="section with a schema error is still linted"),
     # the same check as run's (stationcheck.plc.address_map.address_map_findings)
     pytest.param([("plc.address_map", {

@@ -84,11 +84,11 @@ BAD: list[Any] = [
         ("error", "model.path", "expected 'bundled' or the path of an .onnx file; got 'tool.pt'")],
         id="model not onnx"),
     pytest.param([("model", {"min_score": 1.5})], [
-        ("error", "model.min_score", "must be at most 1, got 1.5")], id="score above 1"),
+        ("error", "model.min_score", "1.5 is above the allowed 0.99: the calibrated score")], id="score above 1"),
     pytest.param([("model", {"threads": 0})], [
         ("error", "model.threads", "must be at least 1, got 0")], id="zero threads"),
     pytest.param([("thresholds.dwell_ms", -1)], [
-        ("error", "thresholds.dwell_ms", "must be at least 0, got -1")], id="negative dwell"),
+        ("error", "thresholds.dwell_ms", "-1 ms is below the allowed 0 ms")], id="negative dwell"),
     pytest.param([("thresholds.hysteresis_px", "4px")], [
         ("error", "thresholds.hysteresis_px", "expected a number, got the text '4px'")],
         id="unit in a number"),
@@ -154,7 +154,8 @@ BAD: list[Any] = [
         ("error", "steps[0].zones", "unknown key 'zones'; did you mean 'zone'?")],
         id="pick with a zone list"),
     pytest.param([("steps[0].min_time_ms", -5)], [
-        ("error", "steps[0].min_time_ms", "must be at least 0, got -5")], id="negative pick time"),
+        ("error", "steps[0].min_time_ms", "-5 ms is below the allowed 0 ms")],
+        id="negative pick time"),
     pytest.param([("steps[2].expect", "maybe")], [
         ("error", "steps[2].expect", "expected 'present' or 'absent', got the text 'maybe'")],
         id="unknown expectation"),

@@ -90,12 +90,17 @@ def test_a_second_run_without_a_result_for_the_first_warns(fasten_only: Any) -> 
     assert run.last.tool_enabled
 
 
-def test_stale_frame_while_running_keeps_the_tightening_whole(fasten_only: Any) -> None:
+def test_stale_frame_while_running_cuts_the_tightening_and_flags_its_result(
+    fasten_only: Any,
+) -> None:
     sc = fasten_only().unit("U-1").arrive("s1").running(True).stale().gap(400).mark("stale")
-    run = sc.result(ok=True).running(False).run()
-    assert run.at("stale").tool_enabled
+    run = sc.result(ok=False).running(False).run()
+    assert not run.at("stale").tool_enabled
+    assert run.at("stale").enable_reason == "frame_stale"
     assert "frame_stale" in run.at("stale").alarms
-    assert [e.data["zone"] for e in run.of("position_completed")] == ["s1"]
+    (result,) = run.of("tightening_result")
+    assert result.data["run_cut"] == "frame_stale"
+    assert "result_of_cut_run" in run.raised()
     assert not run.last.tool_enabled
 
 

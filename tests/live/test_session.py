@@ -94,3 +94,16 @@ def test_worker_settings_watch_the_plc_liveness_and_check_serials() -> None:
     settings = worker_settings(load_config(CONFIG))
     assert settings.liveness_timeout_s == pytest.approx(0.5)  # the default plc.liveness_timeout_ms
     assert settings.session.serial_pattern == r"[\x20-\x7e]+"
+
+
+@pytest.mark.parametrize("source", ["missing.mp4", "not_a_video.mp4"])
+def test_run_on_a_source_that_cannot_be_opened_exits_3_with_one_line(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str], source: str,
+) -> None:
+    (tmp_path / "not_a_video.mp4").write_text("this is not a video\n")
+    code = main(["run", "--config", str(CONFIG), "--source", str(tmp_path / source),
+                 "--link", "console", "--log", str(tmp_path / "log.sqlite")])
+    err = capsys.readouterr().err
+    assert code == 3
+    assert err.count("\n") == 1 and "Traceback" not in err
+    assert "cannot open the frame source" in err and source in err

@@ -3,7 +3,8 @@
 A *blob model* turns colour channels into heatmap logits: keypoint k's channel is picked by a
 1x1 convolution and average-pooled by the stride to ``p`` (scaled so a full blob gives 0.97),
 and the logit is ``log(p) - log(1 - p)``, so ``sigmoid(logit) = p`` follows a Gaussian blob
-painted in that channel (a "NaN model" flips the sign so the logarithm of a negative appears). Its answers are known
+painted in that channel (a "NaN model" flips the sign so the logarithm of a negative appears;
+a "zero model" has p = 0.5 everywhere, so every logit is exactly 0). Its answers are known
 without any learning, which makes the whole detector path testable.
 """
 
@@ -30,6 +31,7 @@ def blob_model_proto(
     input_shape: list[Any] | None = None,
     make_nan: bool = False,
     props: dict[str, str] | None = None,
+    make_zero: bool = False,
 ) -> onnx.ModelProto:
     k = len(info.keypoint_names)
     h, w, s = info.input_height_px, info.input_width_px, info.output_stride
@@ -57,8 +59,9 @@ def blob_model_proto(
     ]
     inits = [
         numpy_helper.from_array(weights, "w"),
-        numpy_helper.from_array(np.array(sign * 0.97 * 255 / 250, np.float32), "gain"),
-        numpy_helper.from_array(np.array(1e-4, np.float32), "eps"),
+        numpy_helper.from_array(
+            np.array(0.0 if make_zero else sign * 0.97 * 255 / 250, np.float32), "gain"),
+        numpy_helper.from_array(np.array(0.5 if make_zero else 1e-4, np.float32), "eps"),
         numpy_helper.from_array(np.array(1.0, np.float32), "one"),
         numpy_helper.from_array(np.array([0], np.int64), "axes"),
     ]

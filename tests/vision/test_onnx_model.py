@@ -10,7 +10,7 @@ import onnx
 import pytest
 
 from stationcheck.core.records import Frame
-from stationcheck.errors import ModelError
+from stationcheck.errors import ModelError, ModelOutputError
 from stationcheck.vision.detector import OnnxKeypointDetector, load_detector
 from stationcheck.vision.onnx_model import KeypointModel
 from tests.vision.conftest import ModelFactory, blob_model_proto, coarse_info, refine_info
@@ -71,10 +71,18 @@ def test_a_missing_file_is_refused(tmp_path: Path) -> None:
         KeypointModel(tmp_path / "absent.onnx")
 
 
-def test_nan_output_is_refused_at_run_time(write_model: ModelFactory) -> None:
-    detector = load_detector(write_model(coarse_info(), make_nan=True))
+@pytest.mark.parametrize(("kind", "message"), [
+    ({"make_nan": True}, "NaN or infinite output"),
+    ({"make_zero": True}, "all-zero output"),
+])
+def test_unusable_output_is_a_per_frame_model_output_error(
+    write_model: ModelFactory, kind: dict[str, bool], message: str,
+) -> None:
+    """Real onnxruntime sessions of tiny onnx-built graphs: log of a negative number gives NaN
+    (IEEE 754), a constant p = 0.5 gives logits of exactly 0."""
+    detector = load_detector(write_model(coarse_info(), **kind))
     frame = Frame(0, 0.0, np.full((480, 640, 3), 100, np.uint8))
-    with pytest.raises(ModelError, match="NaN or infinite output"):
+    with pytest.raises(ModelOutputError, match=message):
         detector.detect(frame)
 
 

@@ -31,6 +31,10 @@ CONDITION_WORDS: dict[str, tuple[str, str]] = {
     "tool_lost": ("Tool not seen", "Bring the tool back into view of the camera."),
     "wrong_position": ("Wrong position", "Move the tool to the marked position."),
     "wrong_bin": ("Wrong bin", "Put the part back; take it from the marked bin."),
+    "image_frozen": ("Camera picture frozen",
+                     "Check the camera and its cable, then call maintenance."),
+    "run_too_long": ("Tool ran too long",
+                     "Let go of the trigger. If the tool keeps running, call maintenance."),
 }
 # one-off alarms: shown for a while after they happened
 EVENT_ALARMS: dict[str, tuple[Meaning, str, str]] = {
@@ -48,6 +52,10 @@ EVENT_ALARMS: dict[str, tuple[Meaning, str, str]] = {
                               "Tell quality if it happens again."),
     "check_failed": ("fault", "Check acknowledged without passing",
                      "The unit is not released; it goes to rework."),
+    "tip_left_during_run": ("fault", "The tool left the position while running",
+                            "Check that fastener; fasten it again if asked."),
+    "result_of_cut_run": ("abnormal", "Result of a tightening that was cut off",
+                          "Check that fastener; fasten it again if asked."),
 }
 ENGAGE_NOUNS = ("pin", "latch", "clamp", "lock", "lever", "bolt")
 _BIN_LABEL = re.compile(r"^(?P<part>.+?)\s+bin(?:\s*\((?P<where>[^)]+)\))?$", re.IGNORECASE)

@@ -1,0 +1,1 @@
+"""The fault soak: faults injected into the real frame path, every frame judged."""
