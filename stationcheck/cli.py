@@ -29,6 +29,8 @@ COMMAND_MODULES = (
     "check",
     "setup",
     "review",
+    "forward",
+    "plant",
     "eval",
     "train",
     "bench",

@@ -1,0 +1,82 @@
+"""A throwaway PostgreSQL cluster from Debian's server binaries: initdb in a temporary folder as
+an unprivileged user (``postgres`` when the tests run as root: initdb refuses root), pg_ctl on a
+free loopback port, password (SCRAM) logins over TCP, stopped and deleted at the end."""
+
+from __future__ import annotations
+
+import os
+import shutil
+import socket
+import subprocess
+import tempfile
+from collections.abc import Iterator
+from contextlib import contextmanager
+from dataclasses import dataclass
+from pathlib import Path
+
+PG_BIN = Path("/usr/lib/postgresql/15/bin")
+ADMIN = "plant_admin"
+ADMIN_PASSWORD = "admin-secret-for-tests"
+DATABASE = "plant"
+
+
+def free_port() -> int:
+    with socket.socket() as s:
+        s.bind(("127.0.0.1", 0))
+        return int(s.getsockname()[1])
+
+
+@dataclass
+class Cluster:
+    folder: Path
+    port: int
+    user: str | None  # run the server as this user (None: as ourselves)
+
+    def _run(self, *args: str) -> subprocess.CompletedProcess[str]:
+        command = [str(PG_BIN / args[0]), *args[1:]]
+        if self.user is not None:
+            command = ["runuser", "-u", self.user, "--", *command]
+        return subprocess.run(command, capture_output=True, text=True, timeout=60, check=True)
+
+    @property
+    def data(self) -> Path:
+        return self.folder / "data"
+
+    def url(self, user: str = ADMIN, database: str = DATABASE) -> str:
+        return f"postgresql://{user}@127.0.0.1:{self.port}/{database}?sslmode=disable"
+
+    def start(self) -> None:
+        self._run("pg_ctl", "-D", str(self.data), "-l", str(self.folder / "server.log"), "-w",
+                  "-t", "30", "-o", f"-p {self.port} -k {self.folder} "
+                  "-c listen_addresses=127.0.0.1 -c fsync=off", "start")
+
+    def stop(self, mode: str = "fast") -> None:
+        self._run("pg_ctl", "-D", str(self.data), "-m", mode, "-w", "stop")
+
+
+@contextmanager
+def throwaway_cluster() -> Iterator[Cluster]:
+    as_root = os.geteuid() == 0
+    folder = Path(tempfile.mkdtemp(prefix="stationcheck-pg-"))
+    user = "postgres" if as_root else None
+    if as_root:
+        shutil.chown(folder, user="postgres")
+    cluster = Cluster(folder, free_port(), user)
+    pwfile = folder / "pw"
+    pwfile.write_text(ADMIN_PASSWORD)
+    if as_root:
+        shutil.chown(pwfile, user="postgres")
+    cluster._run("initdb", "-D", str(cluster.data), "-U", ADMIN, f"--pwfile={pwfile}",
+                 "--auth-local=trust", "--auth-host=scram-sha-256", "-E", "UTF8",
+                 "--locale=C", "--no-sync")
+    cluster.start()
+    try:
+        cluster._run("createdb", "-h", str(folder), "-p", str(cluster.port), "-U", ADMIN,
+                     DATABASE)
+        yield cluster
+    finally:
+        try:
+            cluster.stop("immediate")
+        except subprocess.CalledProcessError:
+            pass  # already stopped
+        shutil.rmtree(folder, ignore_errors=True)
