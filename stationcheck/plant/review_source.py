@@ -5,7 +5,8 @@ The review's SQL (:mod:`stationcheck.store.queries`, :mod:`stationcheck.quality`
 once. Over PostgreSQL a thin adapter turns SQLite's dialect into PostgreSQL's where the two
 differ: ``?`` parameters become ``%s``, SQLite's ``INDEXED BY`` hints are dropped (the planner
 picks), ``CAST(x AS INTEGER)`` (which truncates in SQLite, rounds in PostgreSQL) becomes
-``trunc(x)::bigint``; ``total()`` is an aggregate the plant schema defines. The filters are
+``trunc(x)::bigint``, a statement that ends in a derived table (``FROM (SELECT ...)``) gets the
+alias PostgreSQL 15 requires; ``total()`` is an aggregate the plant schema defines. The filters are
 temporary views named like the tables (``units``, ``steps``, ...) over the station's rows in
 scope: PostgreSQL looks up temporary relations first, so every query sees only those stations.
 """
@@ -37,6 +38,8 @@ def to_postgres(sql: str) -> str:
     """SQLite's dialect as the review writes it -> PostgreSQL's (see the module docstring)."""
     sql = _INDEXED_BY.sub("", sql)
     sql = _CAST_INTEGER.sub(r"trunc(\1)::bigint", sql)
+    if "FROM (SELECT" in sql and sql.rstrip().endswith(")"):
+        sql = sql.rstrip() + " AS derived"
     return sql.replace("%", "%%").replace("?", "%s")
 
 
