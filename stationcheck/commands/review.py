@@ -329,9 +329,8 @@ def _print_trend(step_log: SqliteStepLog, args: argparse.Namespace, period: Peri
 
 def _write_report(step_log: SqliteStepLog, args: argparse.Namespace, period: Period) -> int:
     from stationcheck.errors import InputFileError
-    from stationcheck.quality.report import build_report
-
     from stationcheck.plant.connect import is_plant_url, redacted
+    from stationcheck.quality.report import build_report
 
     name = redacted(args.log).rsplit("@", 1)[-1] if is_plant_url(args.log) else Path(args.log).name
     html = build_report(step_log.connection, period, name)

@@ -101,7 +101,8 @@ class PlantTables(BufferedSqlTables):
 
     def flush(self) -> None:
         station = (self.station_id,)
-        with self._conn.cursor() as cur:
+        conn: Any = self._conn  # a psycopg connection here
+        with conn.cursor() as cur:
             if self._dirty:
                 cur.executemany(_UNITS_SQL, [station + _ints(unit_to_sql(self._units[s]))
                                              for s in self._dirty])

@@ -32,7 +32,7 @@ PROGRESS_EVERY_S = 10.0
 _FORWARD_SQL = ("SELECT plant.forward_events(%s, %s::bigint[], %s::float8[], %s::text[], "
                 "%s::text[], %s::text[], %s::float8[])")
 # libpq: notice a dead server or network within about 10 s instead of the system's minutes
-_KEEPALIVE = {"keepalives": 1, "keepalives_idle": 5, "keepalives_interval": 2,
+_KEEPALIVE: dict[str, Any] = {"keepalives": 1, "keepalives_idle": 5, "keepalives_interval": 2,
               "keepalives_count": 2, "tcp_user_timeout": 10_000}
 _FATAL_SQLSTATES = {"42501", "42883", "42P01", "3F000", "28000", "28P01"}
 
@@ -46,8 +46,8 @@ class Backoff:
     jitter: float = 0.2
 
     def delay_s(self, failures: int) -> float:
-        base = min(self.max_s, self.first_s * 2 ** max(0, failures - 1))
-        return base * (1.0 + random.uniform(-self.jitter, self.jitter))
+        base = min(self.max_s, self.first_s * 2.0 ** max(0, failures - 1))
+        return float(base * (1.0 + random.uniform(-self.jitter, self.jitter)))
 
 
 @dataclass(frozen=True)
@@ -124,8 +124,8 @@ class Forwarder:
         if self._conn is not None:
             try:
                 self._conn.close()
-            except Exception:  # noqa: BLE001 - a broken connection may fail to close too
-                pass
+            except Exception as exc:  # noqa: BLE001 - a broken connection may fail to close too
+                logger.debug("closing a broken connection: %s", first_line(exc))
             self._conn = None
         self._set(connected=False)
 

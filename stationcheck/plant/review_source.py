@@ -156,7 +156,7 @@ class PlantReviewSource:
                 require_current(conn)
             except PlantDatabaseError:
                 raise
-            except Exception as exc:  # noqa: BLE001 - the driver's errors, said in one line
+            except Exception as exc:
                 raise PlantDatabaseError(f"plant database {self.name}: {first_line(exc)}") from exc
 
     @property

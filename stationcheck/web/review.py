@@ -15,10 +15,10 @@ from typing import Any
 
 from stationcheck.quality import export
 from stationcheck.quality.charts_svg import figure_charts, trend_svg
+from stationcheck.quality.figures import StationFigures
 from stationcheck.quality.json_views import figures_dict, trend_dict, trend_findings
 from stationcheck.quality.period import Period
 from stationcheck.quality.report import build_report
-from stationcheck.quality.figures import StationFigures
 from stationcheck.quality.rollup import FigureCache
 from stationcheck.quality.trends import (
     DEFAULT_POINTS,
