@@ -171,6 +171,9 @@ class Forwarder:
         """Send everything the server lacks, batch by batch; returns the events sent. Raises
         the driver's error when the connection fails."""
         sent = 0
+        if self._log is None and not self.log_path.is_file():  # the station has not started
+            self._set(last_error=f"waiting for the step log {self.log_path}")
+            return 0
         self._connect()
         while True:
             server = self._status.server_seq or 0

@@ -16,7 +16,7 @@ import pytest
 
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 
-from pg_cluster import ADMIN_PASSWORD, PG_BIN, Cluster, throwaway_cluster
+from stationcheck.plant.throwaway import ADMIN_PASSWORD, PG_BIN, Cluster, throwaway_cluster
 
 REPO = Path(__file__).resolve().parents[2]
 SAMPLE = REPO / "sample_video"

@@ -13,9 +13,9 @@ from pathlib import Path
 from typing import Any
 
 from conftest import Station, add_station, admin_connection, central_digest, local_digest
-from pg_cluster import Cluster
 
 from stationcheck.plant.forwarder import Backoff, Forwarder
+from stationcheck.plant.throwaway import Cluster
 
 
 def wait_until(condition: Callable[[], bool], timeout_s: float = 20.0) -> None:

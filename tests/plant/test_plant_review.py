@@ -13,11 +13,11 @@ from typing import Any
 
 import pytest
 from conftest import Station, add_station, admin_connection
-from pg_cluster import Cluster
 from test_plant_forward import forwarder
 
 from stationcheck.cli import main
 from stationcheck.plant.fold import fold_all
+from stationcheck.plant.throwaway import Cluster
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "web" / "review"))
 

@@ -8,9 +8,9 @@ from typing import Any
 
 import pytest
 from conftest import Station, add_station
-from pg_cluster import Cluster
 
 from stationcheck.plant import connect, schema
+from stationcheck.plant.throwaway import Cluster
 
 _FORWARD = ("SELECT plant.forward_events(%s, ARRAY[1]::bigint[], ARRAY[0.0]::float8[], "
             "ARRAY['alarm_raised'], ARRAY[NULL]::text[], ARRAY['{}'], ARRAY[1.7e9]::float8[])")

@@ -1,6 +1,7 @@
-"""A throwaway PostgreSQL cluster from Debian's server binaries: initdb in a temporary folder as
-an unprivileged user (``postgres`` when the tests run as root: initdb refuses root), pg_ctl on a
-free loopback port, password (SCRAM) logins over TCP, stopped and deleted at the end."""
+"""A throwaway PostgreSQL cluster from Debian's server binaries, for the tests and the bench:
+initdb in a temporary folder as an unprivileged user (``postgres`` when running as root: initdb
+refuses root), pg_ctl on a free loopback port, password (SCRAM) logins over TCP, stopped and
+deleted at the end. Not for production: fsync is off."""
 
 from __future__ import annotations
 
@@ -16,7 +17,7 @@ from pathlib import Path
 
 PG_BIN = Path("/usr/lib/postgresql/15/bin")
 ADMIN = "plant_admin"
-ADMIN_PASSWORD = "admin-secret-for-tests"
+ADMIN_PASSWORD = "throwaway-admin-secret"
 DATABASE = "plant"
 
 
@@ -32,7 +33,7 @@ class Cluster:
     port: int
     user: str | None  # run the server as this user (None: as ourselves)
 
-    def _run(self, *args: str) -> subprocess.CompletedProcess[str]:
+    def run(self, *args: str) -> subprocess.CompletedProcess[str]:
         command = [str(PG_BIN / args[0]), *args[1:]]
         if self.user is not None:
             command = ["runuser", "-u", self.user, "--", *command]
@@ -46,18 +47,18 @@ class Cluster:
         return f"postgresql://{user}@127.0.0.1:{self.port}/{database}?sslmode=disable"
 
     def start(self) -> None:
-        self._run("pg_ctl", "-D", str(self.data), "-l", str(self.folder / "server.log"), "-w",
+        self.run("pg_ctl", "-D", str(self.data), "-l", str(self.folder / "server.log"), "-w",
                   "-t", "30", "-o", f"-p {self.port} -k {self.folder} "
                   "-c listen_addresses=127.0.0.1 -c fsync=off", "start")
 
     def stop(self, mode: str = "fast") -> None:
-        self._run("pg_ctl", "-D", str(self.data), "-m", mode, "-w", "stop")
+        self.run("pg_ctl", "-D", str(self.data), "-m", mode, "-w", "stop")
 
 
 @contextmanager
-def throwaway_cluster() -> Iterator[Cluster]:
+def throwaway_cluster(parent: Path | None = None) -> Iterator[Cluster]:
     as_root = os.geteuid() == 0
-    folder = Path(tempfile.mkdtemp(prefix="stationcheck-pg-"))
+    folder = Path(tempfile.mkdtemp(prefix="stationcheck-pg-", dir=parent))
     user = "postgres" if as_root else None
     if as_root:
         shutil.chown(folder, user="postgres")
@@ -66,12 +67,12 @@ def throwaway_cluster() -> Iterator[Cluster]:
     pwfile.write_text(ADMIN_PASSWORD)
     if as_root:
         shutil.chown(pwfile, user="postgres")
-    cluster._run("initdb", "-D", str(cluster.data), "-U", ADMIN, f"--pwfile={pwfile}",
+    cluster.run("initdb", "-D", str(cluster.data), "-U", ADMIN, f"--pwfile={pwfile}",
                  "--auth-local=trust", "--auth-host=scram-sha-256", "-E", "UTF8",
                  "--locale=C", "--no-sync")
     cluster.start()
     try:
-        cluster._run("createdb", "-h", str(folder), "-p", str(cluster.port), "-U", ADMIN,
+        cluster.run("createdb", "-h", str(folder), "-p", str(cluster.port), "-U", ADMIN,
                      DATABASE)
         yield cluster
     finally:
