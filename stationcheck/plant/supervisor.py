@@ -71,6 +71,8 @@ class ForwardChild:
                 self._process.kill()
                 self._process.wait()
         self._reader.join(1.0)
+        if self._process.stdout is not None:
+            self._process.stdout.close()
         return self._process.returncode
 
     def line(self) -> str:

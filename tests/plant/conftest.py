@@ -116,3 +116,16 @@ def central_digest(admin: Any, station_id: str) -> tuple[int, str, bool]:
         "ORDER BY seq), '')), min(seq), max(seq) FROM plant.events WHERE station_id = %s",
         (station_id,)).fetchone()
     return int(count), str(digest), count == 0 or (first == 1 and last == count)
+
+
+def station_config(folder: Path, station_id: str, log: Path) -> Path:
+    """The demo station's config with a plant section, written into ``folder``."""
+    text = (REPO / "configs" / "demo_station.yaml").read_text(encoding="utf-8")
+    text = text.replace("reference_frame: demo_station/",
+                        f"reference_frame: {REPO / 'configs' / 'demo_station'}/")
+    text = text.replace("source: ../sample_video/", f"source: {SAMPLE}/")
+    text = text.replace("path: stationcheck-log.sqlite", f"path: {log}")
+    text += f"\nplant:\n  station_id: {station_id}\n  line: line-1\n  plant: demo-plant\n"
+    path = folder / "station.yaml"
+    path.write_text(text, encoding="utf-8")
+    return path

@@ -150,3 +150,26 @@ def test_log_of_another_station_is_refused(station: Station, tmp_path: Path) -> 
     with pytest.raises(StoreError, match="someone-else"):
         fwd.forward_once()
     fwd.close()
+
+
+def test_forward_command_beside_a_run(demo_log: Path, station: Station, admin: Any,
+                                      tmp_path: Path, monkeypatch: Any) -> None:
+    """``forward`` as ``run --forward-to`` starts it: a child process reporting its status;
+    the station id comes from the config's plant section."""
+    from conftest import station_config
+
+    from stationcheck.plant.supervisor import ForwardChild
+
+    log = tmp_path / "log.sqlite"
+    shutil.copy(demo_log, log)
+    config = station_config(tmp_path, station.station_id, log)
+    monkeypatch.delenv("STATIONCHECK_PG_PASSWORD", raising=False)
+    child = ForwardChild(config, station.url, password_file=station.password_file)
+    try:
+        wait_until(lambda: (s := child.status) is not None and s.connected
+                   and s.lag_events == 0, timeout_s=30.0)
+    finally:
+        assert child.stop() in (0, -15)
+    count, digest = local_digest(log)
+    assert central_digest(admin, station.station_id) == (count, digest, True)
+    assert f"server at seq {count}" in child.line()
