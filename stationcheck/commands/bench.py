@@ -29,6 +29,7 @@ SECTION_MODULES: tuple[str, ...] = (
     "stationcheck.judgements.bench",
     "stationcheck.live.bench",
     "stationcheck.web.operator.bench",
+    "stationcheck.plant.bench",
 )
 
 

@@ -14,6 +14,7 @@ from collections.abc import Iterator
 from contextlib import contextmanager
 from dataclasses import dataclass
 from pathlib import Path
+from typing import Any
 
 PG_BIN = Path("/usr/lib/postgresql/15/bin")
 ADMIN = "plant_admin"
@@ -42,6 +43,15 @@ class Cluster:
     @property
     def data(self) -> Path:
         return self.folder / "data"
+
+    admin: str = ADMIN
+    password: str = ADMIN_PASSWORD
+
+    def connect_admin(self) -> Any:
+        from stationcheck.plant.connect import connect
+
+        os.environ.setdefault("STATIONCHECK_PG_PASSWORD", self.password)
+        return connect(self.url())
 
     def url(self, user: str = ADMIN, database: str = DATABASE) -> str:
         return f"postgresql://{user}@127.0.0.1:{self.port}/{database}?sslmode=disable"
