@@ -168,8 +168,17 @@ class Forwarder:
                   events_per_s=rate)
 
     def forward_once(self) -> int:
-        """Send everything the server lacks, batch by batch; returns the events sent. Raises
-        the driver's error when the connection fails."""
+        """Send everything the server lacks, batch by batch; returns the events sent. A failed
+        connection or statement raises :class:`PlantDatabaseError` (the driver's error as its
+        cause)."""
+        psycopg = driver()
+        try:
+            return self._forward_all()
+        except psycopg.Error as exc:
+            raise PlantDatabaseError(
+                f"plant database {redacted(self.url)}: {first_line(exc)}") from exc
+
+    def _forward_all(self) -> int:
         sent = 0
         if self._log is None and not self.log_path.is_file():  # the station has not started
             self._set(last_error=f"waiting for the step log {self.log_path}")
@@ -203,7 +212,6 @@ class Forwarder:
 
     def run(self, stop: threading.Event) -> None:
         """Forward until ``stop`` is set: poll the log, back off while the server is away."""
-        psycopg = driver()
         failures = 0
         try:
             while not stop.is_set():
@@ -211,19 +219,11 @@ class Forwarder:
                     self.forward_once()
                     failures = 0
                     stop.wait(self.poll_s)
-                except psycopg.Error as exc:
-                    if getattr(exc, "sqlstate", None) in _FATAL_SQLSTATES:
-                        raise PlantDatabaseError(
-                            f"plant database {redacted(self.url)}: {first_line(exc)}") from exc
-                    failures = self._after_failure(failures, first_line(exc))
-                    stop.wait(self.backoff.delay_s(failures))
                 except PlantDatabaseError as exc:
-                    if isinstance(exc.__cause__, psycopg.Error) and getattr(
-                            exc.__cause__, "sqlstate", None) not in _FATAL_SQLSTATES:
-                        failures = self._after_failure(failures, str(exc))
-                        stop.wait(self.backoff.delay_s(failures))
-                    else:
+                    if getattr(exc.__cause__, "sqlstate", None) in _FATAL_SQLSTATES:
                         raise
+                    failures = self._after_failure(failures, str(exc))
+                    stop.wait(self.backoff.delay_s(failures))
         finally:
             self._log_progress(force=True)
             self.close()

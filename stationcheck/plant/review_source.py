@@ -120,12 +120,16 @@ class PlantReader:
     def stations_of(self, serials: Sequence[str]) -> dict[str, list[str]]:
         """serial -> the stations in scope that logged it (traceability across stations)."""
         found: dict[str, list[str]] = {}
-        rows = self._conn.execute(
-            "SELECT serial, station_id FROM units WHERE serial = ANY(%s) ORDER BY serial, "
-            "started_at_s", (list(serials),)).fetchall()
-        for serial, station in rows:
-            found.setdefault(str(serial), []).append(str(station))
+        for (serial, _), station in self.unit_stations(serials).items():
+            found.setdefault(serial, []).append(station)
         return found
+
+    def unit_stations(self, serials: Sequence[str]) -> dict[tuple[str, float], str]:
+        """(serial, first-pass start) -> the station whose unit row it is, in start order."""
+        rows = self._conn.execute(
+            "SELECT serial, started_at_s, station_id FROM units WHERE serial = ANY(%s) "
+            "ORDER BY serial, started_at_s, station_id", (list(serials),)).fetchall()
+        return {(str(serial), float(start)): str(station) for serial, start, station in rows}
 
     def stations(self) -> list[dict[str, Any]]:
         """The stations in scope with their line, plant and how far forwarding and the fold

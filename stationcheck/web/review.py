@@ -184,11 +184,15 @@ def build_review_router(source: Any) -> Router:
                 page = queries.find_units(conn, query, time_index=broad)
             except ValueError as exc:  # a page token that is not one
                 raise WebError(400, str(exc)) from exc
-            seen_at = (step_log.stations_of([u.serial for u in page.rows]) if source.is_plant
-                       else {})
+            rows = [export.unit_dict(u) for u in page.rows]
+            if source.is_plant:  # which station's row, and every station that logged the unit
+                owners = step_log.unit_stations([u.serial for u in page.rows])
+                for row in rows:
+                    row["station"] = owners.get((row["serial"], row["started_at_s"]))
+                    row["stations"] = [s for (serial, _), s in owners.items()
+                                       if serial == row["serial"]]
         return Response.json({
-            "units": [{**export.unit_dict(u), "stations": seen_at.get(u.serial)}
-                      for u in page.rows], "next_after": page.next_after,
+            "units": rows, "next_after": page.next_after,
             "count": min(count, COUNT_CAP), "count_is_exact": count <= COUNT_CAP,
         })
 
@@ -233,7 +237,7 @@ def build_review_router(source: Any) -> Router:
                                         measure, period, points)
             except ValueError as exc:
                 raise WebError(400, str(exc)) from exc
-            body["trends"] = [{**trend_summary(sid, t), "chart": trend_svg(t, 600, 300)}
+            body["trends"] = [{**trend_summary(sid, t), "chart": trend_svg(t, 900, 360)}
                               for sid, t in trends]
         return Response.json(body)
 

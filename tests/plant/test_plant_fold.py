@@ -8,8 +8,7 @@ import sqlite3
 from pathlib import Path
 from typing import Any
 
-from conftest import Station
-from test_plant_forward import forwarder
+from plant_helpers import Station, forwarder
 
 from stationcheck.plant.fold import fold_all
 from stationcheck.store.sql_tables import ALARM_COLUMNS, STEP_COLUMNS, TAG_COLUMNS, UNIT_COLUMNS

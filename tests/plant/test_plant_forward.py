@@ -7,44 +7,22 @@ from __future__ import annotations
 
 import shutil
 import threading
-import time
-from collections.abc import Callable
 from pathlib import Path
 from typing import Any
 
-from conftest import Station, add_station, admin_connection, central_digest, local_digest
+from plant_helpers import (
+    GatedForwarder,
+    Station,
+    add_station,
+    admin_connection,
+    central_digest,
+    forwarder,
+    local_digest,
+    wait_until,
+)
 
 from stationcheck.plant.forwarder import Backoff, Forwarder
 from stationcheck.plant.throwaway import Cluster
-
-
-def wait_until(condition: Callable[[], bool], timeout_s: float = 20.0) -> None:
-    deadline = time.monotonic() + timeout_s
-    while not condition():
-        if time.monotonic() > deadline:
-            raise AssertionError("condition not met within the deadline")
-        time.sleep(0.01)
-
-
-def forwarder(log: Path, station: Station, **options: Any) -> Forwarder:
-    return Forwarder(log, station.station_id, station.url, station.password_file, **options)
-
-
-class GatedForwarder(Forwarder):
-    """Holds after its first batch until the test has stopped the server: a stop that is
-    certainly in the middle of forwarding."""
-
-    def __init__(self, *args: Any, **kwargs: Any) -> None:
-        super().__init__(*args, **kwargs)
-        self.first_batch_sent = threading.Event()
-        self.server_stopped = threading.Event()
-
-    def _send(self, rows: list[tuple[Any, ...]]) -> int:
-        mark = super()._send(rows)
-        if not self.first_batch_sent.is_set():
-            self.first_batch_sent.set()
-            self.server_stopped.wait(20)
-        return mark
 
 
 def test_demo_log_forwarded_twice_arrives_once(demo_log: Path, station: Station, admin: Any,
@@ -76,9 +54,12 @@ def test_server_down_mid_forward(pg: Cluster, station: Station, tmp_path: Path) 
 
     log_path = tmp_path / "station.sqlite"
     writer = SqliteStepLog(log_path, synchronous="OFF", station_id=station.station_id)
+    def log_event(i: int) -> None:
+        writer.append([Event(t_s=float(i), kind="alarm_raised", serial=None,
+                             data={"code": "demo", "n": i})], 1.7e9 + i)
+
     for i in range(2000):
-        writer.append([Event(t_s=float(i), kind="alarm_raised", serial=None, data={"code": "demo", "n": i})],
-                      1.7e9 + i)
+        log_event(i)
     fwd = GatedForwarder(log_path, station.station_id, station.url, station.password_file,
                          batch_events=100, poll_s=0.05, backoff=Backoff(first_s=0.05, max_s=0.2))
     stop = threading.Event()
@@ -90,8 +71,7 @@ def test_server_down_mid_forward(pg: Cluster, station: Station, tmp_path: Path) 
         fwd.server_stopped.set()
         wait_until(lambda: fwd.status.server_seq == 100)
         for i in range(2000, 2500):  # the station keeps logging with the server away
-            writer.append([Event(t_s=float(i), kind="alarm_raised", serial=None, data={"code": "demo",
-                                                                          "n": i})], 1.7e9 + i)
+            log_event(i)
         wait_until(lambda: not fwd.status.connected and fwd.status.failures > 0)
         assert fwd.status.lag_events > 0 and fwd.status.last_error
         pg.start()
@@ -156,7 +136,7 @@ def test_forward_command_beside_a_run(demo_log: Path, station: Station, admin: A
                                       tmp_path: Path, monkeypatch: Any) -> None:
     """``forward`` as ``run --forward-to`` starts it: a child process reporting its status;
     the station id comes from the config's plant section."""
-    from conftest import station_config
+    from plant_helpers import station_config
 
     from stationcheck.plant.supervisor import ForwardChild
 

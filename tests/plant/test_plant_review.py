@@ -12,8 +12,7 @@ from pathlib import Path
 from typing import Any
 
 import pytest
-from conftest import Station, add_station, admin_connection
-from test_plant_forward import forwarder
+from plant_helpers import Station, add_station, admin_connection, forwarder
 
 from stationcheck.cli import main
 from stationcheck.plant.fold import fold_all
@@ -144,7 +143,8 @@ def test_screen_over_the_plant_database(two_stations: TwoStations, plant_web: An
         figures = own.json("/api/figures")
     central = plant_web.json(f"/api/units?result=NOK&station={station}")
     assert [u["serial"] for u in central["units"]] == [u["serial"] for u in mine["units"]]
-    assert all(u["stations"] == [station] for u in central["units"])
+    assert all(u["station"] == station and u["stations"] == [station]
+               for u in central["units"])
     assert plant_web.json(f"/api/figures?station={station}")["units"] == figures["units"]
     info = plant_web.json("/api/info?line=review-1")
     assert [s["station_id"] for s in info["stations"]] == [station]

@@ -7,7 +7,7 @@ from __future__ import annotations
 from typing import Any
 
 import pytest
-from conftest import Station, add_station
+from plant_helpers import Station, add_station
 
 from stationcheck.plant import connect, schema
 from stationcheck.plant.throwaway import Cluster
