@@ -6,15 +6,20 @@ once. Over PostgreSQL a thin adapter turns SQLite's dialect into PostgreSQL's wh
 differ: ``?`` parameters become ``%s``, SQLite's ``INDEXED BY`` hints are dropped (the planner
 picks), ``CAST(x AS INTEGER)`` (which truncates in SQLite, rounds in PostgreSQL) becomes
 ``trunc(x)::bigint``, a statement that ends in a derived table (``FROM (SELECT ...)``) gets the
-alias PostgreSQL 15 requires; ``total()`` is an aggregate the plant schema defines. The filters are
+alias PostgreSQL 15 requires; ``total(x)`` becomes ``coalesce(sum(x), 0)``, or ``count(*)
+FILTER (WHERE x)`` for a condition (native aggregates, many times faster than a SQL-defined
+``total`` would be). The filters are
 temporary views named like the tables (``units``, ``steps``, ...) over the station's rows in
 scope: PostgreSQL looks up temporary relations first, so every query sees only those stations.
 """
 
 from __future__ import annotations
 
+import logging
 import re
 import sqlite3
+import threading
+import time
 from collections.abc import Sequence
 from dataclasses import dataclass
 from pathlib import Path
@@ -24,20 +29,34 @@ from typing import Any, Self, cast
 from stationcheck.errors import PlantDatabaseError, first_line
 from stationcheck.plant.connect import connect, redacted
 from stationcheck.plant.schema import require_current
-from stationcheck.quality.figures import StationFigures, station_figures
-from stationcheck.quality.period import Period
+from stationcheck.quality.figures import DAY_S, StationFigures, tally_range
+from stationcheck.quality.period import OPEN_END_S, OPEN_START_S, Period
+from stationcheck.quality.rollup import FigureCache
 from stationcheck.store import queries
 from stationcheck.store.records import AlarmRow, StepRow, UnitRow
 
+logger = logging.getLogger(__name__)
+
+MAX_CACHED_SCOPES = 32
 _VIEWED = ("units", "steps", "alarms", "unit_tags", "events")
 _INDEXED_BY = re.compile(r"\s+INDEXED BY \w+")
 _CAST_INTEGER = re.compile(r"CAST\(([^()]*) AS INTEGER\)")
+_TOTAL = re.compile(r"\btotal\(([^()]*)\)")
+
+
+def _total(match: re.Match[str]) -> str:
+    """SQLite's total(): a sum that is 0 over no rows; of a condition, the rows meeting it."""
+    inner = match.group(1)
+    if "=" in inner:
+        return f"count(*) FILTER (WHERE {inner})"
+    return f"coalesce(sum({inner}), 0)"
 
 
 def to_postgres(sql: str) -> str:
     """SQLite's dialect as the review writes it -> PostgreSQL's (see the module docstring)."""
     sql = _INDEXED_BY.sub("", sql)
     sql = _CAST_INTEGER.sub(r"trunc(\1)::bigint", sql)
+    sql = _TOTAL.sub(_total, sql)
     if "FROM (SELECT" in sql and sql.rstrip().endswith(")"):
         sql = sql.rstrip() + " AS derived"
     return sql.replace("%", "%%").replace("?", "%s")
@@ -56,10 +75,12 @@ class Scope:
 
 
 class PostgresAdapter:
-    """The DB-API calls the review makes on an SQLite connection, on a psycopg connection."""
+    """The DB-API calls the review makes on an SQLite connection, on a psycopg connection
+    (whose temporary views show the stations of ``scope``)."""
 
-    def __init__(self, conn: Any) -> None:
+    def __init__(self, conn: Any, scope: Scope) -> None:
         self.raw = conn
+        self.scope = scope
 
     def execute(self, sql: str, params: Sequence[Any] = ()) -> Any:
         if sql.strip().upper() in ("BEGIN", "COMMIT"):
@@ -91,7 +112,7 @@ class PlantReader:
         except Exception:
             self._conn.close()
             raise
-        self.adapter = PostgresAdapter(self._conn)
+        self.adapter = PostgresAdapter(self._conn, scope)
 
     @property
     def connection(self) -> sqlite3.Connection:
@@ -155,6 +176,8 @@ class PlantReviewSource:
         self.password_file = password_file
         self.name = redacted(url).rsplit("@", 1)[-1]
         self.evidence_root: Path | None = None  # evidence images stay on the station PC
+        self._caches: dict[Scope, PlantFigureCache] = {}
+        self._caches_lock = threading.Lock()
         with connect(url, password_file, application="stationcheck review") as conn:
             try:
                 require_current(conn)
@@ -171,5 +194,53 @@ class PlantReviewSource:
         return PlantReader(self.url, self.password_file, scope or Scope())
 
     def figures(self, conn: sqlite3.Connection, period: Period) -> StationFigures:
-        """Straight from the aggregates (the per-day cache of a station log keys on its seq)."""
-        return station_figures(conn, period)
+        """From per-day tallies of the reader's scope, kept up to date with the fold."""
+        scope = cast(PostgresAdapter, conn).scope
+        with self._caches_lock:
+            cache = self._caches.get(scope)
+            if cache is None:
+                if len(self._caches) >= MAX_CACHED_SCOPES:
+                    self._caches.pop(next(iter(self._caches)))
+                cache = self._caches[scope] = PlantFigureCache()
+        return cache.figures(conn, period)
+
+
+class PlantFigureCache(FigureCache):
+    """The station log's per-day figure cache over the plant database: what changed is found
+    per station from its ``folded_seq`` instead of one log's seq."""
+
+    def __init__(self) -> None:
+        super().__init__()
+        self._marks: dict[str, int] | None = None
+
+    def _refresh(self, conn: sqlite3.Connection) -> None:
+        raw = cast(PostgresAdapter, conn).raw
+        marks = {str(s): int(m) for s, m in raw.execute(
+            "SELECT station_id, folded_seq FROM plant.stations").fetchall()}
+        if self._marks is None:
+            started = time.perf_counter()
+            self._days = tally_range(conn, OPEN_START_S, OPEN_END_S, by_day=True)
+            logger.info("tallied %d days of plant figures in %.2f s", len(self._days),
+                        time.perf_counter() - started)
+        else:
+            touched: set[int] = set()
+            for station, mark in marks.items():
+                if mark > self._marks.get(station, 0):
+                    touched |= _touched_days(raw, station, self._marks.get(station, 0))
+            for day in touched:
+                fresh = tally_range(conn, day * DAY_S, (day + 1) * DAY_S, by_day=True)
+                self._days.pop(day, None)
+                self._days.update(fresh)
+        self._marks = marks
+
+
+def _touched_days(raw: Any, station: str, after_seq: int) -> set[int]:
+    """UTC days whose tallies events of ``station`` after ``after_seq`` changed."""
+    rows = raw.execute(
+        f"SELECT trunc(started_at_s / {DAY_S})::bigint FROM plant.units WHERE station_id = %s "
+        "AND serial IN (SELECT serial FROM plant.events WHERE station_id = %s AND seq > %s "
+        f"AND serial IS NOT NULL) UNION SELECT trunc(recorded_at_s / {DAY_S})::bigint FROM "
+        "plant.steps WHERE station_id = %s AND seq > %s UNION SELECT trunc(recorded_at_s / "
+        f"{DAY_S})::bigint FROM plant.alarms WHERE station_id = %s AND seq > %s",
+        (station, station, after_seq, station, after_seq, station, after_seq)).fetchall()
+    return {int(r[0]) for r in rows}

@@ -158,15 +158,8 @@ CREATE INDEX alarms_uncleared ON plant.alarms(station_id, code, subject) WHERE c
 CREATE INDEX unit_tags_by_start_at ON plant.unit_tags(tag, started_at_s, serial);
 """
 
-# SQLite's total() (a float sum that is 0.0 over no rows) for the review's shared SQL.
+# The only way a station's role writes: its own events, after its high-water mark.
 _V1_FUNCTIONS = """
-CREATE FUNCTION plant.total_add(acc DOUBLE PRECISION, value BOOLEAN) RETURNS DOUBLE PRECISION
-    LANGUAGE sql IMMUTABLE STRICT AS 'SELECT acc + value::int';
-CREATE AGGREGATE plant.total(BOOLEAN) (SFUNC = plant.total_add, STYPE = DOUBLE PRECISION,
-    INITCOND = '0');
-CREATE AGGREGATE plant.total(DOUBLE PRECISION) (SFUNC = float8pl, STYPE = DOUBLE PRECISION,
-    INITCOND = '0');
-
 CREATE FUNCTION plant.station_high_water_mark(p_station TEXT) RETURNS BIGINT
 LANGUAGE plpgsql SECURITY DEFINER SET search_path = pg_catalog, plant AS $$
 DECLARE mark BIGINT;

@@ -5,6 +5,7 @@ filters, and per-station figures side by side that agree with each station's own
 from __future__ import annotations
 
 import json
+import shutil
 import sys
 from collections.abc import Iterator
 from dataclasses import dataclass
@@ -150,3 +151,49 @@ def test_screen_over_the_plant_database(two_stations: TwoStations, plant_web: An
     assert [s["station_id"] for s in info["stations"]] == [station]
     side = plant_web.json("/api/stations?line=review-1,review-2&position=p3")
     assert len(side["stations"]) == 2 and side["trends"][0]["chart"].startswith("<svg")
+
+
+def test_figures_follow_the_fold(pg: Cluster, reviewer: str, tmp_path: Path) -> None:
+    """The screen's per-day figure cache takes in what the fold adds later: the figures match
+    the station's own log (SQLite review) before and after more of it arrives."""
+    import sqlite3
+
+    from review_web_helpers import Client, serve
+
+    from stationcheck.store.generator import generate_log
+    from stationcheck.store.sqlite_log import SqliteStepLog
+    from stationcheck.web.access import AccessRule
+    from stationcheck.web.review import build_review_router, review_source
+    from stationcheck.web.server import WebServer
+
+    whole, first_half = tmp_path / "whole.sqlite", tmp_path / "half.sqlite"
+    events = generate_log(whole, 200, seed=5)
+    shutil.copy(whole, first_half)
+    conn = sqlite3.connect(first_half)
+    conn.execute("DELETE FROM events WHERE seq > ?", (events // 2,))
+    conn.commit()
+    conn.close()
+    with SqliteStepLog(first_half) as log:
+        log.rebuild()
+    with admin_connection(pg) as admin:
+        station = add_station(pg, admin, line="review-3")
+    server = WebServer(build_review_router(review_source(reviewer)), "127.0.0.1", 0,
+                       AccessRule(None)).start()
+    try:
+        plant = Client(server)
+        for log in (first_half, whole):
+            fwd = forwarder(log, station)
+            try:
+                fwd.forward_once()
+            finally:
+                fwd.close()
+            with admin_connection(pg) as admin:
+                fold_all(admin)
+            for own in serve(log):
+                expected = own.json("/api/figures")
+            central = plant.json(f"/api/figures?station={station.station_id}")
+            for key in ("units", "ok", "nok", "first_time_through", "nok_results", "retries",
+                        "nok_by_position", "cycle_time"):
+                assert central[key] == expected[key], key
+    finally:
+        server.close()
