@@ -205,8 +205,8 @@ def build_review_router(source: Any) -> Router:
     @router.get("/api/unit")
     def unit(request: Request) -> Response:
         body = export.unit_detail(*one_unit(source, request))
-        if source.is_plant:  # traceability: every station in scope that logged this serial
-            with source.reader(scope_of(request)) as reader:
+        if source.is_plant:  # traceability: every station of the plant that logged it
+            with source.reader() as reader:
                 body["stations"] = reader.stations_of([body["unit"]["serial"]]).get(
                     body["unit"]["serial"], [])
         return Response.json(body)
