@@ -53,6 +53,9 @@ def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[ty
     p.add_argument("--batch", type=int, default=5000, help="events per batch (default 5000)")
     p.add_argument("--status-json", action="store_true",
                    help="print the status as one JSON line per second (for a supervising run)")
+    p.add_argument("--status-every", type=float, default=30.0, metavar="SECONDS",
+                   help="print how far forwarding has got (events and seconds behind) this "
+                        "often (default 30)")
     p.set_defaults(handler=run)
 
 
@@ -93,17 +96,16 @@ def run(args: argparse.Namespace) -> int:
 
     signal.signal(signal.SIGTERM, on_signal)
     signal.signal(signal.SIGINT, on_signal)
-    reporter = None
-    if args.status_json:
-        reporter = threading.Thread(target=_report, args=(forwarder, stop), daemon=True,
-                                    name="forward-status")
-        reporter.start()
+    every_s = 1.0 if args.status_json else max(1.0, args.status_every)
+    threading.Thread(target=_report, args=(forwarder, stop, every_s, args.status_json),
+                     daemon=True, name="forward-status").start()
     forwarder.run(stop)
     stop.set()
     print(forwarder.status.line(), file=sys.stderr, flush=True)
     return 0
 
 
-def _report(forwarder: Any, stop: threading.Event) -> None:
-    while not stop.wait(1.0):
-        print(json.dumps(forwarder.status.__dict__), flush=True)
+def _report(forwarder: Any, stop: threading.Event, every_s: float, as_json: bool) -> None:
+    while not stop.wait(every_s):
+        status = forwarder.status
+        print(json.dumps(status.__dict__) if as_json else status.line(), flush=True)
