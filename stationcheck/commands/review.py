@@ -173,7 +173,7 @@ def _print_stations(source: Any, args: argparse.Namespace, period: Period) -> in
     )
 
     with source.reader(_scope(args)) as reader:
-        rows = station_figures_rows(reader, period)
+        rows = station_figures_rows(source, reader, period)
     trends = []
     if args.trend_of:
         trends = [trend_summary(sid, t) for sid, t in station_trends(

@@ -177,6 +177,7 @@ class PlantReviewSource:
         self.name = redacted(url).rsplit("@", 1)[-1]
         self.evidence_root: Path | None = None  # evidence images stay on the station PC
         self._caches: dict[Scope, PlantFigureCache] = {}
+        self._station_caches: dict[Scope, Any] = {}
         self._caches_lock = threading.Lock()
         with connect(url, password_file, application="stationcheck review") as conn:
             try:
@@ -205,6 +206,20 @@ class PlantReviewSource:
         return cache.figures(conn, period)
 
 
+    def station_figures(self, reader: PlantReader, period: Period) -> dict[str, StationFigures]:
+        """Each station's figures of the period, from the scope's (station, day) tallies."""
+        from stationcheck.plant.station_days import StationDayCache
+
+        with self._caches_lock:
+            cache = self._station_caches.get(reader.scope)
+            if cache is None:
+                if len(self._station_caches) >= MAX_CACHED_SCOPES:
+                    self._station_caches.pop(next(iter(self._station_caches)))
+                cache = self._station_caches[reader.scope] = StationDayCache()
+        result: dict[str, StationFigures] = cache.figures(reader, period)
+        return result
+
+
 class PlantFigureCache(FigureCache):
     """The station log's per-day figure cache over the plant database: what changed is found
     per station from its ``folded_seq`` instead of one log's seq."""
@@ -226,7 +241,7 @@ class PlantFigureCache(FigureCache):
             touched: set[int] = set()
             for station, mark in marks.items():
                 if mark > self._marks.get(station, 0):
-                    touched |= _touched_days(raw, station, self._marks.get(station, 0))
+                    touched |= touched_days(raw, station, self._marks.get(station, 0))
             for day in touched:
                 fresh = tally_range(conn, day * DAY_S, (day + 1) * DAY_S, by_day=True)
                 self._days.pop(day, None)
@@ -234,7 +249,7 @@ class PlantFigureCache(FigureCache):
         self._marks = marks
 
 
-def _touched_days(raw: Any, station: str, after_seq: int) -> set[int]:
+def touched_days(raw: Any, station: str, after_seq: int) -> set[int]:
     """UTC days whose tallies events of ``station`` after ``after_seq`` changed."""
     rows = raw.execute(
         f"SELECT trunc(started_at_s / {DAY_S})::bigint FROM plant.units WHERE station_id = %s "

@@ -224,7 +224,7 @@ def build_review_router(source: Any) -> Router:
 
         period = period_of(request)
         with source.reader(scope_of(request)) as reader:
-            rows = station_figures_rows(reader, period)
+            rows = station_figures_rows(source, reader, period)
         body: dict[str, Any] = {"period": {"from_s": period.from_s, "to_s": period.to_s,
                                            "text": period.describe()}, "stations": rows,
                                 "trends": []}
