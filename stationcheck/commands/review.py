@@ -1,8 +1,12 @@
 """``stationcheck review``: the quality engineer's screen over a step log (a local web app,
 read-only, safe beside a station that is writing), plus plain outputs for scripts.
 
+A ``postgresql://`` target reviews the plant database instead: the same outputs across
+stations, with ``--station`` / ``--line`` filters and ``--stations`` side by side.
+
 Exit codes: 0 done; 1 no unit with that serial (--unit); 6 the log is missing, not a step log,
-damaged or of a newer schema; 64 bad command line.
+damaged or of a newer schema, or the plant database refused or is unreachable; 7 the plant
+extra is missing; 64 bad command line.
 """
 
 from __future__ import annotations
@@ -27,7 +31,8 @@ times (--since, --until): 2026-03-01, 2026-03-01T14:30 (local time), or epoch se
 --until date includes that whole day. Periods use the wall clock the log recorded.
 
 exit codes: 0 done, 1 no unit with that serial (--unit), 6 the log is missing, not a step log,
-damaged or too new, 64 bad command line.
+damaged or too new, or the plant database refused or is unreachable, 7 the plant extra is
+missing (postgresql:// targets), 64 bad command line.
 """
 
 

@@ -67,6 +67,11 @@ class Cluster:
 
 @contextmanager
 def throwaway_cluster(parent: Path | None = None) -> Iterator[Cluster]:
+    if not (PG_BIN / "initdb").exists():
+        from stationcheck.errors import PlantDatabaseError
+
+        raise PlantDatabaseError(f"PostgreSQL server binaries not found in {PG_BIN}; install "
+                                 "them with: apt-get install postgresql")
     as_root = os.geteuid() == 0
     folder = Path(tempfile.mkdtemp(prefix="stationcheck-pg-", dir=parent))
     user = "postgres" if as_root else None
