@@ -99,15 +99,17 @@ class PlantReader:
         try:
             self._conn.execute("SET search_path TO plant")
             if not scope.everything:
-                where = sql.SQL(" AND ").join(
-                    [sql.SQL("{} = ANY({})").format(sql.Identifier(column), sql.Literal(list(v)))
-                     for column, v in (("station_id", scope.stations), ("line", scope.lines))
-                     if v])
+                # the scope as a constant list: the planner then uses the station-led indexes
+                ids = [str(r[0]) for r in self._conn.execute(
+                    "SELECT station_id FROM plant.stations WHERE (%s OR station_id = ANY(%s)) "
+                    "AND (%s OR line = ANY(%s))",
+                    (not scope.stations, list(scope.stations), not scope.lines,
+                     list(scope.lines))).fetchall()]
                 for table in _VIEWED:
                     self._conn.execute(sql.SQL(
-                        "CREATE TEMPORARY VIEW {} AS SELECT * FROM plant.{} WHERE station_id IN "
-                        "(SELECT station_id FROM plant.stations WHERE {})").format(
-                        sql.Identifier(table), sql.Identifier(table), where))
+                        "CREATE TEMPORARY VIEW {} AS SELECT * FROM plant.{} WHERE station_id = "
+                        "ANY({}::text[])").format(sql.Identifier(table), sql.Identifier(table),
+                                                  sql.Literal(ids)))
             self._conn.execute("SET default_transaction_read_only = on")
         except Exception:
             self._conn.close()
