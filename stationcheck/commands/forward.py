@@ -101,6 +101,8 @@ def run(args: argparse.Namespace) -> int:
                      daemon=True, name="forward-status").start()
     forwarder.run(stop)
     stop.set()
+    if args.status_json:
+        print(json.dumps(forwarder.status.__dict__), flush=True)
     print(forwarder.status.line(), file=sys.stderr, flush=True)
     return 0
 

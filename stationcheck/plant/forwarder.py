@@ -67,7 +67,8 @@ class ForwardStatus:
     last_error: str | None = None
 
     def line(self) -> str:
-        state = "connected" if self.connected else f"not connected ({self.last_error or '-'})"
+        state = ("connected" if self.connected else
+                 f"not connected ({self.last_error})" if self.last_error else "not connected")
         return (f"forwarding {self.station_id}: {state}; server at seq {self.server_seq}, "
                 f"local {self.local_seq}; behind {self.lag_events} events, {self.lag_s:.1f} s")
 
@@ -224,6 +225,11 @@ class Forwarder:
                         raise
                     failures = self._after_failure(failures, str(exc))
                     stop.wait(self.backoff.delay_s(failures))
+            if self._status.connected:  # what the station logged while it was stopping
+                try:
+                    self.forward_once()
+                except PlantDatabaseError as exc:
+                    logger.warning("last pass before stopping failed: %s", exc)
         finally:
             self._log_progress(force=True)
             self.close()
