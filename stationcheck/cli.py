@@ -31,6 +31,8 @@ COMMAND_MODULES = (
     "check",
     "setup",
     "review",
+    "forward",
+    "plant",
     "eval",
     "train",
     "bench",

@@ -65,3 +65,8 @@ class MissingExtraError(StationcheckError):
     """An optional extra (e.g. ``train``) is needed for this command but not installed."""
 
     exit_code = 7
+
+
+class PlantDatabaseError(StoreError):
+    """The plant database (PostgreSQL) cannot be reached, refused the login, or answered with
+    something stationcheck did not expect."""

@@ -30,6 +30,7 @@ SECTION_MODULES: tuple[str, ...] = (
     "stationcheck.live.bench",
     "stationcheck.web.operator.bench",
     "stationcheck.web.flood_bench",
+    "stationcheck.plant.bench",
 )
 
 

@@ -1,8 +1,12 @@
 """``stationcheck review``: the quality engineer's screen over a step log (a local web app,
 read-only, safe beside a station that is writing), plus plain outputs for scripts.
 
+A ``postgresql://`` target reviews the plant database instead: the same outputs across
+stations, with ``--station`` / ``--line`` filters and ``--stations`` side by side.
+
 Exit codes: 0 done; 1 no unit with that serial (--unit); 6 the log is missing, not a step log,
-damaged or of a newer schema; 64 bad command line.
+damaged or of a newer schema, or the plant database refused or is unreachable; 7 the plant
+extra is missing; 64 bad command line.
 """
 
 from __future__ import annotations
@@ -27,7 +31,8 @@ times (--since, --until): 2026-03-01, 2026-03-01T14:30 (local time), or epoch se
 --until date includes that whole day. Periods use the wall clock the log recorded.
 
 exit codes: 0 done, 1 no unit with that serial (--unit), 6 the log is missing, not a step log,
-damaged or too new, 64 bad command line.
+damaged or too new, or the plant database refused or is unreachable, 7 the plant extra is
+missing (postgresql:// targets), 64 bad command line.
 """
 
 
@@ -59,7 +64,9 @@ def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[ty
         epilog=_EPILOG,
         formatter_class=argparse.RawDescriptionHelpFormatter,
     )
-    p.add_argument("log", metavar="LOG", type=Path, help="step log (.sqlite)")
+    p.add_argument("log", metavar="LOG", help="step log (.sqlite), or the plant database: "
+                   "postgresql://USER@HOST[:PORT]/DATABASE (password from "
+                   "STATIONCHECK_PG_PASSWORD or --password-file)")
     what = p.add_mutually_exclusive_group()
     what.add_argument("--units", action="store_true", help="print the units that match the filters")
     what.add_argument("--unit", metavar="SERIAL", help="print one unit's steps and alarms")
@@ -67,6 +74,17 @@ def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[ty
     what.add_argument("--trend", metavar="POSITION", help="print one fastener position's trend")
     what.add_argument("--report", metavar="OUT.html", type=Path,
                       help="write a standalone HTML report of the period")
+    what.add_argument("--stations", action="store_true",
+                      help="plant database: figures per station side by side (--trend-of for "
+                           "one position's trend at each)")
+    plant = p.add_argument_group("plant database (postgresql:// LOG)")
+    plant.add_argument("--station", metavar="ID[,ID...]", default="",
+                       help="only these stations")
+    plant.add_argument("--line", metavar="LINE[,LINE...]", default="", help="only these lines")
+    plant.add_argument("--trend-of", metavar="POSITION",
+                       help="with --stations: this position's trend at each station")
+    plant.add_argument("--password-file", type=Path, default=None,
+                       help="file holding the database password")
     fmt = p.add_mutually_exclusive_group()
     fmt.add_argument("--csv", action="store_true", help="CSV (units, a unit's steps, a trend)")
     fmt.add_argument("--json", action="store_true", help="one JSON document")
@@ -89,7 +107,6 @@ def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[ty
 
 def run(args: argparse.Namespace) -> int:
     from stationcheck.quality.period import Period
-    from stationcheck.store.sqlite_log import SqliteStepLog
 
     try:
         period = Period(args.since, args.until)
@@ -101,9 +118,16 @@ def run(args: argparse.Namespace) -> int:
         return _usage("--points must be in 10..5000")
     if args.csv and (args.figures or args.report):
         return _usage("--csv is for --units, --unit and --trend; figures come as text or --json")
-    if not (args.units or args.unit or args.figures or args.trend or args.report):
-        return _serve(args)
-    with SqliteStepLog(args.log, readonly=True) as step_log:
+    source = _source(args)
+    if (args.station or args.line or args.stations) and not source.is_plant:
+        return _usage("--station, --line and --stations need the plant database "
+                      "(postgresql://...); one step log is one station")
+    if not (args.units or args.unit or args.figures or args.trend or args.report
+            or args.stations):
+        return _serve(args, source)
+    if args.stations:
+        return _print_stations(source, args, period)
+    with source.reader(_scope(args)) as step_log:
         if args.units:
             return _print_units(step_log, args, period)
         if args.unit:
@@ -122,15 +146,66 @@ def _usage(message: str) -> int:
     return EXIT_USAGE
 
 
-def _serve(args: argparse.Namespace) -> int:
-    from stationcheck.web.app import serve_until_interrupted, start_server
-    from stationcheck.web.review import ReviewSource, build_review_router
+def _source(args: argparse.Namespace) -> Any:
+    from stationcheck.web.review import review_source
 
-    source = ReviewSource(args.log)
+    return review_source(args.log, args.password_file)
+
+
+def _scope(args: argparse.Namespace) -> Any:
+    if not (args.station or args.line):
+        return None
+    from stationcheck.plant.review_source import Scope
+
+    return Scope(tuple(s for s in args.station.split(",") if s),
+                 tuple(s for s in args.line.split(",") if s))
+
+
+def _serve(args: argparse.Namespace, source: Any) -> int:
+    from stationcheck.web.app import serve_until_interrupted, start_server
+    from stationcheck.web.review import build_review_router
+
     server = start_server(build_review_router(source), args.host, args.port, args.token,
                           tuple(args.allow_host))
-    return serve_until_interrupted(server, f"stationcheck review of {args.log}",
+    return serve_until_interrupted(server, f"stationcheck review of {source.name}",
                                    not args.no_browser)
+
+
+def _print_stations(source: Any, args: argparse.Namespace, period: Period) -> int:
+    from stationcheck.plant.side_by_side import (
+        station_figures_rows,
+        station_trends,
+        trend_summary,
+    )
+
+    with source.reader(_scope(args)) as reader:
+        rows = station_figures_rows(source, reader, period)
+    trends = []
+    if args.trend_of:
+        trends = [trend_summary(sid, t) for sid, t in station_trends(
+            source, [r["station_id"] for r in rows], args.trend_of, args.measure, period,
+            args.points)]
+    if args.json:
+        print(json.dumps({"period": period.describe(), "stations": rows, "trends": trends},
+                         ensure_ascii=False))
+        return 0
+    print(f"period: {period.describe()}")
+    print(f"{'station':<16} {'line':<10} {'units':>8} {'FTT %':>6} {'95 % interval':>15} "
+          f"{'NOK':>6} {'NOK res':>7} {'retries':>7} {'cycle s':>7}")
+    for r in rows:
+        ftt = f"{100 * r['ftt_rate']:6.1f}" if r["ftt_rate"] is not None else "     -"
+        ci = ("{:6.1f} to {:5.1f}".format(*(100 * v for v in r["ftt_interval_95"]))
+              if r["ftt_interval_95"] else "-")
+        cycle = (f"{r['cycle_time_median_s']:7.1f}" if r["cycle_time_median_s"] is not None
+                 else "      -")
+        print(f"{r['station_id']:<16} {r['line']:<10} {r['units']:>8,} {ftt} {ci:>15} "
+              f"{r['nok']:>6,} {r['nok_results']:>7,} {r['retries']:>7,} {cycle}")
+    for t in trends:
+        basis = (f"centre {t['centre']:.3f}, sigma {t['sigma']:.4f}" if t["sigma"] is not None
+                 else "no limits")
+        print(f"{args.trend_of} {args.measure} at {t['station_id']}: {t['count']} units, {basis}; "
+              f"{'; '.join(t['findings']) or 'no signal'}")
+    return 0
 
 
 def _print_units(step_log: SqliteStepLog, args: argparse.Namespace, period: Period) -> int:
@@ -260,9 +335,11 @@ def _print_trend(step_log: SqliteStepLog, args: argparse.Namespace, period: Peri
 
 def _write_report(step_log: SqliteStepLog, args: argparse.Namespace, period: Period) -> int:
     from stationcheck.errors import InputFileError
+    from stationcheck.plant.connect import is_plant_url, redacted
     from stationcheck.quality.report import build_report
 
-    html = build_report(step_log.connection, period, args.log.name)
+    name = redacted(args.log).rsplit("@", 1)[-1] if is_plant_url(args.log) else Path(args.log).name
+    html = build_report(step_log.connection, period, name)
     try:
         args.report.write_text(html, encoding="utf-8")
     except OSError as exc:

@@ -42,6 +42,12 @@ def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[ty
                    help="play a video file this many times faster than recorded (dry runs; "
                         "give the simulator the same --speed)")
     p.add_argument("--frames", type=int, default=None, help="stop after this many file frames")
+    p.add_argument("--forward-to", metavar="URL", default=None,
+                   help="also forward the step log to the plant database (postgresql://...), "
+                        "in a child process; the password from STATIONCHECK_PG_PASSWORD or "
+                        "--password-file")
+    p.add_argument("--password-file", type=Path, default=None,
+                   help="file holding the plant database password (with --forward-to)")
     from stationcheck.web.operator.options import add_screen_arguments
 
     add_screen_arguments(p, replay=False)
@@ -72,6 +78,15 @@ def run(args: argparse.Namespace) -> int:
         if screen.screen is not None:
             screen.screen.attach_live(loop)
 
+    forwarding = None
+    if args.forward_to is not None:
+        from stationcheck.plant.connect import check_url, driver
+        from stationcheck.plant.supervisor import ForwardChild
+
+        driver()
+        check_url(args.forward_to)
+        forwarding = ForwardChild(args.config, args.forward_to, args.log, args.password_file)
+        print(f"Forwarding the step log in process {forwarding.pid}", flush=True)
     ended = "run ended"
     try:
         with command_screen(args, args.config, "live") as screen:
@@ -80,6 +95,10 @@ def run(args: argparse.Namespace) -> int:
             run_live(settings, on_ready=ready)
     except KeyboardInterrupt:
         ended = "stopped"
+    finally:
+        if forwarding is not None:
+            forwarding.stop()
+            print(forwarding.line(), flush=True)
     print(f"{ended}: {summary(loops[0]) if loops else 'no frames'}; tool enable written off",
           flush=True)
     return 0

@@ -324,6 +324,14 @@ class LogSection(_Section):
     retention_days: Whole = Field(default=90, ge=1)
 
 
+class PlantSection(_Section):
+    """Where the station sits in the plant: stored with every event, named when forwarding."""
+
+    station_id: Ident
+    line: Text = "line"
+    plant: Text = "plant"
+
+
 class BinActivitySection(_Section):
     changed_fraction: Number = Field(
         default=judgement_defaults.BinActivitySettings.changed_fraction, gt=0, le=1)
@@ -377,6 +385,7 @@ class StationConfig(_Section):
     steps: list[StepEntry] = Field(min_length=1)
     plc: PlcSection = PlcSection()
     log: LogSection = LogSection()
+    plant: PlantSection | None = None
     judgements: JudgementsSection = JudgementsSection()
 
     _base_dir: Path = PrivateAttr(default_factory=Path.cwd)
@@ -414,6 +423,10 @@ class StationConfig(_Section):
     @property
     def log_path(self) -> Path:
         return self.resolve(self.log.path)
+
+    @property
+    def station_id(self) -> str | None:
+        return self.plant.station_id if self.plant is not None else None
 
     def zone_specs(self) -> list[ZoneSpec]:
         """All zones with bolt circles written out, in file order."""

@@ -114,9 +114,11 @@ def machine_jitter_ms(bursts: int = 300, idle_s: float = 0.03) -> tuple[float, f
 
 
 def run_on_loopback(options: BenchOptions, frames: int, speed: float,
-                    sinks: tuple[FrameSink, ...] = ()) -> tuple[LiveStats, LiveLoop]:
+                    sinks: tuple[FrameSink, ...] = (),
+                    log_path: Path | None = None) -> tuple[LiveStats, LiveLoop]:
     """One live run of the sample video at ``speed`` against a simulator process at the same
-    speed; ``sinks`` are added to the loop's frame sinks."""
+    speed; ``sinks`` are added to the loop's frame sinks; the step log goes to ``log_path``
+    (default: a temporary file)."""
     from stationcheck.live.session import LiveSettings, run_live
 
     loops: list[LiveLoop] = []
@@ -130,7 +132,7 @@ def run_on_loopback(options: BenchOptions, frames: int, speed: float,
         proc = start_simulator(port, errors, speed)
         try:
             stats = run_live(LiveSettings(
-                config_path=DEMO_CONFIG, log_path=Path(folder) / "bench.sqlite",
+                config_path=DEMO_CONFIG, log_path=log_path or Path(folder) / "bench.sqlite",
                 source=str(options.video or SAMPLE_VIDEO), link="client", host="127.0.0.1",
                 port=port, speed=speed, max_frames=frames, model_path=options.model),
                 on_ready=ready)

@@ -132,7 +132,7 @@ def run_live(settings: LiveSettings, should_stop: Callable[[], bool] = lambda: F
         detector = load_detector(settings.model_path or config.model_path,
                                  threads=config.model.threads)
         judges = [StationImageJudge(StationJudgements.from_config(config))]
-        log = SqliteStepLog(log_path)
+        log = SqliteStepLog(log_path, station_id=config.station_id)
         stack.callback(log.close)
         open_unit = log.open_unit_events()  # a unit left open by a stopped run continues
         if open_unit:

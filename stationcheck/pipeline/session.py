@@ -88,9 +88,9 @@ def truth_next_to(expected: Path) -> Path | None:
     return None
 
 
-def open_fresh_log(path: Path) -> SqliteStepLog:
+def open_fresh_log(path: Path, station_id: str | None = None) -> SqliteStepLog:
     """A replay writes a log of its own: an existing log with events is not touched."""
-    log = SqliteStepLog(path)
+    log = SqliteStepLog(path, station_id=station_id)
     if log.events(limit=1):
         log.close()
         raise StoreError(
@@ -212,7 +212,7 @@ def _open_outputs(stack: ExitStack, settings: ReplaySettings, plan: StationPlan,
                   fps: float | None, config: StationConfig | None = None) -> _Outputs:
     """``config`` given (a replay with frames): evidence images as the config's log section
     says, old ones pruned first."""
-    log = open_fresh_log(settings.log_path)
+    log = open_fresh_log(settings.log_path, config.station_id if config is not None else None)
     stack.callback(log.close)
     evidence = None
     if config is not None:

@@ -170,11 +170,18 @@ def _create_review_indexes(conn: sqlite3.Connection) -> bool:
     return False
 
 
+def _add_station_id(conn: sqlite3.Connection) -> bool:
+    """Events name the station that logged them; older events keep NULL (the station's own)."""
+    conn.execute("ALTER TABLE events ADD COLUMN station_id TEXT")
+    return False
+
+
 # Each migration returns True when the derived tables must be refilled from the events. Append only; never edit a released migration.
 MIGRATIONS: tuple[Callable[[sqlite3.Connection], bool], ...] = (
     _create_events,  # v1: the event table alone
     _create_derived,  # v2: units, steps, alarms derived from the events
     _create_review_indexes,  # v3: indexes for the review's figures and trends
+    _add_station_id,  # v4: the station id (plant section of the config) with every event
 )
 SCHEMA_VERSION = len(MIGRATIONS)
 

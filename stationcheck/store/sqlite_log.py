@@ -97,11 +97,13 @@ class SqliteStepLog:
         readonly: bool = False,
         synchronous: Synchronous = "FULL",
         busy_timeout_ms: int = 5000,
+        station_id: str | None = None,
     ) -> None:
         if synchronous not in SYNCHRONOUS_MODES:
             raise ValueError(f"synchronous must be one of {SYNCHRONOUS_MODES}, got {synchronous!r}")
         self.path = Path(path)
         self.readonly = readonly
+        self.station_id = station_id  # stored with every event this log appends
         self._conn = (
             self._open_reader(busy_timeout_ms) if readonly
             else self._open_writer(synchronous, busy_timeout_ms)
@@ -193,9 +195,10 @@ class SqliteStepLog:
             with write_transaction(conn):
                 first = self._next_seq()
                 conn.executemany(
-                    f"INSERT INTO events ({_EVENT_COLUMNS}) VALUES (?, ?, ?, ?, ?, ?)",
-                    [(first + i, e.t_s, e.kind, e.serial, dump_json(dict(e.data)), recorded_at_s)
-                     for i, e in enumerate(batch)],
+                    f"INSERT INTO events ({_EVENT_COLUMNS}, station_id) "
+                    "VALUES (?, ?, ?, ?, ?, ?, ?)",
+                    [(first + i, e.t_s, e.kind, e.serial, dump_json(dict(e.data)), recorded_at_s,
+                      self.station_id) for i, e in enumerate(batch)],
                 )
                 tables = BufferedSqlTables(conn)
                 for i, event in enumerate(batch):
@@ -229,6 +232,28 @@ class SqliteStepLog:
         with store_errors(self.path, "reading events"):
             rows = self._conn.execute(sql, params).fetchall()
         return tuple(stored_event_from_sql(row) for row in rows)
+
+    def raw_events(self, after_seq: int, limit: int) -> list[tuple[Any, ...]]:
+        """Events as stored (seq, t_s, kind, serial, data JSON text, recorded_at_s, station_id),
+        after ``after_seq``: what forwarding ships, byte for byte."""
+        with store_errors(self.path, "reading events"):
+            return self._conn.execute(
+                f"SELECT {_EVENT_COLUMNS}, station_id FROM events WHERE seq > ? ORDER BY seq "
+                "LIMIT ?", (after_seq, limit)).fetchall()
+
+    def last_seq(self) -> tuple[int, float | None]:
+        """The newest event's seq and wall-clock time ((0, None) when the log is empty)."""
+        with store_errors(self.path, "reading events"):
+            row = self._conn.execute(
+                "SELECT seq, recorded_at_s FROM events ORDER BY seq DESC LIMIT 1").fetchone()
+        return (0, None) if row is None else (int(row[0]), float(row[1]))
+
+    def recorded_at(self, seq: int) -> float | None:
+        """The wall-clock time of the event with this seq (None when there is none)."""
+        with store_errors(self.path, "reading events"):
+            row = self._conn.execute(
+                "SELECT recorded_at_s FROM events WHERE seq = ?", (seq,)).fetchone()
+        return None if row is None else float(row[0])
 
     def open_unit_events(self) -> tuple[Event, ...]:
         """The events of the open pass of the most recently opened unit still open (empty when

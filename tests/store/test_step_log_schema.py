@@ -91,3 +91,21 @@ def test_failing_migration_leaves_the_old_version(tmp_path: Path,
 def test_migrations_are_numbered_by_position() -> None:
     assert schema.SCHEMA_VERSION == len(schema.MIGRATIONS) >= 2
     assert len(set(schema.MIGRATIONS)) == len(schema.MIGRATIONS)
+
+
+def test_v3_log_gets_the_station_id_column(tmp_path: Path) -> None:
+    """Events written before the station had an id keep NULL; new ones carry the config's id."""
+    path = tmp_path / "v3.sqlite"
+    rows = stream_events(2)
+    conn = sqlite3.connect(path, isolation_level=None)
+    schema.migrate(conn, refill_derived, upto=3)
+    conn.execute("BEGIN")
+    conn.executemany(
+        "INSERT INTO events (t_s, kind, serial, data, recorded_at_s) VALUES (?, ?, ?, ?, ?)", rows)
+    conn.execute("COMMIT")
+    conn.close()
+    with SqliteStepLog(path, station_id="cover-7") as log:
+        assert schema.schema_version(log.connection) == schema.SCHEMA_VERSION
+        log.append([e.event for e in log.events(limit=1)], RECORDED_AT_S + 99)
+        owners = [r[6] for r in log.raw_events(0, 10_000)]
+    assert owners == [None] * len(rows) + ["cover-7"]

@@ -9,6 +9,7 @@ const STATUS = {
   open: ["meaning-neutral", "\u25CC open"],
 };
 const state = { info: null, unitParams: null, pages: [], after: null };
+const plant = () => Boolean(state.info && state.info.stations);
 
 function $(id) { return document.getElementById(id); }
 
@@ -121,12 +122,16 @@ async function loadUnitPage() {
 function unitRow(u) {
   const status = el("td", {}, badge(u.status));
   if (u.reworked) status.append(" ", el("span", { class: "badge meaning-abnormal" }, "! reworked"));
-  const link = el("a", { href: `#/unit/${encodeURIComponent(u.serial)}` }, u.serial);
+  const only = u.station ? `?station=${encodeURIComponent(u.station)}` : "";
+  const link = el("a", { href: `#/unit/${encodeURIComponent(u.serial)}${only}` }, u.serial);
+  const others = (u.stations || []).filter((s) => s !== u.station);
+  const stations = plant() ? el("td", {}, u.station || "",
+    others.length ? el("span", { class: "muted" }, ` (also ${others.join(", ")})`) : null) : null;
   return el("tr", {},
     el("td", {}, link), el("td", {}, localTime(u.started_at_s)), status,
     el("td", { class: "num" }, u.passes), el("td", { class: "num" }, u.retries),
     el("td", { class: "num" }, u.nok_results), el("td", {}, u.failed_positions.join(", ")),
-    el("td", { class: "num" }, seconds(u.cycle_time_s)), el("td", { class: "num" }, u.alarm_count));
+    el("td", { class: "num" }, seconds(u.cycle_time_s)), el("td", { class: "num" }, u.alarm_count), stations);
 }
 
 // ---- one unit
@@ -138,9 +143,18 @@ function measured(value, low, high) {
     `${value.toFixed(2)}${limits}`);
 }
 
-async function showUnit(serial) {
-  const data = await getJSON(`/api/unit?serial=${encodeURIComponent(serial)}`);
+async function showUnit(serial, params) {
+  const scope = new URLSearchParams();
+  for (const key of ["station", "line"]) if (params.get(key)) scope.set(key, params.get(key));
+  const data = await getJSON(`/api/unit?serial=${encodeURIComponent(serial)}${scope.size ? "&" + scope : ""}`);
   const u = data.unit;
+  if (plant()) {
+    const shown = params.get("station") || (data.stations || [])[0] || "";
+    const links = (data.stations || []).map((s) => s === shown ? el("strong", {}, s)
+      : el("a", { href: `#/unit/${encodeURIComponent(serial)}?station=${encodeURIComponent(s)}` }, s));
+    $("unit-stations").replaceChildren(`Station ${shown}. Logged at: `,
+      ...links.flatMap((l, i) => (i ? [", ", l] : [l])));
+  }
   $("unit-serial").textContent = u.serial;
   const status = $("unit-status");
   status.replaceChildren(badge(u.status));
@@ -238,6 +252,33 @@ async function showTrends(params) {
     `CUSUM k ${t.cusum.k.toFixed(3)}, h ${t.cusum.h.toFixed(3)}; Western Electric rules 1-4.`;
 }
 
+// ---- stations side by side (plant database)
+async function showStations(params) {
+  fillForm($("station-filters"), params);
+  const body = await getJSON(`/api/stations?${params}`);
+  const rows = body.stations.map((r) => el("tr", {},
+    el("td", {}, el("a", { href: `#/figures?station=${encodeURIComponent(r.station_id)}` }, r.station_id)),
+    el("td", {}, r.line), el("td", { class: "num" }, number(r.units)),
+    el("td", { class: "num" }, percent(r.ftt_rate)),
+    el("td", { class: "num" }, r.ftt_interval_95 ? `${percent(r.ftt_interval_95[0])} to ${percent(r.ftt_interval_95[1])}` : "-"),
+    el("td", { class: "num" }, number(r.ok)), el("td", { class: "num" }, number(r.nok)),
+    el("td", { class: "num" }, number(r.reworked)), el("td", { class: "num" }, number(r.nok_results)),
+    el("td", { class: "num" }, number(r.retries)), el("td", { class: "num" }, seconds(r.cycle_time_median_s)),
+    el("td", { class: "num" }, `${number(r.forwarded_seq)} / ${number(r.folded_seq)}`)));
+  $("station-table").querySelector("tbody").replaceChildren(...(rows.length ? rows
+    : [el("tr", {}, el("td", { colspan: 12 }, "No stations match."))]));
+  const trends = $("station-trends");
+  trends.replaceChildren(...body.trends.map((t) => {
+    const box = el("div", { class: "station-trend" }, el("h3", {}, t.station_id),
+      el("p", { class: t.findings.length ? "signal" : "calm" }, t.findings.length ? t.findings.join("; ")
+        : "No signal: within its control limits and run rules."));
+    const chart = el("div", {});
+    chart.innerHTML = t.chart; // made by the server from numbers; the text in it is escaped there
+    box.append(chart);
+    return box;
+  }));
+}
+
 // ---- navigation
 async function route() {
   showError("");
@@ -250,7 +291,8 @@ async function route() {
     link.classList.toggle("active", link.dataset.view === view || (view === "unit" && link.dataset.view === "units"));
   }
   try {
-    if (view === "unit") await showUnit(decodeURIComponent(path.slice("/unit/".length)));
+    if (view === "unit") await showUnit(decodeURIComponent(path.slice("/unit/".length)), params);
+    else if (view === "stations") await showStations(params);
     else if (view === "figures") await showFigures(params);
     else if (view === "trends") await showTrends(params);
     else await showUnits(params);
@@ -278,12 +320,25 @@ async function start() {
       $("trend-position").append(el("option", { value: p }, p));
     }
     for (const code of state.info.alarm_codes) $("alarm-filter").append(el("option", { value: code }, code));
+    if (plant()) {
+      $("log-name").textContent = `plant database ${state.info.log}`;
+      for (const node of document.querySelectorAll(".plant-only")) node.hidden = false;
+      const lines = [...new Set(state.info.stations.map((s) => s.line))];
+      for (const select of document.querySelectorAll(".station-filter")) {
+        for (const s of state.info.stations) select.append(el("option", { value: s.station_id }, `${s.station_id} (${s.line})`));
+      }
+      for (const select of document.querySelectorAll(".line-filter")) {
+        for (const line of lines) select.append(el("option", { value: line }, line));
+      }
+      for (const p of state.info.positions) $("stations-position").append(el("option", { value: p }, p));
+    }
   } catch (err) {
     showError(err.message);
   }
   submitTo("unit-filters", "units");
   submitTo("figure-filters", "figures");
   submitTo("trend-filters", "trends");
+  submitTo("station-filters", "stations");
   $("next-page").addEventListener("click", () => {
     if (state.after) { state.pages.push(state.after); loadUnitPage().catch((e) => showError(e.message)); }
   });
