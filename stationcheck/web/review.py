@@ -207,7 +207,6 @@ def build_review_router(source: Any) -> Router:
                     body["unit"]["serial"], [])
         return Response.json(body)
 
-    @router.get("/api/stations")
     def stations(request: Request) -> Response:
         if not source.is_plant:
             raise WebError(404, "one step log is one station; review the plant database for "
@@ -316,6 +315,7 @@ def build_review_router(source: Any) -> Router:
             ("/api/trend", trend),
             ("/api/report.html", report),
             ("/api/evidence", evidence),
+            ("/api/stations", stations),
     ):
         router.add("GET", path, handler)
     return router
