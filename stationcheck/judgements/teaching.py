@@ -27,6 +27,7 @@ import numpy as np
 
 from stationcheck.config import yaml_text
 from stationcheck.config.schema import StationConfig
+from stationcheck.config.station_files import MANIFEST_NAME, teaching_folder
 from stationcheck.core.plan import ZoneSpec
 from stationcheck.errors import ConfigError, InputFileError
 from stationcheck.judgements.presence import (
@@ -41,7 +42,6 @@ from stationcheck.judgements.zone_window import U8Array, zone_box_px
 
 logger = logging.getLogger(__name__)
 
-MANIFEST_NAME = "references.yaml"
 FORMAT_VERSION = 1
 CROP_MARGIN_PX = 16
 ALIGN_PX = 4
@@ -88,7 +88,7 @@ def check_zone(config: StationConfig, zone_id: str) -> ZoneSpec:
 
 def teaching_dir(config: StationConfig, zone_id: str) -> Path:
     """Where the references of ``zone_id`` live: beside the station's reference frame."""
-    return config.reference_frame_path.parent / zone_id
+    return teaching_folder(config.reference_frame_path, zone_id)
 
 
 def read_manifest(folder: Path) -> Manifest | None:

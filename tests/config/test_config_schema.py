@@ -208,7 +208,7 @@ BAD: list[Any] = [
 def test_good_configs_have_no_findings(
     changes: list[tuple[str, Any]], check_changes: Callable[..., CheckResult]
 ) -> None:
-    result = check_changes(changes)
+    result = check_changes(changes, with_files=("videos/dry run.mp4", "models/tool.onnx"))
     assert result.findings == (), result.lines()
     assert result.config is not None
 
