@@ -10,7 +10,7 @@ from typing import Any
 
 from stationcheck.web.app import STATIC_ROOT, add_common_files
 from stationcheck.web.server import Request, Response, Router, WebError
-from stationcheck.web.setup import checking, dry_run, frames, teaching_service
+from stationcheck.web.setup import checking, dry_run, frames, station_copy, teaching_service
 from stationcheck.web.setup.workspace import SetupSession
 
 SETUP_STATIC = STATIC_ROOT / "setup"
@@ -92,10 +92,15 @@ class SetupApp:
     def save(self, request: Request) -> Response:
         body = _body(request)
         data = _document(body)
-        path = body.get("path")
-        target = self.session.save(data, str(path) if path else None)
+        path = str(body["path"]) if body.get("path") else None
+        plan = station_copy.plan_carry(data, self.session.base_dir,
+                                       self.session.target_of(path).parent,
+                                       self.session.workspace)
+        station_copy.carry(plan)
+        target = self.session.save(plan.data, path)
         return Response.json({"path": self.session.workspace.shown(target),
-                              "check": self._checked(data)})
+                              "data": plan.data, "carried": plan.notes,
+                              "check": self._checked(plan.data)})
 
     def reference_image(self, request: Request) -> Response:
         path = self.session.resolve(request.query.get("path", ""))

@@ -101,8 +101,8 @@ class SetupSession:
             raise WebError(404, "the config names no reference frame (station.reference_frame)")
         return self.resolve(name)
 
-    def save(self, data: dict[str, Any], path_text: str | None) -> Path:
-        """Write ``data`` into the document in place and the document to its file."""
+    def target_of(self, path_text: str | None) -> Path:
+        """Where a save goes: ``path_text`` (from the config's folder), else the open file."""
         target = self.config_path
         if path_text:
             target = self.resolve(path_text)
@@ -110,6 +110,11 @@ class SetupSession:
             target = self.resolve(DEFAULT_NEW_NAME)
         if target.suffix.lower() not in CONFIG_SUFFIXES:
             raise WebError(400, f"a station config is a .yaml file, not {target.name}")
+        return target
+
+    def save(self, data: dict[str, Any], path_text: str | None) -> Path:
+        """Write ``data`` into the document in place and the document to its file."""
+        target = self.target_of(path_text)
         with self.lock:
             yaml_document.merge_into(self.document, data)
             text = yaml_document.dump_text(self.document)

@@ -20,7 +20,6 @@ const saveNote = document.getElementById("save-note");
 
 function renderTop() {
   document.getElementById("file-name").textContent = S.configPath || "(new config, not saved)";
-  document.getElementById("save-as").hidden = S.configPath !== null;
   const check = S.check;
   const meaning = check.errors ? "fault" : check.warnings ? "abnormal" : "normal";
   const symbol = check.errors ? "\u2716" : check.warnings ? "!" : "\u2714";
@@ -58,15 +57,20 @@ function renderPanel() {
     ...(other.length ? [el("h2", {}, "Other findings"), ...findingList(other)] : []));
 }
 
-async function save() {
+async function save(saveAs = false) {
   const body = { data: S.data };
-  if (S.configPath === null) body.path = document.getElementById("save-path").value;
+  if (S.configPath === null || saveAs === true) {
+    body.path = document.getElementById("save-path").value;
+  }
   try {
     const out = await api("POST", "/api/save", body);
     S.configPath = out.path;
+    S.data = out.data;
     S.check = out.check;
     S.dirty = false;
+    S.pictureVersion += 1;
     saveNote.textContent = `saved ${out.path} at ${new Date().toLocaleTimeString()}`
+      + (out.carried.length ? `; ${out.carried.join("; ")}` : "")
       + (out.check.errors ? " (with errors: the station cannot run it yet)" : "");
   } catch (err) {
     saveNote.textContent = `not saved: ${err.message}`;
@@ -81,7 +85,7 @@ function typing(evt) {
 
 function onKey(evt) {
   const ctrl = evt.ctrlKey || evt.metaKey;
-  if (ctrl && evt.key.toLowerCase() === "s") { evt.preventDefault(); save(); return; }
+  if (ctrl && evt.key.toLowerCase() === "s") { evt.preventDefault(); save(false); return; }
   if (typing(evt)) return;
   if (ctrl && evt.key.toLowerCase() === "z") { evt.preventDefault(); undo(); return; }
   const actions = {
@@ -99,7 +103,8 @@ async function start() {
     button.addEventListener("click", () => { S.tab = button.dataset.tab; render(); });
   }
   document.getElementById("undo").addEventListener("click", undo);
-  document.getElementById("save").addEventListener("click", save);
+  document.getElementById("save").addEventListener("click", () => save(false));
+  document.getElementById("save-as-button").addEventListener("click", () => save(true));
   document.addEventListener("keydown", onKey);
   window.addEventListener("beforeunload", (evt) => { if (S.dirty) evt.preventDefault(); });
   const state = await api("GET", "/api/state");
