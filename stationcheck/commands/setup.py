@@ -38,10 +38,12 @@ def run(args: argparse.Namespace) -> int:
 
     root: Path = args.root if args.root is not None else default_root(args.config, Path.cwd())
     if not root.is_dir():
-        raise InputFileError(f"{root}: no such folder")
+        raise InputFileError(f"--root {root}: no such folder (tried {root.resolve()})")
     workspace = Workspace(root)
     if args.config is not None and not args.config.resolve().is_relative_to(workspace.root):
-        raise InputFileError(f"{args.config} lies outside the setup folder {workspace.root}")
+        raise InputFileError(
+            f"{args.config} is {args.config.resolve()}, outside the setup folder "
+            f"{workspace.root}; add --root with a folder that holds it")
     session = SetupSession.open(workspace, args.config)
     server = start_server(build_router(session), args.host, args.port, args.token,
                           tuple(args.allow_host))

@@ -16,6 +16,7 @@ from stationcheck.web.setup.workspace import SetupSession
 SETUP_STATIC = STATIC_ROOT / "setup"
 # the page sends the whole config with most requests: room for ten thousand zones
 DOCUMENT_BODY_BYTES = 8 * 1024 * 1024
+FILE_KINDS = {"video": (".mp4", ".avi", ".mkv", ".mov", ".webm"), "inputs": (".jsonl",)}
 
 
 class SetupApp:
@@ -34,6 +35,7 @@ class SetupApp:
             ("GET", "/api/reference-image"): self.reference_image,
             ("POST", "/api/reference"): self.take_reference,
             ("GET", "/api/video-info"): self.video_info,
+            ("GET", "/api/files"): self.files,
             ("POST", "/api/teach/list"): self.teach_list,
             ("POST", "/api/teach"): self.teach,
             ("POST", "/api/teach/clear"): self.teach_clear,
@@ -107,7 +109,8 @@ class SetupApp:
         if path.suffix.lower() not in frames.IMAGE_SUFFIXES:
             raise WebError(403, "refused: only the reference frame image is served")
         if not path.is_file():
-            raise WebError(404, f"no reference frame yet at {request.query.get('path')}")
+            raise WebError(404, f"no reference frame yet: tried {path}; take one in the "
+                                "Picture tab")
         kind = "image/png" if path.suffix.lower() == ".png" else "image/jpeg"
         return Response(200, path.read_bytes(), kind, {"Cache-Control": "no-store"})
 
@@ -122,7 +125,16 @@ class SetupApp:
                               "height_px": int(image.shape[0])})
 
     def video_info(self, request: Request) -> Response:
-        return Response.json(frames.video_info(self.session.resolve(request.query.get("path", ""))))
+        return Response.json(frames.video_info(
+            self.session.existing_file(request.query.get("path", ""), "video file")))
+
+    def files(self, request: Request) -> Response:
+        kind = request.query.get("kind", "")
+        if kind not in FILE_KINDS:
+            raise WebError(400, f"kind must be one of {', '.join(FILE_KINDS)}")
+        workspace = self.session.workspace
+        return Response.json({"root": str(workspace.root), "kind": kind,
+                              "files": workspace.files(FILE_KINDS[kind], self.session.base_dir)})
 
     def teach_list(self, request: Request) -> Response:
         body = _body(request)
@@ -147,9 +159,9 @@ class SetupApp:
     def dry_run(self, request: Request) -> Response:
         body = _body(request)
         config = dry_run.usable_config(_document(body), self.session.base_dir)
-        video = self.session.resolve(str(body.get("video") or ""))
+        video = self.session.existing_file(str(body.get("video") or ""), "video file")
         inputs_text = body.get("inputs")
-        inputs = (self.session.resolve(str(inputs_text)) if inputs_text
+        inputs = (self.session.existing_file(str(inputs_text), "inputs file") if inputs_text
                   else dry_run.inputs_beside(video))
         start_s, seconds = body.get("start_s", 0), body.get("seconds", 4)
         if not all(isinstance(v, int | float) and not isinstance(v, bool)

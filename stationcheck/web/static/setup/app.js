@@ -52,9 +52,28 @@ function renderPanel() {
   const scroll = panel.scrollTop;
   panel.replaceChildren(...PANELS[S.tab]().flat().filter((n) => n !== null && n !== undefined));
   panel.scrollTop = scroll;
-  const other = S.check.findings.filter((f) => !(f.where[0] in TAB_OF));
-  document.getElementById("other-findings").replaceChildren(
-    ...(other.length ? [el("h2", {}, "Other findings"), ...findingList(other)] : []));
+  renderOtherFindings();
+}
+
+// Every finding the badge counts is shown as text: those of the open tab in its panel, the
+// rest here, each saying which tab it belongs to (a click opens that tab).
+const SHOWN_ELSEWHERE = 8;
+function renderOtherFindings() {
+  const elsewhere = S.check.findings.filter((f) => TAB_OF[f.where[0]] !== S.tab)
+    .sort((a, b) => (a.severity === b.severity ? 0 : a.severity === "error" ? -1 : 1));
+  const rows = findingList(elsewhere.slice(0, SHOWN_ELSEWHERE)).map((row, i) => {
+    const tab = TAB_OF[elsewhere[i].where[0]];
+    if (!tab) return row;
+    row.prepend(el("span", { class: "tab-name" }, `${tab} tab \u203a `));
+    row.classList.add("link");
+    row.addEventListener("click", () => { S.tab = tab; render(); });
+    return row;
+  });
+  const more = elsewhere.length - SHOWN_ELSEWHERE;
+  document.getElementById("other-findings").replaceChildren(...(elsewhere.length
+    ? [el("h2", {}, `Findings on other tabs (${elsewhere.length})`), ...rows,
+       more > 0 ? el("p", { class: "note" }, `and ${more} more`) : null]
+    : []).filter((n) => n !== null));
 }
 
 async function save(saveAs = false) {

@@ -1,7 +1,7 @@
 // The Picture, Teach and Dry run tabs: everything that takes frames from a source.
 
 import { S, api, change, render, findingsAt } from "./state.js";
-import { el, boundInput, findingsFor, findingList } from "./dom.js";
+import { el, boundInput, findingsFor, findingList, filePicker } from "./dom.js";
 import { showPlayer } from "./player.js";
 
 // Source choice shared by the Picture and Teach tabs (kept while the page is open).
@@ -20,6 +20,11 @@ function settingInput(settings, prefix, key, attrs = {}) {
   return input;
 }
 
+// A path field with the picker of the setup folder's files beside it.
+function pathField(input, kind) {
+  return el("span", { class: "path-field" }, input, filePicker(kind, input, api));
+}
+
 function sourceFields() {
   if (source.video === null) source.video = S.defaultVideo || "";
   const bind = (key, attrs) => settingInput(source, "source", key, attrs);
@@ -31,7 +36,8 @@ function sourceFields() {
        radio("stream", "stream")),
     el("div", { class: "fields" },
       ...(source.kind === "video" ? [
-        el("label", {}, "video (from the config's folder)"), bind("video", { size: 28 }),
+        el("label", {}, "video (from the config's folder)"),
+        pathField(bind("video", { size: 22 }), "video"),
         el("label", {}, "at (seconds)"), bind("at_s", { inputmode: "decimal", size: 6 })] : []),
       ...(source.kind === "camera" ? [el("label", {}, "camera index"),
                                       bind("camera", { inputmode: "numeric", size: 3 })] : []),
@@ -172,9 +178,9 @@ export function dryRunPanel() {
       + "detection, zones, image checks and step sequence; nothing is written to disk. Station "
       + "inputs (serials, tightening results) come from the video's _inputs.jsonl file."),
     el("div", { class: "fields" },
-      el("label", {}, "video"), field("video", { size: 28 }),
-      el("label", {}, "inputs (optional)"), field("inputs", { size: 28,
-        placeholder: "beside the video" }),
+      el("label", {}, "video"), pathField(field("video", { size: 22 }), "video"),
+      el("label", {}, "inputs (optional)"), pathField(field("inputs", { size: 22,
+        placeholder: "beside the video" }), "inputs"),
       el("label", {}, "start at (s)"), field("start_s", { inputmode: "decimal", size: 6 }),
       el("label", {}, "seconds (up to 20)"), field("seconds", { inputmode: "decimal", size: 6 })),
     el("div", { class: "line" }, run, el("span", { class: "note" }, busyNote && !result

@@ -12,6 +12,8 @@ const handlesLayer = document.getElementById("handles");
 const draftLayer = document.getElementById("draft");
 const hint = document.getElementById("hint");
 const zoomLevel = document.getElementById("zoom-level");
+const emptyState = document.getElementById("empty-state");
+let failedHref = null;
 
 const HINTS = {
   select: "Click a zone to select it; drag its points or the zone; double-click an edge to add a "
@@ -113,7 +115,12 @@ export function renderStage() {
   edge.setAttribute("height", h);
   const ref = (S.data.station || {}).reference_frame;
   const href = ref ? `/api/reference-image?path=${encodeURIComponent(ref)}&v=${S.pictureVersion}` : "";
-  if (picture.getAttribute("href") !== href) picture.setAttribute("href", href);
+  // a picture that failed is not asked for again (nor drawn as a broken image) until the
+  // reference frame's name or version changes
+  if (href !== failedHref && picture.getAttribute("href") !== href) {
+    if (href) picture.setAttribute("href", href); else picture.removeAttribute("href");
+  }
+  emptyState.hidden = Boolean(href) && href !== failedHref;
   svg.setAttribute("class", `mode-${S.mode}`);
   for (const button of document.querySelectorAll("button.mode")) {
     button.classList.toggle("on", button.dataset.mode === S.mode);
@@ -355,8 +362,21 @@ export function installStage() {
   svg.addEventListener("pointerup", onPointerUp);
   svg.addEventListener("dblclick", onDoubleClick);
   svg.addEventListener("wheel", onWheel, { passive: false });
-  picture.addEventListener("error", () => {
-    hint.textContent = "No reference frame yet: take one in the Picture tab.";
+  picture.addEventListener("error", async () => {
+    failedHref = picture.getAttribute("href");
+    picture.removeAttribute("href");
+    emptyState.hidden = false;
+    try {
+      const resp = await fetch(failedHref);
+      document.getElementById("empty-tried").textContent = (await resp.json()).error || "";
+    } catch (err) { /* the steps above say what to do */ }
+  });
+  picture.addEventListener("load", () => {
+    emptyState.hidden = true;
+    picture.dataset.loaded = picture.getAttribute("href");
+  });
+  document.getElementById("empty-go").addEventListener("click", () => {
+    S.tab = "picture"; render();
   });
   for (const button of document.querySelectorAll("button.mode")) {
     button.addEventListener("click", () => setMode(button.dataset.mode));
