@@ -302,6 +302,24 @@ def separation(taught: TaughtClasses) -> Separation | None:
                       max(other_scores), tuple(misfits))
 
 
+def misfit_files(manifest: Manifest, found: Separation) -> list[str]:
+    """The image files ``found.misfits`` points at (indices run class by class)."""
+    ordered = [image.file for label in LABELS for image in manifest.images if image.label == label]
+    return [ordered[k] for k in found.misfits if k < len(ordered)]
+
+
+def poor_teaching(manifest: Manifest, found: Separation) -> str | None:
+    """What is wrong with a teaching whose classes do not stand apart; None when they do."""
+    if found.gap >= 0 and not found.misfits:
+        return None
+    names = misfit_files(manifest, found)
+    which = (f"; {len(names)} image(s) look more like the other class: {', '.join(names)}"
+             if names else "")
+    return (f"the taught classes do not stand apart (gap {found.gap:.2f}, should be above 0)"
+            f"{which}; forget those images and teach again with the part clearly present or "
+            "absent")
+
+
 def _other(label: Label) -> Label:
     return "absent" if label == "present" else "present"
 

@@ -7,6 +7,7 @@ circles written out, each numbered in its fasten step's tightening order.
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from pathlib import Path
 from typing import Any
 
@@ -15,7 +16,9 @@ from stationcheck.config.parts import parts_of_data
 from stationcheck.core import bolt_pattern
 
 
-def check_for_page(data: dict[str, Any], base_dir: Path, source: str) -> dict[str, Any]:
+def check_for_page(data: dict[str, Any], base_dir: Path, source: str,
+                   extra: Sequence[dict[str, Any]] = ()) -> dict[str, Any]:
+    """The page's check; ``extra`` adds findings only the screen makes (teaching quality)."""
     result = check_data(data, base_dir=base_dir, source=source)
     parts = result.parts if result.parts is not None else parts_of_data(data)
     order = tightening_numbers(data)
@@ -30,14 +33,18 @@ def check_for_page(data: dict[str, Any], base_dir: Path, source: str) -> dict[st
         }
         for zone in parts.zones
     ]
+    findings = [{**finding.to_json(), "where": list(finding.path)}
+                for finding in result.findings] + list(extra)
+    warnings = len(result.warnings) + sum(1 for f in extra if f["severity"] == "warning")
+    summary = result.summary()
+    if extra and result.ok:
+        summary = f"{source}: OK with warnings: 0 errors, {warnings} warnings"
     return {
-        "summary": result.summary(),
+        "summary": summary,
         "ok": result.ok,
         "errors": len(result.errors),
-        "warnings": len(result.warnings),
-        "findings": [
-            {**finding.to_json(), "where": list(finding.path)} for finding in result.findings
-        ],
+        "warnings": warnings,
+        "findings": findings,
         "zones": zones,
     }
 

@@ -53,7 +53,8 @@ class SetupApp:
         return self.session.workspace.shown(path) if path is not None else "(new config)"
 
     def _checked(self, data: dict[str, Any]) -> dict[str, Any]:
-        return checking.check_for_page(data, self.session.base_dir, self._source())
+        return checking.check_for_page(data, self.session.base_dir, self._source(),
+                                       teaching_service.teaching_findings(self.session, data))
 
     def state(self, request: Request) -> Response:
         data = self.session.data()

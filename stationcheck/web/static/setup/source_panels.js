@@ -1,6 +1,6 @@
 // The Picture, Teach and Dry run tabs: everything that takes frames from a source.
 
-import { S, api, change, render, findingsAt } from "./state.js";
+import { S, api, change, render, findingsAt, scheduleCheck } from "./state.js";
 import { el, boundInput, findingsFor, findingList, filePicker } from "./dom.js";
 import { showPlayer } from "./player.js";
 
@@ -9,7 +9,9 @@ const source = { kind: "video", video: null, at_s: 0, camera: 0, url: "" };
 let teachZone = null;
 let teachInfo = null;
 const dryRun = { video: null, inputs: "", start_s: 0, seconds: 4, result: null };
-let busyNote = "";
+const teachSettings = { count: 1, every_s: 1 };
+// What the last action of each tab said: { text, ok } (ok: a success, not an error).
+const notes = { picture: null, teach: null, dryrun: null };
 
 // An input bound to a key of this module's own settings (`source`, `dryRun`), not the document.
 function settingInput(settings, prefix, key, attrs = {}) {
@@ -51,19 +53,26 @@ function sourceBody() {
            camera: source.camera, url: source.url };
 }
 
-function busy(button, work) {
+function busy(button, tab, work) {
   return async () => {
     button.disabled = true;
-    busyNote = "";
-    try { await work(); } catch (err) { busyNote = err.message; }
+    notes[tab] = null;
+    try { await work(); } catch (err) { notes[tab] = { text: err.message, ok: false }; }
     button.disabled = false;
     render();
   };
 }
 
+function noteOf(tab, id) {
+  const note = notes[tab];
+  if (!note) return null;
+  return note.ok ? el("p", { class: "note done-note", id, role: "status" }, `\u2714 ${note.text}`)
+    : el("div", { class: "finding error", id, role: "alert" }, `\u2716 ${note.text}`);
+}
+
 export function picturePanel() {
   const take = el("button", { class: "primary", id: "take-reference" }, "Take reference frame");
-  take.addEventListener("click", busy(take, async () => {
+  take.addEventListener("click", busy(take, "picture", async () => {
     const camera = S.data.camera || {};
     const out = await api("POST", "/api/reference", {
       ...sourceBody(), reference_frame: (S.data.station || {}).reference_frame,
@@ -74,7 +83,7 @@ export function picturePanel() {
       S.data.camera.height_px = out.height_px;
       S.pictureVersion += 1;
     });
-    busyNote = `taken: ${out.source}`;
+    notes.picture = { text: `taken: ${out.source}`, ok: true };
   }));
   return [
     el("h2", {}, "Reference frame"),
@@ -83,7 +92,7 @@ export function picturePanel() {
     el("div", { class: "fields" }, el("label", {}, "saved as"),
        boundInput(["station", "reference_frame"], { name: "reference_frame" })),
     ...sourceFields(),
-    el("div", { class: "line" }, take, el("span", { class: "note" }, busyNote)),
+    el("div", { class: "line" }, take), noteOf("picture", "picture-note"),
     findingsFor("station"),
     el("h2", {}, "Station and camera"),
     el("div", { class: "fields" },
@@ -107,28 +116,36 @@ export function teachPanel() {
   const select = el("select", { name: "teach-zone" },
                     checks.map((z) => el("option", { value: z, selected: z === teachZone }, z)));
   select.addEventListener("change", () => { teachZone = select.value; teachInfo = null; render(); });
-  const count = el("input", { name: "teach-count", value: "1", size: 3 });
-  const every = el("input", { name: "teach-every", value: "1", size: 3 });
+  const count = settingInput(teachSettings, "teach", "count", { inputmode: "numeric", size: 3 });
+  const every = settingInput(teachSettings, "teach", "every_s",
+                             { inputmode: "decimal", size: 3 });
   const teachButton = (label) => {
     const button = el("button", { "data-teach": label }, `Teach ${label}`);
-    button.addEventListener("click", busy(button, async () => {
+    button.addEventListener("click", busy(button, "teach", async () => {
       teachInfo = await api("POST", "/api/teach", { data: S.data, zone: teachZone, label,
-        ...sourceBody(), count: Number(count.value), every_s: Number(every.value) });
+        ...sourceBody(), count: teachSettings.count, every_s: teachSettings.every_s });
+      notes.teach = { text: `taught ${label}: now ${teachInfo.present} present, `
+                      + `${teachInfo.absent} absent`, ok: true };
+      scheduleCheck(0);
     }));
     return button;
   };
   const clearButton = (label) => {
     const button = el("button", { class: "small" }, `Forget ${label}`);
-    button.addEventListener("click", busy(button, async () => {
+    button.addEventListener("click", busy(button, "teach", async () => {
       teachInfo = await api("POST", "/api/teach/clear", { data: S.data, zone: teachZone, label });
+      notes.teach = { text: `forgot the ${label} images`, ok: true };
+      scheduleCheck(0);
     }));
     return button;
   };
   const reference = encodeURIComponent((S.data.station || {}).reference_frame || "");
-  const thumbs = (teachInfo && teachInfo.images || []).map((image) => el("figure", {},
+  const thumbs = (teachInfo && teachInfo.images || []).map((image) => el("figure",
+    { class: image.misfit ? "misfit" : null },
     el("img", { src: `/api/teach-image?reference=${reference}&zone=${teachZone}`
                 + `&file=${image.file}`, alt: image.file, title: image.source }),
-    el("figcaption", {}, `${image.label === "present" ? "\u25cf" : "\u25cb"} ${image.file}`)));
+    el("figcaption", {}, `${image.label === "present" ? "\u25cf" : "\u25cb"} ${image.file}`
+       + (image.misfit ? " \u2716 looks like the other class" : ""))));
   return [
     el("h2", {}, "Teach check zones"),
     el("p", { class: "note" }, "Show the zone with the part present, teach; then absent, "
@@ -139,7 +156,11 @@ export function teachPanel() {
        el("label", {}, "every (seconds)"), every),
     el("div", { class: "line" }, teachButton("present"), teachButton("absent"),
        clearButton("present"), clearButton("absent")),
-    busyNote ? el("div", { class: "finding error" }, `\u2716 ${busyNote}`) : null,
+    noteOf("teach", "teach-action-note"),
+    teachInfo && teachInfo.loaded && teachInfo.images.length
+      ? el("p", { class: "note", id: "teach-loaded" }, `Loaded ${teachInfo.images.length} `
+        + `image(s) taught earlier, found in ${teachInfo.folder}; they count for this zone. `
+        + "Forget present / absent to start over.") : null,
     teachInfo ? el("p", { class: "note", id: "teach-note" }, `${teachInfo.present} present, `
       + `${teachInfo.absent} absent: ${teachInfo.note}`) : null,
     el("div", { class: "thumbs" }, thumbs),
@@ -150,7 +171,8 @@ export function teachPanel() {
 async function loadTeach() {
   teachInfo = { zone: teachZone, images: [], present: 0, absent: 0, note: "loading\u2026" };
   try {
-    teachInfo = await api("POST", "/api/teach/list", { data: S.data, zone: teachZone });
+    teachInfo = { ...await api("POST", "/api/teach/list", { data: S.data, zone: teachZone }),
+                  loaded: true };
   } catch (err) {
     teachInfo = { zone: teachZone, images: [], present: 0, absent: 0, note: err.message };
   }
@@ -161,14 +183,14 @@ export function dryRunPanel() {
   if (dryRun.video === null) dryRun.video = S.defaultVideo || "";
   const field = (key, attrs) => settingInput(dryRun, "dry", key, attrs);
   const run = el("button", { class: "primary", id: "dry-run" }, "Run");
-  run.addEventListener("click", busy(run, async () => {
+  run.addEventListener("click", busy(run, "dryrun", async () => {
     dryRun.result = null;
-    busyNote = "running\u2026";
+    notes.dryrun = { text: "running\u2026", ok: true };
     render();
     dryRun.result = await api("POST", "/api/dry-run", {
       data: S.data, video: dryRun.video, inputs: dryRun.inputs || null,
       start_s: dryRun.start_s, seconds: dryRun.seconds });
-    busyNote = "";
+    notes.dryrun = null;
     showPlayer(dryRun.result);
   }));
   const result = dryRun.result;
@@ -183,10 +205,7 @@ export function dryRunPanel() {
         placeholder: "beside the video" }), "inputs"),
       el("label", {}, "start at (s)"), field("start_s", { inputmode: "decimal", size: 6 }),
       el("label", {}, "seconds (up to 20)"), field("seconds", { inputmode: "decimal", size: 6 })),
-    el("div", { class: "line" }, run, el("span", { class: "note" }, busyNote && !result
-      ? busyNote : "")),
-    busyNote && busyNote !== "running\u2026" ? el("div", { class: "finding error" },
-                                                  `\u2716 ${busyNote}`) : null,
+    el("div", { class: "line" }, run), noteOf("dryrun", "dry-note"),
     result ? el("p", { class: "note", id: "dry-summary" }, `${result.frames} frames drawn; `
       + `tool enabled in ${result.enabled_frames} frames; inputs: ${result.inputs || "none"}`)
       : null,
