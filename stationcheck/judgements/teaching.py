@@ -316,8 +316,8 @@ def poor_teaching(manifest: Manifest, found: Separation) -> str | None:
     which = (f"; {len(names)} image(s) look more like the other class: {', '.join(names)}"
              if names else "")
     return (f"the taught classes do not stand apart (gap {found.gap:.2f}, should be above 0)"
-            f"{which}; forget those images and teach again with the part clearly present or "
-            "absent")
+            f"{which}; check their labels, or forget that class and teach it again with the "
+            "part clearly present or absent")
 
 
 def _other(label: Label) -> Label:
