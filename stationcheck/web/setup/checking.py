@@ -29,7 +29,8 @@ def check_for_page(data: dict[str, Any], base_dir: Path, source: str,
             "polygon": [list(point) for point in zone.polygon_px or ()],
             "entry": zone.path[1],
             "generated": "bolt_circle" in zone.path,
-            "number": order.get(zone.id),
+            "number": order[zone.id][0] if zone.id in order else None,
+            "of": order[zone.id][1] if zone.id in order else None,
         }
         for zone in parts.zones
     ]
@@ -49,9 +50,10 @@ def check_for_page(data: dict[str, Any], base_dir: Path, source: str,
     }
 
 
-def tightening_numbers(data: dict[str, Any]) -> dict[str, int]:
-    """Fastener zone -> its place in its fasten step's tightening order (first step wins)."""
-    numbers: dict[str, int] = {}
+def tightening_numbers(data: dict[str, Any]) -> dict[str, tuple[int, int]]:
+    """Fastener zone -> (its 1-based place in its fasten step's tightening order, how many the
+    step fastens); the first step naming it wins."""
+    numbers: dict[str, tuple[int, int]] = {}
     steps = data.get("steps")
     for step in steps if isinstance(steps, list) else []:
         if not isinstance(step, dict) or step.get("kind") != "fasten":
@@ -60,7 +62,7 @@ def tightening_numbers(data: dict[str, Any]) -> dict[str, int]:
         if step.get("order") == "cross" and zones:
             zones = bolt_pattern.apply_order(zones, bolt_pattern.cross_order(len(zones)))
         for number, zone in enumerate(zones, start=1):
-            numbers.setdefault(zone, number)
+            numbers.setdefault(zone, (number, len(zones)))
     return numbers
 
 

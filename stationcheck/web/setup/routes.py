@@ -122,8 +122,10 @@ class SetupApp:
         size = (int(body.get("width_px") or 640), int(body.get("height_px") or 480))
         image, source = frames.grab(request_frames, size)[0]
         frames.write_reference(image, target)
+        fps = (frames.video_info(request_frames.video)["fps"]
+               if request_frames.video is not None else None)
         return Response.json({"source": source, "width_px": int(image.shape[1]),
-                              "height_px": int(image.shape[0])})
+                              "height_px": int(image.shape[0]), "fps": fps})
 
     def video_info(self, request: Request) -> Response:
         return Response.json(frames.video_info(
@@ -179,6 +181,7 @@ class SetupApp:
             "every": recorder.every,
             "timeline": recorder.timeline,
             "inputs": self.session.workspace.shown(inputs) if inputs else None,
+            "run_frames": recorder.run_frames,
             "enabled_frames": recorder.enabled_frames,
         })
 

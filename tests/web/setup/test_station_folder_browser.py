@@ -87,3 +87,8 @@ def test_new_station_asks_for_a_picture_and_shows_every_error(
     page.wait_for_function(
         "document.getElementById('check-summary').textContent.includes('2 error(s)')")
     assert (with_video / "station" / "reference.png").is_file()
+    # built from a video: the config plays that video until a camera is named
+    assert page.input_value("input[name='camera-source']") == "sample_video/demo_station.mp4"
+    assert "camera source set to sample_video/demo_station.mp4" in page.inner_text(
+        "#picture-note")
+    assert page.locator("#picture-note.finding").count() == 0  # a success, not an error

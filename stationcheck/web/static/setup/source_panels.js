@@ -77,13 +77,21 @@ export function picturePanel() {
     const out = await api("POST", "/api/reference", {
       ...sourceBody(), reference_frame: (S.data.station || {}).reference_frame,
       width_px: camera.width_px, height_px: camera.height_px });
+    // a config built from a video plays that video until its camera is named
+    const fromVideo = source.kind === "video" && typeof camera.source !== "string";
     change(() => {
       S.data.camera = S.data.camera || {};
       S.data.camera.width_px = out.width_px;
       S.data.camera.height_px = out.height_px;
+      if (fromVideo) {
+        S.data.camera.source = source.video;
+        if (out.fps > 0) S.data.camera.fps = Math.round(out.fps * 1000) / 1000;
+      }
       S.pictureVersion += 1;
     });
-    notes.picture = { text: `taken: ${out.source}`, ok: true };
+    notes.picture = { text: `taken: ${out.source}` + (fromVideo ? `; camera source set to `
+      + `${source.video} (write the camera index or URL there for the live station)` : ""),
+                      ok: true };
   }));
   return [
     el("h2", {}, "Reference frame"),
@@ -206,9 +214,10 @@ export function dryRunPanel() {
       el("label", {}, "start at (s)"), field("start_s", { inputmode: "decimal", size: 6 }),
       el("label", {}, "seconds (up to 20)"), field("seconds", { inputmode: "decimal", size: 6 })),
     el("div", { class: "line" }, run), noteOf("dryrun", "dry-note"),
-    result ? el("p", { class: "note", id: "dry-summary" }, `${result.frames} frames drawn; `
-      + `tool enabled in ${result.enabled_frames} frames; inputs: ${result.inputs || "none"}`)
-      : null,
+    result ? el("p", { class: "note", id: "dry-summary" }, `${result.run_frames} frames run; `
+      + `tool enabled in ${result.enabled_frames} of them. The player shows ${result.frames} `
+      + `(every ${result.every === 2 ? "2nd" : `${result.every}th`}). `
+      + `Inputs: ${result.inputs || "none"}`) : null,
     result ? el("div", { class: "timeline", id: "timeline" }, result.timeline.map((entry) =>
       el("div", { class: entry.kind === "enable" ? "enable" : null,
                   onclick: () => showPlayer(result, entry.t_s) },

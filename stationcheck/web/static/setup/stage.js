@@ -93,14 +93,15 @@ function polygonOf(index) {
 function drawnZones() {
   // Polygon entries from the document as edited (immediate), bolt circles as last checked.
   const out = [];
-  const numbers = new Map((S.check.zones || []).map((z) => [z.id, z.number]));
+  const numbers = new Map((S.check.zones || []).map((z) => [z.id, z]));
   (S.data.zones || []).forEach((entry, index) => {
     const polygon = polygonOf(index);
     if (polygon) {
       const points = polygon.filter((p) => Array.isArray(p) && p.length === 2
         && p.every((v) => typeof v === "number"));
       out.push({ id: String(entry.id ?? "?"), kind: entry.kind, polygon: points, entry: index,
-                 generated: false, number: numbers.get(entry.id) });
+                 generated: false, number: (numbers.get(entry.id) || {}).number,
+                 of: (numbers.get(entry.id) || {}).of });
     }
   });
   for (const zone of S.check.zones || []) if (zone.generated) out.push(zone);
@@ -146,7 +147,15 @@ export function renderStage() {
       const label = svgEl("text", { x: cx, y: cy, "text-anchor": "middle",
                                      "dominant-baseline": "middle",
                                      style: `font-size:${12 * unit}px;stroke-width:${3 * unit}px` });
-      label.textContent = (zone.number ? `${zone.number}: ` : "") + zone.id;
+      // the fastener by its name; its place in the step's order on a second, smaller line
+      label.append(svgEl("tspan", { x: cx, dy: zone.number ? `${-0.45}em` : "0" }));
+      label.lastChild.textContent = zone.id;
+      if (zone.number) {
+        const order = svgEl("tspan", { x: cx, dy: "1.15em", class: "order",
+                                       style: `font-size:${10 * unit}px` });
+        order.textContent = `order ${zone.number} of ${zone.of}`;
+        label.append(order);
+      }
       group.append(label);
       if (errors.length) {
         const mark = svgEl("text", { x: cx, y: cy - 14 * unit, "text-anchor": "middle",
