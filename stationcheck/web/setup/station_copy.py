@@ -102,7 +102,7 @@ def _carry_one(plan: CarryPlan, ref: ReferencedFile, old_base: Path, new_base: P
     if written.is_absolute():
         return ref.path
     rewritten = Path(os.path.relpath(ref.path, new_base)).as_posix()
-    section, key = ref.where[0], ref.where[1]
+    section, key = str(ref.where[0]), str(ref.where[1])
     plan.data[section][key] = rewritten
     plan.notes.append(f"{ref.what} stays at {workspace.shown(ref.path)} ({section}.{key} is now "
                       f"'{rewritten}')")

@@ -8,9 +8,9 @@ from typing import Any
 
 from stationcheck.config.parts import parts_of_data
 from stationcheck.config.schema import ID_PATTERN
-from stationcheck.core.plan import ZoneSpec
 from stationcheck.config.station_files import MANIFEST_NAME, teaching_folder
 from stationcheck.config.wording import format_path
+from stationcheck.core.plan import ZoneSpec
 from stationcheck.errors import StationcheckError
 from stationcheck.judgements import teaching
 from stationcheck.judgements.presence import LABELS

@@ -12,14 +12,14 @@ from tests.web.setup.conftest import ServerFactory
 
 @pytest.mark.parametrize(("method", "path", "body", "status", "parts"), [
     ("POST", "/api/dry-run", {"video": "sample_video/demo_station.mp4"}, 404,
-     ["no such video file 'sample_video/demo_station.mp4': tried {ws}/configs/sample_video/"
-      "demo_station.mp4 (paths start at the config's folder {ws}/configs)"]),
+     [("no such video file 'sample_video/demo_station.mp4': tried {ws}/configs/sample_video/"
+      "demo_station.mp4 (paths start at the config's folder {ws}/configs)")]),
     ("POST", "/api/reference", {"source": "video", "video": "nowhere.mp4",
                                 "reference_frame": "x.png"}, 404,
      ["tried {ws}/configs/nowhere.mp4"]),
     ("GET", "/api/video-info?path=../../elsewhere/run.mp4", None, 403,
-     ["'../../elsewhere/run.mp4' is {ws.parent}/elsewhere/run.mp4, outside the setup folder "
-      "{ws}", "--root {ws.parent}"]),
+     [("'../../elsewhere/run.mp4' is {ws.parent}/elsewhere/run.mp4, outside the setup folder "
+      "{ws}"), "--root {ws.parent}"]),
     ("GET", "/api/reference-image?path=demo_station/none.png", None, 404,
      ["no reference frame yet: tried {ws}/configs/demo_station/none.png"]),
 ])
