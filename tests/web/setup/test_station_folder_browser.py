@@ -47,7 +47,8 @@ def test_save_as_in_another_folder_then_reopen_keeps_picture_and_teaching(
     page.fill("#save-path", "../line_2/station_b.yaml")
     page.click("#save-as-button")
     page.wait_for_selector("#save-note:has-text('saved line_2/station_b.yaml')")
-    assert "copied taught references of 'locking_pin'" in page.inner_text("#save-note")
+    assert "copied taught references of 'locking_pin'" in page.get_attribute("#save-note",
+                                                                             "title")
     assert page.inner_text("#file-name") == "line_2/station_b.yaml"
     assert (workspace / "line_2" / "demo_station" / "reference.png").is_file()
 

@@ -6,7 +6,7 @@ import { installStage, renderStage, finishDraft, cancelDraft, deleteSelection, s
          fit } from "./stage.js";
 import { zonesPanel } from "./zones_panel.js";
 import { stepsPanel } from "./steps_panel.js";
-import { picturePanel, teachPanel, dryRunPanel } from "./source_panels.js";
+import { picturePanel, teachPanel, dryRunPanel, isTeachFinding } from "./source_panels.js";
 import { installPlayer, setPlayerVisible } from "./player.js";
 
 const PANELS = { picture: picturePanel, zones: zonesPanel, steps: stepsPanel, teach: teachPanel,
@@ -59,7 +59,8 @@ function renderPanel() {
 // rest here, each saying which tab it belongs to (a click opens that tab).
 const SHOWN_ELSEWHERE = 8;
 function renderOtherFindings() {
-  const elsewhere = S.check.findings.filter((f) => TAB_OF[f.where[0]] !== S.tab)
+  const elsewhere = S.check.findings.filter((f) => TAB_OF[f.where[0]] !== S.tab
+                                             && !(S.tab === "teach" && isTeachFinding(f)))
     .sort((a, b) => (a.severity === b.severity ? 0 : a.severity === "error" ? -1 : 1));
   const rows = findingList(elsewhere.slice(0, SHOWN_ELSEWHERE)).map((row, i) => {
     const tab = TAB_OF[elsewhere[i].where[0]];
@@ -89,8 +90,9 @@ async function save(saveAs = false) {
     S.dirty = false;
     S.pictureVersion += 1;
     saveNote.textContent = `saved ${out.path} at ${new Date().toLocaleTimeString()}`
-      + (out.carried.length ? `; ${out.carried.join("; ")}` : "")
+      + (out.carried.length ? "; its files came along (details: hover)" : "")
       + (out.check.errors ? " (with errors: the station cannot run it yet)" : "");
+    saveNote.title = out.carried.join("\n");
   } catch (err) {
     saveNote.textContent = `not saved: ${err.message}`;
   }
@@ -130,6 +132,10 @@ async function start() {
   S.data = state.data;
   S.check = state.check;
   S.configPath = state.config_path;
+  // paths on this page start at the config's folder: the file's own name means the file
+  if (S.configPath !== null) {
+    document.getElementById("save-path").value = S.configPath.split("/").pop();
+  }
   S.defaultVideo = state.video;
   S.tab = state.exists ? "zones" : "picture";
   onRender(renderTop);

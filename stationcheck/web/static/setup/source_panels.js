@@ -159,6 +159,7 @@ export function teachPanel() {
     el("p", { class: "note" }, "Show the zone with the part present, teach; then absent, "
       + "teach. A few images of each, with the usual light, make a steady check."),
     el("div", { class: "fields" }, el("label", {}, "check zone"), select),
+    findingList(findingsAt("zones").filter(isTeachFinding)),
     ...sourceFields(),
     el("div", { class: "fields" }, el("label", {}, "frames"), count,
        el("label", {}, "every (seconds)"), every),
@@ -172,9 +173,13 @@ export function teachPanel() {
     teachInfo ? el("p", { class: "note", id: "teach-note" }, `${teachInfo.present} present, `
       + `${teachInfo.absent} absent: ${teachInfo.note}`) : null,
     el("div", { class: "thumbs" }, thumbs),
-    findingList(findingsAt("zones").filter((f) => f.message.includes(teachZone))),
   ];
 }
+
+// Findings about the teaching of check zones (not taught, classes that do not stand apart,
+// missing files): the Teach tab shows them all.
+export const isTeachFinding = (f) => f.where[0] === "zones"
+  && f.message.startsWith("check zone '");
 
 async function loadTeach() {
   teachInfo = { zone: teachZone, images: [], present: 0, absent: 0, note: "loading\u2026" };
