@@ -3,7 +3,7 @@
 Relative paths in a config start at the config's folder, so a config saved elsewhere would
 name files that are not there. Before such a save, every file the config refers to that lies
 inside the old config's folder (reference frame, taught references of each check zone, model
-file) is copied to the same relative place beside the new config; a file outside that folder
+file and the refine model it names) is copied to the same relative place beside the new config; a file outside that folder
 (and the camera's video, never copied: it stands in for the camera) stays where it is and the
 config's path to it is rewritten so it still reaches it from the new folder.
 """
@@ -28,7 +28,7 @@ from stationcheck.config.station_files import (
     taught_image_files,
     teaching_folder,
 )
-from stationcheck.errors import ConfigError, InputFileError
+from stationcheck.errors import ConfigError, InputFileError, StationcheckError
 from stationcheck.web.server import WebError
 from stationcheck.web.setup.workspace import Workspace
 
@@ -98,6 +98,10 @@ def _carry_one(plan: CarryPlan, ref: ReferencedFile, old_base: Path, new_base: P
         if ref.path.is_file():
             plan.copies.append((ref.path, target))
             plan.notes.append(f"copied {ref.what} to {workspace.shown(target)}")
+            if ref.what == "model file":
+                for companion in _model_companions(ref.path):
+                    plan.copies.append((companion, workspace.inside(companion.name,
+                                                                    target.parent)))
         return target
     if written.is_absolute():
         return ref.path
@@ -107,6 +111,18 @@ def _carry_one(plan: CarryPlan, ref: ReferencedFile, old_base: Path, new_base: P
     plan.notes.append(f"{ref.what} stays at {workspace.shown(ref.path)} ({section}.{key} is now "
                       f"'{rewritten}')")
     return ref.path
+
+
+def _model_companions(model: Path) -> list[Path]:
+    """The refine model a coarse model names in its metadata (it must sit beside it)."""
+    from stationcheck.vision.onnx_model import KeypointModel
+
+    try:
+        name = KeypointModel(model).info.refine_model
+    except StationcheckError:
+        return []  # an unusable model is the check's finding, not a reason to refuse a save
+    companion = model.parent / name if name else None
+    return [companion] if companion is not None and companion.is_file() else []
 
 
 def _carry_teaching(plan: CarryPlan, ref: ReferencedFile, target: Path,

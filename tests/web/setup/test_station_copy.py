@@ -5,13 +5,16 @@ the copy checks clean and loads its taught references as replay does."""
 from __future__ import annotations
 
 import filecmp
+import shutil
 from pathlib import Path
 
 import yaml
 
 from stationcheck.config import check_file, load_config
 from stationcheck.judgements import teaching
-from tests.web.setup.conftest import ServerFactory
+from tests.web.setup.conftest import REPO, ServerFactory
+
+BUNDLED_MODELS = REPO / "stationcheck" / "models"
 
 
 def test_save_as_in_another_folder_copies_the_station(setup_server: ServerFactory,
@@ -68,3 +71,20 @@ def test_a_new_config_saved_in_a_folder_takes_its_picture_along(setup_server: Se
     assert status == 200, out
     assert (workspace / "configs" / "station" / "reference.png").is_file()
     assert not [f for f in out["check"]["findings"] if f["where"][:1] == ["station"]]
+
+
+def test_save_as_carries_a_station_model_and_its_refine_companion(
+        setup_server: ServerFactory, workspace: Path) -> None:
+    """The bundled coarse model names its refine model in its metadata; both travel."""
+    models = workspace / "configs" / "models"
+    models.mkdir()
+    for name in ("tool_tip.coarse.onnx", "tool_tip.refine.onnx"):
+        shutil.copy(BUNDLED_MODELS / name, models / name)
+    client = setup_server()
+    data = client.call("GET", "/api/state")[1]["data"]
+    data["model"] = {"path": "models/tool_tip.coarse.onnx"}
+    status, out = client.call("POST", "/api/save", {"data": data, "path": "../b/st.yaml"})
+    assert status == 200, out
+    for name in ("tool_tip.coarse.onnx", "tool_tip.refine.onnx"):
+        assert filecmp.cmp(models / name, workspace / "b" / "models" / name, shallow=False)
+    assert not [f for f in check_file(workspace / "b" / "st.yaml").errors]
