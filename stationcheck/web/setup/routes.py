@@ -103,6 +103,7 @@ class SetupApp:
         target = self.session.save(plan.data, path)
         return Response.json({"path": self.session.workspace.shown(target),
                               "data": plan.data, "carried": plan.notes,
+                              "video": self._default_video(plan.data),
                               "check": self._checked(plan.data)})
 
     def reference_image(self, request: Request) -> Response:

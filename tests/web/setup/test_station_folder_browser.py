@@ -44,6 +44,8 @@ def test_save_as_in_another_folder_then_reopen_keeps_picture_and_teaching(
         open_page: Callable[[Path, Path | None], Any], workspace: Path) -> None:
     page = open_page(workspace, workspace / "configs" / "demo_station.yaml")
     page.wait_for_selector("#picture[data-loaded]")
+    page.click("#tabs button[data-tab='teach']")
+    page.wait_for_selector(f"#teach-loaded:has-text('{workspace}/configs/demo_station/')")
     page.fill("#save-path", "../line_2/station_b.yaml")
     page.click("#save-as-button")
     page.wait_for_selector("#save-note:has-text('saved line_2/station_b.yaml')")
@@ -51,6 +53,9 @@ def test_save_as_in_another_folder_then_reopen_keeps_picture_and_teaching(
                                                                              "title")
     assert page.inner_text("#file-name") == "line_2/station_b.yaml"
     assert (workspace / "line_2" / "demo_station" / "reference.png").is_file()
+    # the page now works in the new folder
+    page.wait_for_selector(f"#teach-loaded:has-text('{workspace}/line_2/demo_station/')")
+    page.click("#tabs button[data-tab='zones']")
 
     page = open_page(workspace, workspace / "line_2" / "station_b.yaml")
     page.wait_for_selector("#picture[data-loaded]")

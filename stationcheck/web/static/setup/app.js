@@ -6,7 +6,8 @@ import { installStage, renderStage, finishDraft, cancelDraft, deleteSelection, s
          fit } from "./stage.js";
 import { zonesPanel } from "./zones_panel.js";
 import { stepsPanel } from "./steps_panel.js";
-import { picturePanel, teachPanel, dryRunPanel, isTeachFinding } from "./source_panels.js";
+import { picturePanel, teachPanel, dryRunPanel, isTeachFinding, forgetPaths }
+  from "./source_panels.js";
 import { installPlayer, setPlayerVisible } from "./player.js";
 
 const PANELS = { picture: picturePanel, zones: zonesPanel, steps: stepsPanel, teach: teachPanel,
@@ -84,6 +85,11 @@ async function save(saveAs = false) {
   }
   try {
     const out = await api("POST", "/api/save", body);
+    const folderOf = (path) => (path || "").split("/").slice(0, -1).join("/");
+    if (folderOf(out.path) !== folderOf(S.configPath)) {
+      S.defaultVideo = out.video;
+      forgetPaths();
+    }
     S.configPath = out.path;
     S.data = out.data;
     S.check = out.check;

@@ -13,6 +13,14 @@ const teachSettings = { count: 1, every_s: 1 };
 // What the last action of each tab said: { text, ok } (ok: a success, not an error).
 const notes = { picture: null, teach: null, dryrun: null };
 
+// After a save into another folder the page's paths start there: forget the old ones.
+export function forgetPaths() {
+  source.video = null;
+  dryRun.video = null;
+  dryRun.inputs = "";
+  teachInfo = null;
+}
+
 // An input bound to a key of this module's own settings (`source`, `dryRun`), not the document.
 function settingInput(settings, prefix, key, attrs = {}) {
   const input = el("input", { name: `${prefix}-${key}`, value: String(settings[key]), ...attrs });
