@@ -38,10 +38,14 @@ def run(args: argparse.Namespace) -> int:
 
     root: Path = args.root if args.root is not None else default_root(args.config, Path.cwd())
     if not root.is_dir():
-        raise InputFileError(f"{root}: no such folder")
+        raise InputFileError(f"--root {root}: no such folder (tried {root.resolve()})")
     workspace = Workspace(root)
     if args.config is not None and not args.config.resolve().is_relative_to(workspace.root):
-        raise InputFileError(f"{args.config} lies outside the setup folder {workspace.root}")
+        resolved = args.config.resolve()
+        shown = str(args.config) if str(args.config) == str(resolved) else (
+            f"{args.config} ({resolved})")
+        raise InputFileError(f"{shown} lies outside the setup folder {workspace.root}; add "
+                             "--root with a folder that holds it")
     session = SetupSession.open(workspace, args.config)
     server = start_server(build_router(session), args.host, args.port, args.token,
                           tuple(args.allow_host))

@@ -115,9 +115,10 @@ def _print_separation(folder: Path, zone: Any) -> None:
         return
     print(f"  agreement within a class >= {found.own_min:.2f}; with the other class "
           f"<= {found.other_max:.2f} (gap {found.gap:.2f})")
-    if found.misfits:
-        print(f"  warning: {len(found.misfits)} image(s) look more like the other class; "
-              "check the labels or clear and teach again")
+    manifest = teaching.read_manifest(folder)
+    poor = teaching.poor_teaching(manifest, found) if manifest is not None else None
+    if poor is not None:
+        print(f"  warning: {poor}")
 
 
 def _list(config: Any, zone_id: str | None) -> int:

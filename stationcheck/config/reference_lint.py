@@ -61,6 +61,8 @@ def _step_zone_findings(parts: ConfigParts) -> list[Finding]:
             continue
         seen: dict[str, Location] = {}
         for path, name in step.zone_refs:
+            if not name.strip():
+                continue  # an empty name is the schema's error, once
             if name in seen:
                 findings.append(error(path, f"'{name}' is already listed in this step at "
                                       f"{format_path(seen[name])}; each position is fastened once "

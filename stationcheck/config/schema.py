@@ -50,6 +50,8 @@ ID_PATTERN = re.compile(r"[A-Za-z][A-Za-z0-9_-]{0,63}")
 
 
 def _check_id(value: str) -> str:
+    if not value.strip():
+        raise PydanticCustomError("identifier", "is empty: choose or write a name")
     if not ID_PATTERN.fullmatch(value):
         raise PydanticCustomError(
             "identifier",

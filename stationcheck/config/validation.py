@@ -15,6 +15,7 @@ from stationcheck.config.geometry_lint import lint_geometry
 from stationcheck.config.parts import parts_of_data
 from stationcheck.config.reference_lint import lint_references
 from stationcheck.config.schema import StationConfig
+from stationcheck.config.station_files import lint_files
 from stationcheck.config.wording import plain_errors
 from stationcheck.errors import ConfigError
 
@@ -54,6 +55,7 @@ def check_document(document: YamlDocument, base_dir: Path, source: str) -> Check
     parts = parts_of_data(document.data)
     findings += lint_geometry(parts)
     findings += lint_references(parts)
+    findings += lint_files(document.data, parts, base_dir)
     located = [
         f if f.line is not None else Finding(f.severity, f.path, f.message,
                                              document.line_of(f.path))

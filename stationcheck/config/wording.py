@@ -107,9 +107,17 @@ def _plain_error(root: type[BaseModel], error: Any) -> PlainError:
         return PlainError(path + ("kind",), f"'{ctx.get('tag')}' is not a kind of step; use "
                           + _choices(_expected_tags(ctx)))
     message = _value_message(kind, value, ctx, error.get("msg", ""))
+    if kind == "too_short" and path in _EMPTY_SECTION_HINTS and not value:
+        message += f": {_EMPTY_SECTION_HINTS[path]}"
     if key_error and f"'{value}'" not in message:
         message = f"the name '{value}': {message}"
     return PlainError(path, message)
+
+
+_EMPTY_SECTION_HINTS = {
+    ("zones",): "no zones yet; draw them on the reference frame (setup screen, Zones tab)",
+    ("steps",): "no steps yet; add them in order (setup screen, Steps tab)",
+}
 
 
 def _value_message(kind: str, value: Any, ctx: dict[str, Any], msg: str) -> str:

@@ -74,7 +74,7 @@ def guide(index: PlanIndex, state: SequencerState) -> Guidance:
         if _alarm_subject(state, "tool_lost") is not None:
             return Guidance("show_tool", target.ref.zone, f"Tool not in view. Bring it to {label}.")
         detail = (
-            f"position {target.number} of {len(step.zones)}, "
+            f"order {target.number} of {len(step.zones)}, "
             f"attempt {target.attempts + 1} of {step.max_attempts}"
         )
         if unit.rework:

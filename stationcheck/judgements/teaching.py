@@ -27,6 +27,7 @@ import numpy as np
 
 from stationcheck.config import yaml_text
 from stationcheck.config.schema import StationConfig
+from stationcheck.config.station_files import MANIFEST_NAME, teaching_folder
 from stationcheck.core.plan import ZoneSpec
 from stationcheck.errors import ConfigError, InputFileError
 from stationcheck.judgements.presence import (
@@ -41,7 +42,6 @@ from stationcheck.judgements.zone_window import U8Array, zone_box_px
 
 logger = logging.getLogger(__name__)
 
-MANIFEST_NAME = "references.yaml"
 FORMAT_VERSION = 1
 CROP_MARGIN_PX = 16
 ALIGN_PX = 4
@@ -88,7 +88,7 @@ def check_zone(config: StationConfig, zone_id: str) -> ZoneSpec:
 
 def teaching_dir(config: StationConfig, zone_id: str) -> Path:
     """Where the references of ``zone_id`` live: beside the station's reference frame."""
-    return config.reference_frame_path.parent / zone_id
+    return teaching_folder(config.reference_frame_path, zone_id)
 
 
 def read_manifest(folder: Path) -> Manifest | None:
@@ -300,6 +300,24 @@ def separation(taught: TaughtClasses) -> Separation | None:
             index += 1
     return Separation({label: len(crops[label]) for label in LABELS}, min(own_scores),
                       max(other_scores), tuple(misfits))
+
+
+def misfit_files(manifest: Manifest, found: Separation) -> list[str]:
+    """The image files ``found.misfits`` points at (indices run class by class)."""
+    ordered = [image.file for label in LABELS for image in manifest.images if image.label == label]
+    return [ordered[k] for k in found.misfits if k < len(ordered)]
+
+
+def poor_teaching(manifest: Manifest, found: Separation) -> str | None:
+    """What is wrong with a teaching whose classes do not stand apart; None when they do."""
+    if found.gap >= 0 and not found.misfits:
+        return None
+    names = misfit_files(manifest, found)
+    which = (f"; {len(names)} image(s) look more like the other class: {', '.join(names)}"
+             if names else "")
+    return (f"the taught classes do not stand apart (gap {found.gap:.2f}, should be above 0)"
+            f"{which}; check their labels, or forget that class and teach it again with the "
+            "part clearly present or absent")
 
 
 def _other(label: Label) -> Label:

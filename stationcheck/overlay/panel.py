@@ -152,8 +152,8 @@ class PanelPainter:
         y += size + 6
         output = view.output
         if output.position_number:
-            text = (f"Position {output.position_number} of {len(zones)}, "
-                    f"attempt {output.attempt}")
+            label = f" - {_label(self.plan, target)}" if target else ""  # OpenCV fonts: ASCII
+            text = f"order {output.position_number} of {len(zones)}{label}, attempt {output.attempt}"
             put_text(panel, text, (PAD, y + 16), 0.5, WHITE, 1, outline=None)
             y += 22
         return y

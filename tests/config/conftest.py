@@ -84,11 +84,25 @@ def base_config() -> Callable[[], dict[str, Any]]:
     return _base_config
 
 
+def write_station_files(folder: Path) -> None:
+    """The files the base config refers to: its reference frame and the check zone's taught
+    references (an empty list of images is enough for the file checks)."""
+    (folder / "ref.png").write_bytes(b"not read by the checks")
+    (folder / "pin").mkdir(exist_ok=True)
+    (folder / "pin" / "references.yaml").write_text(
+        "format_version: 1\nzone: pin\nzone_box_px: [50, 400, 90, 440]\n"
+        "crop_box_px: [34, 384, 106, 456]\nimages: []\n", encoding="utf-8")
+
+
 @pytest.fixture
 def check_changes(tmp_path: Path) -> Callable[[Changes], CheckResult]:
     """Check the base config after ``changes``."""
+    write_station_files(tmp_path)
 
-    def run(changes: Changes) -> CheckResult:
+    def run(changes: Changes, with_files: Sequence[str] = ()) -> CheckResult:
+        for name in with_files:  # more files the changes refer to
+            (tmp_path / name).parent.mkdir(parents=True, exist_ok=True)
+            (tmp_path / name).write_bytes(b"checked for being there, not read")
         data = apply_changes(_base_config(), changes)
         return check_data(data, base_dir=tmp_path, source="test.yaml")
 
@@ -117,7 +131,9 @@ def assert_findings() -> Callable[[CheckResult, Expected], None]:
 
 @pytest.fixture
 def write_yaml(tmp_path: Path) -> Callable[..., Path]:
-    """Write text (or data as YAML) to a file in ``tmp_path`` and return its path."""
+    """Write text (or data as YAML) to a file in ``tmp_path`` (beside the files the base
+    config refers to) and return its path."""
+    write_station_files(tmp_path)
 
     def write(content: str | dict[str, Any], name: str = "station.yaml") -> Path:
         path = tmp_path / name

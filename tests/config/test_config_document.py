@@ -146,10 +146,14 @@ def test_load_config_logs_warnings_and_resolves_paths(
     data["model"] = {"path": "models/tool.onnx"}
     data["log"] = {"path": "/var/tmp/log.sqlite"}
     path = write_yaml(data)
+    folder = path.parent
+    (folder / "models").mkdir()
+    (folder / "models" / "tool.onnx").write_bytes(b"checked for being there, not read")
     with caplog.at_level("WARNING"):
         config = load_config(path)
     assert "zone 'spare' is not used by any step" in caplog.text
-    folder = path.parent
+    assert f"video file '../videos/run.mp4' not found: tried {folder.parent}/videos/run.mp4" \
+        in caplog.text
     assert config.reference_frame_path == folder / "ref.png"
     assert config.camera_source == folder.parent / "videos" / "run.mp4"
     assert config.model_path == folder / "models" / "tool.onnx"

@@ -102,6 +102,12 @@ BAD: list[Any] = [
     pytest.param([("zones[0].id", "screw a"), ("steps[1].zones[0]", "screw a")], [
         ("error", "zones[0].id", "'screw a' is not a usable id"),
         ("error", "steps[1].zones[0]", "'screw a' is not a usable id")], id="id with a space"),
+    pytest.param([("steps[0].zone", ""), ("steps[2].zone", "")], [
+        ("error", "steps[0].zone", "is empty: choose or write a name"),
+        ("error", "steps[2].zone", "is empty: choose or write a name"),
+        ("warning", "zones[2]", "zone 'bin_a' is not used"),
+        ("warning", "zones[3]", "zone 'pin' is not used")],
+        id="new steps with no zone chosen: one finding each"),
     pytest.param([("zones[0].polygon[1]", [1, 2, 3])], [
         ("error", "zones[0].polygon[1]", ("a point is a pair [x, y] of pixel numbers; got a list "
          "of 3 items"))], id="point with three numbers"),
@@ -209,7 +215,7 @@ BAD: list[Any] = [
 def test_good_configs_have_no_findings(
     changes: list[tuple[str, Any]], check_changes: Callable[..., CheckResult]
 ) -> None:
-    result = check_changes(changes)
+    result = check_changes(changes, with_files=("videos/dry run.mp4", "models/tool.onnx"))
     assert result.findings == (), result.lines()
     assert result.config is not None
 

@@ -102,7 +102,7 @@ def test_the_commented_bolt_circle_writes_out_the_demo_screws(
     block = "\n".join(line[1:] for line in lines[start:start + 2])
     shorthand = yaml.safe_load(block)
     raw["zones"] = shorthand + [z for z in raw["zones"] if z["kind"] != "fastener"]
-    result = check_data(raw, base_dir=tmp_path)
+    result = check_data(raw, base_dir=demo_config_path.parent)
     assert result.config is not None, result.lines()
     rebuilt = result.config.to_plan()
     assert [(z.id, z.label) for z in rebuilt.zones] == [(z.id, z.label) for z in plan.zones]

@@ -161,5 +161,5 @@ def test_guidance_names_position_and_attempt(fasten_only: Any) -> None:
     run = fasten_only().unit("U-1").arrive("s1").run_tightening(ok=False).run()
     guidance = run.last.guidance
     assert (guidance.kind, guidance.target) == ("fasten", "s1")
-    assert guidance.words == "Fasten s1 label (position 1 of 3, attempt 2 of 2)."
+    assert guidance.words == "Fasten s1 label (order 1 of 3, attempt 2 of 2)."
     assert (run.last.position_number, run.last.attempt) == (1, 2)

@@ -23,7 +23,7 @@ def test_rework_pass_enables_only_the_failed_positions(scenario: Any) -> None:
     assert run.at("at_s2").tool_enabled
     opened = run.at("rework_open")
     assert (opened.rework, opened.step_id, opened.guidance.kind) == (True, "fasten", "rework")
-    assert opened.guidance.words == "Rework s2 label (position 2 of 3, attempt 1 of 2)."
+    assert opened.guidance.words == "Rework s2 label (order 2 of 3, attempt 1 of 2)."
     first, second = run.of("unit_ended")
     assert first.data["failed_positions"] == [{"step": "fasten", "zone": "s2"}]
     assert (second.data["result"], second.data["rework"], second.data["released"]) == (

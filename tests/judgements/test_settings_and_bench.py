@@ -32,7 +32,7 @@ def test_the_section_reaches_the_judgements(tmp_path: Path) -> None:
     data["judgements"] = {"bin_activity": {"changed_fraction": 0.1},
                           "presence": {"search_px": 5},
                           "camera_shift": {"tolerance_px": 6.5, "confirm_checks": 3}}
-    result = check_data(data, tmp_path)
+    result = check_data(data, DEMO_CONFIG.parent)
     assert result.config is not None
     settings = result.config.judgements.to_settings()
     assert settings.bin_activity == BinActivitySettings(changed_fraction=0.1)

@@ -21,11 +21,11 @@ def plan() -> StationPlan:
 
 
 def fastening(enabled: bool, **changes: Any) -> Output:
-    """The station fastening cover screw 4 (position 2 of 6) of unit PC-000101."""
+    """The station fastening cover screw 4 (order 2 of 6) of unit PC-000101."""
     fields: dict[str, Any] = {
         "t_s": 7.0,
         "tool_enabled": enabled,
-        "guidance": Guidance("fasten", "screw_4", "Fasten cover screw 4 (position 2 of 6)."),
+        "guidance": Guidance("fasten", "screw_4", "Fasten cover screw 4 (order 2 of 6)."),
         "unit_status": "running",
         "serial": "PC-000101",
         "step_id": "fasten_cover",

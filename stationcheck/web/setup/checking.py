@@ -7,6 +7,7 @@ circles written out, each numbered in its fasten step's tightening order.
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from pathlib import Path
 from typing import Any
 
@@ -15,7 +16,9 @@ from stationcheck.config.parts import parts_of_data
 from stationcheck.core import bolt_pattern
 
 
-def check_for_page(data: dict[str, Any], base_dir: Path, source: str) -> dict[str, Any]:
+def check_for_page(data: dict[str, Any], base_dir: Path, source: str,
+                   extra: Sequence[dict[str, Any]] = ()) -> dict[str, Any]:
+    """The page's check; ``extra`` adds findings only the screen makes (teaching quality)."""
     result = check_data(data, base_dir=base_dir, source=source)
     parts = result.parts if result.parts is not None else parts_of_data(data)
     order = tightening_numbers(data)
@@ -26,25 +29,31 @@ def check_for_page(data: dict[str, Any], base_dir: Path, source: str) -> dict[st
             "polygon": [list(point) for point in zone.polygon_px or ()],
             "entry": zone.path[1],
             "generated": "bolt_circle" in zone.path,
-            "number": order.get(zone.id),
+            "number": order[zone.id][0] if zone.id in order else None,
+            "of": order[zone.id][1] if zone.id in order else None,
         }
         for zone in parts.zones
     ]
+    findings = [{**finding.to_json(), "where": list(finding.path)}
+                for finding in result.findings] + list(extra)
+    warnings = len(result.warnings) + sum(1 for f in extra if f["severity"] == "warning")
+    summary = result.summary()
+    if extra and result.ok:
+        summary = f"{source}: OK with warnings: 0 errors, {warnings} warnings"
     return {
-        "summary": result.summary(),
+        "summary": summary,
         "ok": result.ok,
         "errors": len(result.errors),
-        "warnings": len(result.warnings),
-        "findings": [
-            {**finding.to_json(), "where": list(finding.path)} for finding in result.findings
-        ],
+        "warnings": warnings,
+        "findings": findings,
         "zones": zones,
     }
 
 
-def tightening_numbers(data: dict[str, Any]) -> dict[str, int]:
-    """Fastener zone -> its place in its fasten step's tightening order (first step wins)."""
-    numbers: dict[str, int] = {}
+def tightening_numbers(data: dict[str, Any]) -> dict[str, tuple[int, int]]:
+    """Fastener zone -> (its 1-based place in its fasten step's tightening order, how many the
+    step fastens); the first step naming it wins."""
+    numbers: dict[str, tuple[int, int]] = {}
     steps = data.get("steps")
     for step in steps if isinstance(steps, list) else []:
         if not isinstance(step, dict) or step.get("kind") != "fasten":
@@ -53,7 +62,7 @@ def tightening_numbers(data: dict[str, Any]) -> dict[str, int]:
         if step.get("order") == "cross" and zones:
             zones = bolt_pattern.apply_order(zones, bolt_pattern.cross_order(len(zones)))
         for number, zone in enumerate(zones, start=1):
-            numbers.setdefault(zone, number)
+            numbers.setdefault(zone, (number, len(zones)))
     return numbers
 
 

@@ -33,8 +33,7 @@ log = logging.getLogger(__name__)
 MAX_SECONDS = 20.0
 MAX_LEAD_IN_S = 60.0
 JPEG_QUALITY = 80
-_EVENT_KEYS = ("zone", "step", "position", "attempt", "result", "code", "subject", "reason",
-               "verdict", "released")
+_EVENT_KEYS = ("attempt", "result", "code", "subject", "reason", "verdict", "released")
 
 
 @dataclass(frozen=True)
@@ -58,6 +57,7 @@ class DryRunRecorder:
     frame_times_s: list[float] = field(default_factory=list)
     timeline: list[dict[str, Any]] = field(default_factory=list)
     draw_from_s: float = 0.0
+    run_frames: int = 0  # every frame of the segment (``frames`` holds every n-th)
     enabled_frames: int = 0
     _enabled: bool | None = None
 
@@ -78,6 +78,7 @@ class DryRunRecorder:
     def on_frame(self, result: FrameResult) -> None:
         if result.frame.t_s < self.draw_from_s - 1e-6:
             return
+        self.run_frames += 1
         self.enabled_frames += int(result.output.tool_enabled)
         if result.frame.index % self.every:
             return
@@ -98,12 +99,27 @@ class DryRunRecorder:
 
 
 def describe_event(event: Event) -> dict[str, Any]:
-    details = [f"{key} {event.data[key]}" for key in _EVENT_KEYS if key in event.data]
+    """One timeline line: the fastener by its zone, its place in the step as "order N", and
+    only the details that have a value."""
+    data = event.data
+    details: list[str] = []
+    if _has_value(data.get("zone")):
+        details.append(str(data["zone"]))
+    if _has_value(data.get("position")):
+        of_step = f" of step {data['step']}" if _has_value(data.get("step")) else ""
+        details.append(f"order {data['position']}{of_step}")
+    elif _has_value(data.get("step")):
+        details.append(f"step {data['step']}")
+    details += [f"{key} {data[key]}" for key in _EVENT_KEYS if _has_value(data.get(key))]
     serial = f"{event.serial}: " if event.serial else ""
     text = f"{serial}{event.kind.replace('_', ' ')}"
     if details:
         text += " (" + ", ".join(details) + ")"
     return {"t_s": round(event.t_s, 3), "kind": event.kind, "text": text}
+
+
+def _has_value(value: Any) -> bool:
+    return value is not None and value != "" and value != [] and value != {}
 
 
 def usable_config(data: dict[str, Any], base_dir: Path) -> StationConfig:

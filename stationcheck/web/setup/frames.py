@@ -47,7 +47,7 @@ class FrameRequest:
         if not 1 <= count <= MAX_SAMPLES or count != int(count):
             raise WebError(400, f"count must be a whole number from 1 to {MAX_SAMPLES}")
         if kind == "video":
-            video = session.resolve(str(body.get("video") or ""))
+            video = session.existing_file(str(body.get("video") or ""), "video file")
             return cls("video", video=video, at_s=_number(body.get("at_s", 0.0), "at_s"),
                        count=int(count), every_s=every_s)
         if kind == "camera":
@@ -59,7 +59,7 @@ class FrameRequest:
             url = str(body.get("url") or "")
             scheme = url.split("://", 1)[0].lower() if "://" in url else ""
             if scheme == "file":  # a file named as a URL is a file: inside the setup folder
-                video = session.resolve(unquote(urlsplit(url).path))
+                video = session.existing_file(unquote(urlsplit(url).path), "video file")
                 return cls("video", video=video, at_s=0.0, count=int(count), every_s=every_s)
             if scheme not in STREAM_SCHEMES or any(c in url for c in "\x00\r\n|"):
                 raise WebError(400, "a stream is a camera URL starting with "
@@ -77,7 +77,7 @@ def grab(request: FrameRequest, size_px: tuple[int, int]) -> list[Grabbed]:
     if request.kind == "video":
         assert request.video is not None
         if not request.video.is_file():
-            raise InputFileError(f"{request.video.name}: no such video file")
+            raise InputFileError(f"no such video file: tried {request.video}")
         return frame_grab.frames_from_video(request.video, request.at_s, request.count,
                                             request.every_s)
     if request.kind == "camera":
@@ -109,7 +109,7 @@ def _from_stream(url: str, count: int, every_s: float) -> list[Grabbed]:
 def video_info(path: Path) -> dict[str, Any]:
     """Length and rate of a video file, for choosing a time in it."""
     if not path.is_file():
-        raise InputFileError(f"{path.name}: no such video file")
+        raise InputFileError(f"no such video file: tried {path}")
     capture = cv2.VideoCapture(str(path))
     try:
         if not capture.isOpened():

@@ -10,12 +10,13 @@ from typing import Any
 
 from stationcheck.web.app import STATIC_ROOT, add_common_files
 from stationcheck.web.server import Request, Response, Router, WebError
-from stationcheck.web.setup import checking, dry_run, frames, teaching_service
+from stationcheck.web.setup import checking, dry_run, frames, station_copy, teaching_service
 from stationcheck.web.setup.workspace import SetupSession
 
 SETUP_STATIC = STATIC_ROOT / "setup"
 # the page sends the whole config with most requests: room for ten thousand zones
 DOCUMENT_BODY_BYTES = 8 * 1024 * 1024
+FILE_KINDS = {"video": (".mp4", ".avi", ".mkv", ".mov", ".webm"), "inputs": (".jsonl",)}
 
 
 class SetupApp:
@@ -34,6 +35,7 @@ class SetupApp:
             ("GET", "/api/reference-image"): self.reference_image,
             ("POST", "/api/reference"): self.take_reference,
             ("GET", "/api/video-info"): self.video_info,
+            ("GET", "/api/files"): self.files,
             ("POST", "/api/teach/list"): self.teach_list,
             ("POST", "/api/teach"): self.teach,
             ("POST", "/api/teach/clear"): self.teach_clear,
@@ -51,7 +53,8 @@ class SetupApp:
         return self.session.workspace.shown(path) if path is not None else "(new config)"
 
     def _checked(self, data: dict[str, Any]) -> dict[str, Any]:
-        return checking.check_for_page(data, self.session.base_dir, self._source())
+        return checking.check_for_page(data, self.session.base_dir, self._source(),
+                                       teaching_service.teaching_findings(self.session, data))
 
     def state(self, request: Request) -> Response:
         data = self.session.data()
@@ -92,17 +95,24 @@ class SetupApp:
     def save(self, request: Request) -> Response:
         body = _body(request)
         data = _document(body)
-        path = body.get("path")
-        target = self.session.save(data, str(path) if path else None)
+        path = str(body["path"]) if body.get("path") else None
+        plan = station_copy.plan_carry(data, self.session.base_dir,
+                                       self.session.target_of(path).parent,
+                                       self.session.workspace)
+        station_copy.carry(plan)
+        target = self.session.save(plan.data, path)
         return Response.json({"path": self.session.workspace.shown(target),
-                              "check": self._checked(data)})
+                              "data": plan.data, "carried": plan.notes,
+                              "video": self._default_video(plan.data),
+                              "check": self._checked(plan.data)})
 
     def reference_image(self, request: Request) -> Response:
         path = self.session.resolve(request.query.get("path", ""))
         if path.suffix.lower() not in frames.IMAGE_SUFFIXES:
             raise WebError(403, "refused: only the reference frame image is served")
         if not path.is_file():
-            raise WebError(404, f"no reference frame yet at {request.query.get('path')}")
+            raise WebError(404, f"no reference frame yet: tried {path}; take one in the "
+                                "Picture tab")
         kind = "image/png" if path.suffix.lower() == ".png" else "image/jpeg"
         return Response(200, path.read_bytes(), kind, {"Cache-Control": "no-store"})
 
@@ -113,11 +123,22 @@ class SetupApp:
         size = (int(body.get("width_px") or 640), int(body.get("height_px") or 480))
         image, source = frames.grab(request_frames, size)[0]
         frames.write_reference(image, target)
+        fps = (frames.video_info(request_frames.video)["fps"]
+               if request_frames.video is not None else None)
         return Response.json({"source": source, "width_px": int(image.shape[1]),
-                              "height_px": int(image.shape[0])})
+                              "height_px": int(image.shape[0]), "fps": fps})
 
     def video_info(self, request: Request) -> Response:
-        return Response.json(frames.video_info(self.session.resolve(request.query.get("path", ""))))
+        return Response.json(frames.video_info(
+            self.session.existing_file(request.query.get("path", ""), "video file")))
+
+    def files(self, request: Request) -> Response:
+        kind = request.query.get("kind", "")
+        if kind not in FILE_KINDS:
+            raise WebError(400, f"kind must be one of {', '.join(FILE_KINDS)}")
+        workspace = self.session.workspace
+        return Response.json({"root": str(workspace.root), "kind": kind,
+                              "files": workspace.files(FILE_KINDS[kind], self.session.base_dir)})
 
     def teach_list(self, request: Request) -> Response:
         body = _body(request)
@@ -142,9 +163,9 @@ class SetupApp:
     def dry_run(self, request: Request) -> Response:
         body = _body(request)
         config = dry_run.usable_config(_document(body), self.session.base_dir)
-        video = self.session.resolve(str(body.get("video") or ""))
+        video = self.session.existing_file(str(body.get("video") or ""), "video file")
         inputs_text = body.get("inputs")
-        inputs = (self.session.resolve(str(inputs_text)) if inputs_text
+        inputs = (self.session.existing_file(str(inputs_text), "inputs file") if inputs_text
                   else dry_run.inputs_beside(video))
         start_s, seconds = body.get("start_s", 0), body.get("seconds", 4)
         if not all(isinstance(v, int | float) and not isinstance(v, bool)
@@ -161,6 +182,7 @@ class SetupApp:
             "every": recorder.every,
             "timeline": recorder.timeline,
             "inputs": self.session.workspace.shown(inputs) if inputs else None,
+            "run_frames": recorder.run_frames,
             "enabled_frames": recorder.enabled_frames,
         })
 

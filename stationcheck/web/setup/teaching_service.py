@@ -8,7 +8,10 @@ from typing import Any
 
 from stationcheck.config.parts import parts_of_data
 from stationcheck.config.schema import ID_PATTERN
+from stationcheck.config.station_files import MANIFEST_NAME, teaching_folder
+from stationcheck.config.wording import format_path
 from stationcheck.core.plan import ZoneSpec
+from stationcheck.errors import StationcheckError
 from stationcheck.judgements import teaching
 from stationcheck.judgements.presence import LABELS
 from stationcheck.web.server import WebError
@@ -44,20 +47,68 @@ def _listing(zone: ZoneSpec, folder: Path) -> dict[str, Any]:
     manifest = teaching.read_manifest(folder)
     if manifest is None:
         return {"zone": zone.id, "taught": False, "images": [], "present": 0, "absent": 0,
+                "folder": str(folder), "poor": None,
                 "note": "not taught: its check stays undecided"}
     images = [{"file": image.file, "label": image.label, "source": image.source}
               for image in manifest.images]
     note = "teach at least two images of each class to see how well they separate"
-    taught = teaching.load_taught(folder, zone)
-    found = teaching.separation(taught) if taught is not None else None
+    found = separation_of(folder, zone)
+    poor = teaching.poor_teaching(manifest, found) if found is not None else None
+    misfits = set(teaching.misfit_files(manifest, found)) if found is not None else set()
     if found is not None:
         note = (f"agreement within a class >= {found.own_min:.2f}; with the other class "
                 f"<= {found.other_max:.2f} (gap {found.gap:.2f})")
-        if found.misfits:
-            note += f"; {len(found.misfits)} image(s) look more like the other class"
-    return {"zone": zone.id, "taught": True, "images": images,
+    return {"zone": zone.id, "taught": True,
+            "images": [{**image, "misfit": image["file"] in misfits} for image in images],
             "present": manifest.count("present"), "absent": manifest.count("absent"),
-            "note": note}
+            "folder": str(folder), "poor": poor, "note": note}
+
+
+_SEPARATIONS: dict[tuple[str, int, str], teaching.Separation | None] = {}
+
+
+def separation_of(folder: Path, zone: ZoneSpec) -> teaching.Separation | None:
+    """How well the zone's taught classes separate; kept until its manifest changes (the page
+    asks on every edit)."""
+    try:
+        stamp = (folder / MANIFEST_NAME).stat().st_mtime_ns
+    except OSError:
+        return None
+    key = (str(folder), stamp, repr(zone.polygon_px))
+    if key not in _SEPARATIONS:
+        taught = teaching.load_taught(folder, zone)
+        if len(_SEPARATIONS) > 64:
+            _SEPARATIONS.clear()
+        _SEPARATIONS[key] = teaching.separation(taught) if taught is not None else None
+    return _SEPARATIONS[key]
+
+
+def teaching_findings(session: SetupSession, data: dict[str, Any]) -> list[dict[str, Any]]:
+    """A warning for each check zone whose taught classes do not stand apart, naming the
+    images that look more like the other class (the page shows it beside the zone)."""
+    try:
+        reference = session.reference_path(data)
+    except WebError:
+        return []
+    found: list[dict[str, Any]] = []
+    for located in parts_of_data(data).zones:
+        if located.kind != "check" or located.polygon_px is None:
+            continue
+        folder = teaching_folder(reference, located.id)
+        try:
+            manifest = teaching.read_manifest(folder)
+            quality = separation_of(folder, ZoneSpec(id=located.id, kind="check",
+                                                     polygon_px=located.polygon_px))
+        except StationcheckError:
+            continue  # a broken teaching folder is the file check's error
+        poor = (teaching.poor_teaching(manifest, quality)
+                if manifest is not None and quality is not None else None)
+        if poor is not None:
+            where = list(located.path)
+            found.append({"severity": "warning", "path": format_path(located.path),
+                          "line": None, "where": where,
+                          "message": f"check zone '{located.id}': {poor}"})
+    return found
 
 
 def teach_from_source(session: SetupSession, data: dict[str, Any],

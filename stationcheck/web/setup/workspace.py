@@ -24,6 +24,9 @@ log = logging.getLogger(__name__)
 
 CONFIG_SUFFIXES = (".yaml", ".yml")
 DEFAULT_NEW_NAME = "station.yaml"
+SKIPPED_DIRS = frozenset({"node_modules", "__pycache__", "venv"})
+MAX_LISTED_FILES = 200
+MAX_VISITED_ENTRIES = 20_000
 
 
 def default_root(config_path: Path | None, cwd: Path) -> Path:
@@ -52,8 +55,27 @@ class Workspace:
             candidate = base / candidate
         resolved = Path(os.path.normpath(candidate)).resolve()
         if not resolved.is_relative_to(self.root):
-            raise WebError(403, f"refused: {text} is outside the setup folder {self.root}")
+            common = os.path.commonpath([self.root, resolved])
+            raise WebError(403, f"refused: '{text}' is {resolved}, outside the setup folder "
+                                f"{self.root}; paths start at {base}. Name a file inside the "
+                                f"setup folder, or start setup again with --root {common} "
+                                "(a folder holding both)")
         return resolved
+
+    def files(self, suffixes: tuple[str, ...], base: Path) -> list[str]:
+        """Files under the root with one of ``suffixes``, named as the page names paths (from
+        ``base``); hidden folders and virtual environments are skipped, the walk is bounded."""
+        found: list[str] = []
+        visited = 0
+        for folder, dirs, names in os.walk(self.root):
+            dirs[:] = sorted(d for d in dirs if not d.startswith(".") and d not in SKIPPED_DIRS)
+            visited += len(names) + len(dirs)
+            for name in sorted(names):
+                if name.lower().endswith(suffixes) and not name.startswith("."):
+                    found.append(Path(os.path.relpath(Path(folder) / name, base)).as_posix())
+            if len(found) >= MAX_LISTED_FILES or visited > MAX_VISITED_ENTRIES:
+                break
+        return found[:MAX_LISTED_FILES]
 
     def shown(self, path: Path) -> str:
         """How the page names a path: relative to the root."""
@@ -94,6 +116,14 @@ class SetupSession:
     def resolve(self, path_text: str | Path) -> Path:
         return self.workspace.inside(path_text, self.base_dir)
 
+    def existing_file(self, path_text: str | Path, what: str) -> Path:
+        """``resolve`` for a file that must be there; 404 naming the path tried."""
+        path = self.resolve(path_text)
+        if not path.is_file():
+            raise WebError(404, f"no such {what} '{path_text}': tried {path} (paths start at "
+                                f"the config's folder {self.base_dir})")
+        return path
+
     def reference_path(self, data: dict[str, Any]) -> Path:
         station = data.get("station")
         name = station.get("reference_frame") if isinstance(station, dict) else None
@@ -101,8 +131,8 @@ class SetupSession:
             raise WebError(404, "the config names no reference frame (station.reference_frame)")
         return self.resolve(name)
 
-    def save(self, data: dict[str, Any], path_text: str | None) -> Path:
-        """Write ``data`` into the document in place and the document to its file."""
+    def target_of(self, path_text: str | None) -> Path:
+        """Where a save goes: ``path_text`` (from the config's folder), else the open file."""
         target = self.config_path
         if path_text:
             target = self.resolve(path_text)
@@ -110,6 +140,11 @@ class SetupSession:
             target = self.resolve(DEFAULT_NEW_NAME)
         if target.suffix.lower() not in CONFIG_SUFFIXES:
             raise WebError(400, f"a station config is a .yaml file, not {target.name}")
+        return target
+
+    def save(self, data: dict[str, Any], path_text: str | None) -> Path:
+        """Write ``data`` into the document in place and the document to its file."""
+        target = self.target_of(path_text)
         with self.lock:
             yaml_document.merge_into(self.document, data)
             text = yaml_document.dump_text(self.document)

@@ -38,8 +38,8 @@ def test_check_places_each_finding_on_its_step_and_zone(setup_server: ServerFact
     assert "did you mean 'bin_gasket'" in where[("steps", 0)]["message"]
     assert where[("zones", 7)]["severity"] == "error"
     # zones are still drawn, numbered in tightening order (screw_4 is tightened second)
-    numbers = {z["id"]: z["number"] for z in check["zones"]}
-    assert numbers["screw_4"] == 2 and numbers["bin_cover"] is None
+    numbers = {z["id"]: (z["number"], z["of"]) for z in check["zones"]}
+    assert numbers["screw_4"] == (2, 6) and numbers["bin_cover"] == (None, None)
 
 
 @pytest.mark.parametrize(("count", "expected"), [
@@ -150,6 +150,8 @@ def test_teach_and_dry_run_from_the_sample_video(setup_server: ServerFactory,
         "data": data, "video": "../sample_video/demo_station.mp4", "start_s": 0, "seconds": 2})
     assert status == 200, run
     assert run["frames"] == 30 and run["inputs"] == "sample_video/demo_station_inputs.jsonl"
+    assert run["run_frames"] == 60 and 0 <= run["enabled_frames"] <= 60  # 2 s at 30 f/s
+    assert not [e for e in run["timeline"] if e["text"].endswith(" )") or " ," in e["text"]]
     first_input = json.loads(DEMO_INPUTS.read_text().splitlines()[0])
     started = [e for e in run["timeline"] if e["kind"] == "unit_started"]
     assert started and started[0]["t_s"] == pytest.approx(first_input["t_s"], abs=1 / 30)

@@ -6,7 +6,8 @@ import { installStage, renderStage, finishDraft, cancelDraft, deleteSelection, s
          fit } from "./stage.js";
 import { zonesPanel } from "./zones_panel.js";
 import { stepsPanel } from "./steps_panel.js";
-import { picturePanel, teachPanel, dryRunPanel } from "./source_panels.js";
+import { picturePanel, teachPanel, dryRunPanel, isTeachFinding, forgetPaths }
+  from "./source_panels.js";
 import { installPlayer, setPlayerVisible } from "./player.js";
 
 const PANELS = { picture: picturePanel, zones: zonesPanel, steps: stepsPanel, teach: teachPanel,
@@ -20,7 +21,6 @@ const saveNote = document.getElementById("save-note");
 
 function renderTop() {
   document.getElementById("file-name").textContent = S.configPath || "(new config, not saved)";
-  document.getElementById("save-as").hidden = S.configPath !== null;
   const check = S.check;
   const meaning = check.errors ? "fault" : check.warnings ? "abnormal" : "normal";
   const symbol = check.errors ? "\u2716" : check.warnings ? "!" : "\u2714";
@@ -53,21 +53,52 @@ function renderPanel() {
   const scroll = panel.scrollTop;
   panel.replaceChildren(...PANELS[S.tab]().flat().filter((n) => n !== null && n !== undefined));
   panel.scrollTop = scroll;
-  const other = S.check.findings.filter((f) => !(f.where[0] in TAB_OF));
-  document.getElementById("other-findings").replaceChildren(
-    ...(other.length ? [el("h2", {}, "Other findings"), ...findingList(other)] : []));
+  renderOtherFindings();
 }
 
-async function save() {
+// Every finding the badge counts is shown as text: those of the open tab in its panel, the
+// rest here, each saying which tab it belongs to (a click opens that tab).
+const SHOWN_ELSEWHERE = 8;
+function renderOtherFindings() {
+  const elsewhere = S.check.findings.filter((f) => TAB_OF[f.where[0]] !== S.tab
+                                             && !(S.tab === "teach" && isTeachFinding(f)))
+    .sort((a, b) => (a.severity === b.severity ? 0 : a.severity === "error" ? -1 : 1));
+  const rows = findingList(elsewhere.slice(0, SHOWN_ELSEWHERE)).map((row, i) => {
+    const tab = TAB_OF[elsewhere[i].where[0]];
+    if (!tab) return row;
+    row.prepend(el("span", { class: "tab-name" }, `${tab} tab \u203a `));
+    row.classList.add("link");
+    row.addEventListener("click", () => { S.tab = tab; render(); });
+    return row;
+  });
+  const more = elsewhere.length - SHOWN_ELSEWHERE;
+  document.getElementById("other-findings").replaceChildren(...(elsewhere.length
+    ? [el("h2", {}, `Findings on other tabs (${elsewhere.length})`), ...rows,
+       more > 0 ? el("p", { class: "note" }, `and ${more} more`) : null]
+    : []).filter((n) => n !== null));
+}
+
+async function save(saveAs = false) {
   const body = { data: S.data };
-  if (S.configPath === null) body.path = document.getElementById("save-path").value;
+  if (S.configPath === null || saveAs === true) {
+    body.path = document.getElementById("save-path").value;
+  }
   try {
     const out = await api("POST", "/api/save", body);
+    const folderOf = (path) => (path || "").split("/").slice(0, -1).join("/");
+    if (folderOf(out.path) !== folderOf(S.configPath)) {
+      S.defaultVideo = out.video;
+      forgetPaths();
+    }
     S.configPath = out.path;
+    S.data = out.data;
     S.check = out.check;
     S.dirty = false;
+    S.pictureVersion += 1;
     saveNote.textContent = `saved ${out.path} at ${new Date().toLocaleTimeString()}`
+      + (out.carried.length ? "; its files came along (details: hover)" : "")
       + (out.check.errors ? " (with errors: the station cannot run it yet)" : "");
+    saveNote.title = out.carried.join("\n");
   } catch (err) {
     saveNote.textContent = `not saved: ${err.message}`;
   }
@@ -81,7 +112,7 @@ function typing(evt) {
 
 function onKey(evt) {
   const ctrl = evt.ctrlKey || evt.metaKey;
-  if (ctrl && evt.key.toLowerCase() === "s") { evt.preventDefault(); save(); return; }
+  if (ctrl && evt.key.toLowerCase() === "s") { evt.preventDefault(); save(false); return; }
   if (typing(evt)) return;
   if (ctrl && evt.key.toLowerCase() === "z") { evt.preventDefault(); undo(); return; }
   const actions = {
@@ -99,13 +130,18 @@ async function start() {
     button.addEventListener("click", () => { S.tab = button.dataset.tab; render(); });
   }
   document.getElementById("undo").addEventListener("click", undo);
-  document.getElementById("save").addEventListener("click", save);
+  document.getElementById("save").addEventListener("click", () => save(false));
+  document.getElementById("save-as-button").addEventListener("click", () => save(true));
   document.addEventListener("keydown", onKey);
   window.addEventListener("beforeunload", (evt) => { if (S.dirty) evt.preventDefault(); });
   const state = await api("GET", "/api/state");
   S.data = state.data;
   S.check = state.check;
   S.configPath = state.config_path;
+  // paths on this page start at the config's folder: the file's own name means the file
+  if (S.configPath !== null) {
+    document.getElementById("save-path").value = S.configPath.split("/").pop();
+  }
   S.defaultVideo = state.video;
   S.tab = state.exists ? "zones" : "picture";
   onRender(renderTop);

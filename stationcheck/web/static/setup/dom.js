@@ -67,3 +67,28 @@ export function findingList(findings) {
 }
 
 export function findingsFor(...prefix) { return findingList(findingsAt(...prefix)); }
+
+// A list of the setup folder's files of one kind (video, inputs, config) that fills `input`:
+// the page may only name files inside the setup folder, so that is all it offers.
+const fileLists = {};
+export function filePicker(kind, input, api) {
+  const select = el("select", { name: `pick-${kind}`, class: "file-picker",
+                                title: "files of this kind inside the setup folder" },
+    el("option", { value: "" }, "choose\u2026"));
+  const fill = (files) => {
+    for (const file of files) select.append(el("option", { value: file }, file));
+    if (!files.length) select.append(el("option", { value: "", disabled: true }, "(none)"));
+  };
+  if (fileLists[kind]) fill(fileLists[kind]);
+  else {
+    api("GET", `/api/files?kind=${kind}`).then((out) => { fileLists[kind] = out.files;
+                                                          fill(out.files); })
+      .catch(() => {});
+  }
+  select.addEventListener("change", () => {
+    if (!select.value) return;
+    input.value = select.value;
+    input.dispatchEvent(new Event("change"));
+  });
+  return select;
+}

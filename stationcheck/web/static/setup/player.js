@@ -14,6 +14,8 @@ function show(index) {
   const i = Math.max(0, Math.min(run.frames - 1, index));
   seek.value = String(i);
   image.src = `/api/dry-run/frame?run=${run.run}&i=${i}`;
+  image.hidden = false;
+  document.getElementById("player-empty").hidden = true;
   time.textContent = `${run.frame_times_s[i].toFixed(2)} s`;
 }
 

@@ -12,6 +12,8 @@ const handlesLayer = document.getElementById("handles");
 const draftLayer = document.getElementById("draft");
 const hint = document.getElementById("hint");
 const zoomLevel = document.getElementById("zoom-level");
+const emptyState = document.getElementById("empty-state");
+let failedHref = null;
 
 const HINTS = {
   select: "Click a zone to select it; drag its points or the zone; double-click an edge to add a "
@@ -91,14 +93,15 @@ function polygonOf(index) {
 function drawnZones() {
   // Polygon entries from the document as edited (immediate), bolt circles as last checked.
   const out = [];
-  const numbers = new Map((S.check.zones || []).map((z) => [z.id, z.number]));
+  const numbers = new Map((S.check.zones || []).map((z) => [z.id, z]));
   (S.data.zones || []).forEach((entry, index) => {
     const polygon = polygonOf(index);
     if (polygon) {
       const points = polygon.filter((p) => Array.isArray(p) && p.length === 2
         && p.every((v) => typeof v === "number"));
       out.push({ id: String(entry.id ?? "?"), kind: entry.kind, polygon: points, entry: index,
-                 generated: false, number: numbers.get(entry.id) });
+                 generated: false, number: (numbers.get(entry.id) || {}).number,
+                 of: (numbers.get(entry.id) || {}).of });
     }
   });
   for (const zone of S.check.zones || []) if (zone.generated) out.push(zone);
@@ -113,7 +116,12 @@ export function renderStage() {
   edge.setAttribute("height", h);
   const ref = (S.data.station || {}).reference_frame;
   const href = ref ? `/api/reference-image?path=${encodeURIComponent(ref)}&v=${S.pictureVersion}` : "";
-  if (picture.getAttribute("href") !== href) picture.setAttribute("href", href);
+  // a picture that failed is not asked for again (nor drawn as a broken image) until the
+  // reference frame's name or version changes
+  if (href !== failedHref && picture.getAttribute("href") !== href) {
+    if (href) picture.setAttribute("href", href); else picture.removeAttribute("href");
+  }
+  emptyState.hidden = Boolean(href) && href !== failedHref;
   svg.setAttribute("class", `mode-${S.mode}`);
   for (const button of document.querySelectorAll("button.mode")) {
     button.classList.toggle("on", button.dataset.mode === S.mode);
@@ -139,7 +147,15 @@ export function renderStage() {
       const label = svgEl("text", { x: cx, y: cy, "text-anchor": "middle",
                                      "dominant-baseline": "middle",
                                      style: `font-size:${12 * unit}px;stroke-width:${3 * unit}px` });
-      label.textContent = (zone.number ? `${zone.number}: ` : "") + zone.id;
+      // the fastener by its name; its place in the step's order on a second, smaller line
+      label.append(svgEl("tspan", { x: cx, dy: zone.number ? `${-0.45}em` : "0" }));
+      label.lastChild.textContent = zone.id;
+      if (zone.number) {
+        const order = svgEl("tspan", { x: cx, dy: "1.15em", class: "order",
+                                       style: `font-size:${10 * unit}px` });
+        order.textContent = `order ${zone.number} of ${zone.of}`;
+        label.append(order);
+      }
       group.append(label);
       if (errors.length) {
         const mark = svgEl("text", { x: cx, y: cy - 14 * unit, "text-anchor": "middle",
@@ -355,8 +371,21 @@ export function installStage() {
   svg.addEventListener("pointerup", onPointerUp);
   svg.addEventListener("dblclick", onDoubleClick);
   svg.addEventListener("wheel", onWheel, { passive: false });
-  picture.addEventListener("error", () => {
-    hint.textContent = "No reference frame yet: take one in the Picture tab.";
+  picture.addEventListener("error", async () => {
+    failedHref = picture.getAttribute("href");
+    picture.removeAttribute("href");
+    emptyState.hidden = false;
+    try {
+      const resp = await fetch(failedHref);
+      document.getElementById("empty-tried").textContent = (await resp.json()).error || "";
+    } catch (err) { /* the steps above say what to do */ }
+  });
+  picture.addEventListener("load", () => {
+    emptyState.hidden = true;
+    picture.dataset.loaded = picture.getAttribute("href");
+  });
+  document.getElementById("empty-go").addEventListener("click", () => {
+    S.tab = "picture"; render();
   });
   for (const button of document.querySelectorAll("button.mode")) {
     button.addEventListener("click", () => setMode(button.dataset.mode));

@@ -91,6 +91,9 @@ function pickButton(index) {
 
 function fastenFields(step, index) {
   const zones = Array.isArray(step.zones) ? step.zones : [];
+  // a zone's place in the step's tightening order (cross order comes from the last check)
+  const checked = new Map((S.check.zones || []).map((z) => [z.id, z.number]));
+  const orderOf = (zone, k) => (step.order === "cross" ? checked.get(zone) || "?" : k + 1);
   const free = zonesOfKind("fastener").filter((z) => !zones.includes(z));
   const adder = el("select", { name: "add-zone" }, el("option", { value: "" }, "add zone\u2026"),
                    free.map((z) => el("option", { value: z }, z)));
@@ -106,7 +109,8 @@ function fastenFields(step, index) {
     line("zones", adder, pickButton(index)),
     el("div", { class: "chips" }, zones.length ? null : el("span", { class: "note" },
       "no zones yet"), zones.map((z, k) => el("span",
-      { class: "chip" }, el("b", {}, `${k + 1}`), z,
+      { class: "chip", title: `${z}: fastened in place ${orderOf(z, k)} of this step` },
+      el("b", {}, `order ${orderOf(z, k)}`), " ", z,
       el("button", { class: "small", title: `Remove ${z}`, onclick: () => change(() => {
         step.zones = zones.filter((_, j) => j !== k); }) }, "\u00d7")))),
     line("order", boundSelect(["steps", index, "order"], ["listed", "cross"],
