@@ -77,6 +77,9 @@ class TighteningShown:
     torque_nm: float | None
     angle_deg: float | None
     t_s: float
+    torque_limits_nm: tuple[float | None, float | None] = (None, None)
+    angle_limits_deg: tuple[float | None, float | None] = (None, None)
+    max_attempts: int | None = None
 
 
 @dataclass(frozen=True)
@@ -161,7 +164,10 @@ class StationViewBuilder:
                     zone=str(data["zone"]), position=int(data["position"]),
                     attempt=int(data["attempt"]), ok=data["result"] == RESULT_OK,
                     torque_nm=data["torque"]["value"], angle_deg=data["angle"]["value"],
-                    t_s=event.t_s)
+                    t_s=event.t_s,
+                    torque_limits_nm=(data["torque"].get("low"), data["torque"].get("high")),
+                    angle_limits_deg=(data["angle"].get("low"), data["angle"].get("high")),
+                    max_attempts=data.get("max_attempts"))
             elif event.kind == "check_verdict":
                 self.check_verdict = str(data["verdict"])
             elif event.kind == "unit_ended" and event.serial is not None:

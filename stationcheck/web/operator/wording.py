@@ -18,6 +18,7 @@ from stationcheck.pipeline.station_view import (
     Meaning,
     StationView,
     StationViewBuilder,
+    TighteningShown,
 )
 
 # code -> (what happened, what to do); conditions last while their cause lasts. Their meaning
@@ -49,6 +50,13 @@ EVENT_ALARMS: dict[str, tuple[Meaning, str, str]] = {
     "check_failed": ("fault", "Check acknowledged without passing",
                      "The unit is not released; it goes to rework."),
 }
+# what a check zone was last judged, in the screen's words
+CHECK_SEEN = {"present": "in place", "absent": "not there",
+              "undecided": "not clear yet: keep it in view"}
+# A NOK with an attempt left is abnormal (IEC 60073 yellow: the operator puts it right here);
+# a position left for rework is a fault (red: the unit will not be released as it is).
+NOK_RETRY_MEANING: Meaning = "abnormal"
+NOK_LEFT_MEANING: Meaning = "fault"
 ENGAGE_NOUNS = ("pin", "latch", "clamp", "lock", "lever", "bolt")
 _BIN_LABEL = re.compile(r"^(?P<part>.+?)\s+bin(?:\s*\((?P<where>[^)]+)\))?$", re.IGNORECASE)
 
@@ -126,6 +134,10 @@ class Wording:
         target = out.target.zone if out.target is not None else guidance.target
         attempt = self._attempt_words(view)
         if kind in ("fasten", "rework") and target is not None:
+            nok = self._after_nok(view, target, attempt)
+            if nok is not None:
+                return nok
+        if kind in ("fasten", "rework") and target is not None:
             verb = "Rework" if kind == "rework" else "Fasten"
             detail = f"{self.label(target)} · {attempt}" if attempt else self.label(target)
             if kind == "rework":
@@ -144,9 +156,9 @@ class Wording:
             return Instruction(kind, text, f"Step {out.step_number} of {out.step_count}",
                                meaning)
         if kind == "check" and isinstance(step, CheckStep):
-            seen = view.check_verdict or "not judged yet"
+            seen = CHECK_SEEN.get(view.check_verdict or "", "not judged yet")
             return Instruction(kind, self.check_action(step),
-                               f"{self.label(step.zone)}: seen {seen}", meaning)
+                               f"{self.label(step.zone)}: {seen}", meaning)
         if kind == "acknowledge" and isinstance(step, ConfirmStep):
             how = ("Then press ACKNOWLEDGE." if mode == "live"
                    else "Replay: the acknowledge comes from the recording.")
@@ -160,6 +172,23 @@ class Wording:
         if kind == "unit_finished":
             return self._finished(view)
         return Instruction(kind, "Waiting for the next unit", "Load a unit to start.", meaning)
+
+    def _after_nok(self, view: StationView, target: str,
+                   attempt: str) -> Instruction | None:
+        """The headline while the unit's newest tightening is a NOK: what failed and what to
+        do now (fasten it again, or go on and leave it for rework)."""
+        last = view.last_tightening
+        if last is None or last.ok:
+            return None
+        where = self.position(last.zone)
+        why = nok_reason(last)
+        if target == last.zone:
+            detail = f"{why[:1].upper()}{why[1:]} · {attempt}" if attempt else why
+            return Instruction("nok_retry", f"NOK at {where}: fasten it again", detail,
+                               NOK_RETRY_MEANING)
+        return Instruction("nok_left", f"NOK at {where}: go on to {self.position(target)}",
+                           f"{why[:1].upper()}{why[1:]} · {where} is left for rework",
+                           NOK_LEFT_MEANING)
 
     def _attempt_words(self, view: StationView) -> str:
         out = view.output
@@ -188,10 +217,32 @@ class Wording:
                                "Released. Waiting for the next unit.", meaning)
         if unit.failed_zones:
             places = ", ".join(self.position(z) for z in unit.failed_zones)
-            return Instruction("unit_finished", f"Unit {unit.serial} not released",
-                               f"Rework needed at {places}.", meaning)
-        return Instruction("unit_finished", f"Unit {unit.serial} not released",
-                           view.output.guidance.words, meaning)
+            return Instruction("unit_finished", f"Unit {unit.serial} NOK: to rework",
+                               f"Not released. Rework needed at {places}.", meaning)
+        return Instruction("unit_finished", f"Unit {unit.serial} NOK: to rework",
+                           f"Not released. {view.output.guidance.words}", meaning)
+
+
+def _limit_words(name: str, value: float | None, limits: tuple[float | None, float | None],
+                 unit: str, digits: int) -> str | None:
+    low, high = limits
+    if value is None:
+        return None
+    if low is not None and value < low:
+        return f"{name} {value:.{digits}f}{unit} below its limit {low:.{digits}f}{unit}"
+    if high is not None and value > high:
+        return f"{name} {value:.{digits}f}{unit} above its limit {high:.{digits}f}{unit}"
+    return None
+
+
+def nok_reason(result: TighteningShown) -> str:
+    """Why a tightening is NOK, from its values and the step's limits; the controller's word
+    when the values are inside them (the controller's verdict stays authoritative)."""
+    found = [words for words in (
+        _limit_words("torque", result.torque_nm, result.torque_limits_nm, " Nm", 2),
+        _limit_words("angle", result.angle_deg, result.angle_limits_deg, "°", 1),
+    ) if words]
+    return ", ".join(found) if found else "the tightening controller reported NOK"
 
 
 def _plain(code: str) -> str:
