@@ -15,6 +15,7 @@ from typing import Literal
 from stationcheck.core.events import RESULT_OK, Event
 from stationcheck.core.outputs import Output
 from stationcheck.core.plan import FastenStep, StationPlan
+from stationcheck.core.result_words import unit_word
 
 Meaning = Literal["normal", "abnormal", "fault", "action", "neutral"]
 
@@ -86,7 +87,7 @@ class TighteningShown:
 class UnitShown:
     serial: str
     rework: bool
-    result: str  # OK, NOK, not released
+    result: str  # OK, NOK or aborted (core.result_words)
     released: bool
     failed_zones: tuple[str, ...]
     t_s: float
@@ -172,8 +173,7 @@ class StationViewBuilder:
                 self.check_verdict = str(data["verdict"])
             elif event.kind == "unit_ended" and event.serial is not None:
                 failed = tuple(str(r["zone"]) for r in data["failed_positions"])
-                result = "OK" if data["result"] == RESULT_OK else (
-                    "NOK" if failed else "not released")
+                result = unit_word(str(data["result"]))
                 self.last_unit = UnitShown(event.serial, bool(data["rework"]), result,
                                            bool(data["released"]), failed, event.t_s)
             elif event.kind == "alarm_raised" and data["code"] in ("wrong_position", "wrong_bin"):

@@ -219,8 +219,11 @@ class Wording:
             places = ", ".join(self.position(z) for z in unit.failed_zones)
             return Instruction("unit_finished", f"Unit {unit.serial} NOK: to rework",
                                f"Not released. Rework needed at {places}.", meaning)
+        said = view.output.guidance.words
+        prefix = f"Unit {unit.serial} not released: "
+        why = said.removeprefix(prefix)
         return Instruction("unit_finished", f"Unit {unit.serial} NOK: to rework",
-                           f"Not released. {view.output.guidance.words}", meaning)
+                           f"Not released: {why}", meaning)
 
 
 def _limit_words(name: str, value: float | None, limits: tuple[float | None, float | None],

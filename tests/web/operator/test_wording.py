@@ -75,6 +75,11 @@ NOK_3_INSIDE = replace(NOK_3, torque_nm=5.0, angle_deg=30.0)
      "Call setup", "fault"),
     (output("unit_finished", unit_status="nok"), {"last_unit": UNIT_NOK},
      "Unit PC-000123 NOK: to rework", "Not released. Rework needed at position 3.", "fault"),
+    (output("unit_finished", unit_status="nok", guidance=Guidance(
+        "unit_finished", None,
+        "Unit PC-000123 not released: the check at fixture locking pin failed.")),
+     {"last_unit": replace(UNIT_NOK, failed_zones=())}, "Unit PC-000123 NOK: to rework",
+     "Not released: the check at fixture locking pin failed.", "fault"),
     (output("unit_finished", unit_status="ok"), {"last_unit": UNIT_OK},
      "Unit PC-000123 OK", "Released", "normal"),
     (output("wait_for_unit", serial=None, unit_status="idle", step_id=None, step_count=0), {},
