@@ -104,10 +104,11 @@ def _teach(args: argparse.Namespace, config: Any) -> int:
     zone = teaching.check_zone(config, args.zone)
     folder = teaching.teaching_dir(config, zone.id)
     size = (config.camera.width_px, config.camera.height_px)
+    frames = _frames(args, config)
     print("Privacy: the taught crops are kept in the station folder until cleared; frames of "
           "the station may show the people who work there (follow local workplace and "
           "data-protection rules).", file=sys.stderr)
-    manifest = teaching.teach(folder, zone, args.label, _frames(args, config), size)
+    manifest = teaching.teach(folder, zone, args.label, frames, size)
     print(f"taught {teaching.describe(manifest)} (in {folder})")
     _print_separation(folder, zone)
     return 0
