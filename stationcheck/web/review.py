@@ -17,7 +17,7 @@ from stationcheck.quality import export
 from stationcheck.quality.charts_svg import figure_charts, trend_svg
 from stationcheck.quality.json_views import figures_dict, trend_dict, trend_findings
 from stationcheck.quality.period import Period
-from stationcheck.quality.report import build_report
+from stationcheck.quality.report import build_report, log_is_demo
 from stationcheck.quality.rollup import FigureCache
 from stationcheck.quality.trends import (
     DEFAULT_POINTS,
@@ -134,10 +134,12 @@ def build_review_router(source: ReviewSource) -> Router:
         with source.reader() as step_log:
             positions = fastener_positions(step_log.connection)
             codes = alarm_codes(step_log.connection)
+            demo = log_is_demo(step_log.connection)
         return Response.json({
             "log": source.path.name, "path": str(source.path),
             "positions": [p.position for p in positions], "alarm_codes": codes,
             "results": list(RESULT_FILTERS), "orders": list(UNIT_ORDERS), "count_cap": COUNT_CAP,
+            "demo_data": demo,
         })
 
     def units(request: Request) -> Response:

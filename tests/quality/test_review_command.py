@@ -27,7 +27,7 @@ def test_figures_as_json_and_text(scripted_log: Path, capsys: pytest.CaptureFixt
     figures = json.loads(out)
     assert code == 0 and (figures["units"], figures["first_time_through"]) == (5, 2)
     code, out, _ = run(capsys, str(scripted_log), "--figures")
-    assert code == 0 and "first-time-through 2 = 40.0 % (95 % Wilson interval" in out
+    assert code == 0 and "first-time-through 2 of 5 ended units = 40.0 % (95 % Wilson interval" in out
 
 
 def test_units_as_csv_text_and_json(scripted_log: Path, capsys: pytest.CaptureFixture[str]) -> None:
@@ -42,7 +42,9 @@ def test_units_as_csv_text_and_json(scripted_log: Path, capsys: pytest.CaptureFi
 
 def test_one_unit_and_a_trend(scripted_log: Path, capsys: pytest.CaptureFixture[str]) -> None:
     code, out, _ = run(capsys, str(scripted_log), "--unit", "QA-0003")
-    assert code == 0 and "NotOK (left)" in out and "rework" in out
+    assert code == 0 and "NOK (left)" in out and "rework" in out
+    assert "NotOK" not in out  # the log's word is mapped to the shown one
+    assert "why the first pass was NOK: p5 NOK after 2 attempt(s) (torque 7.00 N·m" in out
     code, out, _ = run(capsys, str(scripted_log), "--unit", "QA-0003", "--csv")
     assert len(list(csv.DictReader(io.StringIO(out)))) == 12
     code, out, _ = run(capsys, str(scripted_log), "--trend", "p5", "--json")
