@@ -73,9 +73,9 @@ def nok_reason(unit: UnitRow, steps: Sequence[StepRow] = ()) -> str | None:
             found.append(f"{step.position} NOK after {step.attempt} attempt(s)"
                          + (f" ({values})" if values else ""))
         elif step.kind == "check" and step.result == RESULT_NOK:
-            zone, seen = step.detail.get("zone", step.step), step.detail.get("verdict")
+            zone, seen = step.detail.get("zone"), step.detail.get("verdict")
             expect = step.detail.get("expect")
-            found.append(f"check {step.step} at {zone} failed"
+            found.append(f"check {step.step}{f' at {zone}' if zone else ''} failed"
                          + (f": expected {expect}, saw {seen}" if expect and seen else ""))
     if not found and unit.failed_positions:
         found.append(f"NOK at {', '.join(unit.failed_positions)}")

@@ -26,7 +26,8 @@ STYLE = """
 body { font-family: "DejaVu Sans", "Liberation Sans", sans-serif; margin: 24px; color: #222;
   max-width: 1200px; }
 .demo { border: 2px solid #a07800; background: #fff5cc; padding: 6px 10px; font-weight: bold; }
-table.units td { text-align: left; vertical-align: top; }
+table.units td, table.units th { text-align: left; vertical-align: top; }
+table.units td:first-child, table.units td:last-child { white-space: nowrap; }
 h1 { font-size: 1.4rem; margin-bottom: 0; } h2 { font-size: 1.15rem; margin-top: 28px; }
 h3 { font-size: 1rem; margin-bottom: 4px; }
 .meta, .caution { color: #555; font-size: 0.85rem; }

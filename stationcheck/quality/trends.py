@@ -137,7 +137,9 @@ def short_window_note(count: int, baseline: int) -> str:
         return (f"only {count} value{'s' if count != 1 else ''}: dots only; the EWMA, CUSUM "
                 f"and run rules need at least {DRAW_POINTS} (and {MIN_POINTS} to be trusted)")
     waiting = [str(rule) for rule, needs in RULE_NEEDS.items() if count < needs]
-    rules = f"; run rule(s) {', '.join(waiting)} need more values in a row" if waiting else ""
+    rules = "" if not waiting else (
+        f"; run rule {waiting[0]} needs more values in a row" if len(waiting) == 1
+        else f"; run rules {', '.join(waiting)} need more values in a row")
     return (f"only {count} values: EWMA and CUSUM limits from the first {baseline} are rough "
             f"until at least {MIN_POINTS} values{rules}")
 

@@ -131,12 +131,12 @@ function unitRow(u) {
 }
 
 // ---- one unit
-function measured(value, low, high) {
+function measured(value, low, high, digits) {
   if (value === null || value === undefined) return "";
   const outside = (low !== null && value < low) || (high !== null && value > high);
   const limits = low !== null || high !== null ? ` [${low ?? "\u2013"}\u2013${high ?? "\u2013"}]` : "";
   return el("span", { class: outside ? "off-limits" : null, title: outside ? "outside its limits" : null },
-    `${value.toFixed(2)}${limits}`);
+    `${value.toFixed(digits)}${limits}`);
 }
 
 async function showUnit(serial) {
@@ -170,8 +170,8 @@ async function showUnit(serial) {
     return el("tr", { class: s.rework ? "rework" : null },
       el("td", {}, s.rework ? `rework ${s.pass_no - 1}` : "first"), el("td", {}, s.step),
       el("td", {}, s.position ?? ""), el("td", { class: "num" }, s.kind === "fasten" ? `${s.attempt}${s.max_attempts ? " of " + s.max_attempts : ""}` : ""),
-      result, el("td", { class: "num" }, measured(s.torque_nm, s.torque_low_nm, s.torque_high_nm)),
-      el("td", { class: "num" }, measured(s.angle_deg, s.angle_low_deg, s.angle_high_deg)),
+      result, el("td", { class: "num" }, measured(s.torque_nm, s.torque_low_nm, s.torque_high_nm, 2)),
+      el("td", { class: "num" }, measured(s.angle_deg, s.angle_low_deg, s.angle_high_deg, 1)),
       el("td", { class: "num", title: s.recorded_at }, `+${(s.ended_t_s - u.started_t_s).toFixed(1)} s`),
       el("td", {}, evidence));
   }));
