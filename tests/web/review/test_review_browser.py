@@ -115,6 +115,8 @@ def test_the_demo_log_names_its_units_and_says_it_is_demo_data(page: Any, demo_r
     page.goto(url(demo_review))
     expect(page.locator("#demo-flag")).to_be_visible()
     expect(page.locator("#demo-flag")).to_contain_text("DEMO DATA")
+    expect(page.locator("#caution")).to_contain_text("the camera films the people who work here")
+    expect(page.locator("#caution")).to_be_in_viewport()
 
     page.goto(url(demo_review, "#/unit/PC-000105"))
     expect(page.locator("#unit-serial")).to_have_text("PC-000105")
