@@ -248,11 +248,7 @@ def _print_trend(step_log: SqliteStepLog, args: argparse.Namespace, period: Peri
         print(json.dumps(body, ensure_ascii=False))
         return 0
     if args.csv:
-        ewma = body["ewma"] or {}
-        rows = ({**p, "ewma": (ewma.get("statistics") or [None] * len(body["points"]))[i]}
-                for i, p in enumerate(body["points"]))
-        sys.stdout.writelines(export.csv_chunks(rows, ("seq", "serial", "recorded_at_s", "value",
-                                                       "ewma")))
+        sys.stdout.writelines(export.trend_csv(body))
         return 0
     _say(f"{args.trend} final {args.measure}: {body['count']} units")
     if body["sigma"] is not None:

@@ -13,7 +13,7 @@ import csv
 import io
 import json
 import sqlite3
-from collections.abc import Iterable, Iterator, Sequence
+from collections.abc import Iterable, Iterator, Mapping, Sequence
 from dataclasses import replace
 from typing import Any
 
@@ -201,6 +201,22 @@ def unit_detail(unit: UnitRow, steps: Sequence[StepRow],
     shown["nok_reason"] = nok_reason(unit, steps)
     return {"unit": shown, "steps": [step_dict(s) for s in steps],
             "alarms": [alarm_dict(a) for a in alarms], "results_note": VOCABULARY_NOTE}
+
+
+MEASURE_COLUMNS = {"torque": ("torque_nm", TORQUE_DIGITS), "angle": ("angle_deg", ANGLE_DIGITS)}
+
+
+def trend_csv(body: Mapping[str, Any]) -> Iterator[str]:
+    """A trend (``json_views.trend_dict``) as CSV: one row per unit with its final value and
+    EWMA, named with their unit, and its record time as ISO 8601 and epoch seconds."""
+    column, digits = MEASURE_COLUMNS[str(body["measure"])]
+    statistics = (body.get("ewma") or {}).get("statistics") or [None] * len(body["points"])
+    rows = ({"seq": p["seq"], "serial": p["serial"], "recorded_at": _time(p["recorded_at_s"]),
+             "recorded_at_s": _r(p["recorded_at_s"], TIME_DIGITS),
+             column: _r(p["value"], digits), f"ewma_{column}": _r(statistics[i], digits + 1)}
+            for i, p in enumerate(body["points"]))
+    fields = ("seq", "serial", "recorded_at", "recorded_at_s", column, f"ewma_{column}")
+    return csv_chunks(rows, fields)
 
 
 def unit_steps_csv(steps: Sequence[StepRow]) -> str:

@@ -50,6 +50,13 @@ def test_one_unit_and_a_trend(scripted_log: Path, capsys: pytest.CaptureFixture[
     code, out, _ = run(capsys, str(scripted_log), "--trend", "p5", "--json")
     trend = json.loads(out)
     assert code == 0 and trend["count"] == 4 and trend["left_nok"] == 1
+    code, out, _ = run(capsys, str(scripted_log), "--trend", "p5", "--measure", "angle", "--csv")
+    rows = list(csv.DictReader(io.StringIO(out)))
+    assert code == 0 and list(rows[0]) == ["seq", "serial", "recorded_at", "recorded_at_s",
+                                           "angle_deg", "ewma_angle_deg"]
+    _, out, _ = run(capsys, str(scripted_log), "--trend", "p5", "--measure", "angle", "--json")
+    angles = [p["value"] for p in json.loads(out)["points"]]
+    assert [float(r["angle_deg"]) for r in rows] == [round(v, 1) for v in angles]  # 0.1 degree
 
 
 def test_the_report_file(scripted_log: Path, tmp_path: Path,
