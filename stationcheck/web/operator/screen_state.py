@@ -124,7 +124,7 @@ def _unit(view: StationView, done: int, total: int) -> dict[str, Any] | None:
     last = view.last_unit
     result = None
     if not running and last is not None and last.serial == out.serial:
-        result = {"word": "OK" if last.released else "NOK",
+        result = {"word": last.result,  # OK, NOK or aborted (core.result_words)
                   "meaning": "normal" if last.released else "fault"}
     return {"serial": out.serial, "rework": out.rework, "running": running,
             "step": f"Step {out.step_number} of {out.step_count}" if out.step_count else "",

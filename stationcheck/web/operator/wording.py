@@ -215,6 +215,9 @@ class Wording:
         if unit.released:
             return Instruction("unit_finished", f"Unit {unit.serial} OK",
                                "Released. Waiting for the next unit.", meaning)
+        if unit.result != "NOK":  # aborted, or replaced by the next unit before it ended
+            return Instruction("unit_finished", f"Unit {unit.serial} {unit.result}",
+                               view.output.guidance.words, meaning)
         if unit.failed_zones:
             places = ", ".join(self.position(z) for z in unit.failed_zones)
             return Instruction("unit_finished", f"Unit {unit.serial} NOK: to rework",

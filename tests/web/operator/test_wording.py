@@ -80,6 +80,11 @@ NOK_3_INSIDE = replace(NOK_3, torque_nm=5.0, angle_deg=30.0)
         "Unit PC-000123 not released: the check at fixture locking pin failed.")),
      {"last_unit": replace(UNIT_NOK, failed_zones=())}, "Unit PC-000123 NOK: to rework",
      "Not released: the check at fixture locking pin failed.", "fault"),
+    (output("unit_finished", unit_status="aborted", guidance=Guidance(
+        "unit_finished", None,
+        "Unit PC-000123 ended unfinished (new_unit). Waiting for the next unit.")),
+     {"last_unit": replace(UNIT_NOK, result="aborted", failed_zones=())},
+     "Unit PC-000123 aborted", "ended unfinished", "fault"),
     (output("unit_finished", unit_status="ok"), {"last_unit": UNIT_OK},
      "Unit PC-000123 OK", "Released", "normal"),
     (output("wait_for_unit", serial=None, unit_status="idle", step_id=None, step_count=0), {},
