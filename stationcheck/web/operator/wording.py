@@ -57,6 +57,7 @@ CHECK_SEEN = {"present": "in place", "absent": "not there",
 # a position left for rework is a fault (red: the unit will not be released as it is).
 NOK_RETRY_MEANING: Meaning = "abnormal"
 NOK_LEFT_MEANING: Meaning = "fault"
+NOK_SHOWN_S = 5.0  # a NOK left for rework before another kind of step: headline this long
 ENGAGE_NOUNS = ("pin", "latch", "clamp", "lock", "lever", "bolt")
 _BIN_LABEL = re.compile(r"^(?P<part>.+?)\s+bin(?:\s*\((?P<where>[^)]+)\))?$", re.IGNORECASE)
 
@@ -126,6 +127,19 @@ class Wording:
         return f"Put the {label} in place"
 
     def instruction(self, view: StationView, mode: str = "live") -> Instruction:
+        """What to do now. After the last position of a fasten step is left for rework, the
+        next step's instruction waits ``NOK_SHOWN_S`` behind the NOK, named in the detail."""
+        said = self._instruction(view, mode)
+        last = view.last_tightening
+        if (said.kind in ("take_part", "check", "acknowledge") and last is not None
+                and not last.ok and last.zone in view.failed_zones
+                and 0.0 <= view.t_s - last.t_s <= NOK_SHOWN_S):
+            return Instruction("nok_left", f"NOK at {self.position(last.zone)}: left for rework",
+                               f"{_sentence(nok_reason(last))} · next: {said.text}",
+                               NOK_LEFT_MEANING)
+        return said
+
+    def _instruction(self, view: StationView, mode: str) -> Instruction:
         out = view.output
         guidance = out.guidance
         kind = guidance.kind
@@ -181,14 +195,13 @@ class Wording:
         if last is None or last.ok:
             return None
         where = self.position(last.zone)
-        why = nok_reason(last)
+        why = _sentence(nok_reason(last))
         if target == last.zone:
-            detail = f"{why[:1].upper()}{why[1:]} · {attempt}" if attempt else why
+            detail = f"{why} · {attempt}" if attempt else why
             return Instruction("nok_retry", f"NOK at {where}: fasten it again", detail,
                                NOK_RETRY_MEANING)
         return Instruction("nok_left", f"NOK at {where}: go on to {self.position(target)}",
-                           f"{why[:1].upper()}{why[1:]} · {where} is left for rework",
-                           NOK_LEFT_MEANING)
+                           f"{why} · {where} is left for rework", NOK_LEFT_MEANING)
 
     def _attempt_words(self, view: StationView) -> str:
         out = view.output
@@ -249,6 +262,10 @@ def nok_reason(result: TighteningShown) -> str:
         _limit_words("angle", result.angle_deg, result.angle_limits_deg, "°", 1),
     ) if words]
     return ", ".join(found) if found else "the tightening controller reported NOK"
+
+
+def _sentence(words: str) -> str:
+    return words[:1].upper() + words[1:]
 
 
 def _plain(code: str) -> str:

@@ -65,6 +65,12 @@ NOK_3_INSIDE = replace(NOK_3, torque_nm=5.0, angle_deg=30.0)
      "abnormal"),
     (output("fasten", "screw_6"), {"last_tightening": NOK_3},
      "NOK at position 3: go on to position 6", "position 3 is left for rework", "fault"),
+    (output("check", "locking_pin", step_id="pin_engaged", t_s=10.0),
+     {"last_tightening": replace(NOK_3, zone="screw_6"), "failed_zones": ("screw_6",)},
+     "NOK at position 6: left for rework", "· next: Engage the locking pin", "fault"),
+    (output("check", "locking_pin", step_id="pin_engaged", t_s=20.0),
+     {"last_tightening": replace(NOK_3, zone="screw_6"), "failed_zones": ("screw_6",)},
+     "Engage the locking pin", "locking pin", "action"),  # NOK_SHOWN_S later
     (output("fasten", "screw_6"), {"last_tightening": replace(NOK_3, ok=True)},
      "Fasten position 6", "attempt 1 of 2", "action"),
     (output("wrong_position", "screw_4"), {"wrong_zone": "screw_5"},
