@@ -89,6 +89,7 @@ def run(args: argparse.Namespace) -> int:
     from stationcheck.cli import PRIVACY_NOTE, SAFETY_NOTE
     from stationcheck.config import load_config
     from stationcheck.live.session import LiveSettings, run_live
+    from stationcheck.web.operator.options import audience_words
     from stationcheck.web.operator.screen import command_screen
 
     if args.speed <= 0:
@@ -120,6 +121,7 @@ def run(args: argparse.Namespace) -> int:
         with command_screen(args, args.config, "live") as screen:
             if screen.screen is not None:
                 print(f"Operator screen: {screen.url}", flush=True)
+                print(audience_words(args), flush=True)
             run_live(settings, on_ready=ready)
     except KeyboardInterrupt:
         ended = "stopped"

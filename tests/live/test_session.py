@@ -110,3 +110,15 @@ def test_worker_settings_watch_the_plc_liveness_and_check_serials() -> None:
     settings = worker_settings(load_config(CONFIG))
     assert settings.liveness_timeout_s == pytest.approx(0.5)  # the default plc.liveness_timeout_ms
     assert settings.session.serial_pattern == r"[\x20-\x7e]+"
+
+
+@pytest.mark.parametrize(("host", "said"), [
+    ("127.0.0.1", "seen on this PC only"),
+    ("0.0.0.0", "listens on 0.0.0.0: anyone on that network"),
+])
+def test_run_says_who_sees_the_operator_screens_picture(host: str, said: str) -> None:
+    import argparse
+
+    from stationcheck.web.operator.options import audience_words
+
+    assert said in audience_words(argparse.Namespace(screen_host=host))
