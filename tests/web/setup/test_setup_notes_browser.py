@@ -15,8 +15,8 @@ from tests.web.setup.conftest import ServerFactory
 SHOTS = Path("/tmp/shots/setup")
 
 
-@pytest.mark.parametrize("config", ["configs/demo_station.yaml", None])
-@pytest.mark.parametrize("size", [(1280, 800), (1920, 1080)])
+@pytest.mark.parametrize(("config", "size"), [("configs/demo_station.yaml", (1280, 800)),
+                                              (None, (1920, 1080))])
 def test_safety_and_privacy_notes_are_always_on_the_setup_screen(
         page: Any, setup_server: ServerFactory, workspace: Path, config: str | None,
         size: tuple[int, int]) -> None:
