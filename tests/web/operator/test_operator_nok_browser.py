@@ -103,6 +103,10 @@ def test_nok_changes_the_headline_and_the_chip(page: Any) -> None:
 
         tighten(station, feed, "s1", ok=False, angle_deg=13.5)
         expect(text).to_have_text("NOK at position 1: go on to position 2")
+        one_line = text.evaluate("el => el.getClientRects().length === 1 && "
+                                 "el.getBoundingClientRect().height < 1.5 * "
+                                 "parseFloat(getComputedStyle(el).lineHeight)")
+        assert one_line, "the NOK headline wraps"
         expect(detail).to_contain_text("position 1 is left for rework")
         expect(box).to_have_attribute("data-meaning", "fault")
         expect(box.locator("use")).to_have_attribute("href", "#sym-fault")

@@ -6,6 +6,7 @@
 const MEANINGS = ["normal", "abnormal", "fault", "action", "neutral"];
 const STALE_MS = 2000;
 const RETRY_MS = 1000;
+const LONG_HEADLINE = 32; // characters: a longer headline gets a smaller size to stay on one line
 
 const screen = {
   source: null,
@@ -47,6 +48,7 @@ function showInstruction(text, detail, meaning, kind) {
   $("instr-detail").textContent = detail || "";
   const box = $("instruction");
   box.dataset.kind = kind || "";
+  box.classList.toggle("long", text.length > LONG_HEADLINE);
   setMeaning(box, meaning);
 }
 
