@@ -46,6 +46,12 @@ SAFETY_NOTE = (
     "Tool enable/inhibit is an error-proofing aid for quality, not a safety function: never rely "
     "on it to protect people; follow local codes and your plant's qualified safety practice."
 )
+PRIVACY_NOTE = (
+    "The camera films the people who work here: tell staff and follow local workplace and "
+    "data-protection rules. The live screen is seen on this PC only unless it listens on the "
+    "network (then by anyone there with its address and access token). No video is stored; "
+    "evidence images (off by default) are kept for the config's log.retention_days (90 unless set)."
+)
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -56,7 +62,7 @@ def build_parser() -> argparse.ArgumentParser:
             "enables the tool only at the correct next fastener position and logs every step "
             "of every unit."
         ),
-        epilog=SAFETY_NOTE,
+        epilog=f"{SAFETY_NOTE} Privacy: {PRIVACY_NOTE}",
     )
     parser.add_argument("--version", action="version", version=f"stationcheck {__version__}")
     parser.add_argument(

@@ -2,6 +2,7 @@ from __future__ import annotations
 
 import subprocess
 import sys
+from pathlib import Path
 
 import pytest
 
@@ -67,3 +68,46 @@ def test_an_error_message_cannot_steer_the_terminal(
     err = capsys.readouterr().err
     assert err == ("stationcheck check: error: bad\\u001b[2J name \\u202eevil\\u000asecond "
                    "line\n")
+
+
+@pytest.mark.parametrize("command", ["run", "teach", "replay"])
+def test_help_of_commands_that_film_people_says_so(command: str,
+                                                    capsys: pytest.CaptureFixture[str]) -> None:
+    assert main([command, "--help"]) == 0
+    out = "".join(capsys.readouterr().out.split())  # argparse wraps at any hyphen
+    assert "data-protectionrules" in out
+    assert "people" in out
+
+
+@pytest.mark.parametrize("as_script", [True, False])
+def test_commands_the_demo_prints_work_in_a_fresh_shell(
+        as_script: bool, tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    """No virtual environment on PATH, another folder: the printed command still runs."""
+    import shlex
+
+    from stationcheck.commands.demo import command_words
+
+    script = Path(sys.executable).parent / "stationcheck"
+    monkeypatch.setattr(sys, "argv", [str(script) if as_script else "pytest"])
+    words = command_words()
+    assert words.startswith(str(script) if as_script else sys.executable)
+    result = subprocess.run([*shlex.split(words), "--version"], capture_output=True, text=True,
+                            cwd=tmp_path, env={"PATH": "/usr/bin:/bin"}, check=False)
+    assert result.returncode == 0, result.stderr
+    assert result.stdout.strip() == f"stationcheck {__version__}"
+
+
+def test_replay_that_writes_an_annotated_video_says_who_it_shows(
+        tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    from tests.pipeline.conftest import CONFIG, INPUTS, TRUTH, VIDEO
+
+    if not VIDEO.is_file():
+        pytest.skip("the sample video is not rendered")
+    video = tmp_path / "annotated.mp4"
+    code = main(["replay", str(VIDEO), "--config", str(CONFIG), "--inputs", str(INPUTS),
+                 "--truth", str(TRUTH), "--detector", "truth", "--judgements", "truth",
+                 "--frames", "5", "--log", str(tmp_path / "log.sqlite"), "--json",
+                 "--annotate", str(video)])
+    assert code == 0 and video.is_file()
+    err = capsys.readouterr().err
+    assert f"Privacy: {video} shows the people filmed in the video" in err

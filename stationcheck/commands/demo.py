@@ -25,6 +25,19 @@ if TYPE_CHECKING:
     from stationcheck.pipeline.report import ReplayReport
 
 ANNOTATE_EVERY = 2  # a 15 fps annotated video keeps the demo well under a minute
+DEMO_NOTE = ("DEMO DATA: an invented pump end-cover station, its units and tightening results; "
+             "no real station, product or person.")
+
+
+def command_words() -> str:
+    """How to call stationcheck again so that it works as printed in a fresh shell: the
+    full path of the script that is running, else this Python with ``-m stationcheck``."""
+    import shlex
+
+    script = Path(sys.argv[0])
+    if script.name == "stationcheck" and script.is_file():
+        return shlex.quote(str(script.resolve()))
+    return f"{shlex.quote(sys.executable)} -m stationcheck"
 
 
 def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
@@ -121,29 +134,43 @@ def _tell(report: ReplayReport, out: Path, as_json: bool) -> None:
 
     summary = report.to_json()
     summary["out_dir"] = str(out)
+    summary["demo_data"] = True
+    summary["demo_note"] = DEMO_NOTE
     summary["safety"] = SAFETY_NOTE
     (out / "summary.json").write_text(json.dumps(summary, indent=2) + "\n", encoding="utf-8")
     lines = report.text_lines()
-    (out / "summary.txt").write_text("\n".join([f"Safety: {SAFETY_NOTE}", *lines]) + "\n",
-                                     encoding="utf-8")
+    (out / "summary.txt").write_text(
+        "\n".join([f"Safety: {SAFETY_NOTE}", DEMO_NOTE, *lines]) + "\n", encoding="utf-8")
     if as_json:
         print(json.dumps(summary), flush=True)
         return
+    print(DEMO_NOTE)
     for line in lines:
         print(line)
     print(f"\nEverything is in {out}:")
     for name, what in (
-        ("step-log.sqlite", "the step log (SQLite): every event, units, steps, alarms"),
+        ("step-log.sqlite", ("the step log (SQLite): every event, units, steps, alarms; "
+                            "each unit marked as demo data")),
         ("annotated.mp4", ("the video with zones, tip, enable state and steps drawn "
                            f"(one frame in {ANNOTATE_EVERY})")),
-        ("observations.jsonl", ("what the sequencer saw; 'stationcheck replay "
-                                "--observations' replays it without the video")),
+        ("observations.jsonl", "what the sequencer saw (replayed without the video below)"),
         ("summary.txt", "this summary"),
         ("summary.json", "the same as JSON"),
     ):
         print(f"  {name:<19} {what}")
-    print("\nNext: look through the units in the browser with "
-          f"'stationcheck review {out / 'step-log.sqlite'}', watch the run on the operator "
-          "screen with 'stationcheck demo --screen', or draw zones with "
-          "'stationcheck setup configs/demo_station.yaml'.")
+    import shlex
+
+    me = command_words()
+    print("\nNext (each works as printed, from any folder):")
+    for what, command in (
+        ("look through the units in the browser",
+         f"{me} review {shlex.quote(str(out / 'step-log.sqlite'))}"),
+        ("watch the run on the operator screen", f"{me} demo --screen"),
+        ("replay the decisions without the video",
+         (f"{me} replay --observations {shlex.quote(str(out / 'observations.jsonl'))} "
+         f"--config {shlex.quote(str(DEMO_CONFIG))} "
+         f"--log {shlex.quote(str(out / 'replayed.sqlite'))}")),
+        ("draw zones on the demo station", f"{me} setup {shlex.quote(str(DEMO_CONFIG))}"),
+    ):
+        print(f"  {what}:\n    {command}")
     sys.stdout.flush()

@@ -73,7 +73,9 @@ def add_replay_arguments(p: argparse.ArgumentParser) -> None:
                    help="step log to write (a new file; default: "
                         "stationcheck-replay-<time>.sqlite here)")
     p.add_argument("--annotate", type=Path, metavar="OUT.mp4",
-                   help="also write the video with zones, tip and decisions drawn")
+                   help="also write the video with zones, tip and decisions drawn (it shows the "
+                        "people filmed: keep it only as long as needed, following local "
+                        "workplace and data-protection rules)")
     p.add_argument("--annotate-every", type=int, default=1, metavar="N",
                    help="draw every N-th frame only (a lighter video; default: every frame)")
     p.add_argument("--record-observations", type=Path, metavar="OUT.jsonl",
@@ -201,6 +203,11 @@ def run(args: argparse.Namespace) -> int:
     log_path = args.log if args.log is not None else default_log_path(Path.cwd())
     settings = settings_from_args(args, log_path)
     progress = None if args.json else ProgressLine("replay")
+    if args.annotate is not None:
+        from stationcheck.cli import PRIVACY_NOTE
+
+        print(f"Privacy: {args.annotate} shows the people filmed in the video; it is kept "
+              f"until you delete it. {PRIVACY_NOTE}", file=sys.stderr, flush=True)
     with command_screen(args, args.config, "replay") as screen:
         if screen.url is not None:
             print(f"Operator screen: {screen.url}", file=sys.stderr, flush=True)

@@ -234,8 +234,7 @@ def _print_units(step_log: SqliteStepLog, args: argparse.Namespace, period: Peri
     for row in rows:
         shown += 1
         cycle = f"{row['cycle_time_s']:8.1f}" if row["cycle_time_s"] is not None else " " * 8
-        status = {"NotOK": "NOK", "NotDecidable": "aborted"}.get(row["status"], row["status"])
-        status += "*" if row["reworked"] else ""
+        status = row["status"] + ("*" if row["reworked"] else "")
         _say(f"{row['serial']:<14} {(row['started_at'] or '')[:19]:<19} {status:<8} "
               f"{row['passes']:>6} {row['retries']:>7} {row['nok_results']:>4} {cycle}  "
               f"{', '.join(row['failed_positions']) or '-'}")
@@ -245,6 +244,8 @@ def _print_units(step_log: SqliteStepLog, args: argparse.Namespace, period: Peri
 
 
 def _print_unit(step_log: SqliteStepLog, args: argparse.Namespace) -> int:
+    from stationcheck.core.events import RESULT_NOK
+    from stationcheck.core.result_words import unit_word
     from stationcheck.errors import StationcheckError
     from stationcheck.quality import export
 
@@ -268,9 +269,12 @@ def _print_unit(step_log: SqliteStepLog, args: argparse.Namespace) -> int:
     for s in steps:
         torque = f"{s.torque_nm:11.2f}" if s.torque_nm is not None else " " * 11
         angle = f"{s.angle_deg:8.1f}" if s.angle_deg is not None else " " * 8
-        decided = " (left)" if s.position_result == "NotOK" else ""
+        decided = " (left)" if s.position_result == RESULT_NOK else ""
         _say(f"{'rework' if s.is_rework else 'first':<6} {s.step:<16} {s.position or '-':<10} "
-              f"{s.attempt:>3} {s.result + decided:<13} {torque} {angle}")
+              f"{s.attempt:>3} {unit_word(s.result) + decided:<13} {torque} {angle}")
+    if u["nok_reason"]:
+        _say(f"why {'NOK' if u['status'] == 'NOK' else 'the first pass was NOK'}: "
+             f"{u['nok_reason']}")
     for a in alarms:
         _say(f"alarm {a.code} ({a.severity}): {a.message}")
     return 0
@@ -290,8 +294,9 @@ def _print_figures(step_log: SqliteStepLog, args: argparse.Namespace, period: Pe
           f"aborted {figures['aborted']:,}, open {figures['open']:,}, reworked "
           f"{figures['reworked']:,}")
     if ftt is not None:
-        _say(f"first-time-through {figures['first_time_through']:,} = {100 * ftt:.1f} % "
-              f"(95 % Wilson interval {100 * ci[0]:.1f} to {100 * ci[1]:.1f} %)")
+        _say(f"first-time-through {figures['first_time_through']:,} of {figures['ended']:,} "
+             f"ended units = {100 * ftt:.1f} % (95 % Wilson interval {100 * ci[0]:.1f} to "
+             f"{100 * ci[1]:.1f} %); {figures['open']:,} open unit(s) not counted")
     _say(f"NOK results {figures['nok_results']:,}, retries {figures['retries']:,}")
     for title, key in (("NOK by position", "nok_by_position"), ("retries by position",
                                                                 "retries_by_position")):
@@ -318,11 +323,7 @@ def _print_trend(step_log: SqliteStepLog, args: argparse.Namespace, period: Peri
         print(json.dumps(body, ensure_ascii=False))
         return 0
     if args.csv:
-        ewma = body["ewma"] or {}
-        rows = ({**p, "ewma": (ewma.get("statistics") or [None] * len(body["points"]))[i]}
-                for i, p in enumerate(body["points"]))
-        sys.stdout.writelines(export.csv_chunks(rows, ("seq", "serial", "recorded_at_s", "value",
-                                                       "ewma")))
+        sys.stdout.writelines(export.trend_csv(body))
         return 0
     _say(f"{args.trend} final {args.measure}: {body['count']} units")
     if body["sigma"] is not None:

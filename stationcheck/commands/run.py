@@ -13,8 +13,11 @@ from pathlib import Path
 from types import FrameType
 from typing import TYPE_CHECKING
 
+from stationcheck.core.result_words import SHOWN_RESULT, unit_word
+
 if TYPE_CHECKING:
     from stationcheck.live.loop import LiveLoop
+    from stationcheck.pipeline.decisions import DecisionStep
 
 
 def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
@@ -25,8 +28,11 @@ def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[ty
             "Runs the live loop on the config's camera (or --source): newest frame -> keypoint "
             "detector -> tracker -> zones -> image judgements -> sequencer -> tool enable and "
             "status to the PLC, step log. Watchdogs drop the enable on stale frames, detector "
-            "faults, lost track, PLC link loss or a frozen PLC, camera movement and any error."
+            "faults, lost track, PLC link loss or a frozen PLC, camera movement and any error. "
+            "Privacy: the camera films the people who work at the station; see the privacy "
+            "note below and in the README."
         ),
+        epilog=_privacy_epilog(),
     )
     p.add_argument("--config", required=True, type=Path, help="station config (.yaml)")
     p.add_argument("--source", default=None,
@@ -54,15 +60,49 @@ def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[ty
     p.set_defaults(handler=run)
 
 
+def _privacy_epilog() -> str:
+    from stationcheck.cli import PRIVACY_NOTE
+
+    return f"Privacy: {PRIVACY_NOTE}"
+
+
+class UnitCount:
+    """Counts the units a run ended, by result, for the closing line (a step sink)."""
+
+    def __init__(self) -> None:
+        self.ended: dict[str, int] = {}
+
+    def on_step(self, step: DecisionStep) -> None:
+        for event in step.events:
+            if event.kind == "unit_ended":
+                word = unit_word(str(event.data.get("result", "")))
+                self.ended[word] = self.ended.get(word, 0) + 1
+
+    def on_stop(self, error: BaseException | None) -> None:
+        """Nothing to make safe."""
+
+    def words(self) -> str:
+        total = sum(self.ended.values())
+        if not total:
+            return "no unit ended"
+        order = list(SHOWN_RESULT.values())
+        parts = ", ".join(f"{count} {word}" for word, count in sorted(
+            self.ended.items(), key=lambda item: order.index(item[0]) if item[0] in order else 99))
+        return f"{total} unit{'s' if total != 1 else ''} ended ({parts})"
+
+
 def run(args: argparse.Namespace) -> int:
-    from stationcheck.cli import SAFETY_NOTE
+    from stationcheck.cli import PRIVACY_NOTE, SAFETY_NOTE
+    from stationcheck.config import load_config
     from stationcheck.live.session import LiveSettings, run_live
+    from stationcheck.web.operator.options import audience_words
     from stationcheck.web.operator.screen import command_screen
 
     if args.speed <= 0:
         print("stationcheck run: error: --speed must be > 0", file=sys.stderr)
         return 64
     print(f"Safety: {SAFETY_NOTE}", flush=True)
+    print(f"Privacy: {PRIVACY_NOTE}", flush=True)
     settings = LiveSettings(config_path=args.config, log_path=args.log, source=args.source,
                             link=args.link, host=args.host, port=args.port,
                             pace=not args.no_pace, speed=args.speed, max_frames=args.frames)
@@ -72,9 +112,13 @@ def run(args: argparse.Namespace) -> int:
 
     signal.signal(signal.SIGTERM, stop)
     loops: list[LiveLoop] = []
+    units = UnitCount()
+    config = load_config(args.config)
+    log_path = args.log or config.resolve(config.log.path)  # as run_live resolves it
 
     def ready(loop: LiveLoop) -> None:
         loops.append(loop)
+        loop.decisions.add_sink(units)
         if screen.screen is not None:
             screen.screen.attach_live(loop)
 
@@ -92,6 +136,7 @@ def run(args: argparse.Namespace) -> int:
         with command_screen(args, args.config, "live") as screen:
             if screen.screen is not None:
                 print(f"Operator screen: {screen.url}", flush=True)
+                print(audience_words(args), flush=True)
             run_live(settings, on_ready=ready)
     except KeyboardInterrupt:
         ended = "stopped"
@@ -101,6 +146,7 @@ def run(args: argparse.Namespace) -> int:
             print(forwarding.line(), flush=True)
     print(f"{ended}: {summary(loops[0]) if loops else 'no frames'}; tool enable written off",
           flush=True)
+    print(f"{units.words()}; step log: {log_path}", flush=True)
     return 0
 
 

@@ -4,6 +4,7 @@ the camera has moved from its reference view (with re-mapped zones on offer)."""
 from __future__ import annotations
 
 import argparse
+import sys
 from pathlib import Path
 from typing import Any
 
@@ -14,6 +15,10 @@ EPILOG = """examples:
   stationcheck teach station.yaml --list
   stationcheck teach station.yaml --zone locking_pin --clear [--present | --absent]
   stationcheck teach station.yaml --camera-shift --video run.mp4 --at 112 [--write moved.yaml]
+
+privacy: the taught crops are images of the check zones and are kept in the station folder
+until cleared (--clear); frames from the camera or a video may show the people who work there.
+Tell staff and follow local workplace and data-protection rules.
 """
 
 
@@ -99,7 +104,11 @@ def _teach(args: argparse.Namespace, config: Any) -> int:
     zone = teaching.check_zone(config, args.zone)
     folder = teaching.teaching_dir(config, zone.id)
     size = (config.camera.width_px, config.camera.height_px)
-    manifest = teaching.teach(folder, zone, args.label, _frames(args, config), size)
+    frames = _frames(args, config)
+    print("Privacy: the taught crops are kept in the station folder until cleared; frames of "
+          "the station may show the people who work there (follow local workplace and "
+          "data-protection rules).", file=sys.stderr)
+    manifest = teaching.teach(folder, zone, args.label, frames, size)
     print(f"taught {teaching.describe(manifest)} (in {folder})")
     _print_separation(folder, zone)
     return 0

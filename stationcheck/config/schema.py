@@ -126,6 +126,8 @@ class _Section(BaseModel):
 class StationSection(_Section):
     name: Text
     reference_frame: Text = Field(description="image file, relative to the config file")
+    demo_data: Flag = Field(default=False,
+                            description="invented data: the step log and screens say so")
 
 
 class CameraSection(_Section):
@@ -446,4 +448,5 @@ class StationConfig(_Section):
         )
         steps: list[Step] = [step.to_step() for step in self.steps]
         return StationPlan(zones=tuple(self.zone_specs()), steps=tuple(steps),
-                           thresholds=thresholds, station=self.station.name)
+                           thresholds=thresholds, station=self.station.name,
+                           demo_data=self.station.demo_data)

@@ -57,6 +57,7 @@ def open_unit(tx: Transaction, started: UnitStarted) -> None:
             steps=steps,
             positions=positions,
             rework_positions=_refs(started.rework_positions),
+            **({"demo_data": True} if tx.index.plan.demo_data else {}),
         )
     for ref in unknown:
         tx.alarm(

@@ -99,6 +99,7 @@ class StationPlan:
     steps: tuple[Step, ...]
     thresholds: Thresholds = Thresholds()
     station: str = ""  # the station's name, for the log
+    demo_data: bool = False  # invented data (the demo station): every unit's log says so
 
     def zone(self, zone_id: str) -> ZoneSpec:
         for zone in self.zones:

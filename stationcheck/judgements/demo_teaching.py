@@ -23,6 +23,7 @@ from stationcheck.demo_station.camera import Camera, CameraTransform, Exposure
 from stationcheck.demo_station.files import DEMO_CONFIG
 from stationcheck.demo_station.station_scene import Stage, StationScene, StationState
 from stationcheck.judgements.presence import LABELS, Label
+from stationcheck.judgements.teaching import DEMO_SOURCE
 from stationcheck.judgements.zone_window import U8Array
 
 SEED = 4242
@@ -51,7 +52,7 @@ def render_teaching_frames(per_class: int = 8,
                                float(rng.uniform(-0.15, 0.15)))
         image = camera.develop(scene.image(state), pose, Exposure(gain, tint),
                                np.random.default_rng((seed, k)))
-        source = (f"rendered demo frame (seed {seed}, #{k}, gain {gain:.2f}, "
+        source = (f"{DEMO_SOURCE} (seed {seed}, #{k}, gain {gain:.2f}, "
                   f"camera dx {pose.dx_px:+.2f} dy {pose.dy_px:+.2f} px)")
         frames.append((label, np.asarray(image, np.uint8), source))
     return frames

@@ -42,6 +42,7 @@ from stationcheck.judgements.zone_window import U8Array, zone_box_px
 
 logger = logging.getLogger(__name__)
 
+DEMO_SOURCE = "demo data: rendered frame"
 FORMAT_VERSION = 1
 CROP_MARGIN_PX = 16
 ALIGN_PX = 4
@@ -147,6 +148,9 @@ def write_manifest(folder: Path, manifest: Manifest) -> None:
     header = (f"# Taught references of check zone '{manifest.zone}' (stationcheck teach).\n"
               "# Boxes are [x0, y0, x1, y1] in camera pixels; each image is a crop at "
               "crop_box_px.\n")
+    if manifest.images and all(i.source.startswith(DEMO_SOURCE) for i in manifest.images):
+        header = ("# DEMO DATA: taught from rendered frames of the invented demo station, not "
+                  "from a real camera.\n" + header)
     try:
         folder.mkdir(parents=True, exist_ok=True)
         (folder / MANIFEST_NAME).write_text(

@@ -15,6 +15,7 @@ from typing import Literal
 from stationcheck.core.events import RESULT_OK, Event
 from stationcheck.core.outputs import Output
 from stationcheck.core.plan import FastenStep, StationPlan
+from stationcheck.core.result_words import unit_word
 
 Meaning = Literal["normal", "abnormal", "fault", "action", "neutral"]
 
@@ -85,13 +86,16 @@ class TighteningShown:
     torque_nm: float | None
     angle_deg: float | None
     t_s: float
+    torque_limits_nm: tuple[float | None, float | None] = (None, None)
+    angle_limits_deg: tuple[float | None, float | None] = (None, None)
+    max_attempts: int | None = None
 
 
 @dataclass(frozen=True)
 class UnitShown:
     serial: str
     rework: bool
-    result: str  # OK, NOK, not released
+    result: str  # OK, NOK or aborted (core.result_words)
     released: bool
     failed_zones: tuple[str, ...]
     t_s: float
@@ -169,13 +173,15 @@ class StationViewBuilder:
                     zone=str(data["zone"]), position=int(data["position"]),
                     attempt=int(data["attempt"]), ok=data["result"] == RESULT_OK,
                     torque_nm=data["torque"]["value"], angle_deg=data["angle"]["value"],
-                    t_s=event.t_s)
+                    t_s=event.t_s,
+                    torque_limits_nm=(data["torque"].get("low"), data["torque"].get("high")),
+                    angle_limits_deg=(data["angle"].get("low"), data["angle"].get("high")),
+                    max_attempts=data.get("max_attempts"))
             elif event.kind == "check_verdict":
                 self.check_verdict = str(data["verdict"])
             elif event.kind == "unit_ended" and event.serial is not None:
                 failed = tuple(str(r["zone"]) for r in data["failed_positions"])
-                result = "OK" if data["result"] == RESULT_OK else (
-                    "NOK" if failed else "not released")
+                result = unit_word(str(data["result"]))
                 self.last_unit = UnitShown(event.serial, bool(data["rework"]), result,
                                            bool(data["released"]), failed, event.t_s)
             elif event.kind == "alarm_raised" and data["code"] in ("wrong_position", "wrong_bin"):

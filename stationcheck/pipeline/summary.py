@@ -6,17 +6,8 @@ from collections.abc import Iterable
 from dataclasses import dataclass
 from typing import Any
 
-from stationcheck.core.events import RESULT_NOK, RESULT_OK, Event
-
-RESULT_WORDS = {RESULT_OK: "OK", RESULT_NOK: "NOK"}
-
-
-def _result_word(result: str, failed_positions: list[Any]) -> str:
-    """OK; NOK when positions are left for rework; anything else (e.g. a failed check) is not
-    released."""
-    if result == RESULT_NOK and not failed_positions:
-        return "not released"
-    return RESULT_WORDS.get(result, "not released")
+from stationcheck.core.events import RESULT_OK, Event
+from stationcheck.core.result_words import UNIT_OPEN, unit_word
 
 
 @dataclass(frozen=True)
@@ -24,7 +15,7 @@ class UnitPass:
     serial: str
     rework: bool
     started_t_s: float
-    result: str  # OK, NOK (left for rework) or "not released"
+    result: str  # OK, NOK, aborted or open (core.result_words)
     released: bool
     ended_by: str  # completed, new_unit, abort, stopped_on_failure, open_at_end
     failed_positions: tuple[str, ...]
@@ -65,7 +56,7 @@ class _Open:
 
 def summarise_units(events: Iterable[Event], end_t_s: float | None = None) -> list[UnitPass]:
     """Every pass that started in ``events``, in start order; a pass still open at the end is
-    "not released" with its cycle time counted to ``end_t_s`` (or its last event)."""
+    "open" with its cycle time counted to ``end_t_s`` (or its last event)."""
     passes: list[UnitPass] = []
     current: _Open | None = None
     alarms: list[str] = []
@@ -88,7 +79,7 @@ def summarise_units(events: Iterable[Event], end_t_s: float | None = None) -> li
                 serial=current.serial,
                 rework=current.rework,
                 started_t_s=current.started_t_s,
-                result=_result_word(str(data["result"]), data["failed_positions"]),
+                result=unit_word(str(data["result"])),
                 released=bool(data["released"]),
                 ended_by=str(data["ended_by"]),
                 failed_positions=tuple(r["zone"] for r in data["failed_positions"]),
@@ -103,7 +94,7 @@ def summarise_units(events: Iterable[Event], end_t_s: float | None = None) -> li
         end = end_t_s if end_t_s is not None else last_t_s
         passes.append(UnitPass(
             serial=current.serial, rework=current.rework, started_t_s=current.started_t_s,
-            result="not released", released=False, ended_by="open_at_end",
+            result=unit_word(UNIT_OPEN), released=False, ended_by="open_at_end",
             failed_positions=(), unfinished_positions=(),
             cycle_time_s=max(0.0, end - current.started_t_s),
             tightenings=current.tightenings, nok_results=current.nok_results,

@@ -13,6 +13,8 @@ from stationcheck.quality.trends import Trend
 
 WIDTH, HEIGHT = 560, 260
 LEFT, RIGHT, TOP, BOTTOM = 56, 16, 28, 40
+LABEL_BAND = 64  # under a trend: the serials of the units, slanted
+MAX_LABELS = 40  # more units than this: every n-th is named
 INK, GRID, BAR, LINE = "#222", "#ccc", "#4a6fa5", "#b5651d"
 FAULT, ABNORMAL = "#c81e1e", "#a07800"
 
@@ -20,7 +22,7 @@ FAULT, ABNORMAL = "#c81e1e", "#a07800"
 def _svg(title: str, body: list[str], width: int = WIDTH, height: int = HEIGHT) -> str:
     return (f'<svg xmlns="http://www.w3.org/2000/svg" viewBox="0 0 {width} {height}" '
             f'width="{width}" height="{height}" role="img" aria-label="{escape(title)}" '
-            f'font-family="DejaVu Sans, Arial, sans-serif" font-size="11">'
+            f'font-family="DejaVu Sans, Liberation Sans, sans-serif" font-size="11">'
             f'<rect width="{width}" height="{height}" fill="#fff"/>'
             f'<text x="{LEFT}" y="17" font-size="13" font-weight="bold" fill="{INK}">'
             f'{escape(title)}</text>{"".join(body)}</svg>')
@@ -136,7 +138,7 @@ def figure_charts(fig: StationFigures) -> dict[str, str]:
     }
 
 
-def trend_svg(trend: Trend, width: int = 1240, height: int = 420) -> str:
+def trend_svg(trend: Trend, width: int = 1240, height: int = 470) -> str:
     """Final values (dots), the baseline centre and 3-sigma lines, the tolerance limits, the EWMA
     with its limits; values that break a run rule are ringed and numbered, EWMA signals
     marked with a triangle."""
@@ -150,16 +152,26 @@ def trend_svg(trend: Trend, width: int = 1240, height: int = 420) -> str:
         lines += [trend.centre - 3.2 * trend.sigma, trend.centre + 3.2 * trend.sigma]
     ticks = nice_ticks(min([*values, *lines]), max([*values, *lines]))
     y_min, y_max = ticks[0], ticks[-1]
-    plot_w, plot_h = width - LEFT - RIGHT, height - TOP - BOTTOM
+    top = TOP + (14 if trend.note else 0)
+    plot_w, plot_h = width - LEFT - RIGHT, height - top - BOTTOM - LABEL_BAND
     n = len(values)
 
     def sx(i: float) -> float:
         return LEFT + plot_w * (i + 0.5) / n
 
     def sy(v: float) -> float:
-        return TOP + plot_h * (y_max - v) / (y_max - y_min)
+        return top + plot_h * (y_max - v) / (y_max - y_min)
 
     body = []
+    if trend.note:
+        body.append(f'<text x="{LEFT}" y="{TOP + 6}" fill="{ABNORMAL}">{escape(trend.note)}</text>')
+    every = max(1, math.ceil(n / MAX_LABELS))
+    base_y = top + plot_h + 10
+    for i in range(0, n, every):
+        x = sx(i)
+        body.append(f'<text x="{x:.1f}" y="{base_y:.1f}" font-size="9" fill="{INK}" '
+                    f'text-anchor="end" transform="rotate(-45 {x:.1f} {base_y:.1f})">'
+                    f'{escape(trend.points[i].serial)}</text>')
     for v in ticks:
         body.append(f'<line x1="{LEFT}" x2="{width - RIGHT}" y1="{sy(v):.1f}" y2="{sy(v):.1f}" '
                     f'stroke="{GRID}"/><text x="{LEFT - 6}" y="{sy(v) + 4:.1f}" '
@@ -179,8 +191,9 @@ def trend_svg(trend: Trend, width: int = 1240, height: int = 420) -> str:
             for sign in (-1, 1):
                 hline(trend.centre + sign * 3 * trend.sigma, ABNORMAL, "3 3",
                       f"{'+' if sign > 0 else '-'}3 sigma")
-    radius = 2.2 if n <= 600 else 1.4
-    body += [f'<circle cx="{sx(i):.1f}" cy="{sy(v):.1f}" r="{radius}" fill="#555"/>'
+    radius = 3.2 if n <= MAX_LABELS else 2.2 if n <= 600 else 1.4
+    body += [f'<circle cx="{sx(i):.1f}" cy="{sy(v):.1f}" r="{radius}" fill="#555"><title>'
+             f'{escape(trend.points[i].serial)}: {_fmt(v)} {escape(trend.unit)}</title></circle>'
              for i, v in enumerate(values)]
     if trend.ewma is not None:
         chart = trend.ewma
@@ -199,7 +212,8 @@ def trend_svg(trend: Trend, width: int = 1240, height: int = 420) -> str:
                     f'stroke-width="1.5"><title>{escape(trend.points[hit.index].serial)}: rule '
                     f'{hit.rule}, {escape(hit.text)}</title></circle><text x="{x + 6:.1f}" '
                     f'y="{y - 6:.1f}" fill="{ABNORMAL}" font-size="9">{hit.rule}</text>')
-    legend = ("dots: final value per unit; orange line: EWMA (dotted: its limits); dashed red: "
-              "tolerance; ringed number: run rule broken; triangle: EWMA signal")
+    named = "each named below" if every == 1 else f"every {every}th named below"
+    legend = (f"dots: final value per unit ({named}); orange line: EWMA (dotted: its limits); "
+              "dashed red: tolerance; ringed number: run rule broken; triangle: EWMA signal")
     body.append(f'<text x="{LEFT}" y="{height - 6}" fill="{INK}">{escape(legend)}</text>')
     return _svg(title, body, width, height)

@@ -3,7 +3,8 @@ the units or steps of the period into memory).
 
 Units count by their first-pass start (``started_at_s``); NOK results, retries and alarms by the
 time they were recorded. First-time-through: units whose first pass ended OK with no retry and
-no rework pass, over all units started (open ones included).
+no rework pass, over the units that ended (a unit still open has not had its chance yet; open
+units are counted apart).
 
 The aggregates are additive (:class:`Tally`), so a long period can be summed from per-day
 tallies kept by :mod:`stationcheck.quality.rollup` plus two partial days at its ends.
@@ -110,13 +111,18 @@ class StationFigures:
     alarms: tuple[AlarmCount, ...]
 
     @property
+    def ended(self) -> int:
+        """Units that ended (OK, NOK or aborted): what first-time-through is counted over."""
+        return self.units - self.open
+
+    @property
     def ftt_rate(self) -> float | None:
-        return self.first_time_through / self.units if self.units else None
+        return self.first_time_through / self.ended if self.ended else None
 
     @property
     def ftt_interval(self) -> Interval | None:
         """95 % Wilson score interval of the first-time-through rate."""
-        return wilson_interval(self.first_time_through, self.units) if self.units else None
+        return wilson_interval(self.first_time_through, self.ended) if self.ended else None
 
 
 def _day(column: str, by_day: bool) -> str:

@@ -22,6 +22,7 @@ def figures_dict(figures: StationFigures) -> dict[str, Any]:
         "units": figures.units, "ok": figures.ok, "nok": figures.nok,
         "aborted": figures.aborted, "open": figures.open, "reworked": figures.reworked,
         "first_time_through": figures.first_time_through,
+        "ended": figures.ended,  # first-time-through is counted over these; open ones apart
         "ftt_rate": _round(figures.ftt_rate, 6),
         "ftt_interval_95": [_round(interval.low, 6), _round(interval.high, 6)] if interval else None,
         "nok_results": figures.nok_results, "retries": figures.retries,
@@ -69,7 +70,7 @@ def trend_findings(trend: Trend) -> list[str]:
     if trend.left_nok:
         found.append(f"{trend.left_nok} unit(s) left NOK at this position in the same span "
                      "(not charted; see NOK by position)")
-    if trend.note:
+    if trend.sigma is None:
         return found
     first = trend.first_ewma_signal
     if first is not None:

@@ -9,17 +9,25 @@ import time
 from html import escape
 from pathlib import Path
 
+from stationcheck.core.result_words import VOCABULARY_NOTE
 from stationcheck.quality.charts_svg import figure_charts, trend_svg
 from stationcheck.quality.figures import StationFigures, station_figures
 from stationcheck.quality.json_views import trend_findings
 from stationcheck.quality.period import Period, format_time
+from stationcheck.quality.report_units import log_is_demo, units_section
 from stationcheck.quality.trends import DEFAULT_POINTS, fastener_positions, position_trend
+
+__all__ = ["build_report", "log_is_demo"]
 
 CAUTION_FILE = Path(__file__).resolve().parents[1] / "web" / "static" / "common" / "caution.html"
 FALLBACK_CAUTION = ("<strong>Safety:</strong> tool enable/inhibit is an error-proofing aid for "
                     "quality, not a safety function.")
 STYLE = """
-body { font-family: "DejaVu Sans", Arial, sans-serif; margin: 24px; color: #222; max-width: 1200px; }
+body { font-family: "DejaVu Sans", "Liberation Sans", sans-serif; margin: 24px; color: #222;
+  max-width: 1200px; }
+.demo { border: 2px solid #a07800; background: #fff5cc; padding: 6px 10px; font-weight: bold; }
+table.units td, table.units th { text-align: left; vertical-align: top; }
+table.units td:first-child, table.units td:last-child { white-space: nowrap; }
 h1 { font-size: 1.4rem; margin-bottom: 0; } h2 { font-size: 1.15rem; margin-top: 28px; }
 h3 { font-size: 1rem; margin-bottom: 4px; }
 .meta, .caution { color: #555; font-size: 0.85rem; }
@@ -52,9 +60,11 @@ def _figures_table(fig: StationFigures) -> str:
     times = fig.cycle_times
     rows = [
         ("units started", f"{fig.units:,}"), ("OK (released)", f"{fig.ok:,}"),
-        ("NOK", f"{fig.nok:,}"), ("aborted", f"{fig.aborted:,}"), ("open", f"{fig.open:,}"),
+        ("NOK", f"{fig.nok:,}"), ("aborted", f"{fig.aborted:,}"),
+        ("open (not finished; not in first-time-through)", f"{fig.open:,}"),
         ("reworked", f"{fig.reworked:,}"),
-        ("first-time-through", f"{fig.first_time_through:,} = {ftt}"),
+        ("first-time-through",
+         f"{fig.first_time_through:,} of {fig.ended:,} ended units = {ftt}"),
         ("NOK tightening results", f"{fig.nok_results:,}"), ("retries", f"{fig.retries:,}"),
         ("cycle time median / p90",
          "-" if times.median_s is None else f"{times.median_s:.1f} s / {times.p90_s or 0:.1f} s"),
@@ -79,10 +89,13 @@ def build_report(conn: sqlite3.Connection, period: Period, log_name: str,
         f"<title>stationcheck review report: {escape(log_name)}</title>",
         f"<style>{STYLE}</style></head><body>",
         "<h1>Station review report</h1>",
+        *([("<p class=\"demo\">\u26a0 DEMO DATA: the units in this step log come from the "
+           "demo, an invented station.</p>")] if log_is_demo(conn) else []),
         (f"<p class=\"meta\">Step log {escape(log_name)}; period {escape(period.describe())}; "
          f"made {escape(format_time(time.time()))} by stationcheck review.</p>"),
         "<h2>Figures</h2>", _figures_table(fig),
         "<div class=\"charts\">", *figure_charts(fig).values(), "</div>",
+        *units_section(conn, period),
         "<h2>Alarms by kind</h2>", _alarms_table(fig),
         f"<h2>Trends per fastener position (latest {points} units each)</h2>",
     ]
@@ -95,5 +108,6 @@ def build_report(conn: sqlite3.Connection, period: Period, log_name: str,
                 "<p class=\"calm\">no signal: within its control limits and run rules</p>"]
             if trend.points:
                 parts.append(trend_svg(trend))
+    parts.append(f"<p class=\"meta\">{escape(VOCABULARY_NOTE)}</p>")
     parts.append(f"<p class=\"caution\">{_caution()}</p></body></html>")
     return "\n".join(parts)

@@ -5,7 +5,9 @@ before parts fail. Positions left NOK are counted, not charted: they are failure
 their values far outside the band would hide the drift the charts are for.
 
 The centre line and sigma come from the first values of the window (the baseline, taken as in
-control): centre = their mean, sigma = their moving-range sigma. Chart settings are common
+control): centre = their mean, sigma = their moving-range sigma. A short window is still drawn
+(from 3 values: a baseline of at least 2), with a note that its limits are rough until
+``MIN_POINTS`` values and which run rules cannot fire yet. Chart settings are common
 practice, no source: EWMA lambda 0.2 with 3-sigma limits; CUSUM k = sigma / 2, h = 5 sigma.
 """
 
@@ -34,7 +36,9 @@ MEASURES: dict[str, tuple[str, str, str, str]] = {
 DEFAULT_POINTS = 500
 MAX_POINTS = 5000
 BASELINE_POINTS = 100
-MIN_POINTS = 10
+MIN_POINTS = 10  # fewer: the charts are drawn, but their limits are called rough
+DRAW_POINTS = 3  # fewer: dots only (a baseline of 2 and something to compare with it)
+RULE_NEEDS = {2: 3, 3: 5, 4: 8}  # Western Electric rule -> values in a row it looks at
 EWMA_WEIGHT = 0.2
 EWMA_WIDTH = 3.0
 CUSUM_K_SIGMA = 0.5
@@ -127,19 +131,34 @@ def position_trend(
     return analyse(Trend(position, measure, unit, series, tolerance, int(left_nok)))
 
 
+def short_window_note(count: int, baseline: int) -> str:
+    """What a window of fewer than ``MIN_POINTS`` values can and cannot say."""
+    if count < DRAW_POINTS:
+        return (f"only {count} value{'s' if count != 1 else ''}: dots only; the EWMA, CUSUM "
+                f"and run rules need at least {DRAW_POINTS} (and {MIN_POINTS} to be trusted)")
+    waiting = [str(rule) for rule, needs in RULE_NEEDS.items() if count < needs]
+    rules = "" if not waiting else (
+        f"; run rule {waiting[0]} needs more values in a row" if len(waiting) == 1
+        else f"; run rules {', '.join(waiting)} need more values in a row")
+    return (f"only {count} values: EWMA and CUSUM limits from the first {baseline} are rough "
+            f"until at least {MIN_POINTS} values{rules}")
+
+
 def analyse(trend: Trend) -> Trend:
     values = trend.values
-    if len(values) < MIN_POINTS:
-        return replace(trend, note=f"{len(values)} values; the charts need at least {MIN_POINTS}")
-    baseline = min(BASELINE_POINTS, len(values) // 2)
+    if len(values) < DRAW_POINTS:
+        return replace(trend, note=short_window_note(len(values), 0))
+    baseline = max(2, min(BASELINE_POINTS, len(values) // 2))
+    note = short_window_note(len(values), baseline) if len(values) < MIN_POINTS else ""
     reference = values[:baseline]
     sigma = moving_range_sigma(reference)
     centre = sum(reference) / baseline
     if sigma <= 0.0:
+        flat = "the baseline values do not vary; no limits can be set"
         return replace(trend, baseline=baseline, centre=centre,
-                     note="the baseline values do not vary; no limits can be set")
+                       note=f"{note}; {flat}" if note else flat)
     return replace(
-        trend, baseline=baseline, centre=centre, sigma=sigma,
+        trend, baseline=baseline, centre=centre, sigma=sigma, note=note,
         ewma=ewma_chart(values, centre, sigma, EWMA_WEIGHT, EWMA_WIDTH),
         cusum=cusum_chart(values, centre, CUSUM_K_SIGMA * sigma, CUSUM_H_SIGMA * sigma),
         rule_hits=western_electric(values, centre, sigma),

@@ -18,7 +18,7 @@ from stationcheck.quality.charts_svg import figure_charts, trend_svg
 from stationcheck.quality.figures import StationFigures
 from stationcheck.quality.json_views import figures_dict, trend_dict, trend_findings
 from stationcheck.quality.period import Period
-from stationcheck.quality.report import build_report
+from stationcheck.quality.report import build_report, log_is_demo
 from stationcheck.quality.rollup import FigureCache
 from stationcheck.quality.trends import (
     DEFAULT_POINTS,
@@ -165,11 +165,13 @@ def build_review_router(source: Any) -> Router:
             positions = fastener_positions(step_log.connection)
             codes = alarm_codes(step_log.connection)
             stations = step_log.stations() if source.is_plant else None
+            demo = log_is_demo(step_log.connection)
         return Response.json({
             "log": source.name, "path": str(getattr(source, "path", source.name)),
             "positions": [p.position for p in positions], "alarm_codes": codes,
             "results": list(RESULT_FILTERS), "orders": list(UNIT_ORDERS), "count_cap": COUNT_CAP,
             "stations": stations,
+            "demo_data": demo,
         })
 
     def units(request: Request) -> Response:

@@ -58,7 +58,9 @@ def test_check_command_fails_on_a_copied_config_without_its_files(
     shutil.copy(REPO_ROOT / "configs" / "demo_station.yaml", config)
     assert main(["check", str(config)]) == 1
     out = capsys.readouterr().out.splitlines()
-    assert any(line.startswith(f"{config}:9: error: station.reference_frame: reference frame "
+    line_no = next(n for n, text in enumerate(config.read_text().splitlines(), 1)
+                   if text.lstrip().startswith("reference_frame:"))
+    assert any(line.startswith(f"{config}:{line_no}: error: station.reference_frame: reference frame "
                                f"'demo_station/reference.png' not found: tried "
                                f"{tmp_path}/demo_station/reference.png") for line in out), out
     assert any("warning: zones[8]: check zone 'locking_pin' is not taught" in line

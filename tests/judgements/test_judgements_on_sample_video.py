@@ -131,4 +131,4 @@ def test_the_taught_pin_images_are_not_frames_of_the_sample_video(
         taught = cv2.imread(str(folder / image.file), cv2.IMREAD_GRAYSCALE).astype(np.float32)
         closest = float(np.min(np.mean(np.abs(video - taught), axis=(1, 2))))
         assert closest > 1.0, image.file
-        assert image.source.startswith("rendered demo frame")
+        assert image.source.startswith("demo data: rendered frame")

@@ -58,7 +58,23 @@ def test_run_command_dry_run_with_console_link(tmp_path: Path,
     found = re.search(r"run ended: (\d+) frames", out)
     assert found is not None and 1 <= int(found.group(1)) <= 20  # unpaced: the grabber may drop
     assert "tool enable written off" in out
+    assert out.splitlines()[1].startswith("Privacy: The camera films the people")
+    assert out.splitlines()[-1] == f"no unit ended; step log: {tmp_path / 'log.sqlite'}"
     assert (tmp_path / "log.sqlite").is_file()
+
+
+def test_run_counts_the_units_it_ended_in_shown_words() -> None:
+    from stationcheck.commands.run import UnitCount
+    from stationcheck.core.events import Event
+    from stationcheck.core.observations import Tick
+    from stationcheck.pipeline.decisions import DecisionStep
+
+    count = UnitCount()
+    assert count.words() == "no unit ended"
+    for result in ("OK", "NotOK", "OK", "NotDecidable"):  # as the step log keeps them
+        event = Event(kind="unit_ended", t_s=1.0, serial="U-1", data={"result": result})
+        count.on_step(DecisionStep(Tick(t_s=1.0), None, (event,)))  # type: ignore[arg-type]
+    assert count.words() == "4 units ended (2 OK, 1 NOK, 1 aborted)"
 
 
 def test_run_command_bad_config_is_one_line(tmp_path: Path,
@@ -107,3 +123,15 @@ def test_run_on_a_source_that_cannot_be_opened_exits_3_with_one_line(
     assert code == 3
     assert err.count("\n") == 1 and "Traceback" not in err
     assert "cannot open the frame source" in err and source in err
+
+
+@pytest.mark.parametrize(("host", "said"), [
+    ("127.0.0.1", "seen on this PC only"),
+    ("0.0.0.0", "listens on 0.0.0.0: anyone on that network"),
+])
+def test_run_says_who_sees_the_operator_screens_picture(host: str, said: str) -> None:
+    import argparse
+
+    from stationcheck.web.operator.options import audience_words
+
+    assert said in audience_words(argparse.Namespace(screen_host=host))

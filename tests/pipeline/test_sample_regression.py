@@ -81,9 +81,9 @@ def test_every_unit_ends_as_the_sample_says(run: Run) -> None:
         ("PC-000103", "first"): ("OK", []),
         ("PC-000104", "first"): ("NOK", ["screw_3"]),
         ("PC-000104", "rework"): ("OK", []),
-        ("PC-000105", "first"): ("not released", []),
+        ("PC-000105", "first"): ("NOK", []),  # the locking pin check failed
         ("PC-000106", "first"): ("OK", []),
-        ("PC-000107", "first"): ("not released", []),
+        ("PC-000107", "first"): ("open", []),  # still open when the video ends
     }
     assert not units[("PC-000105", "first")]["released"]
 
@@ -169,6 +169,10 @@ def test_the_demo_leaves_everything_it_promised_in_its_folder(demo_run: Run) -> 
         "annotated.mp4", "observations.jsonl", "step-log.sqlite", "summary.json", "summary.txt",
     ]
     assert (out / "summary.txt").read_text().splitlines()[0] == f"Safety: {SAFETY_NOTE}"
+    assert (out / "summary.txt").read_text().splitlines()[1].startswith("DEMO DATA: ")
+    assert summary["demo_data"] is True
+    started = [data for kind, _, data in _events(demo_run[1]) if kind == "unit_started"]
+    assert len(started) == 8 and all(data["demo_data"] is True for data in started)
     capture = cv2.VideoCapture(str(out / "annotated.mp4"))
     frames = int(capture.get(cv2.CAP_PROP_FRAME_COUNT))
     capture.release()

@@ -124,8 +124,8 @@ def plant_web(two_stations: TwoStations, reviewer: str) -> Iterator[Any]:
     from review_web_helpers import Client
 
     from stationcheck.web.access import AccessRule
-    from stationcheck.web.review import build_review_router, review_source
     from stationcheck.web.listener import WebServer
+    from stationcheck.web.review import build_review_router, review_source
 
     server = WebServer(build_review_router(review_source(reviewer)), "127.0.0.1", 0,
                        AccessRule(None)).start()
@@ -163,8 +163,8 @@ def test_figures_follow_the_fold(pg: Cluster, reviewer: str, tmp_path: Path) -> 
     from stationcheck.store.generator import generate_log
     from stationcheck.store.sqlite_log import SqliteStepLog
     from stationcheck.web.access import AccessRule
-    from stationcheck.web.review import build_review_router, review_source
     from stationcheck.web.listener import WebServer
+    from stationcheck.web.review import build_review_router, review_source
 
     whole, first_half = tmp_path / "whole.sqlite", tmp_path / "half.sqlite"
     events = generate_log(whole, 200, seed=5)

@@ -27,7 +27,7 @@ def test_figures_as_json_and_text(scripted_log: Path, capsys: pytest.CaptureFixt
     figures = json.loads(out)
     assert code == 0 and (figures["units"], figures["first_time_through"]) == (5, 2)
     code, out, _ = run(capsys, str(scripted_log), "--figures")
-    assert code == 0 and "first-time-through 2 = 40.0 % (95 % Wilson interval" in out
+    assert code == 0 and "first-time-through 2 of 5 ended units = 40.0 % (95 % Wilson interval" in out
 
 
 def test_units_as_csv_text_and_json(scripted_log: Path, capsys: pytest.CaptureFixture[str]) -> None:
@@ -42,12 +42,21 @@ def test_units_as_csv_text_and_json(scripted_log: Path, capsys: pytest.CaptureFi
 
 def test_one_unit_and_a_trend(scripted_log: Path, capsys: pytest.CaptureFixture[str]) -> None:
     code, out, _ = run(capsys, str(scripted_log), "--unit", "QA-0003")
-    assert code == 0 and "NotOK (left)" in out and "rework" in out
+    assert code == 0 and "NOK (left)" in out and "rework" in out
+    assert "NotOK" not in out  # the log's word is mapped to the shown one
+    assert "why the first pass was NOK: p5 NOK after 2 attempt(s) (torque 7.00 N·m" in out
     code, out, _ = run(capsys, str(scripted_log), "--unit", "QA-0003", "--csv")
     assert len(list(csv.DictReader(io.StringIO(out)))) == 12
     code, out, _ = run(capsys, str(scripted_log), "--trend", "p5", "--json")
     trend = json.loads(out)
     assert code == 0 and trend["count"] == 4 and trend["left_nok"] == 1
+    code, out, _ = run(capsys, str(scripted_log), "--trend", "p5", "--measure", "angle", "--csv")
+    rows = list(csv.DictReader(io.StringIO(out)))
+    assert code == 0 and list(rows[0]) == ["seq", "serial", "recorded_at", "recorded_at_s",
+                                           "angle_deg", "ewma_angle_deg"]
+    _, out, _ = run(capsys, str(scripted_log), "--trend", "p5", "--measure", "angle", "--json")
+    angles = [p["value"] for p in json.loads(out)["points"]]
+    assert [float(r["angle_deg"]) for r in rows] == [round(v, 1) for v in angles]  # 0.1 degree
 
 
 def test_the_report_file(scripted_log: Path, tmp_path: Path,

@@ -186,8 +186,14 @@ class OperatorFeed:
         self.sent_ms.append((self.clock() - frame.handed_at_s) * 1e3)
         self.last_sent_seq = max(self.last_sent_seq, frame.seq)
 
-    def close(self) -> None:
-        """Ends every viewer's stream and the drawing thread."""
+    def close(self, ended_draw_s: float = 2.0) -> None:
+        """Ends every viewer's stream and the drawing thread; a run that ended is drawn as
+        ended first (up to ``ended_draw_s``), so the streams' last word is how it ended."""
+        if self.ended is not None and (self._slot is not None or self._last is not None):
+            with self._published:
+                self._published.wait_for(
+                    lambda: self._latest is not None and "ended" in self._latest.steady,
+                    ended_draw_s)
         self._closed.set()
         self._wake.set()
         with self._published:

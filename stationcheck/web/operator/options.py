@@ -33,6 +33,17 @@ def add_screen_arguments(p: argparse.ArgumentParser, *, replay: bool) -> None:
                                 "0: as fast as possible)")
 
 
+LOOPBACK = ("127.0.0.1", "localhost", "::1")
+
+
+def audience_words(args: argparse.Namespace) -> str:
+    """Who can watch the camera picture on the operator screen, for the start-up lines."""
+    if args.screen_host in LOOPBACK:
+        return "Privacy: the operator screen's camera picture is seen on this PC only."
+    return (f"Privacy: the operator screen listens on {args.screen_host}: anyone on that "
+            "network with its address and access token sees the camera picture live.")
+
+
 def pace_speed(args: argparse.Namespace) -> float | None:
     """The playback speed asked for, None for as fast as possible."""
     pace = getattr(args, "pace", None)

@@ -46,6 +46,9 @@ def state_events(feed: OperatorFeed, keepalive_s: float = KEEPALIVE_S) -> Iterat
             sent = frame.steady_json
             yield _event("state", sent)
         yield _event("tick", json.dumps(frame.tick, separators=(",", ":")))
+    final = feed.latest  # e.g. the run's end, drawn just before the feed closed
+    if final is not None and final.steady_json != sent:
+        yield _event("state", final.steady_json)
 
 
 PART_HEAD = f"--{BOUNDARY}\r\nContent-Type: image/jpeg\r\n\r\n".encode()

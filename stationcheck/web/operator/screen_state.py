@@ -28,6 +28,7 @@ ENDED_TOOL = {"enabled": False, "meaning": "neutral", "words": "TOOL OFF",
               "reason": "the station program is not running"}
 POSITION_MEANING: dict[str, tuple[Meaning, str]] = {
     "enabled": ("normal", "ON"),
+    "retry": ("abnormal", "AGAIN"),
     "target": ("action", "NEXT"),
     "wrong": ("abnormal", "WRONG"),
     "failed": ("fault", "NOK"),
@@ -90,8 +91,12 @@ def _positions(view: StationView, wording: Wording) -> tuple[list[dict[str, Any]
     if current is None or out.serial is None:
         return [], 0, 0
     rows = []
+    last = view.last_tightening
     for zone in current.zones:
         state = fastener_state(view, zone)
+        if state in ("enabled", "target") and last is not None and not last.ok \
+                and last.zone == zone:
+            state = "retry"  # its last attempt was NOK: never a tick beside it
         meaning, word = POSITION_MEANING[state]
         rows.append({"zone": zone, "name": wording.position_names.get(zone, zone),
                      "label": wording.label(zone), "state": state, "meaning": meaning,
@@ -119,7 +124,7 @@ def _unit(view: StationView, done: int, total: int) -> dict[str, Any] | None:
     last = view.last_unit
     result = None
     if not running and last is not None and last.serial == out.serial:
-        result = {"word": "OK" if last.released else "NOT RELEASED",
+        result = {"word": last.result,  # OK, NOK or aborted (core.result_words)
                   "meaning": "normal" if last.released else "fault"}
     return {"serial": out.serial, "rework": out.rework, "running": running,
             "step": f"Step {out.step_number} of {out.step_count}" if out.step_count else "",

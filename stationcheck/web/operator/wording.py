@@ -18,6 +18,7 @@ from stationcheck.pipeline.station_view import (
     Meaning,
     StationView,
     StationViewBuilder,
+    TighteningShown,
 )
 
 # code -> (what happened, what to do); conditions last while their cause lasts. Their meaning
@@ -57,6 +58,14 @@ EVENT_ALARMS: dict[str, tuple[Meaning, str, str]] = {
     "result_of_cut_run": ("abnormal", "Result of a tightening that was cut off",
                           "Check that fastener; fasten it again if asked."),
 }
+# what a check zone was last judged, in the screen's words
+CHECK_SEEN = {"present": "in place", "absent": "not there",
+              "undecided": "not clear yet: keep it in view"}
+# A NOK with an attempt left is abnormal (IEC 60073 yellow: the operator puts it right here);
+# a position left for rework is a fault (red: the unit will not be released as it is).
+NOK_RETRY_MEANING: Meaning = "abnormal"
+NOK_LEFT_MEANING: Meaning = "fault"
+NOK_SHOWN_S = 5.0  # a NOK left for rework before another kind of step: headline this long
 ENGAGE_NOUNS = ("pin", "latch", "clamp", "lock", "lever", "bolt")
 _BIN_LABEL = re.compile(r"^(?P<part>.+?)\s+bin(?:\s*\((?P<where>[^)]+)\))?$", re.IGNORECASE)
 
@@ -126,6 +135,19 @@ class Wording:
         return f"Put the {label} in place"
 
     def instruction(self, view: StationView, mode: str = "live") -> Instruction:
+        """What to do now. After the last position of a fasten step is left for rework, the
+        next step's instruction waits ``NOK_SHOWN_S`` behind the NOK, named in the detail."""
+        said = self._instruction(view, mode)
+        last = view.last_tightening
+        if (said.kind in ("take_part", "check", "acknowledge") and last is not None
+                and not last.ok and last.zone in view.failed_zones
+                and 0.0 <= view.t_s - last.t_s <= NOK_SHOWN_S):
+            return Instruction("nok_left", f"NOK at {self.position(last.zone)}: left for rework",
+                               f"{_sentence(nok_reason(last))} · next: {said.text}",
+                               NOK_LEFT_MEANING)
+        return said
+
+    def _instruction(self, view: StationView, mode: str) -> Instruction:
         out = view.output
         guidance = out.guidance
         kind = guidance.kind
@@ -133,6 +155,10 @@ class Wording:
         step = self.steps.get(out.step_id or "")
         target = out.target.zone if out.target is not None else guidance.target
         attempt = self._attempt_words(view)
+        if kind in ("fasten", "rework") and target is not None:
+            nok = self._after_nok(view, target, attempt)
+            if nok is not None:
+                return nok
         if kind in ("fasten", "rework") and target is not None:
             verb = "Rework" if kind == "rework" else "Fasten"
             detail = f"{self.label(target)} · {attempt}" if attempt else self.label(target)
@@ -152,9 +178,9 @@ class Wording:
             return Instruction(kind, text, f"Step {out.step_number} of {out.step_count}",
                                meaning)
         if kind == "check" and isinstance(step, CheckStep):
-            seen = view.check_verdict or "not judged yet"
+            seen = CHECK_SEEN.get(view.check_verdict or "", "not judged yet")
             return Instruction(kind, self.check_action(step),
-                               f"{self.label(step.zone)}: seen {seen}", meaning)
+                               f"{self.label(step.zone)}: {seen}", meaning)
         if kind == "acknowledge" and isinstance(step, ConfirmStep):
             how = ("Then press ACKNOWLEDGE." if mode == "live"
                    else "Replay: the acknowledge comes from the recording.")
@@ -168,6 +194,22 @@ class Wording:
         if kind == "unit_finished":
             return self._finished(view)
         return Instruction(kind, "Waiting for the next unit", "Load a unit to start.", meaning)
+
+    def _after_nok(self, view: StationView, target: str,
+                   attempt: str) -> Instruction | None:
+        """The headline while the unit's newest tightening is a NOK: what failed and what to
+        do now (fasten it again, or go on and leave it for rework)."""
+        last = view.last_tightening
+        if last is None or last.ok:
+            return None
+        where = self.position(last.zone)
+        why = _sentence(nok_reason(last))
+        if target == last.zone:
+            detail = f"{why} · {attempt}" if attempt else why
+            return Instruction("nok_retry", f"NOK at {where}: fasten it again", detail,
+                               NOK_RETRY_MEANING)
+        return Instruction("nok_left", f"NOK at {where}: go on to {self.position(target)}",
+                           f"{why} · {where} is left for rework", NOK_LEFT_MEANING)
 
     def _attempt_words(self, view: StationView) -> str:
         out = view.output
@@ -194,12 +236,44 @@ class Wording:
         if unit.released:
             return Instruction("unit_finished", f"Unit {unit.serial} OK",
                                "Released. Waiting for the next unit.", meaning)
+        if unit.result != "NOK":  # aborted, or replaced by the next unit before it ended
+            return Instruction("unit_finished", f"Unit {unit.serial} {unit.result}",
+                               view.output.guidance.words, meaning)
         if unit.failed_zones:
             places = ", ".join(self.position(z) for z in unit.failed_zones)
-            return Instruction("unit_finished", f"Unit {unit.serial} not released",
-                               f"Rework needed at {places}.", meaning)
-        return Instruction("unit_finished", f"Unit {unit.serial} not released",
-                           view.output.guidance.words, meaning)
+            return Instruction("unit_finished", f"Unit {unit.serial} NOK: to rework",
+                               f"Not released. Rework needed at {places}.", meaning)
+        said = view.output.guidance.words
+        prefix = f"Unit {unit.serial} not released: "
+        why = said.removeprefix(prefix)
+        return Instruction("unit_finished", f"Unit {unit.serial} NOK: to rework",
+                           f"Not released: {why}", meaning)
+
+
+def _limit_words(name: str, value: float | None, limits: tuple[float | None, float | None],
+                 unit: str, digits: int) -> str | None:
+    low, high = limits
+    if value is None:
+        return None
+    if low is not None and value < low:
+        return f"{name} {value:.{digits}f}{unit} below its limit {low:.{digits}f}{unit}"
+    if high is not None and value > high:
+        return f"{name} {value:.{digits}f}{unit} above its limit {high:.{digits}f}{unit}"
+    return None
+
+
+def nok_reason(result: TighteningShown) -> str:
+    """Why a tightening is NOK, from its values and the step's limits; the controller's word
+    when the values are inside them (the controller's verdict stays authoritative)."""
+    found = [words for words in (
+        _limit_words("torque", result.torque_nm, result.torque_limits_nm, " Nm", 2),
+        _limit_words("angle", result.angle_deg, result.angle_limits_deg, "°", 1),
+    ) if words]
+    return ", ".join(found) if found else "the tightening controller reported NOK"
+
+
+def _sentence(words: str) -> str:
+    return words[:1].upper() + words[1:]
 
 
 def _plain(code: str) -> str:

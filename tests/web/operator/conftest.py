@@ -76,10 +76,13 @@ class Station:
     def apply(self, make: Callable[[float], Observation]) -> DecisionStep:
         return self.decisions.apply(make(self.t_s))
 
-    def frame(self, tip_px: tuple[float, float] | None = None) -> FrameResult:
+    def frame(self, tip_px: tuple[float, float] | None = None,
+              at: str | None = None) -> FrameResult:
+        """One frame; ``at``: the fastener zone the tip has dwelled at for a second."""
         t_s = self.t_s
-        zone = ZoneObservation(t_s=t_s, frame_index=self.index, zone=None, arrived_zone=None,
-                               since_t_s=None, dwell_ms=0.0, visible=tip_px is not None,
+        zone = ZoneObservation(t_s=t_s, frame_index=self.index, zone=at, arrived_zone=at,
+                               since_t_s=max(0.0, t_s - 1.0) if at else None,
+                               dwell_ms=1000.0 if at else 0.0, visible=tip_px is not None,
                                tip_px=tip_px)
         step = self.decisions.apply(zone)
         pose = ToolPose(t_s, self.index, tip_px, None, tip_px is not None,

@@ -304,3 +304,19 @@ def test_a_run_stopped_on_request_ends_the_screen_without_an_error(
         assert ended.steady["tool"]["enabled"] is False
     finally:
         feed.close()
+
+
+def test_a_feed_closed_at_once_after_the_end_still_says_how_the_run_ended(
+        confirm_plan: StationPlan) -> None:
+    """A replay without a terminal closes its screen right after the run: the stream's last
+    state must still be the ended one, or the page would read it as a lost connection."""
+    from stationcheck.web.operator.routes import state_events
+
+    feed = OperatorFeed(confirm_plan, mode="replay")
+    feed.on_frame(Station(confirm_plan).frame())
+    feed.on_stop(None)
+    feed.close()
+    assert feed.latest is not None and feed.latest.steady["ended"] == "ended"
+    events = b"".join(state_events(feed)).decode()
+    last_state = events.rsplit("event: state\n", 1)[1]
+    assert '"ended":"ended"' in last_state

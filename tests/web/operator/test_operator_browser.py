@@ -13,7 +13,6 @@ import threading
 from pathlib import Path
 from typing import Any
 
-import pytest
 from playwright.sync_api import expect
 
 from stationcheck.core.observations import UnitStarted
@@ -117,7 +116,11 @@ def test_screen_follows_a_unit_through_nok_and_rework(browser: Any, page: Any,
         expect(result.locator(".verdict")).to_have_text("NOK")
         expect(result).to_contain_text("3.92 Nm")
         expect(result).to_contain_text("52.4 °")
-        expect(detail).to_contain_text("attempt 2 of 2")
+        expect(text).to_have_text("NOK at position 3: fasten it again")
+        expect(detail).to_have_text("Torque 3.92 Nm below its limit 4.50 Nm, angle 52.4° above "
+                                    "its limit 45.0° · attempt 2 of 2")  # configs/demo_station
+        expect(page.locator("#instruction")).to_have_attribute("data-meaning", "abnormal")
+        expect(page.locator('#positions li[data-zone="screw_3"]')).not_to_contain_text("ON")
         shoot(page, "1280x800_nok_retry", feed)
         holds.release(2)
 
@@ -125,14 +128,15 @@ def test_screen_follows_a_unit_through_nok_and_rework(browser: Any, page: Any,
         chip = page.locator('#positions li[data-zone="screw_3"]')
         expect(chip).to_have_attribute("data-state", "failed")
         expect(chip).to_contain_text("NOK")
-        expect(text).to_have_text("Fasten position 6")
+        expect(text).to_have_text("NOK at position 3: go on to position 6")
+        expect(page.locator("#instruction")).to_have_attribute("data-meaning", "fault")
         shoot(page, "1280x800_left_for_rework", feed)
         holds.release(3)
 
         holds.wait(4)
-        expect(text).to_have_text("Unit PC-000104 not released")
-        expect(detail).to_have_text("Rework needed at position 3.")
-        expect(page.locator("#unit-result")).to_contain_text("NOT RELEASED")
+        expect(text).to_have_text("Unit PC-000104 NOK: to rework")
+        expect(detail).to_have_text("Not released. Rework needed at position 3.")
+        expect(page.locator("#unit-result")).to_have_text("NOK")
         shoot(page, "1280x800_not_released", feed)
         holds.release(4)
 
@@ -152,6 +156,10 @@ def test_screen_follows_a_unit_through_nok_and_rework(browser: Any, page: Any,
         runner.join(timeout=30)
         assert not errors, errors
         expect(page.locator("#ended")).to_contain_text("The run has ended")
+        served.close()  # a demo without a terminal closes its screen at once
+        expect(page.locator("#conn")).to_have_text("Run over")
+        expect(page.locator("#ended")).to_contain_text("The run has ended")
+        assert "call maintenance" not in page.locator("body").inner_text()
         assert reports and reports[0].units, "the replay summarised no unit"
     finally:
         holds.on_stop(None)  # lets a held loop go if an expectation failed
@@ -198,21 +206,23 @@ def test_acknowledge_reaches_the_sequencer_and_screen_reconnects(page: Any,
         served.close()
 
 
-@pytest.mark.parametrize("path", ["/common/caution.html"])
-def test_safety_note_opens_from_the_screen(page: Any, confirm_plan: StationPlan,
-                                           path: str) -> None:
+def test_safety_and_privacy_notes_are_always_on_screen(page: Any, confirm_plan: StationPlan
+                                                       ) -> None:
     station = Station(confirm_plan)
     feed = OperatorFeed(confirm_plan, mode="live", decisions=station.decisions)
     feed.on_frame(station.frame())
     served = serve(feed)
     try:
-        page.goto(served.url)
-        expect(page.locator("#instr-text")).to_have_text("Waiting for the next unit")
-        page.locator("#safety-open").click()
-        dialog = page.locator("#safety")
-        expect(dialog).to_be_visible()
-        expect(dialog).to_contain_text("not a safety")
-        expect(dialog.locator(f'a[href="{path}"]')).to_be_visible()
-        shoot(page, "1280x800_safety")
+        for size in ({"width": 1280, "height": 800}, {"width": 1920, "height": 1080}):
+            page.set_viewport_size(size)
+            page.goto(served.url)
+            expect(page.locator("#instr-text")).to_have_text("Waiting for the next unit")
+            notes = page.locator("#notes")
+            expect(notes).to_contain_text("not a safety function")
+            expect(notes).to_contain_text("the camera films the people who work here")
+            expect(notes).to_contain_text("retention days")  # the shared text has come
+            box = notes.bounding_box()
+            assert box is not None and box["y"] + box["height"] <= size["height"], box
+            shoot(page, f"{size['width']}x{size['height']}_notes")
     finally:
         served.close()

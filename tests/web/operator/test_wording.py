@@ -10,7 +10,7 @@ import pytest
 from stationcheck.core.observations import PositionRef
 from stationcheck.core.outputs import Guidance, Output
 from stationcheck.core.plan import CheckStep, PickStep, StationPlan, ZoneSpec
-from stationcheck.pipeline.station_view import StationView, UnitShown
+from stationcheck.pipeline.station_view import StationView, TighteningShown, UnitShown
 from stationcheck.web.operator.screen_state import alarms_shown
 from stationcheck.web.operator.wording import Wording, condition_alarm
 from tests.web.operator.conftest import square
@@ -35,6 +35,10 @@ def view(out: Output, **changes: Any) -> StationView:
 
 UNIT_NOK = UnitShown("PC-000123", False, "NOK", False, ("screw_3",), 9.0)
 UNIT_OK = UnitShown("PC-000123", True, "OK", True, (), 9.0)
+# the demo's first NOK at screw 3 (sample_video/demo_station_expected.jsonl) against the demo
+# config's limits (torque 4.5-5.5 Nm, angle 15-45 deg)
+NOK_3 = TighteningShown("screw_3", 2, 1, False, 3.92, 52.4, 8.0, (4.5, 5.5), (15.0, 45.0), 2)
+NOK_3_INSIDE = replace(NOK_3, torque_nm=5.0, angle_deg=30.0)
 
 
 @pytest.mark.parametrize(("out", "extra", "text", "detail", "meaning"), [
@@ -49,7 +53,26 @@ UNIT_OK = UnitShown("PC-000123", True, "OK", True, (), 9.0)
     (output("wrong_bin", "bin_cover", step_id="take_cover"), {"wrong_bin": "bin_gasket"},
      "Wrong bin. Take a cover from the right bin", "gasket bin (left)", "abnormal"),
     (output("check", "locking_pin", step_id="pin_engaged"), {"check_verdict": "absent"},
-     "Engage the locking pin", "seen absent", "action"),
+     "Engage the locking pin", "locking pin: not there", "action"),
+    (output("check", "locking_pin", step_id="pin_engaged"), {"check_verdict": "undecided"},
+     "Engage the locking pin", "not clear yet", "action"),
+    (output("fasten", "screw_3", attempt=2), {"last_tightening": NOK_3},
+     "NOK at position 3: fasten it again",
+     "Torque 3.92 Nm below its limit 4.50 Nm, angle 52.4° above its limit 45.0° · attempt 2 of 2",
+     "abnormal"),
+    (output("fasten", "screw_3", attempt=2), {"last_tightening": NOK_3_INSIDE},
+     "NOK at position 3: fasten it again", "The tightening controller reported NOK",
+     "abnormal"),
+    (output("fasten", "screw_6"), {"last_tightening": NOK_3},
+     "NOK at position 3: go on to position 6", "position 3 is left for rework", "fault"),
+    (output("check", "locking_pin", step_id="pin_engaged", t_s=10.0),
+     {"last_tightening": replace(NOK_3, zone="screw_6"), "failed_zones": ("screw_6",)},
+     "NOK at position 6: left for rework", "· next: Engage the locking pin", "fault"),
+    (output("check", "locking_pin", step_id="pin_engaged", t_s=20.0),
+     {"last_tightening": replace(NOK_3, zone="screw_6"), "failed_zones": ("screw_6",)},
+     "Engage the locking pin", "locking pin", "action"),  # NOK_SHOWN_S later
+    (output("fasten", "screw_6"), {"last_tightening": replace(NOK_3, ok=True)},
+     "Fasten position 6", "attempt 1 of 2", "action"),
     (output("wrong_position", "screw_4"), {"wrong_zone": "screw_5"},
      "Wrong position: go to position 4", "The tool is at position 5.", "abnormal"),
     (output("show_tool", "screw_4"), {}, "Bring the tool back into view", "position 4",
@@ -57,7 +80,17 @@ UNIT_OK = UnitShown("PC-000123", True, "OK", True, (), 9.0)
     (output("inhibited", "screw_4", alarms=("camera_moved",)), {}, "Tool off: station fault",
      "Call setup", "fault"),
     (output("unit_finished", unit_status="nok"), {"last_unit": UNIT_NOK},
-     "Unit PC-000123 not released", "Rework needed at position 3.", "fault"),
+     "Unit PC-000123 NOK: to rework", "Not released. Rework needed at position 3.", "fault"),
+    (output("unit_finished", unit_status="nok", guidance=Guidance(
+        "unit_finished", None,
+        "Unit PC-000123 not released: the check at fixture locking pin failed.")),
+     {"last_unit": replace(UNIT_NOK, failed_zones=())}, "Unit PC-000123 NOK: to rework",
+     "Not released: the check at fixture locking pin failed.", "fault"),
+    (output("unit_finished", unit_status="aborted", guidance=Guidance(
+        "unit_finished", None,
+        "Unit PC-000123 ended unfinished (new_unit). Waiting for the next unit.")),
+     {"last_unit": replace(UNIT_NOK, result="aborted", failed_zones=())},
+     "Unit PC-000123 aborted", "ended unfinished", "fault"),
     (output("unit_finished", unit_status="ok"), {"last_unit": UNIT_OK},
      "Unit PC-000123 OK", "Released", "normal"),
     (output("wait_for_unit", serial=None, unit_status="idle", step_id=None, step_count=0), {},

@@ -86,7 +86,7 @@ def test_one_unit_with_its_failed_position_and_rework(review: Client) -> None:
     assert body["unit"]["reworked"] is True and body["unit"]["failed_positions"] == ["p5"]
     p5 = [(s["pass_no"], s["attempt"], s["result"], s["position_result"])
           for s in body["steps"] if s["position"] == "p5"]
-    assert p5 == [(1, 1, "NotOK", None), (1, 2, "NotOK", "NotOK"), (2, 1, "OK", "OK")]
+    assert p5 == [(1, 1, "NOK", None), (1, 2, "NOK", "NOK"), (2, 1, "OK", "OK")]
     assert [s["seq"] for s in body["steps"]] == sorted(s["seq"] for s in body["steps"])
 
 

@@ -59,7 +59,7 @@ def test_find_a_unit_see_its_rework_and_export_it(page: Any, demo_review: Client
     screw_3 = [(r["pass_no"], r["attempt"], r["result"], r["position_result"], r["torque_nm"])
                for r in steps if r["position"] == "screw_3"]
     # the sample's inputs: 3.92 N·m then 4.11 N·m NOK, left for rework, OK in the rework pass
-    assert [s[:4] for s in screw_3] == [("1", "1", "NotOK", ""), ("1", "2", "NotOK", "NotOK"),
+    assert [s[:4] for s in screw_3] == [("1", "1", "NOK", ""), ("1", "2", "NOK", "NOK"),
                                         ("2", "1", "OK", "OK")]
     assert [float(s[4]) for s in screw_3[:2]] == [3.92, 4.11]
 
@@ -101,3 +101,64 @@ def test_figures_trends_and_the_list_of_a_larger_log(page: Any, generated_review
     page.goto(report.as_uri())
     expect(page.locator("h1")).to_have_text("Station review report")
     page.screenshot(path=str(shots / "report.png"))
+
+
+def test_the_demo_log_names_its_units_and_says_it_is_demo_data(page: Any, demo_review: Client,
+                                                               shots: Path,
+                                                               tmp_path: Path) -> None:
+    """The sample video's units (sample_video/demo_station_expected.jsonl): PC-000104 NOK at
+    screw_3 twice then reworked, PC-000105 NOK by its locking pin check, PC-000107 still open
+    when the video ends; the other four OK, three of them first time through."""
+    from playwright.sync_api import expect
+    from scipy.stats import binomtest
+
+    page.goto(url(demo_review))
+    expect(page.locator("#demo-flag")).to_be_visible()
+    expect(page.locator("#demo-flag")).to_contain_text("DEMO DATA")
+    expect(page.locator("#caution")).to_contain_text("the camera films the people who work here")
+    expect(page.locator("#caution")).to_be_in_viewport()
+
+    page.goto(url(demo_review, "#/unit/PC-000105"))
+    expect(page.locator("#unit-serial")).to_have_text("PC-000105")
+    expect(page.locator("#unit-status")).to_contain_text("NOK")
+    expect(page.locator("#unit-nok-reason")).to_have_text(
+        "check pin_engaged failed: expected present, saw absent")
+    page.screenshot(path=str(shots / "unit-demo-PC-000105-why.png"), full_page=True)
+
+    page.goto(url(demo_review, "#/figures"))
+    loaded(page, "#/figures")
+    cards = page.locator("#figure-cards")
+    expect(cards).to_contain_text("3 of 6 ended units")  # the open PC-000107 is not counted
+    expect(page.locator(".card", has_text="Open")).to_contain_text("1")
+    low, high = binomtest(3, 6).proportion_ci(confidence_level=0.95, method="wilson")  # scipy
+    expect(cards).to_contain_text(f"95 % Wilson {100 * low:.1f} % to {100 * high:.1f} %")
+    page.screenshot(path=str(shots / "figures-demo-ftt.png"), full_page=True)
+
+    page.goto(url(demo_review, "#/trends?position=screw_1&measure=torque&points=500"))
+    loaded(page, "#/trends?position=screw_1&measure=torque&points=500")
+    chart = page.locator("#trend-chart svg")
+    expect(chart.locator("polyline")).not_to_have_count(0)  # the EWMA is drawn from 7 values
+    for serial in ("PC-000101", "PC-000107"):
+        expect(chart.locator("text", has_text=serial)).to_have_count(1)  # which unit a dot is
+    expect(page.locator("#trend-findings")).to_contain_text("only 7 values")
+    page.screenshot(path=str(shots / "trends-demo-7-units.png"), full_page=True)
+
+    with page.expect_download() as info:
+        page.goto(url(demo_review, "#/figures"))
+        loaded(page, "#/figures")
+        page.click("#report-link")
+    report = tmp_path / "review-report.html"
+    info.value.save_as(report)
+    page.goto(report.as_uri())
+    expect(page.locator(".demo")).to_contain_text("DEMO DATA")
+    listed = page.locator("table.units tr", has_text="PC-0001")
+    expect(listed).to_have_count(3)
+    nok = page.locator("table.units tr", has_text="PC-000104")
+    expect(nok).to_contain_text("screw_3 attempt 1: 3.92 N·m")  # the sample's inputs
+    expect(page.locator("table.units tr", has_text="PC-000105")).to_contain_text("check pin_engaged")
+    expect(page.locator("table.units tr", has_text="PC-000107")).to_contain_text("not finished")
+    page.click("table.units >> text=PC-000105")
+    assert page.url.endswith("#unit-PC-000105")
+    expect(page.locator("#unit-PC-000105")).to_be_in_viewport()
+    page.goto(report.as_uri() + "#units-to-look-at")
+    page.screenshot(path=str(shots / "report-demo-units.png"))

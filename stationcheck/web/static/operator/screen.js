@@ -6,6 +6,7 @@
 const MEANINGS = ["normal", "abnormal", "fault", "action", "neutral"];
 const STALE_MS = 2000;
 const RETRY_MS = 1000;
+const LONG_HEADLINE = 32; // characters: a longer headline gets a smaller size to stay on one line
 
 const screen = {
   source: null,
@@ -47,6 +48,7 @@ function showInstruction(text, detail, meaning, kind) {
   $("instr-detail").textContent = detail || "";
   const box = $("instruction");
   box.dataset.kind = kind || "";
+  box.classList.toggle("long", text.length > LONG_HEADLINE);
   setMeaning(box, meaning);
 }
 
@@ -124,12 +126,28 @@ function render(s) {
   const ended = $("ended");
   ended.hidden = !s.ended;
   if (s.ended) {
-    const ordinary = s.ended === "ended" || s.ended === "stopped";
-    ended.textContent = s.ended === "ended" ? "The run has ended. The tool is off."
-      : s.ended === "stopped" ? "The station program was stopped. The tool is off."
-      : `The station program stopped (${s.ended}). The tool is off.`;
-    setMeaning(ended, ordinary ? "neutral" : "fault");
+    ended.textContent = endedWords(s.ended);
+    setMeaning(ended, ordinaryEnd(s.ended) ? "neutral" : "fault");
   }
+}
+
+function ordinaryEnd(ended) { return ended === "ended" || ended === "stopped"; }
+
+function endedWords(ended) {
+  return ended === "ended" ? "The run has ended. The tool is off."
+    : ended === "stopped" ? "The station program was stopped. The tool is off."
+    : `The station program stopped (${ended}). The tool is off.`;
+}
+
+function showEnded() {
+  // The program closed the stream after saying the run ended (a replay or demo that finished,
+  // or Ctrl-C): an ordinary end, not a lost connection. The screen still reconnects by itself
+  // if a new run starts on the same address.
+  document.body.classList.add("ended");
+  setConn("Run over", "neutral");
+  $("camera-note").textContent = "Last picture of the run";
+  const s = screen.state;
+  render(s);
 }
 
 function startVideo() {
@@ -167,7 +185,7 @@ function connect() {
   source.addEventListener("open", () => {
     screen.connected = true;
     screen.lastTickAt = performance.now();
-    document.body.classList.remove("offline");
+    document.body.classList.remove("offline", "ended");
     setConn("Connected", "normal");
     $("camera-note").textContent = "";
     startVideo();
@@ -185,7 +203,8 @@ function connect() {
   });
   source.addEventListener("error", () => {
     if (screen.source !== source) return;
-    goOffline("Not connected: retrying");
+    if (screen.state && screen.state.ended && ordinaryEnd(screen.state.ended)) showEnded();
+    else goOffline("Not connected: retrying");
     if (source.readyState === EventSource.CLOSED) {
       source.close();
       setTimeout(connect, RETRY_MS);
@@ -226,14 +245,10 @@ function init() {
     if (screen.connected) setTimeout(startVideo, RETRY_MS);
   });
   $("ack").addEventListener("click", acknowledge);
-  $("safety-open").addEventListener("click", async () => {
-    try {
-      const response = await fetch("/common/caution.html");
-      if (response.ok) $("safety-text").innerHTML = await response.text();
-    } catch (err) { /* the built-in text stays */ }
-    $("safety").showModal();
-  });
-  $("safety-close").addEventListener("click", () => $("safety").close());
+  // the safety and privacy notes stay on screen; the shared text replaces the built-in one
+  fetch("/common/caution.html").then((r) => (r.ok ? r.text() : null)).then((text) => {
+    if (text) $("notes").innerHTML = text;
+  }).catch(() => { /* the built-in text stays */ });
   goOffline("Connecting");
   showInstruction("Connecting to the station", "", "neutral", "offline");
   setInterval(watchStaleness, 500);

@@ -2,10 +2,11 @@
 // The review screen: plain DOM, no framework. Data arrives as JSON from /api/*; charts arrive
 // as SVG made by the server (the same pictures as the offline report).
 
+// the shown result words (the server maps the log's OPC UA words NotOK / NotDecidable to these)
 const STATUS = {
   OK: ["meaning-normal", "\u2714 OK"],
-  NotOK: ["meaning-fault", "\u2716 NOK"],
-  NotDecidable: ["meaning-neutral", "\u25CB aborted"],
+  NOK: ["meaning-fault", "\u2716 NOK"],
+  aborted: ["meaning-neutral", "\u25CB aborted"],
   open: ["meaning-neutral", "\u25CC open"],
 };
 const state = { info: null, unitParams: null, pages: [], after: null };
@@ -135,12 +136,12 @@ function unitRow(u) {
 }
 
 // ---- one unit
-function measured(value, low, high) {
+function measured(value, low, high, digits) {
   if (value === null || value === undefined) return "";
   const outside = (low !== null && value < low) || (high !== null && value > high);
   const limits = low !== null || high !== null ? ` [${low ?? "\u2013"}\u2013${high ?? "\u2013"}]` : "";
   return el("span", { class: outside ? "off-limits" : null, title: outside ? "outside its limits" : null },
-    `${value.toFixed(2)}${limits}`);
+    `${value.toFixed(digits)}${limits}`);
 }
 
 async function showUnit(serial, params) {
@@ -172,17 +173,19 @@ async function showUnit(serial, params) {
     ["Unfinished positions", u.unfinished_positions.join(", ") || "none"],
     ["Alarms", u.alarm_count], ["Current step", u.current_step || "-"],
   ];
-  $("unit-facts").replaceChildren(...facts.flatMap(([k, v]) => [el("dt", {}, k), el("dd", {}, v)]));
+  if (u.nok_reason) facts.unshift([u.status === "NOK" ? "Why NOK" : "Why the first pass was NOK", u.nok_reason]);
+  $("unit-facts").replaceChildren(...facts.flatMap(([k, v]) => [el("dt", {}, k),
+    el("dd", { id: k.startsWith("Why") ? "unit-nok-reason" : null }, v)]));
   $("step-table").querySelector("tbody").replaceChildren(...data.steps.map((s) => {
     const result = el("td", {}, badge(s.result));
-    if (s.position_result === "NotOK") result.append(" ", el("span", { class: "badge meaning-abnormal" }, "! left for rework"));
+    if (s.position_result === "NOK") result.append(" ", el("span", { class: "badge meaning-abnormal" }, "! left for rework"));
     const evidence = s.evidence_path
       ? el("a", { href: `/api/evidence?${q}&seq=${s.seq}`, target: "_blank" }, "image") : "";
     return el("tr", { class: s.rework ? "rework" : null },
       el("td", {}, s.rework ? `rework ${s.pass_no - 1}` : "first"), el("td", {}, s.step),
       el("td", {}, s.position ?? ""), el("td", { class: "num" }, s.kind === "fasten" ? `${s.attempt}${s.max_attempts ? " of " + s.max_attempts : ""}` : ""),
-      result, el("td", { class: "num" }, measured(s.torque_nm, s.torque_low_nm, s.torque_high_nm)),
-      el("td", { class: "num" }, measured(s.angle_deg, s.angle_low_deg, s.angle_high_deg)),
+      result, el("td", { class: "num" }, measured(s.torque_nm, s.torque_low_nm, s.torque_high_nm, 2)),
+      el("td", { class: "num" }, measured(s.angle_deg, s.angle_low_deg, s.angle_high_deg, 1)),
       el("td", { class: "num", title: s.recorded_at }, `+${(s.ended_t_s - u.started_t_s).toFixed(1)} s`),
       el("td", {}, evidence));
   }));
@@ -217,9 +220,11 @@ async function showFigures(params) {
   const ct = f.cycle_time;
   $("figure-cards").replaceChildren(
     card("Units started", number(f.units), f.period.text),
-    card("First-time-through", percent(f.ftt_rate), `${number(f.first_time_through)} units; ${ci}`),
+    card("First-time-through", percent(f.ftt_rate),
+      `${number(f.first_time_through)} of ${number(f.ended)} ended units; ${ci}`),
     card("OK (released)", number(f.ok)), card("NOK", number(f.nok)),
-    card("Reworked", number(f.reworked)), card("Aborted / open", `${number(f.aborted)} / ${number(f.open)}`),
+    card("Reworked", number(f.reworked)), card("Aborted", number(f.aborted)),
+    card("Open", number(f.open), "not finished: not in first-time-through"),
     card("NOK results", number(f.nok_results), `retries ${number(f.retries)}`),
     card("Cycle time", ct.median_s === null ? "-" : `${ct.median_s.toFixed(1)} s`,
       ct.p90_s === null ? "" : `median; p90 ${ct.p90_s.toFixed(1)} s`));
@@ -315,6 +320,7 @@ async function start() {
   try {
     state.info = await getJSON("/api/info");
     $("log-name").textContent = state.info.log;
+    $("demo-flag").hidden = !state.info.demo_data;
     for (const p of state.info.positions) {
       $("position-filter").append(el("option", { value: p }, p));
       $("trend-position").append(el("option", { value: p }, p));
