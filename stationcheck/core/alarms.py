@@ -39,4 +39,6 @@ ALARMS: dict[str, AlarmInfo] = {
     "result_outside_limits": AlarmInfo(15, "warning", False, "OK result outside the limits"),
     "run_without_result": AlarmInfo(16, "warning", False, "a tightening run gave no result"),
     "check_failed": AlarmInfo(17, "alarm", False, "a check was acknowledged without passing"),
+    "cannot_judge": AlarmInfo(50, "alarm", True, "the picture is too poor to judge bins/checks"),
+    "camera_unchecked": AlarmInfo(51, "alarm", True, "too dark or noisy to check the camera"),
 }

@@ -4,7 +4,7 @@ Enable (fail towards inhibit) is on only when, in this order:
 1. the PLC link is up and a fasten step has a target position; then
 2. a tightening granted at that position is running (kept on through vision faults and tip
    wobble so a tightening is never cut in half; ends at the result or when the tool stops), or
-3. no camera move, no detector fault, a fresh frame, a visible tip that has arrived (dwelled) in
+3. no camera move, a picture good enough to check the camera and judge bins, no detector fault, a fresh frame, a visible tip that has arrived (dwelled) in
    the target zone, and no hold after a reset or a result (the tip dwells again from then:
    ``reset_hold`` / ``new_attempt_dwell``).
 """
@@ -34,8 +34,11 @@ def frame_is_fresh(state: SequencerState, index: PlanIndex) -> bool:
 def complete_pick_if_due(tx: Transaction) -> None:
     """Activity in the step's bin for ``min_time_ms`` (counted from the step's start)."""
     step, unit = tx.plan_step(), tx.unit
-    if not isinstance(step, PickStep) or unit is None or tx.state.health.camera_moved:
+    health = tx.state.health
+    if not isinstance(step, PickStep) or unit is None or health.camera_moved:
         return
+    if health.cannot_judge is not None:
+        return  # fail closed: a pick the picture cannot show is not confirmed
     since = tx.state.bin_active_since(step.zone)
     if since is None or unit.step_started_t_s is None:
         return
@@ -52,6 +55,12 @@ def _station_conditions(tx: Transaction) -> list[tuple[ActiveAlarm, Details]]:
     if health.camera_moved:
         message = f"the camera moved by about {health.shift_px:.1f} px"
         found.append((ActiveAlarm("camera_moved"), {"message": message}))
+    if health.cannot_judge is not None:
+        message = f"cannot judge bins and checks: {health.cannot_judge}"
+        found.append((ActiveAlarm("cannot_judge"), {"message": message}))
+    if health.camera_unchecked is not None:
+        message = f"cannot check the camera's position: {health.camera_unchecked}"
+        found.append((ActiveAlarm("camera_unchecked"), {"message": message}))
     if health.detector_fault is not None:
         message = f"the keypoint detector failed: {health.detector_fault}"
         found.append((ActiveAlarm("detector_fault"), {"message": message}))
@@ -139,6 +148,10 @@ def decide_enable(tx: Transaction) -> tuple[bool, str]:
         return True, "tightening_running"
     if health.camera_moved:
         return False, "camera_moved"
+    if health.camera_unchecked is not None:
+        return False, "camera_unchecked"
+    if health.cannot_judge is not None:
+        return False, "cannot_judge"
     if health.detector_fault is not None:
         return False, "detector_fault"
     if not frame_is_fresh(state, tx.index):

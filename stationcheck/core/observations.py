@@ -236,6 +236,26 @@ class CameraMoved(ObservationBase):
 
 
 @dataclass(frozen=True)
+class PictureState(ObservationBase):
+    """Whether the camera picture is good enough for the image judgements. ``judgeable`` False:
+    bins and check zones cannot be judged (too dark, noisy, blurred or blocky);
+    ``camera_checkable`` False: the picture is too poor to check the camera's position.
+    ``reason`` says why in a few words (empty when both hold)."""
+
+    kind: ClassVar[str] = "picture_state"
+    judgeable: bool
+    camera_checkable: bool
+    reason: str = ""
+
+    def __post_init__(self) -> None:
+        super().__post_init__()
+        require_bool("PictureState", "judgeable", self.judgeable)
+        require_bool("PictureState", "camera_checkable", self.camera_checkable)
+        if not isinstance(self.reason, str):
+            raise ValueError(f"PictureState.reason must be text, got {self.reason!r}")
+
+
+@dataclass(frozen=True)
 class LinkStatus(ObservationBase):
     kind: ClassVar[str] = "link_status"
     ok: bool
@@ -281,6 +301,7 @@ Observation = (
     | BinActivity
     | CheckVerdict
     | CameraMoved
+    | PictureState
     | LinkStatus
     | DetectorFault
     | FrameStale
