@@ -303,9 +303,15 @@ def note_camera(tx: Transaction, obs: CameraMoved) -> None:
 
 
 def note_picture(tx: Transaction, obs: PictureState) -> None:
+    """The picture's state; its figures go to the open unit's log."""
     reason = obs.reason or "poor picture"
     tx.set_health(cannot_judge=None if obs.judgeable else reason,
                   camera_unchecked=None if obs.camera_checkable else reason)
+    if tx.unit is not None and tx.unit.is_open:
+        tx.emit("picture_quality", judgeable=obs.judgeable,
+                camera_checkable=obs.camera_checkable, reason=obs.reason,
+                brightness=obs.brightness, contrast=obs.contrast, noise_sigma=obs.noise_sigma,
+                sharpness=obs.sharpness, blockiness=obs.blockiness)
 
 
 def note_link(tx: Transaction, obs: LinkStatus) -> None:
