@@ -23,8 +23,9 @@ Three further rules keep noise from ever satisfying a pick:
 * when the tool's tip is seen, evidence counts only with the tip within ``tool_reach_px`` of the
   bin (the operator reaches in with the hand that holds the tool); set it to 0 on stations
   where the free hand picks;
-* a change that stays still for ``STILL_S`` (a part taken out, something put down) joins the
-  background, so it does not keep the bin active;
+* a change that stays still joins the background, so it does not keep the bin active: after
+  ``AWAY_STILL_S`` while the tip is seen away from the bin (a part was taken out), else after
+  ``STILL_S`` (something left lying in the bin; a hand held still stays active meanwhile);
 * when the first live picture differs from the reference frame as a whole (other light, lens,
   compression), the judge spends ``LEARN_S`` adapting to it and reports nothing meanwhile;
 * when the zone's typical noise floor exceeds ``MAX_FLOOR_LEVELS`` (a hand could hide in the
@@ -57,7 +58,8 @@ LEARN_S = 1.0  # a first picture unlike the reference: adapt for a second, repor
 LIKE_SPREAD = 2.0 * START_SIGMA  # first picture's spread about the reference up to this: alike
 LEARN_RATE = 0.25
 CALM_S = 4.0  # time constant of the background and the noise floor in calm frames
-STILL_S = 2.0
+STILL_S = 30.0  # a still change joins the background after this (a part left in the bin)
+AWAY_STILL_S = 0.5  # the same while the tool's tip is seen away from the bin (a part taken)
 MAX_FLOOR_LEVELS = 24.0  # K_SIGMA x typical cell sigma above this: cannot judge
 LIKE_REFERENCE = 0.3  # while learning, a cell within 30 % of the reference is adopted
 TOOL_MEMORY_S = 0.5  # a tip seen near the bin this recently still counts as near
@@ -123,7 +125,7 @@ class BinActivityJudge:
         self._had_live = False
 
     def tool_seen(self, t_s: float, tip_px: tuple[float, float] | None) -> None:
-        """Where the tool's tip is seen now (None: not seen). Call before :meth:`decide`."""
+        """Where the tool's tip is seen now (None: not seen). Call before :meth:`measure`."""
         reach = self.settings.tool_reach_px
         if tip_px is None or reach <= 0:
             return
@@ -135,11 +137,15 @@ class BinActivityJudge:
             self._tool_near_t_s = t_s
         self._tool_seen_t_s = t_s
 
-    def _tool_allows(self, t_s: float) -> bool:
+    def _tool_away(self, t_s: float) -> bool:
+        """The tip is seen now away from the bin, and was not near it just before."""
         if self.settings.tool_reach_px <= 0 or self._tool_seen_t_s != t_s or not self._tool_far:
-            return True  # not seen now, or seen near the bin
+            return False
         near = self._tool_near_t_s
-        return near is not None and t_s - near <= TOOL_MEMORY_S + 1e-9
+        return near is None or t_s - near > TOOL_MEMORY_S + 1e-9
+
+    def _tool_allows(self, t_s: float) -> bool:
+        return not self._tool_away(t_s)
 
     def measure(self, t_s: float, image_bgr: U8Array) -> BinReading:
         """Compares this frame with the empty bin and keeps the model up to date."""
@@ -195,7 +201,8 @@ class BinActivityJudge:
         self._still_since = np.where(still & changed, np.where(
             self._still_since > 0, self._still_since, np.float32(t_s + 1e-3)), 0.0
         ).astype(np.float32)
-        settled = (self._still_since > 0) & (t_s + 1e-3 - self._still_since >= STILL_S)
+        still_s = AWAY_STILL_S if self._tool_away(t_s) else STILL_S
+        settled = (self._still_since > 0) & (t_s + 1e-3 - self._still_since >= still_s)
         if settled.any():
             self._background[settled] = levels[settled]
             self._still_since[settled] = 0.0

@@ -134,9 +134,9 @@ class StationJudgements:
         if self.camera.due(t_s):
             out += _some(self.camera.check(t_s, image, ignore_circles_px, self._poor))
         clock.lap("camera_shift")
-        readings = [(judge, judge.measure(t_s, image)) for judge in self.bins]
         for judge in self.bins:
             judge.tool_seen(t_s, tip_px)
+        readings = [(judge, judge.measure(t_s, image)) for judge in self.bins]
         clock.lap("bin_activity")
         if not self.camera.checked_at(t_s) and any(j.onset_due(t_s, r) for j, r in readings):
             out += _some(self.camera.check(t_s, image, ignore_circles_px, self._poor))
