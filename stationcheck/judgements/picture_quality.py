@@ -15,7 +15,8 @@ Measured on the grey frame every ``INTERVAL_S`` (the figures change slowly):
 
 The thresholds (``judgements.picture_quality`` in the config) decide two things: whether the
 camera check can be trusted (light, contrast, noise) and whether bins and check zones can be
-judged (all five). A state changes after two measurements in a row agree.
+judged (all five). The first measurement sets the state; later, a state changes after two
+measurements in a row agree.
 """
 
 from __future__ import annotations
@@ -122,6 +123,7 @@ class QualityMonitor:
             return None
         self._last_t_s = t_s
         figures = measure_quality(image_bgr)
+        first = self.last is None
         self.last = figures
         checkable, judgeable, reason = self.verdicts(figures)
         self.picture_checkable = checkable
@@ -132,7 +134,7 @@ class QualityMonitor:
         reason = ", ".join(r for r in (reason, camera_reason, judge_reason) if r)
         changed = (checkable, judgeable) != (self.camera_checkable, self.judgeable)
         self._disagree = self._disagree + 1 if changed else 0
-        if self._disagree >= 2:
+        if self._disagree >= 2 or (changed and first):
             self._disagree = 0
             self.camera_checkable, self.judgeable, self.reason = checkable, judgeable, reason
             return self._state(t_s, figures)

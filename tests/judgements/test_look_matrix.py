@@ -1,0 +1,28 @@
+"""A small subset of the look matrix (the whole grid: python -m stationcheck.judgements.look_matrix).
+
+Keypoints come from the ground truth, so only the image checks are on trial; the decisions are
+scored against the rendered scene's ground truth (when the hand was in which bin).
+"""
+
+from __future__ import annotations
+
+import pytest
+
+from stationcheck.judgements.look_matrix import HELDOUT_SCENE, TUNING_SCENE, Cell, run_cell
+
+SUBSET = [
+    pytest.param(Cell("x0.45+vignette+warm", 6.0, 15, 1.2), TUNING_SCENE,
+                 id="dark, warm, vignette, noise 6, JPEG 15, blur (tuning scene)"),
+    pytest.param(Cell("x0.6", 3.0, 40, 0.0), HELDOUT_SCENE, id="dim, noise 3, JPEG 40 (held out)"),
+]
+
+
+@pytest.mark.parametrize(("cell", "scene"), SUBSET)
+def test_no_pick_fails_open_and_no_false_camera_move(cell: Cell, scene: object) -> None:
+    result = run_cell(cell, scene)  # type: ignore[arg-type]
+    assert result.early_picks == 0, result.line()
+    assert result.wrong_reaches >= 1 and result.wrong_missed == 0, result.line()
+    assert result.false_moved == 0, result.line()
+    assert result.enabled_unjudged == 0, result.line()
+    if result.status == "runs":  # judged throughout: every pick it had to see was seen
+        assert result.picks_confirmed == result.picks_expected >= 4, result.line()
