@@ -258,7 +258,7 @@ class PictureState(ObservationBase):
         require_bool("PictureState", "judgeable", self.judgeable)
         require_bool("PictureState", "camera_checkable", self.camera_checkable)
         if not isinstance(self.reason, str):
-            raise ValueError(f"PictureState.reason must be text, got {self.reason!r}")
+            raise TypeError(f"PictureState.reason must be text, got {self.reason!r}")
         for name in ("brightness", "contrast", "noise_sigma", "sharpness", "blockiness"):
             require_at_least("PictureState", name, getattr(self, name), 0.0)
 

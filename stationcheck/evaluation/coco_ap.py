@@ -84,12 +84,13 @@ def require_pycocotools() -> None:
     """Raises :class:`MissingExtraError` at once when pycocotools is missing, so a command can
     say so before it spends minutes on the frames."""
     try:
-        import pycocotools.coco  # noqa: F401
-        import pycocotools.cocoeval  # noqa: F401
+        import pycocotools.coco
+        import pycocotools.cocoeval
     except ImportError as exc:
         raise MissingExtraError(
             "OKS AP needs pycocotools; install it with: pip install 'stationcheck[eval]'"
         ) from exc
+    del pycocotools
 
 
 def _cocoeval(gt: dict[str, Any], results: list[dict[str, Any]], names: tuple[str, ...]) -> Any:

@@ -123,11 +123,13 @@ class _RenderedSource:
     """Frames rendered one at a time (a whole scene would not fit in memory)."""
 
     def __init__(self, renderer: FrameRenderer, count: int, fps: float) -> None:
-        self._renderer, self.frame_count, self.fps = renderer, count, fps
+        self._renderer, self.fps = renderer, fps
+        self.frame_count: int | None = count
+        self._count = count
         self.name = "rendered demo scene"
 
     def __iter__(self) -> Iterator[Frame]:
-        for index in range(self.frame_count):
+        for index in range(self._count):
             yield Frame(index, index / self.fps, self._renderer.render(index))
 
     def close(self) -> None:

@@ -41,7 +41,8 @@ class PatchAligner:
         mask[-margin:, :] = 0
         mask[:, :margin] = 0
         mask[:, -margin:] = 0
-        mask = cv2.erode(mask, np.ones((2 * HALF_PX + 1, 2 * HALF_PX + 1), np.uint8))
+        mask = np.asarray(cv2.erode(mask, np.ones((2 * HALF_PX + 1, 2 * HALF_PX + 1), np.uint8)),
+                          np.uint8)
         found = cv2.goodFeaturesToTrack(reference_half, MAX_PATCHES, 0.01, MIN_DISTANCE_PX,
                                         mask=mask, blockSize=7)
         points = np.zeros((0, 2), np.int32) if found is None else np.round(
@@ -73,7 +74,7 @@ class PatchAligner:
             peaks.append(peak)
             if not np.isfinite(peak) or peak < MIN_PEAK:
                 continue
-            dx, dy = _subpixel(result, at)
+            dx, dy = _subpixel(np.asarray(result, np.float32), at)
             src.append(full)
             dst.append(((x + at[0] + dx - SEARCH_PX) / self.scale,
                         (y + at[1] + dy - SEARCH_PX) / self.scale))

@@ -13,7 +13,7 @@ from stationcheck.errors import MissingExtraError
 def test_missing_pycocotools_stops_eval_before_any_frame(
     monkeypatch: pytest.MonkeyPatch, capsys: pytest.CaptureFixture[str]
 ) -> None:
-    import stationcheck.evaluation.truth as truth
+    from stationcheck.evaluation import truth
 
     def must_not_run(*args: object, **kwargs: object) -> None:
         raise AssertionError("frames were read before the dependency check")

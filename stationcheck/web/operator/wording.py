@@ -27,8 +27,7 @@ CONDITION_WORDS: dict[str, tuple[str, str]] = {
     "camera_unchecked": ("Picture too dark or too noisy to check the camera",
                          "Check the light and the lens. The tool stays off."),
     "cannot_judge": ("Cannot judge the bins and checks: the picture is too poor",
-                     "Check the light, the lens and the camera's picture settings. "
-                     "The tool stays off."),
+                     "Check the light, lens and picture settings. The tool stays off."),
     "detector_fault": ("Tool detection failed", "Call setup. The tool stays off."),
     "frame_stale": ("No fresh camera image",
                     "Check the camera cable and light, then call maintenance."),
