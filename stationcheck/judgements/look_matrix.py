@@ -47,11 +47,14 @@ from stationcheck.pipeline.truth_sidecar import BIN_FLAGS, TruthTable, truth_det
 SCENES_DIR = REPO_ROOT / "sample_video" / "look_scenes"
 TUNING_SCENE = SCENES_DIR / "tuning.yaml"
 HELDOUT_SCENE = SCENES_DIR / "heldout.yaml"
+TOO_DARK = "x0.12+vignette+warm"  # beyond the grid: a picture the station must refuse
 LIGHTS: dict[str, Look] = {
     "x1": Look(),
     "x0.6": Look(gain=0.6),
     "x0.45+vignette+warm": Look(gain=0.45, cast_bgr=WARM_CAST_BGR, vignette=0.35),
+    TOO_DARK: Look(gain=0.12, cast_bgr=WARM_CAST_BGR, vignette=0.35),
 }
+GRID_LIGHTS = ("x1", "x0.6", "x0.45+vignette+warm")
 NOISE_SIGMAS = (0.0, 3.0, 6.0)
 JPEG_QUALITIES: tuple[int | None, ...] = (None, 40, 15)
 BLURS_PX = (0.0, 1.2)
@@ -79,8 +82,10 @@ class Cell:
 
 
 def all_cells() -> list[Cell]:
-    return [Cell(light, noise, jpeg, blur) for light, noise, jpeg, blur in
-            itertools.product(LIGHTS, NOISE_SIGMAS, JPEG_QUALITIES, BLURS_PX)]
+    """The grid, then one cell beyond it that must say "cannot judge"."""
+    grid = [Cell(light, noise, jpeg, blur) for light, noise, jpeg, blur in
+            itertools.product(GRID_LIGHTS, NOISE_SIGMAS, JPEG_QUALITIES, BLURS_PX)]
+    return [*grid, Cell(TOO_DARK, 6.0, 15, 1.2)]
 
 
 @dataclass(frozen=True)
@@ -96,6 +101,7 @@ class CellResult:
     false_moved: int
     unjudged_frames: int
     enabled_unjudged: int
+    enabled_frames: int = 0
 
     @property
     def passed(self) -> bool:
@@ -116,7 +122,7 @@ class CellResult:
                 f"picks {self.picks_confirmed}/{self.picks_expected} early {self.early_picks} "
                 f"wrong-bin missed {self.wrong_missed}/{self.wrong_reaches} "
                 f"camera-moved {self.false_moved} unjudged {self.unjudged_frames}/{self.frames} "
-                f"enabled-unjudged {self.enabled_unjudged}")
+                f"enabled-unjudged {self.enabled_unjudged} enabled {self.enabled_frames}")
 
 
 class _RenderedSource:
@@ -213,7 +219,7 @@ def score(cell: Cell, scene: str, trace: RunTrace, table: TruthTable, frames: in
     moved = sum(1 for e in events
                 if e.kind == "alarm_raised" and e.data.get("code") == "camera_moved")
     return CellResult(cell, scene, frames, len(picks), expected, early, wrong, missed, moved,
-                      unjudged_frames, enabled_unjudged)
+                      unjudged_frames, enabled_unjudged, sum(1 for s in states if s.enabled))
 
 
 def _spans(events: Sequence[Event], codes: Sequence[str], end_s: float) -> list[tuple[float, float]]:

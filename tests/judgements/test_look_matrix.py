@@ -8,7 +8,13 @@ from __future__ import annotations
 
 import pytest
 
-from stationcheck.judgements.look_matrix import HELDOUT_SCENE, TUNING_SCENE, Cell, run_cell
+from stationcheck.judgements.look_matrix import (
+    HELDOUT_SCENE,
+    TOO_DARK,
+    TUNING_SCENE,
+    Cell,
+    run_cell,
+)
 
 SUBSET = [
     pytest.param(Cell("x0.45+vignette+warm", 6.0, 15, 1.2), TUNING_SCENE,
@@ -26,3 +32,10 @@ def test_no_pick_fails_open_and_no_false_camera_move(cell: Cell, scene: object) 
     assert result.enabled_unjudged == 0, result.line()
     if result.status == "runs":  # judged throughout: every pick it had to see was seen
         assert result.picks_confirmed == result.picks_expected >= 4, result.line()
+
+
+def test_a_picture_too_dark_to_judge_says_so_and_stays_inhibited() -> None:
+    result = run_cell(Cell(TOO_DARK, 6.0, 15, 1.2), HELDOUT_SCENE, max_frames=240)
+    assert result.status == "cannot judge", result.line()
+    assert result.unjudged_frames >= result.frames - 2, result.line()  # from the first frames
+    assert result.picks_confirmed == 0 and result.enabled_frames == 0, result.line()
