@@ -21,13 +21,15 @@ when it stays below 60 % of that for ``release_ms``.
 Three further rules keep noise from ever satisfying a pick:
 
 * when the tool's tip is seen, evidence counts only with the tip within ``tool_reach_px`` of the
-  bin (the operator reaches in with the hand that holds the tool); set it to 0 on stations
-  where the free hand picks;
+  bin (the operator reaches in with the hand that holds the tool), and an active bin turns
+  calm once the tip is seen away from it (an arm or shadow left over the bin is no reach); set
+  it to 0 on stations where the free hand picks;
 * a change that stays still joins the background, so it does not keep the bin active: after
   ``AWAY_STILL_S`` while the tip is seen away from the bin (a part was taken out), else after
   ``STILL_S`` (something left lying in the bin; a hand held still stays active meanwhile);
 * when the first live picture differs from the reference frame as a whole (other light, lens,
-  compression), the judge spends ``LEARN_S`` adapting to it and reports nothing meanwhile;
+  compression), the judge spends ``LEARN_S`` adapting to it (only cells still like the
+  reference are adopted) and meanwhile says it cannot judge;
 * when the zone's typical noise floor exceeds ``MAX_FLOOR_LEVELS`` (a hand could hide in the
   noise), the reading says the bin cannot be judged; the station then reports "cannot judge"
   and never confirms a pick from it.
@@ -76,6 +78,7 @@ class BinReading:
     changed: bool
     floor_levels: float = 0.0
     judgeable: bool = True
+    learning: bool = False  # still learning a first picture unlike the reference
 
 
 class BinActivityJudge:
@@ -174,7 +177,7 @@ class BinActivityJudge:
         floor = float(K_SIGMA * np.sqrt(np.median(self._variance[inside])))
         self._update(t_s, dt_s, levels, residual, changed, threshold, learning)
         if learning:
-            return BinReading(fraction, False, floor, True)
+            return BinReading(fraction, False, floor, judgeable=False, learning=True)
         limit = self.settings.changed_fraction * (RELEASE_RATIO if self.active else 1.0)
         judgeable = floor <= MAX_FLOOR_LEVELS
         return BinReading(fraction, judgeable and fraction >= limit, floor, judgeable)
@@ -186,7 +189,8 @@ class BinActivityJudge:
                 self._reference, 16.0)
             rate = np.float32(LEARN_RATE)
             self._background += rate * np.where(like, residual, 0.0).astype(np.float32)
-            self._variance += rate * (np.minimum(residual**2, 900.0) - self._variance)
+            self._variance += rate * np.where(like, residual**2 - self._variance,
+                                              0.0).astype(np.float32)
         else:
             rate = np.float32(min(0.5, dt_s / CALM_S))
             calm = ~changed
@@ -234,7 +238,7 @@ class BinActivityJudge:
             if self._changed_since is None:
                 self._changed_since = t_s
             return None
-        if reading.changed:
+        if reading.changed and self._tool_allows(t_s):
             self._calm_since = None
             return None
         if self._calm_since is None:

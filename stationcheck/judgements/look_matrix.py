@@ -47,6 +47,7 @@ from stationcheck.pipeline.truth_sidecar import BIN_FLAGS, TruthTable, truth_det
 SCENES_DIR = REPO_ROOT / "sample_video" / "look_scenes"
 TUNING_SCENE = SCENES_DIR / "tuning.yaml"
 HELDOUT_SCENE = SCENES_DIR / "heldout.yaml"
+FRESH_SCENE = SCENES_DIR / "heldout_b.yaml"  # held out after heldout.yaml had served a fix
 TOO_DARK = "x0.12+vignette+warm"  # beyond the grid: a picture the station must refuse
 LIGHTS: dict[str, Look] = {
     "x1": Look(),
@@ -260,11 +261,12 @@ def _pick_steps(events: Sequence[Event], end_s: float,
 def main(argv: Sequence[str] | None = None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
     parser.add_argument("--scene", action="append", type=Path,
-                        help="scene script(s) (default: the tuning and the held-out scene)")
+                        help="scene script(s) (default: the tuning and the second held-out "
+                             "scene)")
     parser.add_argument("--light", choices=sorted(LIGHTS), action="append")
     parser.add_argument("--frames", type=int, default=None, help="first N frames of a scene")
     args = parser.parse_args(argv)
-    scenes = args.scene or [TUNING_SCENE, HELDOUT_SCENE]
+    scenes = args.scene or [TUNING_SCENE, FRESH_SCENE]
     cells = [c for c in all_cells() if not args.light or c.light in args.light]
     failures = 0
     for cell in cells:

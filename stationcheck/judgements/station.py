@@ -153,8 +153,12 @@ class StationJudgements:
         clock.lap("bin_activity")
         out += self._judge_checks(t_s, image, unsure)
         clock.lap("presence")
-        noisy = [judge.zone_id for judge, reading in readings if not reading.judgeable]
-        bins_reason = f"{', '.join(noisy)} too noisy to judge" if noisy else ""
+        learning = [judge.zone_id for judge, reading in readings if reading.learning]
+        noisy = [judge.zone_id for judge, reading in readings
+                 if not reading.judgeable and not reading.learning]
+        bins_reason = ", ".join(
+            [f"{', '.join(learning)} learning the live picture"] * bool(learning)
+            + [f"{', '.join(noisy)} too noisy to judge"] * bool(noisy))
         camera_reason = "too few features to check the camera" if self.camera.unchecked else ""
         out += _some(quality.observe(t_s, image, bins_reason, camera_reason))
         clock.lap("picture_quality")
