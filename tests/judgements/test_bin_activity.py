@@ -146,3 +146,30 @@ def test_something_left_lying_in_a_bin_stops_counting_after_about_half_a_minute(
     assert [obs.active for _, obs in said] == [True, False]
     calm_after_s = (said[1][0] - said[0][0]) / FPS
     assert 20.0 <= calm_after_s <= 40.0
+
+
+def run_with_tip(judge: BinActivityJudge, images: list[U8Array],
+                 tips: list[tuple[float, float] | None]) -> list[tuple[int, bool]]:
+    out = []
+    for k, (image, tip) in enumerate(zip(images, tips, strict=True)):
+        judge.tool_seen(k / FPS, tip)
+        obs = judge.decide(k / FPS, judge.measure(k / FPS, image))
+        if obs is not None:
+            out.append((k, obs.active))
+    return out
+
+
+def test_the_tools_position_gates_a_reach(render: Render,
+                                          zone_by_id: dict[str, ZoneSpec]) -> None:
+    """The hand that reaches holds the tool: a change with the tip seen far away is no reach,
+    and an active bin turns calm once the tip is seen away from it."""
+    zone = zone_by_id["bin_cover"]
+    images = [render(seed=k) for k in range(3)] + [reach(render, zone, 40 + k) for k in range(32)]
+    at_bin, far = zone_centre(zone), (100.0, 420.0)
+    assert run_with_tip(bin_judge(render, zone), images, [far] * 35) == []
+    assert run_with_tip(bin_judge(render, zone), images, [at_bin] * 35) == [(5, True)]
+    assert run_with_tip(bin_judge(render, zone), images, [None] * 35) == [(5, True)]
+    leaves = [at_bin] * 10 + [far] * 25  # the tip leaves; the arm stays over the bin
+    said = run_with_tip(bin_judge(render, zone), images, leaves)
+    # away once the tip was last near over 0.5 s ago (frame 25 > 9 + 15), calm 100 ms later
+    assert said == [(5, True), (28, False)]
