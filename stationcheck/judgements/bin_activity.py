@@ -65,6 +65,7 @@ AWAY_STILL_S = 0.5  # the same while the tool's tip is seen away from the bin (a
 MAX_FLOOR_LEVELS = 24.0  # K_SIGMA x typical cell sigma above this: cannot judge
 LIKE_REFERENCE = 0.3  # while learning, a cell within 30 % of the reference is adopted
 TOOL_MEMORY_S = 0.5  # a tip seen near the bin this recently still counts as near
+UNSEEN_MEMORY_S = 3.0  # a tip last seen away from the bin counts as away this long
 RELEASE_RATIO = 0.6
 GAIN_RANGE = (0.15, 6.0)
 
@@ -141,9 +142,14 @@ class BinActivityJudge:
         self._tool_seen_t_s = t_s
 
     def _tool_away(self, t_s: float) -> bool:
-        """The tip is seen now away from the bin, and was not near it just before."""
-        if self.settings.tool_reach_px <= 0 or self._tool_seen_t_s != t_s or not self._tool_far:
+        """The tip is seen away from the bin now, or was last seen away from it less than
+        ``UNSEEN_MEMORY_S`` ago (a hand does not reach into a bin unseen that fast), and was
+        not near it just before."""
+        seen = self._tool_seen_t_s
+        if self.settings.tool_reach_px <= 0 or seen is None or not self._tool_far:
             return False
+        if seen != t_s and t_s - seen > UNSEEN_MEMORY_S + 1e-9:
+            return False  # not seen for long: the picture alone decides
         near = self._tool_near_t_s
         return near is None or t_s - near > TOOL_MEMORY_S + 1e-9
 

@@ -191,7 +191,8 @@ def score(cell: Cell, scene: str, trace: RunTrace, table: TruthTable, frames: in
     """``pick_bins``: the bin of each pick step, by step id."""
     events = trace.events
     reaches = _reaches(table, frames, fps)
-    picks = [e for e in events if e.kind == "step_completed" and e.data.get("kind") == "pick"]
+    picks = [e for e in events if e.kind == "step_completed" and e.data.get("kind") == "pick"
+             and e.data.get("ended_by") == "completed"]  # not closed by a new unit
     early = 0
     for event in picks:
         zone, started = str(event.data.get("zone")), float(event.data["started_t_s"])
