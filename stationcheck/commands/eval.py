@@ -50,10 +50,12 @@ def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[ty
 
 
 def run(args: argparse.Namespace) -> int:
+    from stationcheck.evaluation.coco_ap import require_pycocotools
     from stationcheck.evaluation.report import evaluate
     from stationcheck.evaluation.truth import read_coco_frames, read_video_frames
     from stationcheck.vision.detector import load_detector
 
+    require_pycocotools()  # before any frame is read: exit 7 at once, not after the whole run
     if args.coco is not None or args.images is not None:
         if args.coco is None or args.images is None or args.video or args.truth:
             raise InputFileError("use --coco with --images, or --video with --truth")

@@ -84,6 +84,9 @@ BOUNDS: dict[str, Bound] = {
         0.0, 10000.0, 0.0, 2000.0, " ms", "", "a pick is noticed this late"),
     "judgements.bin_activity.release_ms": Bound(
         0.0, 10000.0, 0.0, 2000.0, " ms", "", "a bin stays active this long after the hand left"),
+    "judgements.bin_activity.tool_reach_px": Bound(
+        0.0, 2000.0, 0.0, 300.0, " px", "",
+        "a tool tip far from the bin still lets the bin's activity count as a reach"),
     "judgements.presence.confirm_ms": Bound(
         0.0, 10000.0, 0.0, 2000.0, " ms", "", "a check verdict comes this late"),
     "judgements.camera_shift.interval_ms": Bound(

@@ -343,6 +343,8 @@ class BinActivitySection(_Section):
         judgement_defaults.BinActivitySettings.settle_ms)
     release_ms: Annotated[Number, hard("judgements.bin_activity.release_ms")] = (
         judgement_defaults.BinActivitySettings.release_ms)
+    tool_reach_px: Annotated[Number, hard("judgements.bin_activity.tool_reach_px")] = (
+        judgement_defaults.BinActivitySettings.tool_reach_px)
 
 
 class PresenceSection(_Section):
@@ -362,18 +364,33 @@ class CameraShiftSection(_Section):
         default=judgement_defaults.CameraShiftSettings.confirm_checks, ge=1, le=20)
 
 
+_QUALITY = judgement_defaults.PictureQualitySettings
+
+
+class PictureQualitySection(_Section):
+    """Picture-quality limits: outside them the station says it cannot judge and inhibits."""
+
+    min_brightness: Number = Field(default=_QUALITY.min_brightness, ge=0, le=255)
+    min_contrast: Number = Field(default=_QUALITY.min_contrast, ge=0, le=128)
+    max_noise_sigma: Number = Field(default=_QUALITY.max_noise_sigma, ge=0, le=128)
+    min_sharpness: Number = Field(default=_QUALITY.min_sharpness, ge=0)
+    max_blockiness: Number = Field(default=_QUALITY.max_blockiness, ge=1)
+
+
 class JudgementsSection(_Section):
-    """Image judgements: pick activity in bins, check-zone presence, camera shift."""
+    """Image judgements: pick activity in bins, check-zone presence, camera shift, picture."""
 
     bin_activity: BinActivitySection = BinActivitySection()
     presence: PresenceSection = PresenceSection()
     camera_shift: CameraShiftSection = CameraShiftSection()
+    picture_quality: PictureQualitySection = PictureQualitySection()
 
     def to_settings(self) -> judgement_defaults.JudgementSettings:
         return judgement_defaults.JudgementSettings(
             bin_activity=judgement_defaults.BinActivitySettings(**self.bin_activity.model_dump()),
             presence=judgement_defaults.PresenceSettings(**self.presence.model_dump()),
             camera_shift=judgement_defaults.CameraShiftSettings(**self.camera_shift.model_dump()),
+            picture_quality=_QUALITY(**self.picture_quality.model_dump()),
         )
 
 

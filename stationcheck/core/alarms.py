@@ -87,6 +87,10 @@ ALARMS: dict[str, AlarmInfo] = {
         33, "warning", False,
         "result_ok, torque or angle changed while result_sequence stayed the same",
         "check that the PLC adds 1 to result_sequence after writing each result"),
+    "cannot_judge": AlarmInfo(50, "alarm", True, "the picture is too poor to judge bins/checks",
+                              "check the light, the lens and the camera's compression setting"),
+    "camera_unchecked": AlarmInfo(51, "alarm", True, "too dark or noisy to check the camera",
+                                  "check the light and the lens; the tool stays off meanwhile"),
 }
 
 

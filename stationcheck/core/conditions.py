@@ -2,7 +2,8 @@
 
 Enable (fail towards inhibit) is on only when, in this order:
 1. the PLC link is up and a fasten step has a target position; then
-2. no fault: no camera move, no detector fault, a fresh frame whose picture still changes, a
+2. no fault: no camera move, a picture good enough to check the camera and judge bins, no
+   detector fault, a fresh frame whose picture still changes, a
    visible tip (an occlusion shorter than ``lost_track_grace_ms`` is not a loss); then
 3. a tightening granted at that position is running, within its run-time limit and with the tip
    still in the target zone (hysteresis absorbs the tool's reaction wobble), or
@@ -62,8 +63,11 @@ def check_run_time(tx: Transaction) -> None:
 def complete_pick_if_due(tx: Transaction) -> None:
     """Activity in the step's bin for ``min_time_ms`` (counted from the step's start)."""
     step, unit = tx.plan_step(), tx.unit
-    if not isinstance(step, PickStep) or unit is None or tx.state.health.camera_moved:
+    health = tx.state.health
+    if not isinstance(step, PickStep) or unit is None or health.camera_moved:
         return
+    if health.cannot_judge is not None:
+        return  # fail closed: a pick the picture cannot show is not confirmed
     since = tx.state.bin_active_since(step.zone)
     if since is None or unit.step_started_t_s is None:
         return
@@ -80,6 +84,12 @@ def _station_conditions(tx: Transaction) -> list[tuple[ActiveAlarm, Details]]:
     if health.camera_moved:
         message = f"the camera moved by about {health.shift_px:.1f} px"
         found.append((ActiveAlarm("camera_moved"), {"message": message}))
+    if health.cannot_judge is not None:
+        message = f"cannot judge bins and checks: {health.cannot_judge}"
+        found.append((ActiveAlarm("cannot_judge"), {"message": message}))
+    if health.camera_unchecked is not None:
+        message = f"cannot check the camera's position: {health.camera_unchecked}"
+        found.append((ActiveAlarm("camera_unchecked"), {"message": message}))
     if health.detector_fault is not None:
         message = f"the keypoint detector failed: {health.detector_fault}"
         found.append((ActiveAlarm("detector_fault"), {"message": message}))
@@ -173,6 +183,10 @@ def _fault(tx: Transaction) -> str | None:
     health = state.health
     if health.camera_moved:
         return "camera_moved"
+    if health.camera_unchecked is not None:
+        return "camera_unchecked"
+    if health.cannot_judge is not None:
+        return "cannot_judge"
     if health.detector_fault is not None:
         return "detector_fault"
     if not frame_is_fresh(state, tx.index):

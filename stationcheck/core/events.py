@@ -33,6 +33,7 @@ EVENT_KINDS: dict[str, str] = {
     "alarm_raised": "an alarm or warning; conditions also get alarm_cleared",
     "alarm_cleared": "a condition alarm stopped",
     "station_reset": "an explicit reset, with its reason",
+    "picture_quality": "the camera picture's figures and whether it can be judged",
 }
 
 # Result vocabulary of the OPC UA joining result model where it fits.

@@ -12,6 +12,8 @@ from stationcheck.core.transaction import PlanIndex
 BLOCKING_WORDS = {
     "link_lost": "the PLC link is down",
     "camera_moved": "the camera has moved; call setup to check it",
+    "camera_unchecked": "the picture is too dark or too noisy to check the camera",
+    "cannot_judge": "the picture is too poor to judge the bins and checks",
     "detector_fault": "tool detection failed",
     "frame_stale": "no fresh camera image",
     "image_frozen": "the camera picture is frozen",

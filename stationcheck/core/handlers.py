@@ -21,6 +21,7 @@ from stationcheck.core.observations import (
     LinkStatus,
     ObservationBase,
     OperatorAck,
+    PictureState,
     Reset,
     TighteningResult,
     ToolRunning,
@@ -286,7 +287,8 @@ def judge_check(tx: Transaction, obs: CheckVerdict) -> None:
             margin=obs.margin,
         )
         tx.set(check_verdict=obs.verdict)
-    if obs.verdict == step.expect and not tx.state.health.camera_moved:
+    health = tx.state.health
+    if obs.verdict == step.expect and not health.camera_moved and health.cannot_judge is None:
         complete_step(
             tx, RESULT_OK, zone=step.zone, expect=step.expect, verdict=obs.verdict,
             margin=obs.margin,
@@ -330,6 +332,18 @@ def confirm_step(tx: Transaction, obs: OperatorAck) -> None:
 
 def note_camera(tx: Transaction, obs: CameraMoved) -> None:
     tx.set_health(camera_moved=obs.moved, shift_px=obs.shift_px)
+
+
+def note_picture(tx: Transaction, obs: PictureState) -> None:
+    """The picture's state; its figures go to the open unit's log."""
+    reason = obs.reason or "poor picture"
+    tx.set_health(cannot_judge=None if obs.judgeable else reason,
+                  camera_unchecked=None if obs.camera_checkable else reason)
+    if tx.unit is not None and tx.unit.is_open:
+        tx.emit("picture_quality", judgeable=obs.judgeable,
+                camera_checkable=obs.camera_checkable, reason=obs.reason,
+                brightness=obs.brightness, contrast=obs.contrast, noise_sigma=obs.noise_sigma,
+                sharpness=obs.sharpness, blockiness=obs.blockiness)
 
 
 def note_link(tx: Transaction, obs: LinkStatus) -> None:

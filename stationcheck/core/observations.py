@@ -243,6 +243,34 @@ class CameraMoved(ObservationBase):
 
 
 @dataclass(frozen=True)
+class PictureState(ObservationBase):
+    """Whether the camera picture is good enough for the image judgements. ``judgeable`` False:
+    bins and check zones cannot be judged (too dark, noisy, blurred or blocky);
+    ``camera_checkable`` False: the picture is too poor to check the camera's position.
+    ``reason`` says why in a few words (empty when both hold). The figures (grey levels, the
+    variance of the Laplacian, a ratio) go to the step log of the open unit."""
+
+    kind: ClassVar[str] = "picture_state"
+    judgeable: bool
+    camera_checkable: bool
+    reason: str = ""
+    brightness: float = 0.0
+    contrast: float = 0.0
+    noise_sigma: float = 0.0
+    sharpness: float = 0.0
+    blockiness: float = 0.0
+
+    def __post_init__(self) -> None:
+        super().__post_init__()
+        require_bool("PictureState", "judgeable", self.judgeable)
+        require_bool("PictureState", "camera_checkable", self.camera_checkable)
+        if not isinstance(self.reason, str):
+            raise TypeError(f"PictureState.reason must be text, got {self.reason!r}")
+        for name in ("brightness", "contrast", "noise_sigma", "sharpness", "blockiness"):
+            require_at_least("PictureState", name, getattr(self, name), 0.0)
+
+
+@dataclass(frozen=True)
 class LinkStatus(ObservationBase):
     kind: ClassVar[str] = "link_status"
     ok: bool
@@ -306,6 +334,7 @@ Observation = (
     | BinActivity
     | CheckVerdict
     | CameraMoved
+    | PictureState
     | LinkStatus
     | DetectorFault
     | FrameStale

@@ -41,6 +41,8 @@ class Health:
     shift_px: float = 0.0
     detector_fault: str | None = None  # reason; cleared by the next zone observation
     frame_stale: bool = False  # said by the frame source; cleared by the next zone observation
+    cannot_judge: str | None = None  # why the picture is too poor to judge bins and checks
+    camera_unchecked: str | None = None  # why the picture is too poor to check the camera
 
 
 @dataclass(frozen=True)

@@ -61,6 +61,7 @@ TABLE: tuple[Row, ...] = (
     Row(CHECK,               "operator_ack",      h.fail_check,           "idle (not released)"),
     Row(all_but("confirm", "check"), "operator_ack", h.ignore,            "same"),
     Row(ANY,                 "camera_moved",      h.note_camera,          "same"),
+    Row(ANY,                 "picture_state",     h.note_picture,         "same"),
     Row(ANY,                 "link_status",       h.note_link,            "same"),
     Row(ANY,                 "detector_fault",    h.note_detector_fault,  "same"),
     Row(ANY,                 "frame_stale",       h.note_frame_stale,     "same"),

@@ -37,6 +37,7 @@ from stationcheck.demo_station.files import (
     VIDEO_NAME,
 )
 from stationcheck.demo_station.ground_truth import TruthRow, ground_truth, write_truth_csv
+from stationcheck.demo_station.look import LookFilter
 from stationcheck.demo_station.rig import OperatorRig, RigLayers, SoftShadow
 from stationcheck.demo_station.script import Limits, SceneScript, load_script
 from stationcheck.demo_station.shading import as_u8
@@ -105,6 +106,9 @@ class FrameRenderer:
             NOISE_SIGMA,
             lens_blur_px=LENS_BLUR_PX,
         )
+        look = production.script.look
+        self._look = None if look.is_plain else LookFilter(
+            look, layout.FRAME_WIDTH_PX, layout.FRAME_HEIGHT_PX, production.script.seed + 11)
         self._part_shadows = {
             k: SoftShadow.of(self.scene.part(k)[0], 4.0) for k in ("gasket", "cover")
         }
@@ -146,9 +150,10 @@ class FrameRenderer:
             1.0 + 0.035 * math.sin(2 * math.pi * t / 19.0) + 0.012 * math.sin(2 * math.pi * t / 4.3)
         )
         rng = np.random.default_rng((self.p.script.seed, frame))
-        return self.camera.develop(
+        image = self.camera.develop(
             self.scene_image(frame), self.p.choreography.camera(frame), exposure, rng
         )
+        return image if self._look is None else self._look.apply(image, rng)
 
     def reference(self) -> np.ndarray:
         rng = np.random.default_rng((self.p.script.seed, 10**6))

@@ -15,6 +15,8 @@ A small YAML file (see ``sample_video/demo_script.yaml`` and ``sample_video/READ
           - {pause_s: 0.5}
         pin: push                               # push | leave_out | keep | none
         ack_after_s: 1.5                        # operator acknowledges after this wait
+    look: {gain: 0.45, cast_bgr: [0.78, 0.95, 1.12], vignette: 0.35, noise_sigma: 3,
+           jpeg_quality: 40, blur_px: 0.8}          # optional: a worse camera picture
 
 ``rework: true`` starts a rework pass of a serial seen before (same part still in the fixture).
 A tightening's ``ok`` must agree with the station config's torque and angle limits, as the
@@ -28,6 +30,7 @@ from pathlib import Path
 from typing import Any, Literal
 
 from stationcheck.config import yaml_text
+from stationcheck.demo_station.look import Look, look_from_mapping
 from stationcheck.errors import ConfigError, InputFileError
 
 PinAction = Literal["push", "leave_out", "keep", "none"]
@@ -92,6 +95,7 @@ class SceneScript:
     seed: int
     units: tuple[UnitScript, ...]
     tail_s: float = 1.0  # still frames after the last action
+    look: Look = field(default_factory=Look)  # how the camera picture looks (light, noise, ...)
     source: str = field(default="", compare=False)
 
 
@@ -142,9 +146,10 @@ def parse_script(doc: Any, limits: Limits, source: str = "<script>") -> SceneScr
     if not isinstance(tail, (int, float)) or tail < 0:
         errors.append(f"tail_s: expected a number >= 0, got {tail!r}")
         tail = 1.0
+    look = look_from_mapping(doc.get("look"), "look", errors)
     if errors:
         raise ConfigError(f"{source}: " + "; ".join(errors))
-    return SceneScript(seed, tuple(units), float(tail), source)
+    return SceneScript(seed, tuple(units), float(tail), look, source)
 
 
 def _unit(doc: Any, where: str, limits: Limits, errors: list[str]) -> UnitScript | None:

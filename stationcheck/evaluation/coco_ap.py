@@ -80,14 +80,24 @@ def coco_results(
     return out
 
 
-def _cocoeval(gt: dict[str, Any], results: list[dict[str, Any]], names: tuple[str, ...]) -> Any:
+def require_pycocotools() -> None:
+    """Raises :class:`MissingExtraError` at once when pycocotools is missing, so a command can
+    say so before it spends minutes on the frames."""
     try:
-        from pycocotools.coco import COCO
-        from pycocotools.cocoeval import COCOeval
+        import pycocotools.coco
+        import pycocotools.cocoeval
     except ImportError as exc:
         raise MissingExtraError(
             "OKS AP needs pycocotools; install it with: pip install 'stationcheck[eval]'"
         ) from exc
+    del pycocotools
+
+
+def _cocoeval(gt: dict[str, Any], results: list[dict[str, Any]], names: tuple[str, ...]) -> Any:
+    require_pycocotools()
+    from pycocotools.coco import COCO
+    from pycocotools.cocoeval import COCOeval
+
     with contextlib.redirect_stdout(io.StringIO()):  # pycocotools prints progress
         coco_gt = COCO()
         coco_gt.dataset = gt

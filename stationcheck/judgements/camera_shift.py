@@ -10,6 +10,18 @@ the zones: the largest distance any zone corner moves under the transform.
 
 A similarity rather than a full homography: a camera bumped on a rigid mount mostly shifts and
 turns, and four parameters stay well determined even when the arm hides half of the bench.
+
+Light level, colour cast, vignette, noise and compression: each check first looks for the
+reference's corner patches by normalised cross-correlation near where they were
+(:mod:`stationcheck.judgements.patch_alignment`), which holds in dark, noisy and blocky
+pictures where ORB's binary descriptors flip; ORB matching over the whole frame is the second
+try, for moves larger than the patches' search. Either estimate counts only with at least
+``MIN_INLIERS`` inliers whose median reprojection error is at most ``MAX_RESIDUAL_PX``.
+
+With no estimate, the judge tells a poor picture from a move: when the caller says the picture
+is too poor (dark, flat, noisy) or the live frame shows few ORB features, the camera cannot be
+checked (``unchecked``; the station inhibits with its own words), which is not a move; a
+frame with features that match nothing counts as moved after ``BLIND_S``.
 """
 
 from __future__ import annotations
@@ -24,6 +36,7 @@ import numpy.typing as npt
 
 from stationcheck.core.observations import CameraMoved
 from stationcheck.core.plan import ZoneSpec
+from stationcheck.judgements.patch_alignment import PatchAligner
 from stationcheck.judgements.settings import CameraShiftSettings
 from stationcheck.judgements.zone_window import U8Array
 
@@ -40,6 +53,10 @@ MIN_INLIERS = 12
 ZONE_MARGIN_PX = 8
 CLEAR_RATIO = 0.5  # "back in place" below this share of the tolerance
 BLIND_S = 3.0  # no usable estimate for this long counts as moved (fail towards inhibit)
+UNCHECKED_S = 0.5  # a picture too poor to check the camera for this long: say so
+MIN_PATCH_INLIERS = 8
+MAX_RESIDUAL_PX = 1.5  # median reprojection error of the inliers, full-resolution pixels
+FEW_FEATURES = 0.35  # live ORB features below this share of the reference's: too few
 F64Array = npt.NDArray[np.float64]
 Fit = tuple[F64Array, npt.NDArray[np.bool_]]  # transform and inlier mask
 Circle = tuple[float, float, float]  # x, y, radius in pixels
@@ -53,6 +70,8 @@ class ShiftEstimate:
     shift_px: float
     inliers: int
     matches: int
+    residual_px: float = 0.0
+    method: str = "orb"
 
     @property
     def rotation_deg(self) -> float:
@@ -119,6 +138,8 @@ class ReferenceView:
                                    fastThreshold=FAST_THRESHOLD)
         self._matcher = cv2.BFMatcher(cv2.NORM_HAMMING)
         self._static_mask = _outside_zones_mask(self.size_px, zones, scale)
+        self.live_features = 0  # ORB features in the last live frame looked at
+        self._patches = PatchAligner(self._grey(reference), self._static_mask, scale)
         keypoints, descriptors = self._features(reference, self._static_mask)
         self._points_px = np.asarray([k.pt for k in keypoints], np.float64) / scale
         self._descriptors = descriptors
@@ -135,7 +156,36 @@ class ReferenceView:
         """Reference -> live transform for a frame (BGR or grey), or None when too few features
         agree. ``ignore_circles_px`` ((x, y, radius) in live pixels, e.g. around the tool) are
         left out."""
-        if self._descriptors is None or (image.shape[1], image.shape[0]) != self.size_px:
+        if (image.shape[1], image.shape[0]) != self.size_px:
+            return None
+        src, dst = self._patches.match(self._grey(image), ignore_circles_px)
+        estimate = self._fit(src, dst, MIN_PATCH_INLIERS, "patches")
+        if estimate is not None:
+            return estimate
+        return self._estimate_orb(image, ignore_circles_px)
+
+    @property
+    def too_few_features(self) -> bool:
+        """The last live frame (tried with ORB) showed too few features to check the camera."""
+        return self.live_features < FEW_FEATURES * max(MIN_INLIERS, self.feature_count)
+
+    def _fit(self, src: F64Array, dst: F64Array, min_inliers: int,
+             method: str) -> ShiftEstimate | None:
+        fitted = fit_similarity(src, dst)
+        if fitted is None or int(fitted[1].sum()) < min_inliers:
+            return None
+        matrix, inliers = fitted
+        errors = np.linalg.norm(apply_matrix(matrix, src[inliers]) - dst[inliers], axis=1)
+        residual = float(np.median(errors))
+        if residual > MAX_RESIDUAL_PX:
+            return None
+        return ShiftEstimate(matrix, displacement_px(matrix, self.corners_px),
+                             int(inliers.sum()), len(src), residual, method)
+
+    def _estimate_orb(self, image: U8Array,
+                      ignore_circles_px: Sequence[Circle]) -> ShiftEstimate | None:
+        self.live_features = 0
+        if self._descriptors is None:
             return None
         mask = self._static_mask
         if ignore_circles_px:
@@ -144,6 +194,7 @@ class ReferenceView:
                 cv2.circle(mask, (round(x * self.scale), round(y * self.scale)),
                            max(1, round(radius * self.scale)), 0, -1)
         keypoints, descriptors = self._features(image, mask)
+        self.live_features = len(keypoints)
         if descriptors is None or len(keypoints) < 2:
             return None
         pairs = self._matcher.knnMatch(self._descriptors, descriptors, k=2)
@@ -153,19 +204,18 @@ class ReferenceView:
             return None
         src = self._points_px[[m.queryIdx for m in good]]
         dst = np.asarray([keypoints[m.trainIdx].pt for m in good], np.float64) / self.scale
-        fitted = fit_similarity(src, dst)
-        if fitted is None or int(fitted[1].sum()) < MIN_INLIERS:
-            return None
-        matrix, inliers = fitted
-        return ShiftEstimate(matrix, displacement_px(matrix, self.corners_px),
-                             int(inliers.sum()), len(good))
+        return self._fit(src, dst, MIN_INLIERS, "orb")
+
+    def _grey(self, image: U8Array) -> U8Array:
+        grey = cv2.cvtColor(image, cv2.COLOR_BGR2GRAY) if image.ndim == 3 else image
+        size = (self._static_mask.shape[1], self._static_mask.shape[0])
+        if size == (grey.shape[1], grey.shape[0]):
+            return np.asarray(grey, np.uint8)
+        return np.asarray(cv2.resize(grey, size, interpolation=cv2.INTER_AREA), np.uint8)
 
     def _features(self, image: U8Array,
                   mask: U8Array) -> tuple[Sequence[cv2.KeyPoint], U8Array | None]:
-        grey = cv2.cvtColor(image, cv2.COLOR_BGR2GRAY) if image.ndim == 3 else image
-        size = (mask.shape[1], mask.shape[0])
-        small = grey if size == (grey.shape[1], grey.shape[0]) else cv2.resize(
-            grey, size, interpolation=cv2.INTER_AREA)
+        small = self._grey(image)
         keypoints, descriptors = self._orb.detectAndCompute(small, mask)
         return keypoints, None if descriptors is None else np.asarray(descriptors, np.uint8)
 
@@ -197,6 +247,7 @@ class CameraShiftJudge:
         self._last_check_t_s: float | None = None
         self._streak = 0  # checks in a row that disagree with the state
         self._blind_since_t_s: float | None = None
+        self.unchecked = False  # the picture is too poor to check the camera
 
     @property
     def suspect(self) -> bool:
@@ -210,14 +261,16 @@ class CameraShiftJudge:
     def checked_at(self, t_s: float) -> bool:
         return self._last_check_t_s == t_s
 
-    def check(self, t_s: float, image: U8Array,
-              ignore_circles_px: Sequence[Circle] = ()) -> CameraMoved | None:
-        """Estimate now on a frame (BGR or grey); the observation when the state changes."""
+    def check(self, t_s: float, image: U8Array, ignore_circles_px: Sequence[Circle] = (),
+              picture_poor: bool = False) -> CameraMoved | None:
+        """Estimate now on a frame (BGR or grey); the observation when the state changes.
+        ``picture_poor``: the picture is known to be too dark, flat or noisy to trust."""
         self._last_check_t_s = t_s
         estimate = self.view.estimate(image, ignore_circles_px)
         if estimate is None:
-            return self._blind(t_s)
+            return self._blind(t_s, picture_poor)
         self._blind_since_t_s = None
+        self.unchecked = False
         self.last = estimate
         tolerance = self.settings.tolerance_px
         disagrees = (estimate.shift_px < CLEAR_RATIO * tolerance if self.moved
@@ -228,10 +281,19 @@ class CameraShiftJudge:
         self._streak = 0
         return self._switch(t_s, not self.moved, estimate.shift_px)
 
-    def _blind(self, t_s: float) -> CameraMoved | None:
+    def _blind(self, t_s: float, picture_poor: bool) -> CameraMoved | None:
         if self._blind_since_t_s is None:
             self._blind_since_t_s = t_s
-        if self.moved or t_s - self._blind_since_t_s < BLIND_S:
+        blind_s = t_s - self._blind_since_t_s
+        if picture_poor or self.view.too_few_features:
+            if blind_s >= UNCHECKED_S - 1e-9 and not self.unchecked:
+                self.unchecked = True
+                logger.warning("the picture is too poor to check the camera's position")
+            if self.unchecked:
+                self._blind_since_t_s = t_s  # a poor picture is not a move
+            return None
+        self.unchecked = False
+        if self.moved or blind_s < BLIND_S:
             return None
         logger.warning("no usable camera-shift estimate for %.1f s; counting the camera as moved",
                        t_s - self._blind_since_t_s)

@@ -8,7 +8,10 @@ zone was taught, which makes the comparison blind to overall brightness and cont
 drift) and to small camera jitter. A frame gives a verdict only when all hold:
 
 * the zone is still: coarse cells of the zone changed little since the previous frame after
-  matching overall brightness (a hand or part passing through, a cross-fade);
+  matching overall brightness (a hand or part passing through, a cross-fade); "little" is
+  ``CELL_LEVELS`` or ``MOVING_K`` times the zone's own frame-to-frame noise (the median change
+  over its cells, followed slowly), whichever is larger, so sensor noise and JPEG flicker are
+  not motion;
 * the better class correlates at least ``min_match`` and leads the other by ``min_margin``;
 * after fitting brightness and contrast, at most ``MAX_COVERED`` of the zone's pixels lie more
   than ``RESIDUAL_LEVELS`` outside the range the better class shows within one pixel of them
@@ -46,6 +49,8 @@ MAX_COVERED = 0.06
 CELL_PX = 4
 CELL_LEVELS = 6.0
 MAX_MOVING = 0.05
+MOVING_K = 4.0
+NOISE_RATE = 0.1
 REPEAT_S = 0.5
 Reason = Literal["match", "moving", "no_match", "ambiguous", "covered", "untaught", "camera"]
 
@@ -135,6 +140,7 @@ class PresenceJudge:
                         for label, t in self._templates.items()}
         self._cells_size = (max(1, (x1 - x0) // CELL_PX), max(1, (y1 - y0) // CELL_PX))
         self._previous_cells: F32Array | None = None
+        self._noise_levels = CELL_LEVELS / MOVING_K
         self.verdict: Verdict = "undecided"
         self._candidate: Verdict = "undecided"
         self._candidate_since = 0.0
@@ -193,7 +199,14 @@ class PresenceJudge:
         level_now, level_before = float(cells.mean()), float(previous.mean())
         if level_before > 1e-3:
             previous = previous * np.float32(level_now / level_before)
-        return float(np.mean(np.abs(cells - previous) > CELL_LEVELS))
+        change = np.abs(cells - previous)
+        limit = max(CELL_LEVELS, MOVING_K * self._noise_levels)
+        # the zone's frame-to-frame noise: the median change over its cells, followed slowly
+        # (at most 10 % up per frame), so one sudden change of the whole zone still counts
+        scale = 1.4826 * float(np.median(change))
+        self._noise_levels += NOISE_RATE * (min(scale, 2.0 * self._noise_levels)
+                                            - self._noise_levels)
+        return float(np.mean(change > limit))
 
     def _covered_fraction(self, window: F32Array, label: Label, at: tuple[int, int]) -> float:
         template = self._templates[label]

@@ -20,16 +20,20 @@ def _require_fraction(record: str, name: str, value: float) -> None:
 class BinActivitySettings:
     """``changed_fraction``: share of the bin zone that must differ from the learned empty bin;
     ``settle_ms``: how long the change must last before the bin counts as active;
-    ``release_ms``: how long the zone must be calm again before it counts as inactive."""
+    ``release_ms``: how long the zone must be calm again before it counts as inactive;
+    ``tool_reach_px``: when the tool's tip is seen, a reach counts only with the tip this close
+    to the bin (0: the free hand may pick, the tip's position is not used)."""
 
     changed_fraction: float = 0.05
     settle_ms: float = 50.0
     release_ms: float = 100.0
+    tool_reach_px: float = 60.0
 
     def __post_init__(self) -> None:
         _require_fraction("BinActivitySettings", "changed_fraction", self.changed_fraction)
         require_at_least("BinActivitySettings", "settle_ms", self.settle_ms, 0.0)
         require_at_least("BinActivitySettings", "release_ms", self.release_ms, 0.0)
+        require_at_least("BinActivitySettings", "tool_reach_px", self.tool_reach_px, 0.0)
 
 
 @dataclass(frozen=True)
@@ -68,7 +72,27 @@ class CameraShiftSettings:
 
 
 @dataclass(frozen=True)
+class PictureQualitySettings:
+    """Below ``min_brightness`` (mean grey level), ``min_contrast`` (grey standard deviation) or
+    above ``max_noise_sigma`` (grey levels) the camera's position cannot be checked and nothing
+    is judged; below ``min_sharpness`` (variance of the Laplacian at half size) or above
+    ``max_blockiness`` (JPEG block-border step ratio) bins and check zones are not judged."""
+
+    min_brightness: float = 20.0
+    min_contrast: float = 8.0
+    max_noise_sigma: float = 12.0
+    min_sharpness: float = 4.0
+    max_blockiness: float = 8.0
+
+    def __post_init__(self) -> None:
+        for name in ("min_brightness", "min_contrast", "max_noise_sigma", "min_sharpness"):
+            require_at_least("PictureQualitySettings", name, getattr(self, name), 0.0)
+        require_at_least("PictureQualitySettings", "max_blockiness", self.max_blockiness, 1.0)
+
+
+@dataclass(frozen=True)
 class JudgementSettings:
     bin_activity: BinActivitySettings = field(default_factory=BinActivitySettings)
     presence: PresenceSettings = field(default_factory=PresenceSettings)
     camera_shift: CameraShiftSettings = field(default_factory=CameraShiftSettings)
+    picture_quality: PictureQualitySettings = field(default_factory=PictureQualitySettings)

@@ -2,11 +2,12 @@
 
 Per frame, in this order: the camera check (every ``interval_ms``, and at once whenever a bin
 is about to turn active, so a camera bump is not taken for a reach into a bin), the bins, the
-check zones. While the camera counts as moved or a check has just seen it shifted, bins report
-no activity and check zones report undecided; when the camera is back in place the bins
+check zones, the picture's quality. While the camera counts as moved or a check has just seen
+it shifted, or the picture cannot be judged or cannot check the camera, bins report no activity
+and check zones report undecided (fail closed); when the camera is back in place the bins
 relearn the empty view from the reference frame. Observations come back in that order, each
-only when its state changes (check verdicts also every ``REPEAT_S``), stamped with the frame's
-time.
+only when its state changes (check verdicts also every ``REPEAT_S``; the picture's figures
+every few seconds), stamped with the frame's time.
 """
 
 from __future__ import annotations
@@ -26,7 +27,7 @@ from stationcheck.core.records import Frame
 from stationcheck.errors import ConfigError, InputFileError
 from stationcheck.judgements.bin_activity import BinActivityJudge, BinReading
 from stationcheck.judgements.camera_shift import CameraShiftJudge, Circle, ReferenceView
-from stationcheck.judgements.illumination import GainMeter
+from stationcheck.judgements.picture_quality import QualityMonitor
 from stationcheck.judgements.presence import (
     REPEAT_S,
     UNDECIDED_SCORE,
@@ -40,7 +41,7 @@ from stationcheck.judgements.zone_window import U8Array
 
 logger = logging.getLogger(__name__)
 
-COST_NAMES = ("shared", "camera_shift", "bin_activity", "presence")
+COST_NAMES = ("camera_shift", "bin_activity", "presence", "picture_quality")
 
 
 def read_reference_frame(path: Path) -> U8Array:
@@ -67,7 +68,8 @@ class StationJudgements:
         height, width = self._reference.shape[:2]
         self.size_px = (width, height)
         self._clock = clock
-        self._gain = GainMeter(self._reference)
+        self.quality = QualityMonitor(settings.picture_quality)
+        self._poor = False
         self.camera = CameraShiftJudge(ReferenceView(self._reference, zones),
                                        settings.camera_shift)
         self.bins = [BinActivityJudge(zone.id, zone.polygon_px, self.size_px,
@@ -110,11 +112,13 @@ class StationJudgements:
                   for zone in zones if zone.kind == "check"}
         return cls(zones, reference, config.judgements.to_settings(), taught, clock)
 
-    def observe(self, frame: Frame, ignore_circles_px: Sequence[Circle] = ()) -> list[Observation]:
+    def observe(self, frame: Frame, ignore_circles_px: Sequence[Circle] = (),
+                tip_px: tuple[float, float] | None = None) -> list[Observation]:
         """The judgements' observations for one frame (often none).
 
         ``ignore_circles_px`` are areas the camera check should not take features from, e.g.
-        circles around the tool's keypoints.
+        circles around the tool's keypoints; ``tip_px`` is where the tool's tip is seen (None:
+        not seen), which a reach into a bin must agree with.
 
         Raises:
             InputFileError: the frame's size differs from the reference frame's.
@@ -125,27 +129,39 @@ class StationJudgements:
                 f"frame is {self.size_px[0]}x{self.size_px[1]}")
         t_s, image = frame.t_s, frame.image
         clock = _CostClock(self._clock)
-        gain = self._gain.gain(image)
-        clock.lap("shared")
+        self._poor = not self.quality.picture_checkable
         out: list[Observation] = []
         if self.camera.due(t_s):
-            out += _some(self.camera.check(t_s, image, ignore_circles_px))
+            out += _some(self.camera.check(t_s, image, ignore_circles_px, self._poor))
         clock.lap("camera_shift")
-        readings = [(judge, judge.measure(t_s, image, gain)) for judge in self.bins]
+        for judge in self.bins:
+            judge.tool_seen(t_s, tip_px)
+        readings = [(judge, judge.measure(t_s, image)) for judge in self.bins]
         clock.lap("bin_activity")
         if not self.camera.checked_at(t_s) and any(j.onset_due(t_s, r) for j, r in readings):
-            out += _some(self.camera.check(t_s, image, ignore_circles_px))
+            out += _some(self.camera.check(t_s, image, ignore_circles_px, self._poor))
         clock.lap("camera_shift")
         if any(isinstance(obs, CameraMoved) and not obs.moved for obs in out):
             for judge in self.bins:
                 judge.relearn(self._reference)
-        unsure = self.camera.moved or self.camera.suspect
+        quality = self.quality
+        unsure = (self.camera.moved or self.camera.suspect or self.camera.unchecked
+                  or not quality.judgeable or not quality.camera_checkable)
         for judge, reading in readings:
             self.last_readings[judge.zone_id] = reading
             out += _some(judge.decide(t_s, reading, suppressed=unsure))
         clock.lap("bin_activity")
         out += self._judge_checks(t_s, image, unsure)
         clock.lap("presence")
+        learning = [judge.zone_id for judge, reading in readings if reading.learning]
+        noisy = [judge.zone_id for judge, reading in readings
+                 if not reading.judgeable and not reading.learning]
+        bins_reason = ", ".join(
+            [f"{', '.join(learning)} learning the live picture"] * bool(learning)
+            + [f"{', '.join(noisy)} too noisy to judge"] * bool(noisy))
+        camera_reason = "too few features to check the camera" if self.camera.unchecked else ""
+        out += _some(quality.observe(t_s, image, bins_reason, camera_reason))
+        clock.lap("picture_quality")
         self.last_costs_ms = clock.costs_ms
         return out
 

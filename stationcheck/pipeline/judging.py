@@ -45,4 +45,5 @@ class StationImageJudge:
             for point in (pose.tip_px, pose.rear_px)
             if point is not None
         ]
-        return self.judgements.observe(frame, circles)
+        tip = pose.tip_px if pose.seen else None
+        return self.judgements.observe(frame, circles, tip)

@@ -22,6 +22,8 @@ Meaning = Literal["normal", "abnormal", "fault", "action", "neutral"]
 # code -> (meaning, words for the operator)
 ALARM_WORDS: dict[str, tuple[Meaning, str]] = {
     "camera_moved": ("fault", "Camera moved: call setup"),
+    "camera_unchecked": ("fault", "Too dark or noisy to check the camera"),
+    "cannot_judge": ("fault", "Cannot judge: picture too poor"),
     "detector_fault": ("fault", "Tool detection failed"),
     "frame_stale": ("fault", "No fresh camera image"),
     "link_lost": ("fault", "PLC link lost"),
@@ -31,12 +33,14 @@ ALARM_WORDS: dict[str, tuple[Meaning, str]] = {
     "image_frozen": ("fault", "Camera picture frozen"),
     "run_too_long": ("fault", "Tool ran too long: enable dropped"),
 }
-FAULT_REASONS = {"camera_moved", "detector_fault", "frame_stale", "link_lost", "image_frozen",
-                 "run_too_long"}
+FAULT_REASONS = {"camera_moved", "camera_unchecked", "cannot_judge", "detector_fault",
+                 "frame_stale", "link_lost", "image_frozen", "run_too_long"}
 REASON_WORDS = {
     "no_unit": "no unit open",
     "link_lost": "PLC link lost",
     "camera_moved": "camera moved",
+    "camera_unchecked": "picture too dark or noisy to check the camera",
+    "cannot_judge": "picture too poor to judge",
     "detector_fault": "tool detection failed",
     "frame_stale": "no fresh camera image",
     "tool_not_visible": "tool not seen",

@@ -32,6 +32,7 @@ from stationcheck.core.observations import (
     LinkStatus,
     Observation,
     OperatorAck,
+    PictureState,
     PositionRef,
     Reset,
     Tick,
@@ -253,6 +254,12 @@ class Scenario:
 
     def link(self, ok: bool) -> Scenario:
         return self.add(LinkStatus(self.t_s, ok))
+
+    def picture(self, judgeable: bool = True, camera_checkable: bool = True,
+                reason: str = "too noisy") -> Scenario:
+        bad = not (judgeable and camera_checkable)
+        return self.add(PictureState(self.t_s, judgeable, camera_checkable,
+                                     reason if bad else "", brightness=40.0, noise_sigma=7.5))
 
     def detector_fault(self, reason: str = "output was NaN") -> Scenario:
         return self.add(DetectorFault(self.t_s, reason))

@@ -24,6 +24,7 @@ from stationcheck.core.observations import (
     LinkStatus,
     Observation,
     OperatorAck,
+    PictureState,
     PositionRef,
     Reset,
     Tick,
@@ -54,6 +55,7 @@ ONE_OF_EACH: list[Observation] = [
     BinActivity(2.1, "bin_a", True),
     CheckVerdict(2.2, "chk", "undecided", -0.2),
     CameraMoved(2.3, True, 9.5),
+    PictureState(2.35, False, True, "too noisy"),
     LinkStatus(2.4, False),
     DetectorFault(2.5, "output was NaN"),
     FrameStale(2.6, 240.0),
@@ -228,7 +230,8 @@ def test_every_event_kind_has_a_description() -> None:
 
 def test_alarm_numbers_are_unique_and_conditions_are_the_cleared_ones(scenario: Any) -> None:
     numbers = [info.number for info in ALARMS.values()]
-    assert len(set(numbers)) == len(numbers) and min(numbers) >= 1
+    # appended in rising order, never reused or renumbered
+    assert numbers == sorted(set(numbers)) and min(numbers) >= 1
     sc = scenario().unit("U-1").camera(True).camera(False).link(False).link(True)
     run = sc.detector_fault().arrive("s2").stale().arrive("s1").hidden(400).run()
     cleared = {str(e.data["code"]) for e in run.of("alarm_cleared")}

@@ -159,6 +159,7 @@ class ScriptedView:
 
     shifts: list[float | None]
     calls: int = 0
+    too_few_features: bool = False
 
     def estimate(self, image: U8Array,
                  ignore: Sequence[tuple[float, float, float]] = ()) -> ShiftEstimate | None:
@@ -170,14 +171,15 @@ class ScriptedView:
 
 
 def drive(shifts: list[float | None], frames: int, settings: CameraShiftSettings,
-          fps: float = 30.0) -> tuple[list[tuple[int, bool, float]], int]:
-    view = ScriptedView(shifts)
+          fps: float = 30.0, *, few_features: bool = False, picture_poor: bool = False,
+          ) -> tuple[list[tuple[int, bool, float]], int]:
+    view = ScriptedView(shifts, too_few_features=few_features)
     judge = CameraShiftJudge(view, settings)  # type: ignore[arg-type]
     said = []
     image = np.zeros((480, 640, 3), np.uint8)
     for k in range(frames):
         if judge.due(k / fps):
-            obs = judge.check(k / fps, image)
+            obs = judge.check(k / fps, image, picture_poor=picture_poor)
             if obs is not None:
                 said.append((k, obs.moved, obs.shift_px))
     return said, view.calls
@@ -216,6 +218,22 @@ def test_no_usable_estimate_for_long_counts_as_moved() -> None:
     assert len(said) == 1 and said[0][1] is True
     blind_from = 6  # the second check (frame 6) is the first without an estimate
     assert said[0][0] == blind_from + round(BLIND_S * fps)
+
+
+@pytest.mark.parametrize(("few_features", "picture_poor"), [(True, False), (False, True)],
+                         ids=["few features in the frame", "picture too dark or noisy"])
+def test_no_estimate_from_a_poor_picture_is_not_a_move(few_features: bool,
+                                                       picture_poor: bool) -> None:
+    fps = 30.0
+    view = ScriptedView([0.5, None], too_few_features=few_features)
+    judge = CameraShiftJudge(view, CameraShiftSettings())  # type: ignore[arg-type]
+    said = [judge.check(k / fps, np.zeros((4, 4, 3), np.uint8), picture_poor=picture_poor)
+            for k in range(int((BLIND_S + 2.0) * fps)) if judge.due(k / fps)]
+    assert [obs for obs in said if obs is not None] == [] and not judge.moved
+    assert judge.unchecked
+    view.shifts = [0.5]
+    judge.check(10.0, np.zeros((4, 4, 3), np.uint8))
+    assert not judge.unchecked and not judge.moved
 
 
 def test_areas_to_ignore_are_left_out_of_the_estimate(

@@ -64,7 +64,7 @@ def test_bench_section_reports_each_judgement(render: Render, tmp_path: Path,
     assert main(["bench", "--section", "judgements", "--frames", "20", "--video", str(video),
                  "--json"]) == 0
     rows = {r["name"]: r for r in json.loads(capsys.readouterr().out)["rows"]}
-    for name in ("shared", "camera_shift", "bin_activity", "presence"):
+    for name in ("camera_shift", "bin_activity", "presence", "picture_quality"):
         assert rows[f"{name} per frame"]["median"] >= 0.0
         assert rows[f"{name} amortised (mean per frame)"]["median"] >= 0.0
     total = rows["all judgements amortised per frame"]

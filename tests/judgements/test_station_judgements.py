@@ -108,6 +108,7 @@ def test_costs_are_kept_per_judgement(render: Render, demo_zones: list[ZoneSpec]
                                       pin_taught: TaughtClasses) -> None:
     judge = judgements(render, demo_zones, pin_taught)
     judge.observe(Frame(0, 0.0, render(seed=4)))
-    assert set(judge.last_costs_ms) == {"shared", "camera_shift", "bin_activity", "presence"}
+    assert set(judge.last_costs_ms) == {"camera_shift", "bin_activity", "presence",
+                                        "picture_quality"}
     assert all(cost >= 0.0 for cost in judge.last_costs_ms.values())
     assert judge.last_costs_ms["camera_shift"] > 0.0  # the first frame always checks

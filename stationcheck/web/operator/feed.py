@@ -26,6 +26,7 @@ from typing import Any, Literal
 
 import cv2
 
+from stationcheck.core.observations import PictureState
 from stationcheck.core.plan import StationPlan
 from stationcheck.errors import first_line, stop_requested
 from stationcheck.overlay.scene import draw_scene
@@ -34,7 +35,12 @@ from stationcheck.pipeline.decisions import DecisionCore, DecisionStep
 from stationcheck.pipeline.frame_path import FrameResult
 from stationcheck.pipeline.station_view import StationView, StationViewBuilder
 from stationcheck.web.operator.acknowledge import AckInbox
-from stationcheck.web.operator.screen_state import RecentAlarms, steady_state, tick_state
+from stationcheck.web.operator.screen_state import (
+    RecentAlarms,
+    picture_state,
+    steady_state,
+    tick_state,
+)
 from stationcheck.web.operator.wording import Wording
 
 logger = logging.getLogger(__name__)
@@ -91,6 +97,7 @@ class OperatorFeed:
         self.sent_ms: deque[float] = deque(maxlen=20_000)  # handed -> picture written to a viewer
         self.last_sent_seq = 0
         self.ended: str | None = None
+        self.picture: PictureState | None = None  # the latest picture-quality figures
         self._lock = threading.Lock()
         self._slot: _Handed | None = None
         self._last: _Handed | None = None
@@ -109,6 +116,8 @@ class OperatorFeed:
     def on_step(self, step: DecisionStep) -> None:
         self.views.fold(step.events)
         self.recent.fold(step.events)
+        if isinstance(step.observation, PictureState):
+            self.picture = step.observation
 
     def on_frame(self, result: FrameResult) -> None:
         output = result.output
@@ -234,6 +243,7 @@ class OperatorFeed:
         steady = steady_state(view, self.wording, mode=self.mode,
                               recent=list(handed.recent_alarms),
                               acks_allowed=self.decisions is not None, ended=self.ended)
+        steady["picture"] = picture_state(self.picture)
         jpeg = self._picture(handed) if pictures else None
         self._seq += 1
         ready = self.clock()

@@ -15,6 +15,7 @@ from typing import Any
 
 from stationcheck.core.alarms import ALARMS
 from stationcheck.core.events import Event
+from stationcheck.core.observations import PictureState
 from stationcheck.core.plan import ConfirmStep, FastenStep
 from stationcheck.overlay.scene import fastener_state
 from stationcheck.pipeline.station_view import Meaning, StationView
@@ -162,6 +163,25 @@ def steady_state(view: StationView, wording: Wording, *, mode: str, recent: list
         state["tool"] = dict(ENDED_TOOL)
         state["ack"]["allowed"] = False
     return state
+
+
+def picture_state(obs: PictureState | None) -> dict[str, Any] | None:
+    """The camera picture's figures and whether the image checks can work with it."""
+    if obs is None:
+        return None
+    if not obs.camera_checkable:
+        meaning: Meaning = "fault"
+        words = "Picture too dark or too noisy to check the camera"
+    elif not obs.judgeable:
+        meaning, words = "fault", "Cannot judge bins and checks: picture too poor"
+    else:
+        meaning, words = "normal", "Picture good enough to judge"
+    return {"meaning": meaning, "words": words, "reason": obs.reason,
+            "figures": [["brightness", f"{obs.brightness:.0f}"],
+                        ["contrast", f"{obs.contrast:.0f}"],
+                        ["noise", f"{obs.noise_sigma:.1f}"],
+                        ["sharpness", f"{obs.sharpness:.0f}"],
+                        ["blockiness", f"{obs.blockiness:.2f}"]]}
 
 
 def tick_state(view: StationView, seq: int) -> dict[str, Any]:

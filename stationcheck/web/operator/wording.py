@@ -25,6 +25,10 @@ from stationcheck.pipeline.station_view import (
 # is the station view's (ALARM_WORDS), the same as on the annotated video.
 CONDITION_WORDS: dict[str, tuple[str, str]] = {
     "camera_moved": ("Camera moved", "Call setup to put the camera back and check it."),
+    "camera_unchecked": ("Picture too dark or too noisy to check the camera",
+                         "Check the light and the lens. The tool stays off."),
+    "cannot_judge": ("Cannot judge the bins and checks: the picture is too poor",
+                     "Check the light, lens and picture settings. The tool stays off."),
     "detector_fault": ("Tool detection failed", "Call setup. The tool stays off."),
     "frame_stale": ("No fresh camera image",
                     "Check the camera cable and light, then call maintenance."),

@@ -19,7 +19,7 @@ import cv2
 
 from stationcheck.config import StationConfig, check_data
 from stationcheck.core.events import Event
-from stationcheck.core.observations import Observation, UnitStarted
+from stationcheck.core.observations import Observation, PictureState, UnitStarted
 from stationcheck.core.plan import StationPlan
 from stationcheck.errors import InputFileError
 from stationcheck.overlay.annotator import Annotator
@@ -67,8 +67,11 @@ class DryRunRecorder:
 
     def on_step(self, step: DecisionStep) -> None:
         self.views.fold(step.events)
+        if isinstance(step.observation, PictureState):
+            self.timeline.append(describe_picture(step.observation))
         for event in step.events:
-            self.timeline.append(describe_event(event))
+            if event.kind != "picture_quality":  # said once above, with or without a unit
+                self.timeline.append(describe_event(event))
         if step.output.tool_enabled != self._enabled:
             self._enabled = step.output.tool_enabled
             words = "on" if self._enabled else f"off ({step.output.enable_reason})"
@@ -96,6 +99,20 @@ class DryRunRecorder:
     def on_stop(self, error: BaseException | None) -> None:
         if error is not None:
             self.timeline.append({"t_s": None, "kind": "stopped", "text": f"stopped: {error}"})
+
+
+def describe_picture(obs: PictureState) -> dict[str, Any]:
+    """The camera picture's figures in the timeline, and whether the checks can judge it."""
+    if not obs.camera_checkable:
+        verdict = f"too poor to check the camera ({obs.reason})"
+    elif not obs.judgeable:
+        verdict = f"cannot judge bins and checks ({obs.reason})"
+    else:
+        verdict = "good enough to judge"
+    text = (f"picture {verdict}: brightness {obs.brightness:.0f}, contrast {obs.contrast:.0f}, "
+            f"noise {obs.noise_sigma:.1f}, sharpness {obs.sharpness:.0f}, "
+            f"blockiness {obs.blockiness:.2f}")
+    return {"t_s": round(obs.t_s, 3), "kind": "picture", "text": text}
 
 
 def describe_event(event: Event) -> dict[str, Any]:

@@ -107,6 +107,17 @@ function renderAck(ack) {
   else if (!ack.allowed) $("ack-note").textContent = ack.why_not;
 }
 
+function renderPicture(p) {
+  const box = $("picture");
+  box.hidden = !p;
+  if (!p) return;
+  setMeaning(box, p.meaning);
+  $("picture-words").innerHTML = `${symbol(p.meaning)}${esc(p.words)}` +
+    (p.reason ? ` (${esc(p.reason)})` : "");
+  $("picture-figures").textContent = p.figures.map(([name, value]) => `${name} ${value}`)
+    .join(" · ");
+}
+
 function renderTool(tool) {
   $("tool-words").textContent = tool.words;
   $("tool-reason").textContent = tool.reason;
@@ -122,6 +133,7 @@ function render(s) {
   renderUnit(s);
   renderResult(s.last_result);
   renderAlarms(s.alarms);
+  renderPicture(s.picture);
   renderAck(s.ack);
   const ended = $("ended");
   ended.hidden = !s.ended;
