@@ -7,7 +7,7 @@ from __future__ import annotations
 from typing import Any
 
 from stationcheck.plant.review_source import PlantReader, PlantReviewSource, Scope
-from stationcheck.quality.json_views import trend_dict, trend_findings
+from stationcheck.quality.json_views import figures_dict, trend_dict, trend_findings
 from stationcheck.quality.period import Period
 from stationcheck.quality.trends import DEFAULT_POINTS, Trend, position_trend
 
@@ -23,15 +23,16 @@ def station_figures_rows(source: PlantReviewSource, reader: PlantReader,
     for station in reader.stations():
         sid = station["station_id"]
         fig = figures.get(sid)
-        interval = fig.ftt_interval if fig is not None else None
+        shown = figures_dict(fig) if fig is not None else None  # rounded as the review shows
         times = fig.cycle_times if fig is not None else None
         rows.append({
             "station_id": sid, "line": station["line"], "plant": station["plant"],
             "units": fig.units if fig else 0, "ok": fig.ok if fig else 0,
             "nok": fig.nok if fig else 0, "reworked": fig.reworked if fig else 0,
             "first_time_through": fig.first_time_through if fig else 0,
-            "ftt_rate": fig.ftt_rate if fig else None,
-            "ftt_interval_95": [interval.low, interval.high] if interval else None,
+            "ended": fig.ended if fig else 0, "open": fig.open if fig else 0,
+            "ftt_rate": shown["ftt_rate"] if shown else None,
+            "ftt_interval_95": shown["ftt_interval_95"] if shown else None,
             "nok_results": fig.nok_results if fig else 0, "retries": fig.retries if fig else 0,
             "cycle_time_median_s": times.median_s if times else None,
             "cycle_time_mean_s": times.mean_s if times else None,
