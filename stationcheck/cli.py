@@ -10,6 +10,7 @@ from __future__ import annotations
 import argparse
 import importlib
 import logging
+import os
 import sys
 import traceback
 from collections.abc import Sequence
@@ -105,6 +106,9 @@ def main(argv: Sequence[str] | None = None) -> int:
     except KeyboardInterrupt:
         print(f"stationcheck {args.command}: interrupted", file=sys.stderr)
         return 130
+    except BrokenPipeError:  # the reader went away (`stationcheck alarms | head`): not an error
+        _quiet_stdout()
+        return 0
     except MemoryError:
         print(f"stationcheck {args.command}: error: out of memory; the input is too large "
               "for this PC", file=sys.stderr)
@@ -118,6 +122,15 @@ def main(argv: Sequence[str] | None = None) -> int:
         if args.verbose:
             traceback.print_exc(file=sys.stderr)
         return EXIT_INTERNAL
+
+
+def _quiet_stdout() -> None:
+    """Points stdout at /dev/null so the interpreter's final flush to the closed pipe is silent."""
+    try:
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+    except (OSError, ValueError):  # stdout is not a real file (a test's capture)
+        pass
 
 
 def _where(exc: BaseException) -> str:

@@ -111,3 +111,17 @@ def test_replay_that_writes_an_annotated_video_says_who_it_shows(
     assert code == 0 and video.is_file()
     err = capsys.readouterr().err
     assert f"Privacy: {video} shows the people filmed in the video" in err
+
+
+def test_a_reader_that_goes_away_is_not_an_error(
+        monkeypatch: pytest.MonkeyPatch, capsys: pytest.CaptureFixture[str]) -> None:
+    """``stationcheck alarms | head -2``: the pipe closes under the writer; exit 0, no message."""
+    import io
+
+    class ClosedPipe(io.StringIO):
+        def write(self, text: str) -> int:
+            raise BrokenPipeError(32, "Broken pipe")
+
+    monkeypatch.setattr(sys, "stdout", ClosedPipe())
+    assert main(["alarms"]) == 0
+    assert capsys.readouterr().err == ""
