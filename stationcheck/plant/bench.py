@@ -139,8 +139,8 @@ def _fill(cluster: Cluster, stations: int, units: int, forwarded: int) -> dict[s
 def _review_rows(cluster: Cluster, stations: int) -> list[BenchRow]:
     from stationcheck.commands.bench import BenchRow
     from stationcheck.web.access import AccessRule
-    from stationcheck.web.review import build_review_router, review_source
     from stationcheck.web.listener import WebServer
+    from stationcheck.web.review import build_review_router, review_source
 
     server = WebServer(build_review_router(review_source(cluster.url())), "127.0.0.1", 0,
                        AccessRule(None)).start()
