@@ -89,13 +89,7 @@ def run(args: argparse.Namespace) -> int:
         finally:
             forwarder.close()
         return 0
-    stop = threading.Event()
-
-    def on_signal(signum: int, frame: FrameType | None) -> None:
-        stop.set()
-
-    signal.signal(signal.SIGTERM, on_signal)
-    signal.signal(signal.SIGINT, on_signal)
+    stop = stop_on_signals()
     every_s = 1.0 if args.status_json else max(1.0, args.status_every)
     threading.Thread(target=_report, args=(forwarder, stop, every_s, args.status_json),
                      daemon=True, name="forward-status").start()
@@ -105,6 +99,18 @@ def run(args: argparse.Namespace) -> int:
         print(json.dumps(forwarder.status.__dict__), flush=True)
     print(forwarder.status.line(), file=sys.stderr, flush=True)
     return 0
+
+
+def stop_on_signals() -> threading.Event:
+    """An event that SIGTERM or SIGINT sets, for a loop that ends its work cleanly."""
+    stop = threading.Event()
+
+    def on_signal(signum: int, frame: FrameType | None) -> None:
+        stop.set()
+
+    signal.signal(signal.SIGTERM, on_signal)
+    signal.signal(signal.SIGINT, on_signal)
+    return stop
 
 
 def _report(forwarder: Any, stop: threading.Event, every_s: float, as_json: bool) -> None:

@@ -14,14 +14,11 @@ Exit codes: 0 done; 6 the plant database refused or failed; 7 the plant extra is
 from __future__ import annotations
 
 import argparse
-import signal
 import sys
-import threading
 import time
 from pathlib import Path
-from types import FrameType
 
-from stationcheck.commands.forward import add_plant_arguments
+from stationcheck.commands.forward import add_plant_arguments, stop_on_signals
 
 
 def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
@@ -89,13 +86,7 @@ def run(args: argparse.Namespace) -> int:
             if not args.follow:
                 print(f"folded {fold_all(conn)} events")
                 return 0
-            stop = threading.Event()
-
-            def on_signal(signum: int, frame: FrameType | None) -> None:
-                stop.set()
-
-            signal.signal(signal.SIGTERM, on_signal)
-            signal.signal(signal.SIGINT, on_signal)
+            stop = stop_on_signals()
             total = 0
             while not stop.is_set():
                 started = time.monotonic()
