@@ -394,6 +394,14 @@ class JudgementsSection(_Section):
         )
 
 
+def resolve_path(base_dir: Path, written: str) -> Path:
+    """A path from a config made absolute from the config's folder (as the station does)."""
+    candidate = Path(written).expanduser()
+    if not candidate.is_absolute():
+        candidate = base_dir / candidate
+    return Path(os.path.normpath(candidate))
+
+
 class StationConfig(_Section):
     """One station. Build it with :func:`stationcheck.config.load_config`, which also lints it."""
 
@@ -419,10 +427,7 @@ class StationConfig(_Section):
 
     def resolve(self, path: str) -> Path:
         """A path from the file, made absolute relative to the config file's folder."""
-        candidate = Path(path).expanduser()
-        if not candidate.is_absolute():
-            candidate = self._base_dir / candidate
-        return Path(os.path.normpath(candidate))
+        return resolve_path(self._base_dir, path)
 
     @property
     def reference_frame_path(self) -> Path:

@@ -19,7 +19,6 @@ Rules (E = error, W = warning):
 
 from __future__ import annotations
 
-import os
 from collections.abc import Iterator
 from dataclasses import dataclass
 from pathlib import Path
@@ -28,7 +27,7 @@ from typing import Any
 from stationcheck.config import yaml_text
 from stationcheck.config.findings import Finding, error, warning
 from stationcheck.config.parts import ConfigParts
-from stationcheck.config.schema import BUNDLED_MODEL
+from stationcheck.config.schema import BUNDLED_MODEL, resolve_path
 from stationcheck.config.wording import Location
 from stationcheck.errors import ConfigError
 
@@ -45,14 +44,6 @@ class ReferencedFile:
     path: Path  # absolute
 
 
-def resolve(base_dir: Path, written: str) -> Path:
-    """A path from the config made absolute from the config's folder (as the station does)."""
-    candidate = Path(written).expanduser()
-    if not candidate.is_absolute():
-        candidate = base_dir / candidate
-    return Path(os.path.normpath(candidate))
-
-
 def teaching_folder(reference_frame: Path, zone_id: str) -> Path:
     """Where the taught references of ``zone_id`` live: beside the reference frame."""
     return reference_frame.parent / zone_id
@@ -65,17 +56,17 @@ def referenced_files(data: dict[str, Any], parts: ConfigParts,
     reference = _text_at(data, "station", "reference_frame")
     if reference is not None:
         found.append(ReferencedFile(("station", "reference_frame"), "reference frame",
-                                    reference, resolve(base_dir, reference)))
+                                    reference, resolve_path(base_dir, reference)))
     model = _text_at(data, "model", "path")
     if model is not None and model != BUNDLED_MODEL:
         found.append(ReferencedFile(("model", "path"), "model file", model,
-                                    resolve(base_dir, model)))
+                                    resolve_path(base_dir, model)))
     source = _text_at(data, "camera", "source")
     if source is not None and "://" not in source:
         found.append(ReferencedFile(("camera", "source"), "video file", source,
-                                    resolve(base_dir, source)))
+                                    resolve_path(base_dir, source)))
     if reference is not None:
-        frame = resolve(base_dir, reference)
+        frame = resolve_path(base_dir, reference)
         seen: set[str] = set()
         for zone in parts.zones:
             if zone.kind == "check" and zone.id not in seen:

@@ -20,11 +20,11 @@ from pathlib import Path
 from typing import Any
 
 from stationcheck.config.parts import parts_of_data
+from stationcheck.config.schema import resolve_path
 from stationcheck.config.station_files import (
     MANIFEST_NAME,
     ReferencedFile,
     referenced_files,
-    resolve,
     taught_image_files,
     teaching_folder,
 )
@@ -93,7 +93,7 @@ def _carry_one(plan: CarryPlan, ref: ReferencedFile, old_base: Path, new_base: P
     written = Path(ref.written).expanduser()
     inside_old = ref.path.is_relative_to(old_base.resolve()) and not written.is_absolute()
     if inside_old and ref.what != "video file":
-        target = resolve(new_base, ref.written)
+        target = resolve_path(new_base, ref.written)
         workspace.inside(target, new_base)
         if ref.path.is_file():
             plan.copies.append((ref.path, target))
