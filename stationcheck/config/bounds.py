@@ -44,6 +44,10 @@ class Bound:
 
 _GRACE_HIGH = "the tool stays enabled this long while the tip is out of view"
 _STALE_HIGH = "the tool stays enabled this long on a stopped or frozen camera"
+_MAX_RUN = Bound(
+    100.0, 60000.0, 500.0, 10000.0, " ms",
+    "ordinary tightenings are cut off before they finish",
+    "a stuck tool-running signal keeps the tool enabled this long")
 
 BOUNDS: dict[str, Bound] = {
     "model.min_score": Bound(
@@ -64,14 +68,8 @@ BOUNDS: dict[str, Bound] = {
     "thresholds.stale_frame_ms": Bound(
         20.0, 1000.0, 60.0, 200.0, " ms",
         "normal frame-time jitter (two frame periods at 30 frames/s) raises it", _STALE_HIGH),
-    "thresholds.max_run_ms": Bound(
-        100.0, 60000.0, 500.0, 10000.0, " ms",
-        "ordinary tightenings are cut off before they finish",
-        "a stuck tool-running signal keeps the tool enabled this long"),
-    "steps[].max_run_ms": Bound(
-        100.0, 60000.0, 500.0, 10000.0, " ms",
-        "ordinary tightenings are cut off before they finish",
-        "a stuck tool-running signal keeps the tool enabled this long"),
+    "thresholds.max_run_ms": _MAX_RUN,
+    "steps[].max_run_ms": _MAX_RUN,
     "steps[].min_time_ms": Bound(
         0.0, 10000.0, 100.0, 3000.0, " ms",
         "a hand brushing past a bin counts as a pick",
