@@ -53,7 +53,7 @@ LATENCY_TARGET = "p99 <= 10 ms"
 CAPACITY_TARGET = ">= 4x the camera rate"
 
 
-def _free_port() -> int:
+def free_port() -> int:
     with socket.socket(socket.AF_INET, socket.SOCK_STREAM) as sock:
         sock.bind(("127.0.0.1", 0))
         return int(sock.getsockname()[1])
@@ -127,7 +127,7 @@ def run_on_loopback(options: BenchOptions, frames: int, speed: float,
         loop.frame_sinks = (*loop.frame_sinks, *sinks)
         loops.append(loop)
 
-    port = _free_port()
+    port = free_port()
     with tempfile.TemporaryDirectory() as folder, tempfile.TemporaryFile() as errors:
         proc = start_simulator(port, errors, speed)
         try:

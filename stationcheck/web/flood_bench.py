@@ -32,12 +32,6 @@ POST_BYTES = 30 * 1024 * 1024
 POSTS_PER_S = 10.0  # offered: 300 MB/s of bodies the screen must not read
 
 
-def _free_port() -> int:
-    with socket.socket() as sock:
-        sock.bind(("127.0.0.1", 0))
-        return int(sock.getsockname()[1])
-
-
 class _Probe:
     """Frame sink sampling memory; a thread timing the screen's own state request."""
 
@@ -71,14 +65,14 @@ def _run(options: BenchOptions, frames: int, flood: bool) -> tuple[_Probe, list[
     import subprocess
 
     from stationcheck.config import load_config
-    from stationcheck.live.bench import start_simulator
+    from stationcheck.live.bench import free_port, start_simulator
     from stationcheck.live.loop import LiveLoop
     from stationcheck.live.session import LiveSettings, run_live
     from stationcheck.web.operator.screen import OperatorScreen
 
     probe = _Probe()
     screen = OperatorScreen.start(load_config(DEMO_CONFIG).to_plan(), mode="live",
-                                  port=_free_port())
+                                  port=free_port())
     loops: list[LiveLoop] = []
 
     def ready(loop: LiveLoop) -> None:
@@ -87,7 +81,7 @@ def _run(options: BenchOptions, frames: int, flood: bool) -> tuple[_Probe, list[
         loops.append(loop)
 
     asking = threading.Thread(target=probe.ask, args=(screen.server.url,), daemon=True)
-    port = _free_port()
+    port = free_port()
     flooder: subprocess.Popen[bytes] | None = None
     with tempfile.TemporaryDirectory() as folder, tempfile.TemporaryFile() as errors:
         simulator = start_simulator(port, errors)
