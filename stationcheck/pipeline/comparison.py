@@ -166,6 +166,15 @@ class FalseEnables:
                 "episode_frames": [list(e) for e in self.episodes]}
 
 
+def truly_at_target(row: Any, polygon: Any, hysteresis_px: float) -> bool:
+    """The false-enable rule's one test: the true tip (``row`` of the truth table) is inside the
+    target zone or within ``hysteresis_px`` of its edge. No row or no target counts as away."""
+    if row is None or polygon is None:
+        return False
+    tip = (row.tip_ref_x_px, row.tip_ref_y_px)
+    return point_in_polygon(tip, polygon) or distance_to_polygon_edge(tip, polygon) <= hysteresis_px
+
+
 def count_false_enables(
     states: Iterable[FrameState], truth: TruthTable, plan: StationPlan
 ) -> FalseEnables:
@@ -175,12 +184,9 @@ def count_false_enables(
     for state in states:
         if not state.enabled or state.running:
             continue
-        row = truth.rows.get(state.frame_index)
-        polygon = polygons.get(state.target_zone or "")
-        if row is not None and polygon is not None:
-            tip = (row.tip_ref_x_px, row.tip_ref_y_px)
-            if point_in_polygon(tip, polygon) or distance_to_polygon_edge(tip, polygon) <= hysteresis_px:
-                continue
+        if truly_at_target(truth.rows.get(state.frame_index),
+                           polygons.get(state.target_zone or ""), hysteresis_px):
+            continue
         bad.append(state.frame_index)
     episodes: list[tuple[int, int]] = []
     for frame in bad:

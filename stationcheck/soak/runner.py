@@ -34,9 +34,9 @@ from stationcheck.core.observations import (
     ToolRunning,
 )
 from stationcheck.core.records import Frame, Keypoint, Keypoints
-from stationcheck.demo_station.ground_truth import distance_to_polygon_edge, point_in_polygon
 from stationcheck.errors import ModelOutputError
 from stationcheck.judgements.settings import CameraShiftSettings
+from stationcheck.pipeline.comparison import truly_at_target
 from stationcheck.pipeline.decisions import DecisionCore, DecisionStep
 from stationcheck.pipeline.frame_path import FramePath
 from stationcheck.pipeline.truth_sidecar import TruthJudge
@@ -323,13 +323,9 @@ class Soak:
             return
         out = self.decisions.last_output
         target = out.target.zone if out is not None and out.target is not None else None
-        row = self.f.truth.rows.get(source)
-        polygon = self.polygons.get(target or "")
-        if row is not None and polygon is not None:
-            tip = (row.tip_ref_x_px, row.tip_ref_y_px)
-            if (point_in_polygon(tip, polygon) or distance_to_polygon_edge(tip, polygon)
-                    <= self.plan.thresholds.hysteresis_px):
-                return
+        if truly_at_target(self.f.truth.rows.get(source), self.polygons.get(target or ""),
+                           self.plan.thresholds.hysteresis_px):
+            return
         record = self.active.record if self.active is not None else None
         if record is not None and (record.detect_t_s is None
                                    or t_s <= record.detect_t_s + self.bound_ms / 1000.0):
