@@ -12,8 +12,7 @@ import logging
 import sys
 from pathlib import Path
 
-REPO = Path(__file__).resolve().parents[2]
-SAMPLE = REPO / "sample_video"
+from stationcheck.demo_station.files import DEMO_CONFIG, SAMPLE_INPUTS, SAMPLE_TRUTH, SAMPLE_VIDEO
 
 
 def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
@@ -37,10 +36,10 @@ def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[ty
                         "cached) or the ground truth")
     p.add_argument("--bound-ms", type=float, default=100.0,
                    help="the enable must be off this long after a fault is detectable")
-    p.add_argument("--config", type=Path, default=REPO / "configs" / "demo_station.yaml")
-    p.add_argument("--video", type=Path, default=SAMPLE / "demo_station.mp4")
-    p.add_argument("--inputs", type=Path, default=SAMPLE / "demo_station_inputs.jsonl")
-    p.add_argument("--truth", type=Path, default=SAMPLE / "demo_station_truth.csv")
+    p.add_argument("--config", type=Path, default=DEMO_CONFIG)
+    p.add_argument("--video", type=Path, default=SAMPLE_VIDEO)
+    p.add_argument("--inputs", type=Path, default=SAMPLE_INPUTS)
+    p.add_argument("--truth", type=Path, default=SAMPLE_TRUTH)
     p.add_argument("--still", action="store_true",
                    help="also measure the frozen-picture check on the sample video and on a "
                         "minute of the empty demo station (no false alarm allowed)")
