@@ -78,8 +78,8 @@ class Tracker:
             tip = None
         if tip is not None:
             state = self._follow(state, keypoints, tip, t_s)
-            pose = self._pose(state, keypoints, seen=True, score=tip.score)
-            return state, replace(pose, measured_tip_px=(tip.x_px, tip.y_px))
+            return state, self._pose(state, keypoints, seen=True, score=tip.score,
+                                     measured_tip_px=(tip.x_px, tip.y_px))
         grace_ms = self.settings.lost_track_grace_ms
         if (
             state.tip is not None
@@ -132,7 +132,8 @@ class Tracker:
         )
 
     def _pose(
-        self, state: TrackerState, keypoints: Keypoints, *, seen: bool, score: float
+        self, state: TrackerState, keypoints: Keypoints, *, seen: bool, score: float,
+        measured_tip_px: tuple[float, float] | None = None,
     ) -> ToolPose:
         assert state.tip is not None and state.last_seen_t_s is not None
         started = state.track_started_t_s if state.track_started_t_s is not None else keypoints.t_s
@@ -146,4 +147,5 @@ class Tracker:
             score=score,
             track_age_s=max(0.0, keypoints.t_s - started),
             unseen_ms=0.0 if seen else max(0.0, elapsed_ms(state.last_seen_t_s, keypoints.t_s)),
+            measured_tip_px=measured_tip_px,
         )
