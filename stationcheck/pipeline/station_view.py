@@ -33,8 +33,7 @@ ALARM_WORDS: dict[str, tuple[Meaning, str]] = {
     "image_frozen": ("fault", "Camera picture frozen"),
     "run_too_long": ("fault", "Tool ran too long: enable dropped"),
 }
-FAULT_REASONS = {"camera_moved", "camera_unchecked", "cannot_judge", "detector_fault",
-                 "frame_stale", "link_lost", "image_frozen", "run_too_long"}
+FAULT_REASONS = {code for code, (meaning, _) in ALARM_WORDS.items() if meaning == "fault"}
 REASON_WORDS = {
     "no_unit": "no unit open",
     "link_lost": "PLC link lost",
