@@ -13,7 +13,7 @@ from typing import Literal
 
 from stationcheck.config import StationConfig, load_config
 from stationcheck.core.observations import PositionRef
-from stationcheck.errors import InputFileError, StationcheckError, first_line
+from stationcheck.errors import InputFileError, first_line
 from stationcheck.live.grabber import FrameGrabber, SourceOpener
 from stationcheck.live.loop import LiveLoop, LiveStats
 from stationcheck.live.watchdog import WatchdogLimits
@@ -175,9 +175,7 @@ def opened_first(opener: SourceOpener, name: str) -> SourceOpener:
     first and re-opens through ``opener`` after a failure."""
     try:
         first = opener()
-    except StationcheckError as exc:
-        raise InputFileError(f"cannot open the frame source {name}: {first_line(exc)}") from exc
-    except Exception as exc:  # OpenCV and FFmpeg raise their own errors
+    except Exception as exc:  # ours, and OpenCV's and FFmpeg's own errors
         raise InputFileError(f"cannot open the frame source {name}: {first_line(exc)}") from exc
     handed = [first]
 
