@@ -20,11 +20,11 @@ import re
 import sqlite3
 import threading
 import time
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from pathlib import Path
 from types import TracebackType
-from typing import Any, Self, cast
+from typing import Any, Self, TypeVar, cast
 
 from stationcheck.errors import PlantDatabaseError, first_line
 from stationcheck.plant.connect import connect, redacted
@@ -34,6 +34,8 @@ from stationcheck.quality.period import OPEN_END_S, OPEN_START_S, Period
 from stationcheck.quality.rollup import FigureCache
 from stationcheck.store import queries
 from stationcheck.store.records import AlarmRow, StepRow, UnitRow
+
+_Cache = TypeVar("_Cache")
 
 logger = logging.getLogger(__name__)
 
@@ -193,18 +195,24 @@ class PlantReviewSource:
     def is_plant(self) -> bool:
         return True
 
+    def _cached(self, caches: dict[Scope, _Cache], scope: Scope,
+                make: Callable[[], _Cache]) -> _Cache:
+        """The scope's cache, made on first use; the oldest goes past ``MAX_CACHED_SCOPES``."""
+        with self._caches_lock:
+            cache = caches.get(scope)
+            if cache is None:
+                if len(caches) >= MAX_CACHED_SCOPES:
+                    caches.pop(next(iter(caches)))
+                cache = caches[scope] = make()
+            return cache
+
     def reader(self, scope: Scope | None = None) -> PlantReader:
         return PlantReader(self.url, self.password_file, scope or Scope())
 
     def figures(self, conn: sqlite3.Connection, period: Period) -> StationFigures:
         """From per-day tallies of the reader's scope, kept up to date with the fold."""
         scope = cast(PostgresAdapter, conn).scope
-        with self._caches_lock:
-            cache = self._caches.get(scope)
-            if cache is None:
-                if len(self._caches) >= MAX_CACHED_SCOPES:
-                    self._caches.pop(next(iter(self._caches)))
-                cache = self._caches[scope] = PlantFigureCache()
+        cache = self._cached(self._caches, scope, PlantFigureCache)
         return cache.figures(conn, period)
 
 
@@ -212,12 +220,7 @@ class PlantReviewSource:
         """Each station's figures of the period, from the scope's (station, day) tallies."""
         from stationcheck.plant.station_days import StationDayCache
 
-        with self._caches_lock:
-            cache = self._station_caches.get(reader.scope)
-            if cache is None:
-                if len(self._station_caches) >= MAX_CACHED_SCOPES:
-                    self._station_caches.pop(next(iter(self._station_caches)))
-                cache = self._station_caches[reader.scope] = StationDayCache()
+        cache = self._cached(self._station_caches, reader.scope, StationDayCache)
         result: dict[str, StationFigures] = cache.figures(reader, period)
         return result
 
