@@ -136,7 +136,7 @@ def run(args: argparse.Namespace) -> int:
             return _print_figures(step_log, args, period)
         if args.trend:
             return _print_trend(step_log, args, period)
-        return _write_report(step_log, args, period)
+        return _write_report(step_log, args, period, source.name)
 
 
 def _usage(message: str) -> int:
@@ -334,12 +334,11 @@ def _print_trend(step_log: SqliteStepLog, args: argparse.Namespace, period: Peri
     return 0
 
 
-def _write_report(step_log: SqliteStepLog, args: argparse.Namespace, period: Period) -> int:
+def _write_report(step_log: SqliteStepLog, args: argparse.Namespace, period: Period,
+                  name: str) -> int:
     from stationcheck.errors import InputFileError
-    from stationcheck.plant.connect import is_plant_url, redacted
     from stationcheck.quality.report import build_report
 
-    name = redacted(args.log).rsplit("@", 1)[-1] if is_plant_url(args.log) else Path(args.log).name
     html = build_report(step_log.connection, period, name)
     try:
         args.report.write_text(html, encoding="utf-8")
