@@ -69,7 +69,6 @@ class StationJudgements:
         self.size_px = (width, height)
         self._clock = clock
         self.quality = QualityMonitor(settings.picture_quality)
-        self._poor = False
         self.camera = CameraShiftJudge(ReferenceView(self._reference, zones),
                                        settings.camera_shift)
         self.bins = [BinActivityJudge(zone.id, zone.polygon_px, self.size_px,
@@ -129,17 +128,17 @@ class StationJudgements:
                 f"frame is {self.size_px[0]}x{self.size_px[1]}")
         t_s, image = frame.t_s, frame.image
         clock = _CostClock(self._clock)
-        self._poor = not self.quality.picture_checkable
+        poor = not self.quality.picture_checkable
         out: list[Observation] = []
         if self.camera.due(t_s):
-            out += _some(self.camera.check(t_s, image, ignore_circles_px, self._poor))
+            out += _some(self.camera.check(t_s, image, ignore_circles_px, poor))
         clock.lap("camera_shift")
         for judge in self.bins:
             judge.tool_seen(t_s, tip_px)
         readings = [(judge, judge.measure(t_s, image)) for judge in self.bins]
         clock.lap("bin_activity")
         if not self.camera.checked_at(t_s) and any(j.onset_due(t_s, r) for j, r in readings):
-            out += _some(self.camera.check(t_s, image, ignore_circles_px, self._poor))
+            out += _some(self.camera.check(t_s, image, ignore_circles_px, poor))
         clock.lap("camera_shift")
         if any(isinstance(obs, CameraMoved) and not obs.moved for obs in out):
             for judge in self.bins:
