@@ -54,17 +54,21 @@ def load_truth(path: Path | str) -> TruthTable:
     return TruthTable(path=path, rows={row.frame_index: row for row in rows})
 
 
-def truth_detector(table: TruthTable) -> ReplayKeypointDetector:
-    """Answers with the true image positions; a keypoint counts as seen only when visible
+def truth_points(table: TruthTable) -> dict[int, dict[str, tuple[float, float, float]]]:
+    """The true image positions per frame; a keypoint counts as seen only when visible
     (COCO v=2), hidden or out-of-frame keypoints get score 0."""
-    points = {
+    return {
         index: {
             "tip": (row.tip_x_px, row.tip_y_px, SEEN_SCORE if row.tip_v == 2 else 0.0),
             "rear": (row.rear_x_px, row.rear_y_px, SEEN_SCORE if row.rear_v == 2 else 0.0),
         }
         for index, row in table.rows.items()
     }
-    return ReplayKeypointDetector(points, ("tip", "rear"))
+
+
+def truth_detector(table: TruthTable) -> ReplayKeypointDetector:
+    """Answers with :func:`truth_points`."""
+    return ReplayKeypointDetector(truth_points(table), ("tip", "rear"))
 
 
 def camera_shift_px(row: TruthRow, points: Sequence[tuple[float, float]],

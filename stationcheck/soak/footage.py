@@ -19,7 +19,7 @@ from stationcheck.config import load_config
 from stationcheck.core.observations import Observation
 from stationcheck.core.plan import StationPlan
 from stationcheck.pipeline.station_inputs import read_station_inputs
-from stationcheck.pipeline.truth_sidecar import SEEN_SCORE, TruthTable, load_truth
+from stationcheck.pipeline.truth_sidecar import TruthTable, load_truth, truth_points
 from stationcheck.vision.fake_detector import PointTable
 
 logger = logging.getLogger(__name__)
@@ -48,22 +48,12 @@ def load_footage(config_path: Path, video: Path, inputs: Path, truth: Path,
     config = load_config(config_path)
     plan = config.to_plan()
     table = load_truth(truth)
-    answers = _truth_answers(table) if keypoints == "truth" else _model_answers(video, config)
+    answers = truth_points(table) if keypoints == "truth" else _model_answers(video, config)
     frame_count = min(len(table.rows), len(answers))
     return Footage(plan=plan, truth=table, inputs=read_station_inputs(inputs), answers=answers,
                    fps=float(config.camera.fps), frame_count=frame_count, keypoints=keypoints,
                    stale_frame_ms=plan.thresholds.stale_frame_ms,
                    link_timeout_s=link_limits(config).link_timeout_s)
-
-
-def _truth_answers(table: TruthTable) -> PointTable:
-    return {
-        index: {
-            "tip": (row.tip_x_px, row.tip_y_px, SEEN_SCORE if row.tip_v == 2 else 0.0),
-            "rear": (row.rear_x_px, row.rear_y_px, SEEN_SCORE if row.rear_v == 2 else 0.0),
-        }
-        for index, row in table.rows.items()
-    }
 
 
 def _model_answers(video: Path, config: object) -> PointTable:
