@@ -12,12 +12,11 @@ from __future__ import annotations
 
 import json
 import logging
-from dataclasses import replace
 from typing import Any
 
 from stationcheck.core.events import Event
 from stationcheck.store.projection import project
-from stationcheck.store.records import StoredEvent, UnitRow
+from stationcheck.store.records import StoredEvent
 from stationcheck.store.sql_tables import (
     ALARM_COLUMNS,
     STEP_COLUMNS,
@@ -26,7 +25,6 @@ from stationcheck.store.sql_tables import (
     BufferedSqlTables,
     alarm_to_sql,
     step_to_sql,
-    unit_from_sql,
     unit_to_sql,
 )
 
@@ -64,35 +62,21 @@ class PlantTables(BufferedSqlTables):
         super().__init__(conn)
         self.station_id = station_id
 
-    def get_unit(self, serial: str) -> UnitRow | None:
-        unit = self._units.get(serial)
-        if unit is None:
-            row = self._conn.execute(
-                f"SELECT {', '.join(UNIT_COLUMNS)} FROM plant.units WHERE station_id = %s AND "
-                "serial = %s", (self.station_id, serial)).fetchone()
-            if row is not None:
-                unit = self._units[serial] = unit_from_sql(row)
-        return unit
+    def _stored_unit(self, serial: str) -> Any:
+        return self._conn.execute(
+            f"SELECT {', '.join(UNIT_COLUMNS)} FROM plant.units WHERE station_id = %s AND "
+            "serial = %s", (self.station_id, serial)).fetchone()
 
-    def set_position_result(
+    def _store_position_result(
         self, serial: str, pass_no: int, step: str, position: str, result: str
     ) -> None:
-        seq = self._last_attempt.get((serial, pass_no, step, position))
-        if seq is not None:
-            self._steps[seq] = replace(self._steps[seq], position_result=result)
-            return
         self._conn.execute(
             "UPDATE plant.steps SET position_result = %s WHERE station_id = %s AND seq = ("
             "SELECT seq FROM plant.steps WHERE station_id = %s AND serial = %s AND pass_no = %s "
             "AND step = %s AND position = %s ORDER BY seq DESC LIMIT 1)",
             (result, self.station_id, self.station_id, serial, pass_no, step, position))
 
-    def clear_alarm(self, code: str, subject: str, cleared_t_s: float) -> None:
-        stack = self._uncleared.get((code, subject))
-        if stack:
-            seq = stack.pop()
-            self._alarms[seq] = replace(self._alarms[seq], cleared_t_s=cleared_t_s)
-            return
+    def _store_cleared(self, code: str, subject: str, cleared_t_s: float) -> None:
         self._conn.execute(
             "UPDATE plant.alarms SET cleared_t_s = %s WHERE station_id = %s AND seq = (SELECT "
             "max(seq) FROM plant.alarms WHERE station_id = %s AND code = %s AND subject = %s "

@@ -103,9 +103,7 @@ class BufferedSqlTables:
     def get_unit(self, serial: str) -> UnitRow | None:
         unit = self._units.get(serial)
         if unit is None:
-            row = self._conn.execute(
-                f"SELECT {', '.join(UNIT_COLUMNS)} FROM units WHERE serial = ?", (serial,)
-            ).fetchone()
+            row = self._stored_unit(serial)
             if row is not None:
                 unit = self._units[serial] = unit_from_sql(row)
         return unit
@@ -126,11 +124,7 @@ class BufferedSqlTables:
         if seq is not None:
             self._steps[seq] = replace(self._steps[seq], position_result=result)
             return
-        self._conn.execute(
-            "UPDATE steps SET position_result = ? WHERE seq = (SELECT seq FROM steps WHERE "
-            "serial = ? AND pass_no = ? AND step = ? AND position = ? ORDER BY seq DESC LIMIT 1)",
-            (result, serial, pass_no, step, position),
-        )
+        self._store_position_result(serial, pass_no, step, position, result)
 
     def add_alarm(self, alarm: AlarmRow) -> None:
         self._alarms[alarm.seq] = alarm
@@ -142,6 +136,24 @@ class BufferedSqlTables:
             seq = stack.pop()
             self._alarms[seq] = replace(self._alarms[seq], cleared_t_s=cleared_t_s)
             return
+        self._store_cleared(code, subject, cleared_t_s)
+
+    # -- the rows not in the buffer, in the stored tables (a dialect overrides these three)
+    def _stored_unit(self, serial: str) -> Any:
+        return self._conn.execute(
+            f"SELECT {', '.join(UNIT_COLUMNS)} FROM units WHERE serial = ?", (serial,)
+        ).fetchone()
+
+    def _store_position_result(
+        self, serial: str, pass_no: int, step: str, position: str, result: str
+    ) -> None:
+        self._conn.execute(
+            "UPDATE steps SET position_result = ? WHERE seq = (SELECT seq FROM steps WHERE "
+            "serial = ? AND pass_no = ? AND step = ? AND position = ? ORDER BY seq DESC LIMIT 1)",
+            (result, serial, pass_no, step, position),
+        )
+
+    def _store_cleared(self, code: str, subject: str, cleared_t_s: float) -> None:
         self._conn.execute(
             "UPDATE alarms SET cleared_t_s = ? WHERE seq = (SELECT max(seq) FROM alarms WHERE "
             "code = ? AND subject = ? AND cleared_t_s IS NULL)",
