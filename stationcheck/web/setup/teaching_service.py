@@ -83,6 +83,27 @@ def separation_of(folder: Path, zone: ZoneSpec) -> teaching.Separation | None:
     return _SEPARATIONS[key]
 
 
+_POOR: dict[tuple[str, int, str], str | None] = {}
+
+
+def poor_teaching_of(folder: Path, zone: ZoneSpec) -> str | None:
+    """Why the zone's teaching is poor (None when it is fine or absent); kept until its manifest
+    changes, like :func:`separation_of`, so an edit on the page reads no teaching file again."""
+    try:
+        stamp = (folder / MANIFEST_NAME).stat().st_mtime_ns
+    except OSError:
+        return None
+    key = (str(folder), stamp, repr(zone.polygon_px))
+    if key not in _POOR:
+        manifest = teaching.read_manifest(folder)
+        quality = separation_of(folder, zone)
+        if len(_POOR) > 64:
+            _POOR.clear()
+        _POOR[key] = (teaching.poor_teaching(manifest, quality)
+                      if manifest is not None and quality is not None else None)
+    return _POOR[key]
+
+
 def teaching_findings(session: SetupSession, data: dict[str, Any]) -> list[dict[str, Any]]:
     """A warning for each check zone whose taught classes do not stand apart, naming the
     images that look more like the other class (the page shows it beside the zone)."""
@@ -94,15 +115,11 @@ def teaching_findings(session: SetupSession, data: dict[str, Any]) -> list[dict[
     for located in parts_of_data(data).zones:
         if located.kind != "check" or located.polygon_px is None:
             continue
-        folder = teaching_folder(reference, located.id)
         try:
-            manifest = teaching.read_manifest(folder)
-            quality = separation_of(folder, ZoneSpec(id=located.id, kind="check",
-                                                     polygon_px=located.polygon_px))
+            poor = poor_teaching_of(teaching_folder(reference, located.id), ZoneSpec(
+                id=located.id, kind="check", polygon_px=located.polygon_px))
         except StationcheckError:
             continue  # a broken teaching folder is the file check's error
-        poor = (teaching.poor_teaching(manifest, quality)
-                if manifest is not None and quality is not None else None)
         if poor is not None:
             where = list(located.path)
             found.append({"severity": "warning", "path": format_path(located.path),
