@@ -67,7 +67,11 @@ def build_parser() -> argparse.ArgumentParser:
     )
     parser.add_argument("--version", action="version", version=f"stationcheck {__version__}")
     parser.add_argument(
-        "-v", "--verbose", action="count", default=0, help="more log output (-vv for debug); with -v an internal error also prints its traceback"
+        "-v",
+        "--verbose",
+        action="count",
+        default=0,
+        help="more log output (-vv for debug); with -v an internal error also prints its traceback",
     )
     subparsers = parser.add_subparsers(dest="command", metavar="COMMAND")
     for name in COMMAND_MODULES:
@@ -110,15 +114,21 @@ def main(argv: Sequence[str] | None = None) -> int:
         _quiet_stdout()
         return 0
     except MemoryError:
-        print(f"stationcheck {args.command}: error: out of memory; the input is too large "
-              "for this PC", file=sys.stderr)
+        print(
+            f"stationcheck {args.command}: error: out of memory; the input is too large "
+            "for this PC",
+            file=sys.stderr,
+        )
         return EXIT_INTERNAL
     except Exception as exc:  # a bug: one line, the traceback only with -v or in the log
         where = _where(exc)
         logging.getLogger("stationcheck").debug("internal error", exc_info=True)
         hint = "" if args.verbose else "; run again with -v for the traceback"
-        print(f"stationcheck {args.command}: internal error: {type(exc).__name__}: "
-              f"{terminal_text(first_line(exc))} (at {where}){hint}; please report it", file=sys.stderr)
+        print(
+            f"stationcheck {args.command}: internal error: {type(exc).__name__}: "
+            f"{terminal_text(first_line(exc))} (at {where}){hint}; please report it",
+            file=sys.stderr,
+        )
         if args.verbose:
             traceback.print_exc(file=sys.stderr)
         return EXIT_INTERNAL

@@ -37,9 +37,21 @@ def run(args: argparse.Namespace) -> int:
         return 0
     for row in alarm_rows():
         print(f"{row['number']:>3}  {row['code']}  ({row['severity']}, {row['kind']})")
-        print(textwrap.fill(row["meaning"], 96, initial_indent="     meaning: ",
-                            subsequent_indent="              "))
+        print(
+            textwrap.fill(
+                row["meaning"],
+                96,
+                initial_indent="     meaning: ",
+                subsequent_indent="              ",
+            )
+        )
         if row["action"]:
-            print(textwrap.fill(row["action"], 96, initial_indent="     to do:   ",
-                                subsequent_indent="              "))
+            print(
+                textwrap.fill(
+                    row["action"],
+                    96,
+                    initial_indent="     to do:   ",
+                    subsequent_indent="              ",
+                )
+            )
     return 0

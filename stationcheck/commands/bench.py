@@ -99,8 +99,12 @@ def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[ty
         default=None,
         help="run only this section (repeatable; default: all)",
     )
-    p.add_argument("--frames", type=int, default=None,
-                   help="frames per measurement (default: each section's own, 300 to 900)")
+    p.add_argument(
+        "--frames",
+        type=int,
+        default=None,
+        help="frames per measurement (default: each section's own, 300 to 900)",
+    )
     p.add_argument(
         "--threads",
         default="1,2",

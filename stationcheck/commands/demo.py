@@ -25,8 +25,10 @@ if TYPE_CHECKING:
     from stationcheck.pipeline.report import ReplayReport
 
 ANNOTATE_EVERY = 2  # a 15 fps annotated video keeps the demo well under a minute
-DEMO_NOTE = ("DEMO DATA: an invented pump end-cover station, its units and tightening results; "
-             "no real station, product or person.")
+DEMO_NOTE = (
+    "DEMO DATA: an invented pump end-cover station, its units and tightening results; "
+    "no real station, product or person."
+)
 
 
 def command_words() -> str:
@@ -50,11 +52,13 @@ def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[ty
             "video, observation stream, summary. Nothing outside that folder is written."
         ),
     )
-    p.add_argument("--out", type=Path,
-                   help="output folder, new or empty (default: ./stationcheck-demo/<time>)")
+    p.add_argument(
+        "--out", type=Path, help="output folder, new or empty (default: ./stationcheck-demo/<time>)"
+    )
     p.add_argument("--threads", type=int, help="model threads (default: the config's)")
-    p.add_argument("--json", action="store_true",
-                   help="print one JSON object, as 'replay --json' does")
+    p.add_argument(
+        "--json", action="store_true", help="print one JSON object, as 'replay --json' does"
+    )
     from stationcheck.web.operator.options import add_screen_arguments
 
     add_screen_arguments(p, replay=True)
@@ -101,8 +105,10 @@ def run(args: argparse.Namespace) -> int:
         print(f"Safety: {SAFETY_NOTE}")
         print(f"Demo data: an invented pump end-cover station; writing to {out}")
         if not has_model:
-            print("NOTE: the bundled model file is missing; this demo uses the ground-truth "
-                  "keypoints instead of the detector.")
+            print(
+                "NOTE: the bundled model file is missing; this demo uses the ground-truth "
+                "keypoints instead of the detector."
+            )
     settings = ReplaySettings(
         config_path=DEMO_CONFIG,
         log_path=out / "step-log.sqlite",
@@ -140,7 +146,8 @@ def _tell(report: ReplayReport, out: Path, as_json: bool) -> None:
     (out / "summary.json").write_text(json.dumps(summary, indent=2) + "\n", encoding="utf-8")
     lines = report.text_lines()
     (out / "summary.txt").write_text(
-        "\n".join([f"Safety: {SAFETY_NOTE}", DEMO_NOTE, *lines]) + "\n", encoding="utf-8")
+        "\n".join([f"Safety: {SAFETY_NOTE}", DEMO_NOTE, *lines]) + "\n", encoding="utf-8"
+    )
     if as_json:
         print(json.dumps(summary), flush=True)
         return
@@ -149,10 +156,20 @@ def _tell(report: ReplayReport, out: Path, as_json: bool) -> None:
         print(line)
     print(f"\nEverything is in {out}:")
     for name, what in (
-        ("step-log.sqlite", ("the step log (SQLite): every event, units, steps, alarms; "
-                            "each unit marked as demo data")),
-        ("annotated.mp4", ("the video with zones, tip, enable state and steps drawn "
-                           f"(one frame in {ANNOTATE_EVERY})")),
+        (
+            "step-log.sqlite",
+            (
+                "the step log (SQLite): every event, units, steps, alarms; "
+                "each unit marked as demo data"
+            ),
+        ),
+        (
+            "annotated.mp4",
+            (
+                "the video with zones, tip, enable state and steps drawn "
+                f"(one frame in {ANNOTATE_EVERY})"
+            ),
+        ),
         ("observations.jsonl", "what the sequencer saw (replayed without the video below)"),
         ("summary.txt", "this summary"),
         ("summary.json", "the same as JSON"),
@@ -163,13 +180,19 @@ def _tell(report: ReplayReport, out: Path, as_json: bool) -> None:
     me = command_words()
     print("\nNext (each works as printed, from any folder):")
     for what, command in (
-        ("look through the units in the browser",
-         f"{me} review {shlex.quote(str(out / 'step-log.sqlite'))}"),
+        (
+            "look through the units in the browser",
+            f"{me} review {shlex.quote(str(out / 'step-log.sqlite'))}",
+        ),
         ("watch the run on the operator screen", f"{me} demo --screen"),
-        ("replay the decisions without the video",
-         (f"{me} replay --observations {shlex.quote(str(out / 'observations.jsonl'))} "
-         f"--config {shlex.quote(str(DEMO_CONFIG))} "
-         f"--log {shlex.quote(str(out / 'replayed.sqlite'))}")),
+        (
+            "replay the decisions without the video",
+            (
+                f"{me} replay --observations {shlex.quote(str(out / 'observations.jsonl'))} "
+                f"--config {shlex.quote(str(DEMO_CONFIG))} "
+                f"--log {shlex.quote(str(out / 'replayed.sqlite'))}"
+            ),
+        ),
         ("draw zones on the demo station", f"{me} setup {shlex.quote(str(DEMO_CONFIG))}"),
     ):
         print(f"  {what}:\n    {command}")

@@ -33,29 +33,51 @@ error, 7 plant extra missing, 64 bad command line.
 
 
 def add_plant_arguments(p: argparse.ArgumentParser, required: bool) -> None:
-    p.add_argument("--to", metavar="URL", required=required, dest="plant_url",
-                   help="plant database, postgresql://USER@HOST[:PORT]/DATABASE[?sslmode=...]")
-    p.add_argument("--password-file", type=Path, default=None,
-                   help="file holding the database password (else STATIONCHECK_PG_PASSWORD)")
+    p.add_argument(
+        "--to",
+        metavar="URL",
+        required=required,
+        dest="plant_url",
+        help="plant database, postgresql://USER@HOST[:PORT]/DATABASE[?sslmode=...]",
+    )
+    p.add_argument(
+        "--password-file",
+        type=Path,
+        default=None,
+        help="file holding the database password (else STATIONCHECK_PG_PASSWORD)",
+    )
 
 
 def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
     p = subparsers.add_parser(
-        "forward", help="forward this station's step log to the plant database (PostgreSQL)",
+        "forward",
+        help="forward this station's step log to the plant database (PostgreSQL)",
         description="Ships every event of the station's step log to the plant's PostgreSQL "
-                    "database in order, in batches, exactly once, and keeps following the log.",
-        epilog=_EPILOG, formatter_class=argparse.RawDescriptionHelpFormatter)
+        "database in order, in batches, exactly once, and keeps following the log.",
+        epilog=_EPILOG,
+        formatter_class=argparse.RawDescriptionHelpFormatter,
+    )
     p.add_argument("--config", required=True, type=Path, help="station config (.yaml)")
     add_plant_arguments(p, required=True)
     p.add_argument("--log", type=Path, default=None, help="step log (default: the config's)")
-    p.add_argument("--once", action="store_true",
-                   help="forward what the log holds now and stop (exit 6 when unreachable)")
+    p.add_argument(
+        "--once",
+        action="store_true",
+        help="forward what the log holds now and stop (exit 6 when unreachable)",
+    )
     p.add_argument("--batch", type=int, default=5000, help="events per batch (default 5000)")
-    p.add_argument("--status-json", action="store_true",
-                   help="print the status as one JSON line per second (for a supervising run)")
-    p.add_argument("--status-every", type=float, default=30.0, metavar="SECONDS",
-                   help="print how far forwarding has got (events and seconds behind) this "
-                        "often (default 30)")
+    p.add_argument(
+        "--status-json",
+        action="store_true",
+        help="print the status as one JSON line per second (for a supervising run)",
+    )
+    p.add_argument(
+        "--status-every",
+        type=float,
+        default=30.0,
+        metavar="SECONDS",
+        help="print how far forwarding has got (events and seconds behind) this often (default 30)",
+    )
     p.set_defaults(handler=run)
 
 
@@ -65,8 +87,10 @@ def station_of(config_path: Path) -> tuple[str, Path]:
 
     config = load_config(config_path)
     if config.station_id is None:
-        raise ConfigError(f"{config_path}: no plant section; forwarding needs "
-                          "plant: {station_id: ..., line: ..., plant: ...}")
+        raise ConfigError(
+            f"{config_path}: no plant section; forwarding needs "
+            "plant: {station_id: ..., line: ..., plant: ...}"
+        )
     return config.station_id, config.log_path
 
 
@@ -80,8 +104,13 @@ def run(args: argparse.Namespace) -> int:
     driver()
     check_url(args.plant_url)
     station_id, log_path = station_of(args.config)
-    forwarder = Forwarder(args.log or log_path, station_id, args.plant_url, args.password_file,
-                          batch_events=args.batch)
+    forwarder = Forwarder(
+        args.log or log_path,
+        station_id,
+        args.plant_url,
+        args.password_file,
+        batch_events=args.batch,
+    )
     if args.once:
         try:
             sent = forwarder.forward_once()
@@ -91,8 +120,12 @@ def run(args: argparse.Namespace) -> int:
         return 0
     stop = stop_on_signals()
     every_s = 1.0 if args.status_json else max(1.0, args.status_every)
-    threading.Thread(target=_report, args=(forwarder, stop, every_s, args.status_json),
-                     daemon=True, name="forward-status").start()
+    threading.Thread(
+        target=_report,
+        args=(forwarder, stop, every_s, args.status_json),
+        daemon=True,
+        name="forward-status",
+    ).start()
     forwarder.run(stop)
     stop.set()
     if args.status_json:

@@ -23,12 +23,14 @@ from stationcheck.commands.forward import add_plant_arguments, stop_on_signals
 
 def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]
     p = subparsers.add_parser(
-        "plant", help="set up the plant database: schema, roles, stations; fold events",
+        "plant",
+        help="set up the plant database: schema, roles, stations; fold events",
         description="Sets up and keeps the plant database (PostgreSQL), with the database "
-                    "owner's login (never a station's): schema and group roles (setup), one "
-                    "login role per station that may only forward that station's events "
-                    "(add-station), read-only review logins (add-reviewer), and the fold of "
-                    "forwarded events into units, steps and alarms (fold).")
+        "owner's login (never a station's): schema and group roles (setup), one "
+        "login role per station that may only forward that station's events "
+        "(add-station), read-only review logins (add-reviewer), and the fold of "
+        "forwarded events into units, steps and alarms (fold).",
+    )
     actions = p.add_subparsers(dest="action", metavar="ACTION", required=True)
     setup = actions.add_parser("setup", help="create or update the schema and group roles")
     add_plant_arguments(setup, True)
@@ -38,13 +40,21 @@ def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[ty
     station.add_argument("--line", required=True, help="line name")
     station.add_argument("--plant", required=True, dest="plant_name", help="plant name")
     station.add_argument("--role", default=None, help="login role (default station_<id>)")
-    station.add_argument("--role-password-file", type=Path, default=None,
-                         help="set the role's password from this file")
+    station.add_argument(
+        "--role-password-file",
+        type=Path,
+        default=None,
+        help="set the role's password from this file",
+    )
     reviewer = actions.add_parser("add-reviewer", help="a login role that reads the database")
     add_plant_arguments(reviewer, True)
     reviewer.add_argument("--role", required=True, help="login role name")
-    reviewer.add_argument("--role-password-file", type=Path, default=None,
-                          help="set the role's password from this file")
+    reviewer.add_argument(
+        "--role-password-file",
+        type=Path,
+        default=None,
+        help="set the role's password from this file",
+    )
     fold = actions.add_parser("fold", help="fold forwarded events into units, steps, alarms")
     add_plant_arguments(fold, True)
     fold.add_argument("--follow", action="store_true", help="keep folding until stopped")
@@ -71,13 +81,23 @@ def run(args: argparse.Namespace) -> int:
     with conn:
         if args.action == "setup":
             version = schema.migrate(conn)
-            print(f"plant database at schema version {version}; group roles "
-                  f"{schema.STATION_GROUP} (forward only) and {schema.REVIEW_GROUP} (read only)")
+            print(
+                f"plant database at schema version {version}; group roles "
+                f"{schema.STATION_GROUP} (forward only) and {schema.REVIEW_GROUP} (read only)"
+            )
         elif args.action == "add-station":
-            role = schema.add_station(conn, args.station_id, args.line, args.plant_name,
-                                      args.role, _secret(args.role_password_file))
-            print(f"station {args.station_id} ({args.line}, {args.plant_name}) forwards as role "
-                  f"{role}")
+            role = schema.add_station(
+                conn,
+                args.station_id,
+                args.line,
+                args.plant_name,
+                args.role,
+                _secret(args.role_password_file),
+            )
+            print(
+                f"station {args.station_id} ({args.line}, {args.plant_name}) forwards as role "
+                f"{role}"
+            )
         elif args.action == "add-reviewer":
             role = schema.add_reviewer(conn, args.role, _secret(args.role_password_file))
             print(f"role {role} may read the plant database")

@@ -58,42 +58,79 @@ def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[ty
 
 
 def add_replay_arguments(p: argparse.ArgumentParser) -> None:
-    p.add_argument("video", metavar="VIDEO", nargs="?", type=Path,
-                   help="recorded station video (leave out with --observations)")
+    p.add_argument(
+        "video",
+        metavar="VIDEO",
+        nargs="?",
+        type=Path,
+        help="recorded station video (leave out with --observations)",
+    )
     p.add_argument("--config", required=True, type=Path, help="station config (.yaml)")
     p.add_argument("--inputs", type=Path, help="station inputs (.jsonl), needed with VIDEO")
-    p.add_argument("--observations", type=Path,
-                   help="replay a recorded observation stream instead of a video")
-    p.add_argument("--expected", type=Path,
-                   help="expected decisions (.jsonl) to compare with")
-    p.add_argument("--truth", type=Path,
-                   help="per-frame ground truth (.csv) for counting false enables (default: "
-                        "X_truth.csv beside X_expected.jsonl, if there)")
-    p.add_argument("--log", type=Path,
-                   help="step log to write (a new file; default: "
-                        "stationcheck-replay-<time>.sqlite here)")
-    p.add_argument("--annotate", type=Path, metavar="OUT.mp4",
-                   help="also write the video with zones, tip and decisions drawn (it shows the "
-                        "people filmed: keep it only as long as needed, following local "
-                        "workplace and data-protection rules)")
-    p.add_argument("--annotate-every", type=int, default=1, metavar="N",
-                   help="draw every N-th frame only (a lighter video; default: every frame)")
-    p.add_argument("--record-observations", type=Path, metavar="OUT.jsonl",
-                   help="record every observation the sequencer sees")
+    p.add_argument(
+        "--observations", type=Path, help="replay a recorded observation stream instead of a video"
+    )
+    p.add_argument("--expected", type=Path, help="expected decisions (.jsonl) to compare with")
+    p.add_argument(
+        "--truth",
+        type=Path,
+        help="per-frame ground truth (.csv) for counting false enables (default: "
+        "X_truth.csv beside X_expected.jsonl, if there)",
+    )
+    p.add_argument(
+        "--log",
+        type=Path,
+        help="step log to write (a new file; default: stationcheck-replay-<time>.sqlite here)",
+    )
+    p.add_argument(
+        "--annotate",
+        type=Path,
+        metavar="OUT.mp4",
+        help="also write the video with zones, tip and decisions drawn (it shows the "
+        "people filmed: keep it only as long as needed, following local "
+        "workplace and data-protection rules)",
+    )
+    p.add_argument(
+        "--annotate-every",
+        type=int,
+        default=1,
+        metavar="N",
+        help="draw every N-th frame only (a lighter video; default: every frame)",
+    )
+    p.add_argument(
+        "--record-observations",
+        type=Path,
+        metavar="OUT.jsonl",
+        help="record every observation the sequencer sees",
+    )
     p.add_argument("--threads", type=int, help="model threads (default: the config's)")
     p.add_argument("--model", type=Path, help="coarse .onnx model (default: the config's)")
-    p.add_argument("--detector", choices=("model", "truth"), default="model",
-                   help="'truth' answers with the ground-truth keypoints (needs --truth) to "
-                        "check decisions without a model (default: model)")
-    p.add_argument("--judgements", choices=("image", "truth"), default="image",
-                   help="'truth' reads bin activity, pin and camera pose from the ground truth "
-                        "(default: image)")
+    p.add_argument(
+        "--detector",
+        choices=("model", "truth"),
+        default="model",
+        help="'truth' answers with the ground-truth keypoints (needs --truth) to "
+        "check decisions without a model (default: model)",
+    )
+    p.add_argument(
+        "--judgements",
+        choices=("image", "truth"),
+        default="image",
+        help="'truth' reads bin activity, pin and camera pose from the ground truth "
+        "(default: image)",
+    )
     p.add_argument("--first-frame", type=int, default=0, help="start at this frame")
     p.add_argument("--frames", type=int, help="process at most this many frames")
-    p.add_argument("--edge-tolerance", type=int, default=3, metavar="FRAMES",
-                   help="largest offset of a matching enable edge (default: %(default)s)")
-    p.add_argument("--json", action="store_true",
-                   help="print one JSON object (no progress, no table)")
+    p.add_argument(
+        "--edge-tolerance",
+        type=int,
+        default=3,
+        metavar="FRAMES",
+        help="largest offset of a matching enable edge (default: %(default)s)",
+    )
+    p.add_argument(
+        "--json", action="store_true", help="print one JSON object (no progress, no table)"
+    )
 
 
 def default_log_path(folder: Path, stem: str = "stationcheck-replay") -> Path:
@@ -168,8 +205,12 @@ class ProgressLine:
         rate = done / max(now - self.started, 1e-9)
         if total:
             left = (total - done) / rate if rate > 0 else 0.0
-            print(f"{self.label}: {done}/{total} ({100 * done / total:.0f} %), "
-                  f"{rate:.0f}/s, about {left:.0f} s left", file=sys.stderr, flush=True)
+            print(
+                f"{self.label}: {done}/{total} ({100 * done / total:.0f} %), "
+                f"{rate:.0f}/s, about {left:.0f} s left",
+                file=sys.stderr,
+                flush=True,
+            )
         else:
             print(f"{self.label}: {done}, {rate:.0f}/s", file=sys.stderr, flush=True)
 
@@ -206,8 +247,12 @@ def run(args: argparse.Namespace) -> int:
     if args.annotate is not None:
         from stationcheck.cli import PRIVACY_NOTE
 
-        print(f"Privacy: {args.annotate} shows the people filmed in the video; it is kept "
-              f"until you delete it. {PRIVACY_NOTE}", file=sys.stderr, flush=True)
+        print(
+            f"Privacy: {args.annotate} shows the people filmed in the video; it is kept "
+            f"until you delete it. {PRIVACY_NOTE}",
+            file=sys.stderr,
+            flush=True,
+        )
     with command_screen(args, args.config, "replay") as screen:
         if screen.url is not None:
             print(f"Operator screen: {screen.url}", file=sys.stderr, flush=True)

@@ -64,42 +64,66 @@ def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[ty
         epilog=_EPILOG,
         formatter_class=argparse.RawDescriptionHelpFormatter,
     )
-    p.add_argument("log", metavar="LOG", help="step log (.sqlite), or the plant database: "
-                   "postgresql://USER@HOST[:PORT]/DATABASE (password from "
-                   "STATIONCHECK_PG_PASSWORD or --password-file)")
+    p.add_argument(
+        "log",
+        metavar="LOG",
+        help="step log (.sqlite), or the plant database: "
+        "postgresql://USER@HOST[:PORT]/DATABASE (password from "
+        "STATIONCHECK_PG_PASSWORD or --password-file)",
+    )
     what = p.add_mutually_exclusive_group()
     what.add_argument("--units", action="store_true", help="print the units that match the filters")
     what.add_argument("--unit", metavar="SERIAL", help="print one unit's steps and alarms")
     what.add_argument("--figures", action="store_true", help="print the station figures")
     what.add_argument("--trend", metavar="POSITION", help="print one fastener position's trend")
-    what.add_argument("--report", metavar="OUT.html", type=Path,
-                      help="write a standalone HTML report of the period")
-    what.add_argument("--stations", action="store_true",
-                      help="plant database: figures per station side by side (--trend-of for "
-                           "one position's trend at each)")
+    what.add_argument(
+        "--report",
+        metavar="OUT.html",
+        type=Path,
+        help="write a standalone HTML report of the period",
+    )
+    what.add_argument(
+        "--stations",
+        action="store_true",
+        help="plant database: figures per station side by side (--trend-of for "
+        "one position's trend at each)",
+    )
     plant = p.add_argument_group("plant database (postgresql:// LOG)")
-    plant.add_argument("--station", metavar="ID[,ID...]", default="",
-                       help="only these stations")
+    plant.add_argument("--station", metavar="ID[,ID...]", default="", help="only these stations")
     plant.add_argument("--line", metavar="LINE[,LINE...]", default="", help="only these lines")
-    plant.add_argument("--trend-of", metavar="POSITION",
-                       help="with --stations: this position's trend at each station")
-    plant.add_argument("--password-file", type=Path, default=None,
-                       help="file holding the database password")
+    plant.add_argument(
+        "--trend-of",
+        metavar="POSITION",
+        help="with --stations: this position's trend at each station",
+    )
+    plant.add_argument(
+        "--password-file", type=Path, default=None, help="file holding the database password"
+    )
     fmt = p.add_mutually_exclusive_group()
     fmt.add_argument("--csv", action="store_true", help="CSV (units, a unit's steps, a trend)")
     fmt.add_argument("--json", action="store_true", help="one JSON document")
     p.add_argument("--since", type=_time_arg(False), help="period start (inclusive)")
     p.add_argument("--until", type=_time_arg(True), help="period end (exclusive)")
     p.add_argument("--serial", metavar="PREFIX", help="units whose serial starts with this")
-    p.add_argument("--result", choices=("OK", "NOK", "reworked", "first_time_through", "aborted",
-                                        "open"), help="units with this result")
+    p.add_argument(
+        "--result",
+        choices=("OK", "NOK", "reworked", "first_time_through", "aborted", "open"),
+        help="units with this result",
+    )
     p.add_argument("--failed-position", metavar="ZONE", help="units that failed at this position")
     p.add_argument("--alarm", metavar="CODE", help="units that raised this alarm")
     p.add_argument("--order", choices=("newest", "oldest", "serial"), default="newest")
-    p.add_argument("--limit", type=int, help=f"at most this many units (default {TEXT_LIMIT} as "
-                                             "text, all with --csv/--json)")
-    p.add_argument("--measure", choices=("torque", "angle"), default="torque",
-                   help="for --trend (default torque)")
+    p.add_argument(
+        "--limit",
+        type=int,
+        help=f"at most this many units (default {TEXT_LIMIT} as text, all with --csv/--json)",
+    )
+    p.add_argument(
+        "--measure",
+        choices=("torque", "angle"),
+        default="torque",
+        help="for --trend (default torque)",
+    )
     p.add_argument("--points", type=int, default=500, help="--trend: latest N units (10-5000)")
     add_web_arguments(p, DEFAULT_PORT)
     p.set_defaults(handler=run)
@@ -120,10 +144,11 @@ def run(args: argparse.Namespace) -> int:
         return _usage("--csv is for --units, --unit and --trend; figures come as text or --json")
     source = _source(args)
     if (args.station or args.line or args.stations) and not source.is_plant:
-        return _usage("--station, --line and --stations need the plant database "
-                      "(postgresql://...); one step log is one station")
-    if not (args.units or args.unit or args.figures or args.trend or args.report
-            or args.stations):
+        return _usage(
+            "--station, --line and --stations need the plant database "
+            "(postgresql://...); one step log is one station"
+        )
+    if not (args.units or args.unit or args.figures or args.trend or args.report or args.stations):
         return _serve(args, source)
     if args.stations:
         return _print_stations(source, args, period)
@@ -157,18 +182,21 @@ def _scope(args: argparse.Namespace) -> Any:
         return None
     from stationcheck.plant.review_source import Scope
 
-    return Scope(tuple(s for s in args.station.split(",") if s),
-                 tuple(s for s in args.line.split(",") if s))
+    return Scope(
+        tuple(s for s in args.station.split(",") if s), tuple(s for s in args.line.split(",") if s)
+    )
 
 
 def _serve(args: argparse.Namespace, source: Any) -> int:
     from stationcheck.web.app import serve_until_interrupted, start_server
     from stationcheck.web.review import build_review_router
 
-    server = start_server(build_review_router(source), args.host, args.port, args.token,
-                          tuple(args.allow_host))
-    return serve_until_interrupted(server, f"stationcheck review of {source.name}",
-                                   not args.no_browser)
+    server = start_server(
+        build_review_router(source), args.host, args.port, args.token, tuple(args.allow_host)
+    )
+    return serve_until_interrupted(
+        server, f"stationcheck review of {source.name}", not args.no_browser
+    )
 
 
 def _print_stations(source: Any, args: argparse.Namespace, period: Period) -> int:
@@ -182,29 +210,56 @@ def _print_stations(source: Any, args: argparse.Namespace, period: Period) -> in
         rows = station_figures_rows(source, reader, period)
     trends = []
     if args.trend_of:
-        trends = [trend_summary(sid, t) for sid, t in station_trends(
-            source, [r["station_id"] for r in rows], args.trend_of, args.measure, period,
-            args.points)]
+        trends = [
+            trend_summary(sid, t)
+            for sid, t in station_trends(
+                source,
+                [r["station_id"] for r in rows],
+                args.trend_of,
+                args.measure,
+                period,
+                args.points,
+            )
+        ]
     if args.json:
-        print(json.dumps({"period": period.describe(), "stations": rows, "trends": trends},
-                         ensure_ascii=False))
+        print(
+            json.dumps(
+                {"period": period.describe(), "stations": rows, "trends": trends},
+                ensure_ascii=False,
+            )
+        )
         return 0
     print(f"period: {period.describe()}")
-    print(f"{'station':<16} {'line':<10} {'units':>8} {'FTT %':>6} {'95 % interval':>15} "
-          f"{'NOK':>6} {'NOK res':>7} {'retries':>7} {'cycle s':>7}")
+    print(
+        f"{'station':<16} {'line':<10} {'units':>8} {'FTT %':>6} {'95 % interval':>15} "
+        f"{'NOK':>6} {'NOK res':>7} {'retries':>7} {'cycle s':>7}"
+    )
     for r in rows:
         ftt = f"{100 * r['ftt_rate']:6.1f}" if r["ftt_rate"] is not None else "     -"
-        ci = ("{:6.1f} to {:5.1f}".format(*(100 * v for v in r["ftt_interval_95"]))
-              if r["ftt_interval_95"] else "-")
-        cycle = (f"{r['cycle_time_median_s']:7.1f}" if r["cycle_time_median_s"] is not None
-                 else "      -")
-        print(f"{r['station_id']:<16} {r['line']:<10} {r['units']:>8,} {ftt} {ci:>15} "
-              f"{r['nok']:>6,} {r['nok_results']:>7,} {r['retries']:>7,} {cycle}")
+        ci = (
+            "{:6.1f} to {:5.1f}".format(*(100 * v for v in r["ftt_interval_95"]))
+            if r["ftt_interval_95"]
+            else "-"
+        )
+        cycle = (
+            f"{r['cycle_time_median_s']:7.1f}"
+            if r["cycle_time_median_s"] is not None
+            else "      -"
+        )
+        print(
+            f"{r['station_id']:<16} {r['line']:<10} {r['units']:>8,} {ftt} {ci:>15} "
+            f"{r['nok']:>6,} {r['nok_results']:>7,} {r['retries']:>7,} {cycle}"
+        )
     for t in trends:
-        basis = (f"centre {t['centre']:.3f}, sigma {t['sigma']:.4f}" if t["sigma"] is not None
-                 else "no limits")
-        print(f"{args.trend_of} {args.measure} at {t['station_id']}: {t['count']} units, {basis}; "
-              f"{'; '.join(t['findings']) or 'no signal'}")
+        basis = (
+            f"centre {t['centre']:.3f}, sigma {t['sigma']:.4f}"
+            if t["sigma"] is not None
+            else "no limits"
+        )
+        print(
+            f"{args.trend_of} {args.measure} at {t['station_id']}: {t['count']} units, {basis}; "
+            f"{'; '.join(t['findings']) or 'no signal'}"
+        )
     return 0
 
 
@@ -214,13 +269,22 @@ def _print_units(step_log: SqliteStepLog, args: argparse.Namespace, period: Peri
     from stationcheck.store.records import UnitQuery
 
     try:
-        query = UnitQuery(serial_prefix=args.serial, from_s=period.from_s, to_s=period.to_s,
-                          result=args.result, failed_position=args.failed_position,
-                          alarm_code=args.alarm, order=args.order, count_total=False)
+        query = UnitQuery(
+            serial_prefix=args.serial,
+            from_s=period.from_s,
+            to_s=period.to_s,
+            result=args.result,
+            failed_position=args.failed_position,
+            alarm_code=args.alarm,
+            order=args.order,
+            count_total=False,
+        )
     except ValueError as exc:
         return _usage(str(exc))
     conn = step_log.connection
-    limit = args.limit if args.limit is not None else (None if args.csv or args.json else TEXT_LIMIT)
+    limit = (
+        args.limit if args.limit is not None else (None if args.csv or args.json else TEXT_LIMIT)
+    )
     rows = (export.unit_dict(u) for u in islice(export.iter_units(conn, query), limit))
     if args.csv:
         sys.stdout.writelines(export.csv_chunks(rows, export.UNIT_FIELDS))
@@ -228,16 +292,20 @@ def _print_units(step_log: SqliteStepLog, args: argparse.Namespace, period: Peri
     if args.json:
         sys.stdout.writelines(export.json_array_chunks(rows))
         return 0
-    _say(f"{'serial':<14} {'started':<19} {'result':<8} {'passes':>6} {'retries':>7} "
-          f"{'NOK':>4} {'cycle s':>8}  failed positions")
+    _say(
+        f"{'serial':<14} {'started':<19} {'result':<8} {'passes':>6} {'retries':>7} "
+        f"{'NOK':>4} {'cycle s':>8}  failed positions"
+    )
     shown = 0
     for row in rows:
         shown += 1
         cycle = f"{row['cycle_time_s']:8.1f}" if row["cycle_time_s"] is not None else " " * 8
         status = row["status"] + ("*" if row["reworked"] else "")
-        _say(f"{row['serial']:<14} {(row['started_at'] or '')[:19]:<19} {status:<8} "
-              f"{row['passes']:>6} {row['retries']:>7} {row['nok_results']:>4} {cycle}  "
-              f"{', '.join(row['failed_positions']) or '-'}")
+        _say(
+            f"{row['serial']:<14} {(row['started_at'] or '')[:19]:<19} {status:<8} "
+            f"{row['passes']:>6} {row['retries']:>7} {row['nok_results']:>4} {cycle}  "
+            f"{', '.join(row['failed_positions']) or '-'}"
+        )
     total = queries.count_units(conn, query)
     _say(f"{total:,} unit{'s' if total != 1 else ''} match; {shown:,} shown (* reworked)")
     return 0
@@ -261,20 +329,27 @@ def _print_unit(step_log: SqliteStepLog, args: argparse.Namespace) -> int:
         print(json.dumps(detail, ensure_ascii=False))
         return 0
     u = detail["unit"]
-    _say(f"unit {u['serial']}: {u['status']}{' (reworked)' if u['reworked'] else ''}, "
-          f"{u['passes']} pass(es), started {u['started_at']}, cycle time "
-          f"{u['cycle_time_s'] or 0:.1f} s, rework time {u['rework_time_s']:.1f} s")
-    _say(f"{'pass':<6} {'step':<16} {'position':<10} {'try':>3} {'result':<13} "
-          f"{'torque N·m':>11} {'angle °':>8}")
+    _say(
+        f"unit {u['serial']}: {u['status']}{' (reworked)' if u['reworked'] else ''}, "
+        f"{u['passes']} pass(es), started {u['started_at']}, cycle time "
+        f"{u['cycle_time_s'] or 0:.1f} s, rework time {u['rework_time_s']:.1f} s"
+    )
+    _say(
+        f"{'pass':<6} {'step':<16} {'position':<10} {'try':>3} {'result':<13} "
+        f"{'torque N·m':>11} {'angle °':>8}"
+    )
     for s in steps:
         torque = f"{s.torque_nm:11.2f}" if s.torque_nm is not None else " " * 11
         angle = f"{s.angle_deg:8.1f}" if s.angle_deg is not None else " " * 8
         decided = " (left)" if s.position_result == RESULT_NOK else ""
-        _say(f"{'rework' if s.is_rework else 'first':<6} {s.step:<16} {s.position or '-':<10} "
-              f"{s.attempt:>3} {unit_word(s.result) + decided:<13} {torque} {angle}")
+        _say(
+            f"{'rework' if s.is_rework else 'first':<6} {s.step:<16} {s.position or '-':<10} "
+            f"{s.attempt:>3} {unit_word(s.result) + decided:<13} {torque} {angle}"
+        )
     if u["nok_reason"]:
-        _say(f"why {'NOK' if u['status'] == 'NOK' else 'the first pass was NOK'}: "
-             f"{u['nok_reason']}")
+        _say(
+            f"why {'NOK' if u['status'] == 'NOK' else 'the first pass was NOK'}: {u['nok_reason']}"
+        )
     for a in alarms:
         _say(f"alarm {a.code} ({a.severity}): {a.message}")
     return 0
@@ -290,22 +365,30 @@ def _print_figures(step_log: SqliteStepLog, args: argparse.Namespace, period: Pe
         return 0
     ftt, ci = figures["ftt_rate"], figures["ftt_interval_95"]
     _say(f"period: {figures['period']['text']}")
-    _say(f"units started {figures['units']:,}: OK {figures['ok']:,}, NOK {figures['nok']:,}, "
-          f"aborted {figures['aborted']:,}, open {figures['open']:,}, reworked "
-          f"{figures['reworked']:,}")
+    _say(
+        f"units started {figures['units']:,}: OK {figures['ok']:,}, NOK {figures['nok']:,}, "
+        f"aborted {figures['aborted']:,}, open {figures['open']:,}, reworked "
+        f"{figures['reworked']:,}"
+    )
     if ftt is not None:
-        _say(f"first-time-through {figures['first_time_through']:,} of {figures['ended']:,} "
-             f"ended units = {100 * ftt:.1f} % (95 % Wilson interval {100 * ci[0]:.1f} to "
-             f"{100 * ci[1]:.1f} %); {figures['open']:,} open unit(s) not counted")
+        _say(
+            f"first-time-through {figures['first_time_through']:,} of {figures['ended']:,} "
+            f"ended units = {100 * ftt:.1f} % (95 % Wilson interval {100 * ci[0]:.1f} to "
+            f"{100 * ci[1]:.1f} %); {figures['open']:,} open unit(s) not counted"
+        )
     _say(f"NOK results {figures['nok_results']:,}, retries {figures['retries']:,}")
-    for title, key in (("NOK by position", "nok_by_position"), ("retries by position",
-                                                                "retries_by_position")):
+    for title, key in (
+        ("NOK by position", "nok_by_position"),
+        ("retries by position", "retries_by_position"),
+    ):
         bars = ", ".join(f"{b['position']} {b['count']}" for b in figures[key]) or "none"
         _say(f"{title}: {bars}")
     ct = figures["cycle_time"]
     if ct["count"]:
-        _say(f"cycle time (first pass, {ct['count']:,} units): median {ct['median_s']:.1f} s, "
-              f"p90 {ct['p90_s']:.1f} s, mean {ct['mean_s']:.1f} s, max {ct['max_s']:.1f} s")
+        _say(
+            f"cycle time (first pass, {ct['count']:,} units): median {ct['median_s']:.1f} s, "
+            f"p90 {ct['p90_s']:.1f} s, mean {ct['mean_s']:.1f} s, max {ct['max_s']:.1f} s"
+        )
     alarms = ", ".join(f"{a['code']} {a['count']}" for a in figures["alarms"]) or "none"
     _say(f"alarms: {alarms}")
     return 0
@@ -327,15 +410,18 @@ def _print_trend(step_log: SqliteStepLog, args: argparse.Namespace, period: Peri
         return 0
     _say(f"{args.trend} final {args.measure}: {body['count']} units")
     if body["sigma"] is not None:
-        _say(f"centre {body['centre']:.3f} {trend.unit}, sigma {body['sigma']:.4f} (first "
-              f"{body['baseline']} values)")
+        _say(
+            f"centre {body['centre']:.3f} {trend.unit}, sigma {body['sigma']:.4f} (first "
+            f"{body['baseline']} values)"
+        )
     for finding in trend_findings(trend) or ["no signal: within its control limits and run rules"]:
         _say(finding)
     return 0
 
 
-def _write_report(step_log: SqliteStepLog, args: argparse.Namespace, period: Period,
-                  name: str) -> int:
+def _write_report(
+    step_log: SqliteStepLog, args: argparse.Namespace, period: Period, name: str
+) -> int:
     from stationcheck.errors import InputFileError
     from stationcheck.quality.report import build_report
 

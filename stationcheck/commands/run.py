@@ -35,25 +35,47 @@ def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[ty
         epilog=_privacy_epilog(),
     )
     p.add_argument("--config", required=True, type=Path, help="station config (.yaml)")
-    p.add_argument("--source", default=None,
-                   help="camera index, stream URL or video file (default: the config's camera)")
-    p.add_argument("--link", choices=("console", "client", "server"), default=None,
-                   help="signal link (default: the config's plc.mode)")
+    p.add_argument(
+        "--source",
+        default=None,
+        help="camera index, stream URL or video file (default: the config's camera)",
+    )
+    p.add_argument(
+        "--link",
+        choices=("console", "client", "server"),
+        default=None,
+        help="signal link (default: the config's plc.mode)",
+    )
     p.add_argument("--host", default=None, help="PLC address (default: the config's)")
     p.add_argument("--port", type=int, default=None, help="PLC port (default: the config's)")
     p.add_argument("--log", type=Path, default=None, help="step log (default: the config's)")
-    p.add_argument("--no-pace", action="store_true",
-                   help="read a video file as fast as possible instead of at its frame rate")
-    p.add_argument("--speed", type=float, default=1.0,
-                   help="play a video file this many times faster than recorded (dry runs; "
-                        "give the simulator the same --speed)")
+    p.add_argument(
+        "--no-pace",
+        action="store_true",
+        help="read a video file as fast as possible instead of at its frame rate",
+    )
+    p.add_argument(
+        "--speed",
+        type=float,
+        default=1.0,
+        help="play a video file this many times faster than recorded (dry runs; "
+        "give the simulator the same --speed)",
+    )
     p.add_argument("--frames", type=int, default=None, help="stop after this many file frames")
-    p.add_argument("--forward-to", metavar="URL", default=None,
-                   help="also forward the step log to the plant database (postgresql://...), "
-                        "in a child process; the password from STATIONCHECK_PG_PASSWORD or "
-                        "--password-file")
-    p.add_argument("--password-file", type=Path, default=None,
-                   help="file holding the plant database password (with --forward-to)")
+    p.add_argument(
+        "--forward-to",
+        metavar="URL",
+        default=None,
+        help="also forward the step log to the plant database (postgresql://...), "
+        "in a child process; the password from STATIONCHECK_PG_PASSWORD or "
+        "--password-file",
+    )
+    p.add_argument(
+        "--password-file",
+        type=Path,
+        default=None,
+        help="file holding the plant database password (with --forward-to)",
+    )
     from stationcheck.web.operator.options import add_screen_arguments
 
     add_screen_arguments(p, replay=False)
@@ -86,8 +108,13 @@ class UnitCount:
         if not total:
             return "no unit ended"
         order = list(SHOWN_RESULT.values())
-        parts = ", ".join(f"{count} {word}" for word, count in sorted(
-            self.ended.items(), key=lambda item: order.index(item[0]) if item[0] in order else 99))
+        parts = ", ".join(
+            f"{count} {word}"
+            for word, count in sorted(
+                self.ended.items(),
+                key=lambda item: order.index(item[0]) if item[0] in order else 99,
+            )
+        )
         return f"{total} unit{'s' if total != 1 else ''} ended ({parts})"
 
 
@@ -103,9 +130,17 @@ def run(args: argparse.Namespace) -> int:
         return 64
     print(f"Safety: {SAFETY_NOTE}", flush=True)
     print(f"Privacy: {PRIVACY_NOTE}", flush=True)
-    settings = LiveSettings(config_path=args.config, log_path=args.log, source=args.source,
-                            link=args.link, host=args.host, port=args.port,
-                            pace=not args.no_pace, speed=args.speed, max_frames=args.frames)
+    settings = LiveSettings(
+        config_path=args.config,
+        log_path=args.log,
+        source=args.source,
+        link=args.link,
+        host=args.host,
+        port=args.port,
+        pace=not args.no_pace,
+        speed=args.speed,
+        max_frames=args.frames,
+    )
 
     def stop(signum: int, frame: FrameType | None) -> None:
         raise KeyboardInterrupt
@@ -144,8 +179,10 @@ def run(args: argparse.Namespace) -> int:
         if forwarding is not None:
             forwarding.stop()
             print(forwarding.line(), flush=True)
-    print(f"{ended}: {summary(loops[0]) if loops else 'no frames'}; tool enable written off",
-          flush=True)
+    print(
+        f"{ended}: {summary(loops[0]) if loops else 'no frames'}; tool enable written off",
+        flush=True,
+    )
     print(f"{units.words()}; step log: {log_path}", flush=True)
     return 0
 
@@ -153,8 +190,9 @@ def run(args: argparse.Namespace) -> int:
 def summary(loop: LiveLoop) -> str:
     """Frames, drops, decision latency and heartbeat of a finished live run, in one line."""
     stats, worker = loop.stats, loop.worker
-    text = (f"{stats.frames} frames at {stats.fps:.1f} frames/s, "
-            f"{loop.grabber.counts.dropped} dropped")
+    text = (
+        f"{stats.frames} frames at {stats.fps:.1f} frames/s, {loop.grabber.counts.dropped} dropped"
+    )
     if worker.coil_latency_ms:
         import numpy as np
 

@@ -22,11 +22,18 @@ def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[ty
             "setup folder (--root)."
         ),
     )
-    p.add_argument("config", type=Path, nargs="?",
-                   help="station config to edit (a new one when left out or not there yet)")
-    p.add_argument("--root", type=Path,
-                   help="folder the screen may read and write (default: the current folder, "
-                        "or the config's folder when it lies outside)")
+    p.add_argument(
+        "config",
+        type=Path,
+        nargs="?",
+        help="station config to edit (a new one when left out or not there yet)",
+    )
+    p.add_argument(
+        "--root",
+        type=Path,
+        help="folder the screen may read and write (default: the current folder, "
+        "or the config's folder when it lies outside)",
+    )
     add_web_arguments(p, DEFAULT_PORT)
     p.set_defaults(handler=run)
 
@@ -42,11 +49,17 @@ def run(args: argparse.Namespace) -> int:
     workspace = Workspace(root)
     if args.config is not None and not args.config.resolve().is_relative_to(workspace.root):
         resolved = args.config.resolve()
-        shown = str(args.config) if str(args.config) == str(resolved) else (
-            f"{args.config} ({resolved})")
-        raise InputFileError(f"{shown} lies outside the setup folder {workspace.root}; add "
-                             "--root with a folder that holds it")
+        shown = (
+            str(args.config)
+            if str(args.config) == str(resolved)
+            else (f"{args.config} ({resolved})")
+        )
+        raise InputFileError(
+            f"{shown} lies outside the setup folder {workspace.root}; add "
+            "--root with a folder that holds it"
+        )
     session = SetupSession.open(workspace, args.config)
-    server = start_server(build_router(session), args.host, args.port, args.token,
-                          tuple(args.allow_host))
+    server = start_server(
+        build_router(session), args.host, args.port, args.token, tuple(args.allow_host)
+    )
     return serve_until_interrupted(server, "stationcheck setup", not args.no_browser)

@@ -39,27 +39,53 @@ def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[ty
     p.add_argument("config", type=Path, help="station config (YAML)")
     p.add_argument("--zone", help="check zone id")
     label = p.add_mutually_exclusive_group()
-    label.add_argument("--present", dest="label", action="store_const", const="present",
-                       help="the frames show the part present / the fixture engaged")
-    label.add_argument("--absent", dest="label", action="store_const", const="absent",
-                       help="the frames show it absent / not engaged")
+    label.add_argument(
+        "--present",
+        dest="label",
+        action="store_const",
+        const="present",
+        help="the frames show the part present / the fixture engaged",
+    )
+    label.add_argument(
+        "--absent",
+        dest="label",
+        action="store_const",
+        const="absent",
+        help="the frames show it absent / not engaged",
+    )
     mode = p.add_mutually_exclusive_group()
     mode.add_argument("--list", action="store_true", help="list what each check zone was taught")
-    mode.add_argument("--clear", action="store_true",
-                      help="forget the zone's taught images (of one class with --present/--absent)")
-    mode.add_argument("--camera-shift", action="store_true",
-                      help="measure the camera's move against the reference frame")
+    mode.add_argument(
+        "--clear",
+        action="store_true",
+        help="forget the zone's taught images (of one class with --present/--absent)",
+    )
+    mode.add_argument(
+        "--camera-shift",
+        action="store_true",
+        help="measure the camera's move against the reference frame",
+    )
     source = p.add_mutually_exclusive_group()
     source.add_argument("--video", type=Path, help="take frames from this video file")
     source.add_argument("--image", type=Path, nargs="+", help="take these image files")
     source.add_argument("--camera", type=int, metavar="INDEX", help="take a frame from a camera")
-    p.add_argument("--at", type=float, metavar="SECONDS",
-                   help="time in the video of the first frame")
+    p.add_argument(
+        "--at", type=float, metavar="SECONDS", help="time in the video of the first frame"
+    )
     p.add_argument("--count", type=int, default=1, help="frames to take from the video (default 1)")
-    p.add_argument("--every", type=float, default=1.0, metavar="SECONDS",
-                   help="seconds between video frames (default 1)")
-    p.add_argument("--write", type=Path, metavar="NEW_CONFIG",
-                   help="with --camera-shift: write a config with the re-mapped zones here")
+    p.add_argument(
+        "--every",
+        type=float,
+        default=1.0,
+        metavar="SECONDS",
+        help="seconds between video frames (default 1)",
+    )
+    p.add_argument(
+        "--write",
+        type=Path,
+        metavar="NEW_CONFIG",
+        help="with --camera-shift: write a config with the re-mapped zones here",
+    )
     p.set_defaults(handler=run)
 
 
@@ -92,10 +118,14 @@ def _frames(args: argparse.Namespace, config: Any) -> list[tuple[Any, str]]:
     if args.image:
         return frame_grab.frames_from_images(args.image)
     if args.camera is not None:
-        return [frame_grab.frame_from_camera(args.camera, config.camera.width_px,
-                                             config.camera.height_px)]
-    raise InputFileError("say where the frames come from: --video FILE --at S, --image PNG "
-                         "or --camera INDEX")
+        return [
+            frame_grab.frame_from_camera(
+                args.camera, config.camera.width_px, config.camera.height_px
+            )
+        ]
+    raise InputFileError(
+        "say where the frames come from: --video FILE --at S, --image PNG or --camera INDEX"
+    )
 
 
 def _teach(args: argparse.Namespace, config: Any) -> int:
@@ -105,9 +135,12 @@ def _teach(args: argparse.Namespace, config: Any) -> int:
     folder = teaching.teaching_dir(config, zone.id)
     size = (config.camera.width_px, config.camera.height_px)
     frames = _frames(args, config)
-    print("Privacy: the taught crops are kept in the station folder until cleared; frames of "
-          "the station may show the people who work there (follow local workplace and "
-          "data-protection rules).", file=sys.stderr)
+    print(
+        "Privacy: the taught crops are kept in the station folder until cleared; frames of "
+        "the station may show the people who work there (follow local workplace and "
+        "data-protection rules).",
+        file=sys.stderr,
+    )
     manifest = teaching.teach(folder, zone, args.label, frames, size)
     print(f"taught {teaching.describe(manifest)} (in {folder})")
     _print_separation(folder, zone)
@@ -122,8 +155,10 @@ def _print_separation(folder: Path, zone: Any) -> None:
     if found is None:
         print("  teach at least two images of each class to see how well they separate")
         return
-    print(f"  agreement within a class >= {found.own_min:.2f}; with the other class "
-          f"<= {found.other_max:.2f} (gap {found.gap:.2f})")
+    print(
+        f"  agreement within a class >= {found.own_min:.2f}; with the other class "
+        f"<= {found.other_max:.2f} (gap {found.gap:.2f})"
+    )
     manifest = teaching.read_manifest(folder)
     poor = teaching.poor_teaching(manifest, found) if manifest is not None else None
     if poor is not None:
@@ -176,18 +211,24 @@ def _camera_shift(args: argparse.Namespace, config: Any) -> int:
     reference = read_reference_frame(config.reference_frame_path)
     estimate = ReferenceView(reference, zones, FULL_SCALE).estimate(image)
     if estimate is None:
-        raise InputFileError(f"{source}: too few features agree with the reference frame to "
-                             "estimate a camera move (is the view blocked or a different scene?)")
+        raise InputFileError(
+            f"{source}: too few features agree with the reference frame to "
+            "estimate a camera move (is the view blocked or a different scene?)"
+        )
     tolerance = config.judgements.camera_shift.tolerance_px
     dx, dy = estimate.shift_at(((image.shape[1] - 1) / 2.0, (image.shape[0] - 1) / 2.0))
     verdict = "MOVED" if estimate.shift_px > tolerance else "in place"
-    print(f"{source}: {verdict}: zones shift up to {estimate.shift_px:.1f} px (tolerance "
-          f"{tolerance:g} px); image centre moved {dx:+.1f}, {dy:+.1f} px, rotation "
-          f"{estimate.rotation_deg:+.2f} deg; {estimate.inliers} of {estimate.matches} "
-          "matches agree")
+    print(
+        f"{source}: {verdict}: zones shift up to {estimate.shift_px:.1f} px (tolerance "
+        f"{tolerance:g} px); image centre moved {dx:+.1f}, {dy:+.1f} px, rotation "
+        f"{estimate.rotation_deg:+.2f} deg; {estimate.inliers} of {estimate.matches} "
+        "matches agree"
+    )
     remapped = remap_zones(zones, estimate.matrix)
-    note = (f"re-mapped for a camera move measured on {source}: centre moved {dx:+.1f}, "
-            f"{dy:+.1f} px, rotation {estimate.rotation_deg:+.2f} deg")
+    note = (
+        f"re-mapped for a camera move measured on {source}: centre moved {dx:+.1f}, "
+        f"{dy:+.1f} px, rotation {estimate.rotation_deg:+.2f} deg"
+    )
     if args.write is None:
         print(zones_yaml(remapped, note), end="")
         return 0
@@ -196,6 +237,8 @@ def _camera_shift(args: argparse.Namespace, config: Any) -> int:
     if not cv2.imwrite(str(picture), image):
         raise InputFileError(f"cannot write {picture}")
     write_remapped_config(args.config, target, remapped, picture, note)
-    print(f"wrote {target} (reference frame {picture}); check it with "
-          f"'stationcheck check {target}' before use")
+    print(
+        f"wrote {target} (reference frame {picture}); check it with "
+        f"'stationcheck check {target}' before use"
+    )
     return 0

@@ -45,51 +45,102 @@ class Bound:
 _GRACE_HIGH = "the tool stays enabled this long while the tip is out of view"
 _STALE_HIGH = "the tool stays enabled this long on a stopped or frozen camera"
 _MAX_RUN = Bound(
-    100.0, 60000.0, 500.0, 10000.0, " ms",
+    100.0,
+    60000.0,
+    500.0,
+    10000.0,
+    " ms",
     "ordinary tightenings are cut off before they finish",
-    "a stuck tool-running signal keeps the tool enabled this long")
+    "a stuck tool-running signal keeps the tool enabled this long",
+)
 
 BOUNDS: dict[str, Bound] = {
     "model.min_score": Bound(
-        0.05, 0.99, 0.3, 0.9, "",
+        0.05,
+        0.99,
+        0.3,
+        0.9,
+        "",
         "a guess on an empty bench would count as the tip (at 0 every frame has a tip)",
-        "the calibrated score rarely gets there: the tool would hardly ever count as seen"),
+        "the calibrated score rarely gets there: the tool would hardly ever count as seen",
+    ),
     "thresholds.dwell_ms": Bound(
-        0.0, 5000.0, 100.0, 1000.0, " ms",
+        0.0,
+        5000.0,
+        100.0,
+        1000.0,
+        " ms",
         "a tip passing over a position on its way elsewhere may enable the tool",
-        "the operator waits at every position before the tool may run"),
+        "the operator waits at every position before the tool may run",
+    ),
     "thresholds.lost_track_grace_ms": Bound(
-        0.0, 1000.0, 0.0, 500.0, " ms",
-        "a single missed detection drops the enable", _GRACE_HIGH),
+        0.0, 1000.0, 0.0, 500.0, " ms", "a single missed detection drops the enable", _GRACE_HIGH
+    ),
     "thresholds.hysteresis_px": Bound(
-        0.0, 50.0, 1.0, 15.0, " px",
+        0.0,
+        50.0,
+        1.0,
+        15.0,
+        " px",
         "detector jitter on a zone edge makes the enable flicker",
-        "the tip counts as inside a position while clearly beside it"),
+        "the tip counts as inside a position while clearly beside it",
+    ),
     "thresholds.stale_frame_ms": Bound(
-        20.0, 1000.0, 60.0, 200.0, " ms",
-        "normal frame-time jitter (two frame periods at 30 frames/s) raises it", _STALE_HIGH),
+        20.0,
+        1000.0,
+        60.0,
+        200.0,
+        " ms",
+        "normal frame-time jitter (two frame periods at 30 frames/s) raises it",
+        _STALE_HIGH,
+    ),
     "thresholds.max_run_ms": _MAX_RUN,
     "steps[].max_run_ms": _MAX_RUN,
     "steps[].min_time_ms": Bound(
-        0.0, 10000.0, 100.0, 3000.0, " ms",
+        0.0,
+        10000.0,
+        100.0,
+        3000.0,
+        " ms",
         "a hand brushing past a bin counts as a pick",
-        "the operator waits in the bin before the step completes"),
+        "the operator waits in the bin before the step completes",
+    ),
     "plc.timeout_ms": Bound(
-        5.0, 2000.0, 10.0, 200.0, " ms",
+        5.0,
+        2000.0,
+        10.0,
+        200.0,
+        " ms",
         "a busy PLC's ordinary answer time counts as a lost link",
-        "a frozen PLC is noticed only after (retries + 3) times this"),
+        "a frozen PLC is noticed only after (retries + 3) times this",
+    ),
     "judgements.bin_activity.settle_ms": Bound(
-        0.0, 10000.0, 0.0, 2000.0, " ms", "", "a pick is noticed this late"),
+        0.0, 10000.0, 0.0, 2000.0, " ms", "", "a pick is noticed this late"
+    ),
     "judgements.bin_activity.release_ms": Bound(
-        0.0, 10000.0, 0.0, 2000.0, " ms", "", "a bin stays active this long after the hand left"),
+        0.0, 10000.0, 0.0, 2000.0, " ms", "", "a bin stays active this long after the hand left"
+    ),
     "judgements.bin_activity.tool_reach_px": Bound(
-        0.0, 2000.0, 0.0, 300.0, " px", "",
-        "a tool tip far from the bin still lets the bin's activity count as a reach"),
+        0.0,
+        2000.0,
+        0.0,
+        300.0,
+        " px",
+        "",
+        "a tool tip far from the bin still lets the bin's activity count as a reach",
+    ),
     "judgements.presence.confirm_ms": Bound(
-        0.0, 10000.0, 0.0, 2000.0, " ms", "", "a check verdict comes this late"),
+        0.0, 10000.0, 0.0, 2000.0, " ms", "", "a check verdict comes this late"
+    ),
     "judgements.camera_shift.interval_ms": Bound(
-        0.0, 10000.0, 0.0, 1000.0, " ms", "",
-        "a bumped camera is noticed only after about twice this"),
+        0.0,
+        10000.0,
+        0.0,
+        1000.0,
+        " ms",
+        "",
+        "a bumped camera is noticed only after about twice this",
+    ),
 }
 
 
@@ -110,11 +161,14 @@ def _hard_problem(bound: Bound, value: float) -> str | None:
     if not math.isfinite(value):
         return f"must be a finite number, got {value}"
     if value < bound.low:
-        return (f"{bound.show(value)} is below the allowed {bound.show(bound.low)}"
-                f"{_because(bound.too_low)}")
+        return (
+            f"{bound.show(value)} is below the allowed {bound.show(bound.low)}"
+            f"{_because(bound.too_low)}"
+        )
     if value > bound.high:
-        return (f"{bound.show(value)} is above the allowed {bound.show(bound.high)}: "
-                f"{bound.too_high}")
+        return (
+            f"{bound.show(value)} is above the allowed {bound.show(bound.high)}: {bound.too_high}"
+        )
     return None
 
 
@@ -130,11 +184,21 @@ def lint_bounds(data: Any) -> list[Finding]:
         if _hard_problem(bound, value) is not None:
             continue  # the schema reports it as an error
         if value < bound.sane_low:
-            findings.append(warning(path, f"{bound.show(value)} is below the usual "
-                                          f"{bound.show(bound.sane_low)}{_because(bound.too_low)}"))
+            findings.append(
+                warning(
+                    path,
+                    f"{bound.show(value)} is below the usual "
+                    f"{bound.show(bound.sane_low)}{_because(bound.too_low)}",
+                )
+            )
         elif value > bound.sane_high:
-            findings.append(warning(path, f"{bound.show(value)} is above the usual "
-                                          f"{bound.show(bound.sane_high)}: {bound.too_high}"))
+            findings.append(
+                warning(
+                    path,
+                    f"{bound.show(value)} is above the usual "
+                    f"{bound.show(bound.sane_high)}: {bound.too_high}",
+                )
+            )
     return findings
 
 
@@ -160,4 +224,3 @@ def _values(data: Any) -> Iterator[tuple[str, Location, float]]:
 
 def _is_number(value: Any) -> bool:
     return isinstance(value, int | float) and not isinstance(value, bool)
-

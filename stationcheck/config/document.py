@@ -100,9 +100,7 @@ def parse_yaml_text(text: str, name: str) -> YamlDocument:
     return YamlDocument(data=data, lines=lines, problems=tuple(problems))
 
 
-def _index(
-    node: Node, path: Location, lines: dict[Location, int], problems: list[Finding]
-) -> None:
+def _index(node: Node, path: Location, lines: dict[Location, int], problems: list[Finding]) -> None:
     if isinstance(node, MappingNode):
         first_seen: dict[str, int] = {}
         for key_node, value_node in node.value:
@@ -111,11 +109,15 @@ def _index(
                 continue
             line = key_node.start_mark.line + 1
             if key in first_seen:
-                problems.append(Finding(
-                    "error", path + (key,),
-                    f"'{key}' is given twice in the same mapping (first on line "
-                    f"{first_seen[key]}); only the first one counts, so remove one", line,
-                ))
+                problems.append(
+                    Finding(
+                        "error",
+                        path + (key,),
+                        f"'{key}' is given twice in the same mapping (first on line "
+                        f"{first_seen[key]}); only the first one counts, so remove one",
+                        line,
+                    )
+                )
             first_seen.setdefault(key, line)
             lines[path + (key,)] = line
             _index(value_node, path + (key,), lines, problems)

@@ -37,9 +37,7 @@ def expanded_sections(config: StationConfig) -> dict[str, Any]:
                 if limits is not None:
                     entry[name] = flow_map({"low": limits.low, "high": limits.high})
         else:
-            entry.update(
-                {k: v for k, v in vars(step).items() if k not in ("id", "kind")}
-            )
+            entry.update({k: v for k, v in vars(step).items() if k not in ("id", "kind")})
         steps.append(entry)
     return {"zones": zones, "steps": steps}
 

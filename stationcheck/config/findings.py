@@ -63,12 +63,14 @@ def sort_findings(
 ) -> list[Finding]:
     """In file order: by line, then by where the path comes in the data, then as made."""
     indexed = list(enumerate(findings))
-    indexed.sort(key=lambda item: (
-        item[1].line is None,
-        item[1].line or 0,
-        position_of(item[1].path) if position_of is not None else 0,
-        item[0],
-    ))
+    indexed.sort(
+        key=lambda item: (
+            item[1].line is None,
+            item[1].line or 0,
+            position_of(item[1].path) if position_of is not None else 0,
+            item[0],
+        )
+    )
     return [finding for _, finding in indexed]
 
 

@@ -42,8 +42,9 @@ def lint_geometry(parts: ConfigParts) -> list[Finding]:
         shape = Polygon(zone.polygon_px)
         shapes.append((zone, shape))
         if parts.camera is not None:
-            findings.extend(_frame_findings(zone, shape, parts.camera.width_px,
-                                            parts.camera.height_px))
+            findings.extend(
+                _frame_findings(zone, shape, parts.camera.width_px, parts.camera.height_px)
+            )
     findings.extend(_overlap_findings(shapes))
     if parts.thresholds is not None and parts.thresholds.hysteresis_px > 0:
         findings.extend(_hysteresis_findings(shapes, parts.thresholds.hysteresis_px))
@@ -57,12 +58,18 @@ def _name(zone: LocatedZone) -> str:
 def _shape_problem(zone: LocatedZone, points: tuple[tuple[float, float], ...]) -> Finding | None:
     where = zone.path + ("polygon",) if zone.path[-1] != "bolt_circle" else zone.path
     if not all(math.isfinite(v) and abs(v) <= _MAX_COORD_PX for point in points for v in point):
-        return error(where, f"{_name(zone)} has a point that is not a pixel position (each "
-                     f"coordinate a finite number within ±{_MAX_COORD_PX:g})")
+        return error(
+            where,
+            f"{_name(zone)} has a point that is not a pixel position (each "
+            f"coordinate a finite number within ±{_MAX_COORD_PX:g})",
+        )
     distinct = len(set(points))
     if distinct < 3:
-        return error(where, f"{_name(zone)} has {distinct} distinct point"
-                     f"{'' if distinct == 1 else 's'}; a zone needs at least 3")
+        return error(
+            where,
+            f"{_name(zone)} has {distinct} distinct point"
+            f"{'' if distinct == 1 else 's'}; a zone needs at least 3",
+        )
     if MultiPoint(points).convex_hull.area <= _AREA_EPS_PX2:
         return error(where, f"{_name(zone)} has no area: all its points lie on one line")
     shape = Polygon(points)
@@ -70,8 +77,11 @@ def _shape_problem(zone: LocatedZone, points: tuple[tuple[float, float], ...]) -
         reason = shapely.is_valid_reason(shape)
         if reason.startswith(("Self-intersection", "Ring Self-intersection")):
             x, y = _reason_point(reason)
-            return error(where, f"{_name(zone)} has an outline that crosses itself near "
-                         f"({x:g}, {y:g}); list the points in order around the zone")
+            return error(
+                where,
+                f"{_name(zone)} has an outline that crosses itself near "
+                f"({x:g}, {y:g}); list the points in order around the zone",
+            )
         return error(where, f"{_name(zone)} is not a simple polygon ({reason})")
     return None
 
@@ -94,8 +104,13 @@ def _frame_findings(
         return [error(zone.path, f"{_name(zone)} lies entirely outside the {size}")]
     if not frame.covers(shape):
         outside_pct = 100.0 * (1.0 - inside_px2 / shape.area)
-        return [warning(zone.path, f"{_name(zone)} reaches outside the {size} "
-                        f"({outside_pct:.0f}% of its area); the tip is never seen there")]
+        return [
+            warning(
+                zone.path,
+                f"{_name(zone)} reaches outside the {size} "
+                f"({outside_pct:.0f}% of its area); the tip is never seen there",
+            )
+        ]
     return []
 
 
@@ -125,13 +140,25 @@ def _overlap_findings(shapes: list[tuple[LocatedZone, Polygon]]) -> list[Finding
         if overlap_px2 <= _AREA_EPS_PX2:
             continue
         if zone.kind == "fastener":
-            findings.append(error(zone.path, (
-                f"{_name(zone)} overlaps fastener zone '{other.id}' by "
-                f"{overlap_px2:.0f} px²; a tip there would be at two positions at once")))
+            findings.append(
+                error(
+                    zone.path,
+                    (
+                        f"{_name(zone)} overlaps fastener zone '{other.id}' by "
+                        f"{overlap_px2:.0f} px²; a tip there would be at two positions at once"
+                    ),
+                )
+            )
         else:
-            findings.append(warning(zone.path, (
-                f"{_name(zone)} overlaps bin zone '{other.id}' by {overlap_px2:.0f} "
-                "px²; a reach into the overlap counts as a pick from both bins")))
+            findings.append(
+                warning(
+                    zone.path,
+                    (
+                        f"{_name(zone)} overlaps bin zone '{other.id}' by {overlap_px2:.0f} "
+                        "px²; a reach into the overlap counts as a pick from both bins"
+                    ),
+                )
+            )
     return findings
 
 
@@ -145,10 +172,16 @@ def _hysteresis_findings(
         gap_px = shape.distance(other_shape)
         overlapping = shape.intersection(other_shape).area > _AREA_EPS_PX2
         if gap_px < hysteresis_px and not overlapping:
-            findings.append(warning(zone.path, (
-                f"{_name(zone)} is only {gap_px:.1f} px from fastener zone "
-                f"'{other.id}', less than hysteresis_px ({hysteresis_px:g}); the tip "
-                f"would still count as at '{other.id}' when it reaches this one")))
+            findings.append(
+                warning(
+                    zone.path,
+                    (
+                        f"{_name(zone)} is only {gap_px:.1f} px from fastener zone "
+                        f"'{other.id}', less than hysteresis_px ({hysteresis_px:g}); the tip "
+                        f"would still count as at '{other.id}' when it reaches this one"
+                    ),
+                )
+            )
     return findings
 
 
@@ -170,11 +203,23 @@ def _size_findings(
         radius_px = shapely.maximum_inscribed_circle(shape).length
         sizes = f"inscribed radius {radius_px:.1f} px, hysteresis_px {hysteresis_px:g}"
         if radius_px <= hysteresis_px:
-            findings.append(error(zone.path, (
-                f"{subject} too small for the hysteresis ({sizes}); the tip cannot be held "
-                "inside reliably: make the zone bigger or lower hysteresis_px")))
+            findings.append(
+                error(
+                    zone.path,
+                    (
+                        f"{subject} too small for the hysteresis ({sizes}); the tip cannot be held "
+                        "inside reliably: make the zone bigger or lower hysteresis_px"
+                    ),
+                )
+            )
         elif radius_px <= 2 * hysteresis_px:
-            findings.append(warning(zone.path, (
-                f"{subject} small for the hysteresis ({sizes}); an inscribed radius above "
-                "twice hysteresis_px holds the tip reliably")))
+            findings.append(
+                warning(
+                    zone.path,
+                    (
+                        f"{subject} small for the hysteresis ({sizes}); an inscribed radius above "
+                        "twice hysteresis_px holds the tip reliably"
+                    ),
+                )
+            )
     return findings

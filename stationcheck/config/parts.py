@@ -95,8 +95,9 @@ def _zones(items: list[Any]) -> Iterator[LocatedZone]:
         if isinstance(entry, BoltCircleZones):
             circle_path = path + ("bolt_circle",)
             for spec in entry.to_specs():
-                yield LocatedZone(spec.id, spec.kind, spec.polygon_px, circle_path,
-                                  circle_path + ("id_prefix",))
+                yield LocatedZone(
+                    spec.id, spec.kind, spec.polygon_px, circle_path, circle_path + ("id_prefix",)
+                )
         else:
             for spec in entry.to_specs():
                 yield LocatedZone(spec.id, spec.kind, spec.polygon_px, path, path + ("id",))
@@ -111,15 +112,17 @@ def _zones_of_invalid_entry(item: Any, path: Location) -> Iterator[LocatedZone]:
         if isinstance(prefix, str) and isinstance(count, int) and 0 < count <= 1000:
             circle_path = path + ("bolt_circle",)
             for number in range(1, count + 1):
-                yield LocatedZone(f"{prefix}{number}", "fastener", None, circle_path,
-                                  circle_path + ("id_prefix",))
+                yield LocatedZone(
+                    f"{prefix}{number}", "fastener", None, circle_path, circle_path + ("id_prefix",)
+                )
         return
     if not isinstance(item.get("id"), str):
         return
     kind = item.get("kind") if item.get("kind") in _ZONE_KINDS else None
     try:
-        polygon: tuple[Point, ...] | None = tuple(_POLYGON_ADAPTER.validate_python(
-            item.get("polygon")))
+        polygon: tuple[Point, ...] | None = tuple(
+            _POLYGON_ADAPTER.validate_python(item.get("polygon"))
+        )
     except ValidationError:
         polygon = None
     yield LocatedZone(item["id"], kind, polygon, path, path + ("id",))

@@ -43,8 +43,13 @@ def _duplicate_ids(ids: Iterable[tuple[str, Location]], noun: str) -> list[Findi
     findings = []
     for ident, path in ids:
         if ident in first:
-            findings.append(error(path, f"{noun} id '{ident}' is already used by "
-                                  f"{format_path(first[ident])}; ids must be unique"))
+            findings.append(
+                error(
+                    path,
+                    f"{noun} id '{ident}' is already used by "
+                    f"{format_path(first[ident])}; ids must be unique",
+                )
+            )
         else:
             first[ident] = path
     return findings
@@ -64,9 +69,14 @@ def _step_zone_findings(parts: ConfigParts) -> list[Finding]:
             if not name.strip():
                 continue  # an empty name is the schema's error, once
             if name in seen:
-                findings.append(error(path, f"'{name}' is already listed in this step at "
-                                      f"{format_path(seen[name])}; each position is fastened once "
-                                      "per step (add a second step for a second pass)"))
+                findings.append(
+                    error(
+                        path,
+                        f"'{name}' is already listed in this step at "
+                        f"{format_path(seen[name])}; each position is fastened once "
+                        "per step (add a second step for a second pass)",
+                    )
+                )
                 continue
             seen[name] = path
             finding = _zone_ref_finding(path, name, wanted, step.kind, zones)
@@ -91,8 +101,11 @@ def _zone_ref_finding(
         return None  # the zone's kind has its own error
     if zone.kind != wanted:
         article = "an" if step_kind[0] in "aeiou" else "a"
-        return error(path, f"'{name}' is a {zone.kind} zone, but {article} {step_kind} step "
-                     f"needs a {wanted} zone; {_listing(zones, wanted)}")
+        return error(
+            path,
+            f"'{name}' is a {zone.kind} zone, but {article} {step_kind} step "
+            f"needs a {wanted} zone; {_listing(zones, wanted)}",
+        )
     return None
 
 
@@ -130,14 +143,24 @@ def _timing_findings(parts: ConfigParts) -> list[Finding]:
     limits = parts.thresholds
     findings = []
     if limits.stale_frame_ms <= frame_ms:
-        findings.append(error(("thresholds", "stale_frame_ms"), (
-            f"{limits.stale_frame_ms:g} ms is not longer than one frame ({at_fps}); every frame "
-            "would count as stale and the tool would never be enabled")))
+        findings.append(
+            error(
+                ("thresholds", "stale_frame_ms"),
+                (
+                    f"{limits.stale_frame_ms:g} ms is not longer than one frame ({at_fps}); every frame "
+                    "would count as stale and the tool would never be enabled"
+                ),
+            )
+        )
     for name in ("dwell_ms", "lost_track_grace_ms"):
         value = getattr(limits, name)
         if 0 < value < frame_ms:
-            findings.append(warning(("thresholds", name), (
-                f"{value:g} ms is shorter than one frame ({at_fps}), so it acts as one frame")))
+            findings.append(
+                warning(
+                    ("thresholds", name),
+                    (f"{value:g} ms is shorter than one frame ({at_fps}), so it acts as one frame"),
+                )
+            )
     return findings
 
 

@@ -71,7 +71,8 @@ def _check_text(value: str) -> str:
 def _check_point(value: Any) -> Any:
     if not isinstance(value, list | tuple) or len(value) != 2:
         raise PydanticCustomError(
-            "point", "a point is a pair [x, y] of pixel numbers; got {got}",
+            "point",
+            "a point is a pair [x, y] of pixel numbers; got {got}",
             {"got": describe_value(value)},
         )
     return value
@@ -126,8 +127,9 @@ class _Section(BaseModel):
 class StationSection(_Section):
     name: Text
     reference_frame: Text = Field(description="image file, relative to the config file")
-    demo_data: Flag = Field(default=False,
-                            description="invented data: the step log and screens say so")
+    demo_data: Flag = Field(
+        default=False, description="invented data: the step log and screens say so"
+    )
 
 
 class CameraSection(_Section):
@@ -148,10 +150,10 @@ class ThresholdsSection(_Section):
 
     dwell_ms: Annotated[Number, hard("thresholds.dwell_ms")] = Thresholds.dwell_ms
     lost_track_grace_ms: Annotated[Number, hard("thresholds.lost_track_grace_ms")] = (
-        Thresholds.lost_track_grace_ms)
+        Thresholds.lost_track_grace_ms
+    )
     hysteresis_px: Annotated[Number, hard("thresholds.hysteresis_px")] = Thresholds.hysteresis_px
-    stale_frame_ms: Annotated[Number, hard("thresholds.stale_frame_ms")] = (
-        Thresholds.stale_frame_ms)
+    stale_frame_ms: Annotated[Number, hard("thresholds.stale_frame_ms")] = Thresholds.stale_frame_ms
     max_run_ms: Annotated[Number, hard("thresholds.max_run_ms")] = Thresholds.max_run_ms
 
 
@@ -184,8 +186,11 @@ class BoltCircleZones(_Section):
     def to_specs(self) -> list[ZoneSpec]:
         circle = self.bolt_circle
         polygons = bolt_pattern.bolt_circle_zones_px(
-            circle.centre_px, circle.radius_px, circle.count,
-            circle.start_angle_deg, circle.zone_size_px,
+            circle.centre_px,
+            circle.radius_px,
+            circle.count,
+            circle.start_angle_deg,
+            circle.zone_size_px,
         )
         label_prefix = circle.label_prefix.strip()
         return [
@@ -338,30 +343,38 @@ class PlantSection(_Section):
 
 class BinActivitySection(_Section):
     changed_fraction: Number = Field(
-        default=judgement_defaults.BinActivitySettings.changed_fraction, gt=0, le=1)
+        default=judgement_defaults.BinActivitySettings.changed_fraction, gt=0, le=1
+    )
     settle_ms: Annotated[Number, hard("judgements.bin_activity.settle_ms")] = (
-        judgement_defaults.BinActivitySettings.settle_ms)
+        judgement_defaults.BinActivitySettings.settle_ms
+    )
     release_ms: Annotated[Number, hard("judgements.bin_activity.release_ms")] = (
-        judgement_defaults.BinActivitySettings.release_ms)
+        judgement_defaults.BinActivitySettings.release_ms
+    )
     tool_reach_px: Annotated[Number, hard("judgements.bin_activity.tool_reach_px")] = (
-        judgement_defaults.BinActivitySettings.tool_reach_px)
+        judgement_defaults.BinActivitySettings.tool_reach_px
+    )
 
 
 class PresenceSection(_Section):
     min_match: Number = Field(default=judgement_defaults.PresenceSettings.min_match, ge=0, le=1)
     min_margin: Number = Field(default=judgement_defaults.PresenceSettings.min_margin, ge=0, le=2)
     confirm_ms: Annotated[Number, hard("judgements.presence.confirm_ms")] = (
-        judgement_defaults.PresenceSettings.confirm_ms)
+        judgement_defaults.PresenceSettings.confirm_ms
+    )
     search_px: Whole = Field(default=judgement_defaults.PresenceSettings.search_px, ge=0, le=32)
 
 
 class CameraShiftSection(_Section):
     tolerance_px: Number = Field(
-        default=judgement_defaults.CameraShiftSettings.tolerance_px, ge=0.5)
+        default=judgement_defaults.CameraShiftSettings.tolerance_px, ge=0.5
+    )
     interval_ms: Annotated[Number, hard("judgements.camera_shift.interval_ms")] = (
-        judgement_defaults.CameraShiftSettings.interval_ms)
+        judgement_defaults.CameraShiftSettings.interval_ms
+    )
     confirm_checks: Whole = Field(
-        default=judgement_defaults.CameraShiftSettings.confirm_checks, ge=1, le=20)
+        default=judgement_defaults.CameraShiftSettings.confirm_checks, ge=1, le=20
+    )
 
 
 _QUALITY = judgement_defaults.PictureQualitySettings
@@ -469,6 +482,10 @@ class StationConfig(_Section):
             max_run_ms=self.thresholds.max_run_ms,
         )
         steps: list[Step] = [step.to_step() for step in self.steps]
-        return StationPlan(zones=tuple(self.zone_specs()), steps=tuple(steps),
-                           thresholds=thresholds, station=self.station.name,
-                           demo_data=self.station.demo_data)
+        return StationPlan(
+            zones=tuple(self.zone_specs()),
+            steps=tuple(steps),
+            thresholds=thresholds,
+            station=self.station.name,
+            demo_data=self.station.demo_data,
+        )

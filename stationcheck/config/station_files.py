@@ -49,30 +49,44 @@ def teaching_folder(reference_frame: Path, zone_id: str) -> Path:
     return reference_frame.parent / zone_id
 
 
-def referenced_files(data: dict[str, Any], parts: ConfigParts,
-                     base_dir: Path) -> list[ReferencedFile]:
+def referenced_files(
+    data: dict[str, Any], parts: ConfigParts, base_dir: Path
+) -> list[ReferencedFile]:
     """Every file the config names (the teaching folders of its check zones included)."""
     found: list[ReferencedFile] = []
     reference = _text_at(data, "station", "reference_frame")
     if reference is not None:
-        found.append(ReferencedFile(("station", "reference_frame"), "reference frame",
-                                    reference, resolve_path(base_dir, reference)))
+        found.append(
+            ReferencedFile(
+                ("station", "reference_frame"),
+                "reference frame",
+                reference,
+                resolve_path(base_dir, reference),
+            )
+        )
     model = _text_at(data, "model", "path")
     if model is not None and model != BUNDLED_MODEL:
-        found.append(ReferencedFile(("model", "path"), "model file", model,
-                                    resolve_path(base_dir, model)))
+        found.append(
+            ReferencedFile(("model", "path"), "model file", model, resolve_path(base_dir, model))
+        )
     source = _text_at(data, "camera", "source")
     if source is not None and "://" not in source:
-        found.append(ReferencedFile(("camera", "source"), "video file", source,
-                                    resolve_path(base_dir, source)))
+        found.append(
+            ReferencedFile(
+                ("camera", "source"), "video file", source, resolve_path(base_dir, source)
+            )
+        )
     if reference is not None:
         frame = resolve_path(base_dir, reference)
         seen: set[str] = set()
         for zone in parts.zones:
             if zone.kind == "check" and zone.id not in seen:
                 seen.add(zone.id)
-                found.append(ReferencedFile(zone.path, "taught references", zone.id,
-                                            teaching_folder(frame, zone.id)))
+                found.append(
+                    ReferencedFile(
+                        zone.path, "taught references", zone.id, teaching_folder(frame, zone.id)
+                    )
+                )
     return found
 
 
@@ -92,7 +106,8 @@ def taught_image_files(folder: Path) -> list[str] | None:
     data = yaml_text.load_plain(text, str(manifest))
     images = data.get("images") if isinstance(data, dict) else None
     if not isinstance(images, list) or not all(
-            isinstance(item, dict) and isinstance(item.get("file"), str) for item in images):
+        isinstance(item, dict) and isinstance(item.get("file"), str) for item in images
+    ):
         raise ConfigError(f"{manifest}: 'images' must be a list of entries with a 'file'")
     return [item["file"] for item in images]
 
@@ -108,8 +123,11 @@ def _file_findings(ref: ReferencedFile, base_dir: Path) -> Iterator[Finding]:
     if ref.what != "taught references":
         if not ref.path.is_file():
             hint = "; run and replay need --video" if ref.what == "video file" else ""
-            yield (warning if ref.what == "video file" else error)(ref.where, f"{ref.what} '{ref.written}' not found: tried {ref.path} "
-                        f"(relative paths start at the config's folder {base_dir}){hint}")
+            yield (warning if ref.what == "video file" else error)(
+                ref.where,
+                f"{ref.what} '{ref.written}' not found: tried {ref.path} "
+                f"(relative paths start at the config's folder {base_dir}){hint}",
+            )
         return
     try:
         files = taught_image_files(ref.path)
@@ -117,16 +135,23 @@ def _file_findings(ref: ReferencedFile, base_dir: Path) -> Iterator[Finding]:
         yield error(ref.where, f"check zone '{ref.written}': {exc}")
         return
     if files is None:
-        yield warning(ref.where, f"check zone '{ref.written}' is not taught (no "
-                      f"{ref.path / MANIFEST_NAME}): its check stays undecided and no unit "
-                      "passes it; teach it (setup screen's Teach tab or 'stationcheck teach')")
+        yield warning(
+            ref.where,
+            f"check zone '{ref.written}' is not taught (no "
+            f"{ref.path / MANIFEST_NAME}): its check stays undecided and no unit "
+            "passes it; teach it (setup screen's Teach tab or 'stationcheck teach')",
+        )
         return
     missing = [name for name in files if not (ref.path / name).is_file()]
     if missing:
-        shown = ", ".join(missing[:5]) + (f" and {len(missing) - 5} more" if len(missing) > 5
-                                          else "")
-        yield error(ref.where, f"check zone '{ref.written}': {len(missing)} taught image(s) "
-                    f"listed in {ref.path / MANIFEST_NAME} not found: {shown}")
+        shown = ", ".join(missing[:5]) + (
+            f" and {len(missing) - 5} more" if len(missing) > 5 else ""
+        )
+        yield error(
+            ref.where,
+            f"check zone '{ref.written}': {len(missing)} taught image(s) "
+            f"listed in {ref.path / MANIFEST_NAME} not found: {shown}",
+        )
 
 
 def _text_at(data: dict[str, Any], section: str, key: str) -> str | None:

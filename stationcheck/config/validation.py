@@ -34,9 +34,7 @@ def check_file(path: Path | str, shown_as: str | None = None) -> CheckResult:
     return check_document(document, base_dir=path.resolve().parent, source=name)
 
 
-def check_data(
-    data: dict[str, Any], base_dir: Path, source: str = "<config>"
-) -> CheckResult:
+def check_data(data: dict[str, Any], base_dir: Path, source: str = "<config>") -> CheckResult:
     """Check a config held in memory (e.g. edited in a form); findings carry no lines."""
     return check_document(YamlDocument(data=data), base_dir=base_dir, source=source)
 
@@ -57,8 +55,9 @@ def check_document(document: YamlDocument, base_dir: Path, source: str) -> Check
     findings += lint_references(parts)
     findings += lint_files(document.data, parts, base_dir)
     located = [
-        f if f.line is not None else Finding(f.severity, f.path, f.message,
-                                             document.line_of(f.path))
+        f
+        if f.line is not None
+        else Finding(f.severity, f.path, f.message, document.line_of(f.path))
         for f in findings
     ]
     ordered = tuple(sort_findings(located, document.position_of))

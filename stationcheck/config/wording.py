@@ -95,17 +95,22 @@ def _plain_error(root: type[BaseModel], error: Any) -> PlainError:
         return PlainError(path, _unknown_key(path, raw_loc, root))
     if kind == "missing":
         if path == ("format_version",):
-            return PlainError(path, "required, but missing; start the file with "
-                              "'format_version: 1'")
+            return PlainError(
+                path, "required, but missing; start the file with 'format_version: 1'"
+            )
         return PlainError(path, "required, but missing from the file")
     if kind == "invalid_key":
         return PlainError(path, f"unknown key {value!r}; keys here are names, not numbers")
     if kind == "union_tag_not_found":
-        return PlainError(path + ("kind",), "missing; say which kind of step this is: "
-                          + _choices(_union_tags(root, raw_loc)))
+        return PlainError(
+            path + ("kind",),
+            "missing; say which kind of step this is: " + _choices(_union_tags(root, raw_loc)),
+        )
     if kind == "union_tag_invalid":
-        return PlainError(path + ("kind",), f"'{ctx.get('tag')}' is not a kind of step; use "
-                          + _choices(_expected_tags(ctx)))
+        return PlainError(
+            path + ("kind",),
+            f"'{ctx.get('tag')}' is not a kind of step; use " + _choices(_expected_tags(ctx)),
+        )
     message = _value_message(kind, value, ctx, error.get("msg", ""))
     if kind == "too_short" and path in _EMPTY_SECTION_HINTS and not value:
         message += f": {_EMPTY_SECTION_HINTS[path]}"

@@ -54,14 +54,19 @@ class _LimitedComposer(Composer):
         if isinstance(event, AliasEvent):
             self.aliases += 1
             if self.aliases > MAX_ALIASES:
-                raise LimitError(None, None, f"more than {MAX_ALIASES} aliases (*name)",
-                                 event.start_mark)
+                raise LimitError(
+                    None, None, f"more than {MAX_ALIASES} aliases (*name)", event.start_mark
+                )
         else:
             tag = getattr(event, "tag", None)
             if tag is not None and tag not in PLAIN_TAGS:
                 shown = tag.replace(_CORE, "!!")
-                raise LimitError(None, None, f"the tag {shown} is not taken here; write plain "
-                                 "values, mappings and lists", event.start_mark)
+                raise LimitError(
+                    None,
+                    None,
+                    f"the tag {shown} is not taken here; write plain values, mappings and lists",
+                    event.start_mark,
+                )
             self.nodes += 1
             if self.nodes > MAX_NODES:
                 raise LimitError(None, None, f"more than {MAX_NODES} values", event.start_mark)
@@ -99,15 +104,20 @@ def compose(text: str, name: str) -> Node | None:
         ConfigError: not YAML, past a limit, or more than one document; names file and line.
     """
     if len(text) > MAX_FILE_BYTES:
-        raise ConfigError(f"{name}: larger than {MAX_FILE_BYTES // (1024 * 1024)} MB; a "
-                          "station file is far smaller")
+        raise ConfigError(
+            f"{name}: larger than {MAX_FILE_BYTES // (1024 * 1024)} MB; a "
+            "station file is far smaller"
+        )
     try:
         with warnings.catch_warnings():
             warnings.simplefilter("ignore", ReusedAnchorWarning)
             try:
                 fast = _events(text)
-                node: Node | None = (_LimitedComposer(loader=fast).get_single_node()
-                                     if fast is not None else _reader("safe").compose(text))
+                node: Node | None = (
+                    _LimitedComposer(loader=fast).get_single_node()
+                    if fast is not None
+                    else _reader("safe").compose(text)
+                )
             except MarkedYAMLError:  # the pure parser words syntax errors more exactly
                 node = _reader("safe").compose(text)
     except MarkedYAMLError as exc:
@@ -147,20 +157,26 @@ def _check_expanded(root: Node, name: str) -> None:
             open_nodes.discard(key)
             sizes[key] = 1 + sum(sizes[id(child)] for child in children)
             if sizes[key] > MAX_NODES:
-                raise ConfigError(f"{name}:{node.start_mark.line + 1}: not taken: its aliases "
-                                  f"stand for more than {MAX_NODES} values (an alias bomb?)")
+                raise ConfigError(
+                    f"{name}:{node.start_mark.line + 1}: not taken: its aliases "
+                    f"stand for more than {MAX_NODES} values (an alias bomb?)"
+                )
             continue
         if key in sizes:
             continue
         if key in open_nodes:
-            raise ConfigError(f"{name}:{node.start_mark.line + 1}: not taken: an alias refers "
-                              "to the mapping or list it is in")
+            raise ConfigError(
+                f"{name}:{node.start_mark.line + 1}: not taken: an alias refers "
+                "to the mapping or list it is in"
+            )
         open_nodes.add(key)
         stack.append((node, True))
         for child in children:
             if id(child) in open_nodes:
-                raise ConfigError(f"{name}:{child.start_mark.line + 1}: not taken: an alias "
-                                  "refers to the mapping or list it is in")
+                raise ConfigError(
+                    f"{name}:{child.start_mark.line + 1}: not taken: an alias "
+                    "refers to the mapping or list it is in"
+                )
             if id(child) not in sizes:
                 stack.append((child, False))
 
@@ -198,7 +214,7 @@ def _tab_at(text: str, mark: Any) -> bool:
         return False
     lines = text.split("\n")
     line = lines[mark.line] if 0 <= mark.line < len(lines) else ""
-    return line[mark.column:mark.column + 1] == "\t"
+    return line[mark.column : mark.column + 1] == "\t"
 
 
 def flow_list(items: Iterable[Any]) -> CommentedSeq:

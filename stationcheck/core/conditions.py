@@ -233,8 +233,11 @@ def _cut_run(tx: Transaction, reason: str) -> None:
     tx.set_control(running_for=None, run_cut=reason)
     if reason == "tip_left_during_run" and target is not None:
         where = tx.index.label(target.ref.zone)
-        tx.alarm("tip_left_during_run", subject=target.ref.zone,
-                 message=f"the tip left {where} while the tool ran; enable dropped")
+        tx.alarm(
+            "tip_left_during_run",
+            subject=target.ref.zone,
+            message=f"the tip left {where} while the tool ran; enable dropped",
+        )
 
 
 def update_enable(tx: Transaction) -> None:

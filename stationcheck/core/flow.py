@@ -169,7 +169,10 @@ def end_unit(
         alarms=list(unit.alarms),
     )
     tx.set_control(
-        enabled_for=None, running_for=None, attempt_started_t_s=None, result_pending=False,
+        enabled_for=None,
+        running_for=None,
+        attempt_started_t_s=None,
+        result_pending=False,
         credit_for=None,
     )
     tx.set(check_verdict=None)

@@ -125,8 +125,9 @@ def _reject(tx: Transaction, obs: TighteningResult, reason: str = "not_enabled")
         angle_deg=obs.angle_deg,
         sequence=obs.sequence,
     )
-    tx.set_control(running_for=None, result_pending=False, credit_for=None,
-                   result_status=f"rejected_{reason}")
+    tx.set_control(
+        running_for=None, result_pending=False, credit_for=None, result_status=f"rejected_{reason}"
+    )
 
 
 REJECT_REASONS: dict[str, str] = {
@@ -177,7 +178,7 @@ def take_result(tx: Transaction, obs: TighteningResult) -> None:
             "result_of_cut_run",
             subject=target.ref.zone,
             message=f"result for {tx.index.label(target.ref.zone)} after its enable was cut "
-                    f"({control.run_cut}); check the fastener",
+            f"({control.run_cut}); check the fastener",
         )
     if obs.ok and not within:
         tx.alarm(
@@ -236,8 +237,7 @@ def note_running(tx: Transaction, obs: ToolRunning) -> None:
         )
         tx.emit("run_started", step=target.ref.step, zone=target.ref.zone, position=target.number)
         return
-    tx.set_control(running=True, result_pending=False, credit_for=None,
-                   run_started_t_s=tx.now_t_s)
+    tx.set_control(running=True, result_pending=False, credit_for=None, run_started_t_s=tx.now_t_s)
     tx.alarm(
         "ran_while_inhibited",
         subject="",
@@ -290,7 +290,11 @@ def judge_check(tx: Transaction, obs: CheckVerdict) -> None:
     health = tx.state.health
     if obs.verdict == step.expect and not health.camera_moved and health.cannot_judge is None:
         complete_step(
-            tx, RESULT_OK, zone=step.zone, expect=step.expect, verdict=obs.verdict,
+            tx,
+            RESULT_OK,
+            zone=step.zone,
+            expect=step.expect,
+            verdict=obs.verdict,
             margin=obs.margin,
         )
 
@@ -337,13 +341,22 @@ def note_camera(tx: Transaction, obs: CameraMoved) -> None:
 def note_picture(tx: Transaction, obs: PictureState) -> None:
     """The picture's state; its figures go to the open unit's log."""
     reason = obs.reason or "poor picture"
-    tx.set_health(cannot_judge=None if obs.judgeable else reason,
-                  camera_unchecked=None if obs.camera_checkable else reason)
+    tx.set_health(
+        cannot_judge=None if obs.judgeable else reason,
+        camera_unchecked=None if obs.camera_checkable else reason,
+    )
     if tx.unit is not None and tx.unit.is_open:
-        tx.emit("picture_quality", judgeable=obs.judgeable,
-                camera_checkable=obs.camera_checkable, reason=obs.reason,
-                brightness=obs.brightness, contrast=obs.contrast, noise_sigma=obs.noise_sigma,
-                sharpness=obs.sharpness, blockiness=obs.blockiness)
+        tx.emit(
+            "picture_quality",
+            judgeable=obs.judgeable,
+            camera_checkable=obs.camera_checkable,
+            reason=obs.reason,
+            brightness=obs.brightness,
+            contrast=obs.contrast,
+            noise_sigma=obs.noise_sigma,
+            sharpness=obs.sharpness,
+            blockiness=obs.blockiness,
+        )
 
 
 def note_link(tx: Transaction, obs: LinkStatus) -> None:

@@ -78,8 +78,9 @@ class Tracker:
             tip = None
         if tip is not None:
             state = self._follow(state, keypoints, tip, t_s)
-            return state, self._pose(state, keypoints, seen=True, score=tip.score,
-                                     measured_tip_px=(tip.x_px, tip.y_px))
+            return state, self._pose(
+                state, keypoints, seen=True, score=tip.score, measured_tip_px=(tip.x_px, tip.y_px)
+            )
         grace_ms = self.settings.lost_track_grace_ms
         if (
             state.tip is not None
@@ -132,7 +133,12 @@ class Tracker:
         )
 
     def _pose(
-        self, state: TrackerState, keypoints: Keypoints, *, seen: bool, score: float,
+        self,
+        state: TrackerState,
+        keypoints: Keypoints,
+        *,
+        seen: bool,
+        score: float,
         measured_tip_px: tuple[float, float] | None = None,
     ) -> ToolPose:
         assert state.tip is not None and state.last_seen_t_s is not None

@@ -79,8 +79,9 @@ class Transaction:
         """Raise an alarm of the catalogue in :mod:`alarms` (its number and severity go along)."""
         info = ALARMS[code]
         if not info.condition:
-            self.state = replace(self.state, last_event=code,
-                                 event_count=self.state.event_count + 1)
+            self.state = replace(
+                self.state, last_event=code, event_count=self.state.event_count + 1
+            )
         self.emit(
             "alarm_raised",
             code=code,

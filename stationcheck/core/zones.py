@@ -131,8 +131,13 @@ class ZoneMap:
             seen=pose.seen,
         )
 
-    def _visit(self, state: ZoneVisit, tip_px: tuple[float, float], t_s: float,
-               measured_px: tuple[float, float] | None = None) -> ZoneVisit:
+    def _visit(
+        self,
+        state: ZoneVisit,
+        tip_px: tuple[float, float],
+        t_s: float,
+        measured_px: tuple[float, float] | None = None,
+    ) -> ZoneVisit:
         """A visit goes on while the smoothed tip and this frame's measured tip (when seen)
         are both within the hysteresis: the smoothing lags a tip that starts to move, and a
         tip that truly left must not keep the enable for that lag."""
@@ -140,8 +145,10 @@ class ZoneMap:
             state.zone is not None
             and state.zone in self._index
             and -self.signed_distance_px(state.zone, tip_px) <= self.hysteresis_px
-            and (measured_px is None
-                 or -self.signed_distance_px(state.zone, measured_px) <= self.hysteresis_px)
+            and (
+                measured_px is None
+                or -self.signed_distance_px(state.zone, measured_px) <= self.hysteresis_px
+            )
         ):
             return state
         inside = self.zones_at(tip_px)

@@ -20,18 +20,25 @@ from stationcheck.demo_station.station_scene import REFERENCE_STATE, StationScen
 from stationcheck.errors import InputFileError
 
 
-def empty_station_frames(seconds: float, seed: int = 7, fps: float = layout.FPS,
-                         encoded: bool = True) -> Iterator[Frame]:
+def empty_station_frames(
+    seconds: float, seed: int = 7, fps: float = layout.FPS, encoded: bool = True
+) -> Iterator[Frame]:
     """``seconds`` of the empty station; ``encoded`` passes them through an mp4v file first."""
-    camera = Camera(layout.FRAME_WIDTH_PX, layout.FRAME_HEIGHT_PX, seed + 5, NOISE_SIGMA,
-                    lens_blur_px=LENS_BLUR_PX)
+    camera = Camera(
+        layout.FRAME_WIDTH_PX,
+        layout.FRAME_HEIGHT_PX,
+        seed + 5,
+        NOISE_SIGMA,
+        lens_blur_px=LENS_BLUR_PX,
+    )
     scene = StationScene().image(REFERENCE_STATE)
     count = round(seconds * fps)
 
     def develop(index: int) -> np.ndarray:
         t = index / fps
-        exposure = Exposure(1.0 + 0.035 * math.sin(2 * math.pi * t / 19.0)
-                            + 0.012 * math.sin(2 * math.pi * t / 4.3))
+        exposure = Exposure(
+            1.0 + 0.035 * math.sin(2 * math.pi * t / 19.0) + 0.012 * math.sin(2 * math.pi * t / 4.3)
+        )
         rng = np.random.default_rng((seed, index))
         return camera.develop(scene, CameraTransform(), exposure, rng)
 

@@ -40,8 +40,9 @@ class Look:
         if not 0.05 <= self.gain <= 4.0:
             raise ValueError(f"Look.gain must be in [0.05, 4], got {self.gain!r}")
         if len(self.cast_bgr) != 3 or not all(0.2 <= c <= 3.0 for c in self.cast_bgr):
-            raise ValueError(f"Look.cast_bgr must be three factors in [0.2, 3], got "
-                             f"{self.cast_bgr!r}")
+            raise ValueError(
+                f"Look.cast_bgr must be three factors in [0.2, 3], got {self.cast_bgr!r}"
+            )
         if not 0.0 <= self.vignette <= 0.9:
             raise ValueError(f"Look.vignette must be in [0, 0.9], got {self.vignette!r}")
         if not 0.0 <= self.noise_sigma <= 40.0:
@@ -104,8 +105,11 @@ class LookFilter:
         self._light = np.ascontiguousarray(light[:, :, None] * cast[None, None, :], np.float32)
         self._plain_light = look.vignette == 0.0 and look.cast_bgr == (1.0, 1.0, 1.0)
         rng = np.random.default_rng(seed)
-        self._noise = (textures.NoiseBank(rng, height_px, width_px, look.noise_sigma)
-                       if look.noise_sigma > 0 else None)
+        self._noise = (
+            textures.NoiseBank(rng, height_px, width_px, look.noise_sigma)
+            if look.noise_sigma > 0
+            else None
+        )
 
     def apply(self, image: U8Image, rng: np.random.Generator) -> U8Image:
         """The frame as this camera would deliver it (uint8 BGR; the input is not modified)."""

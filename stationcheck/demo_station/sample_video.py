@@ -107,8 +107,13 @@ class FrameRenderer:
             lens_blur_px=LENS_BLUR_PX,
         )
         look = production.script.look
-        self._look = None if look.is_plain else LookFilter(
-            look, layout.FRAME_WIDTH_PX, layout.FRAME_HEIGHT_PX, production.script.seed + 11)
+        self._look = (
+            None
+            if look.is_plain
+            else LookFilter(
+                look, layout.FRAME_WIDTH_PX, layout.FRAME_HEIGHT_PX, production.script.seed + 11
+            )
+        )
         self._part_shadows = {
             k: SoftShadow.of(self.scene.part(k)[0], 4.0) for k in ("gasket", "cover")
         }

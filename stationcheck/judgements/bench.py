@@ -91,14 +91,45 @@ def measure(options: BenchOptions) -> list[BenchRow]:
     costs = measure_costs(load_config(DEMO_CONFIG), video, options.frames_or(DEFAULT_FRAMES))
     rows = []
     for name in COST_NAMES:
-        rows.append(BenchRow(SECTION_NAME, f"{name} per frame", costs.median_ms[name],
-                             costs.p99_ms[name], "ms"))
-        rows.append(BenchRow(SECTION_NAME, f"{name} amortised (mean per frame)",
-                             costs.mean_ms[name], None, "ms"))
-    rows.append(BenchRow(SECTION_NAME, "camera_shift per check", costs.camera_check_ms, None,
-                         "ms", extra={"checks": float(costs.camera_checks)}))
-    rows.append(BenchRow(SECTION_NAME, "all judgements per frame", costs.total_median_ms,
-                         costs.total_p99_ms, "ms", TARGET_MEDIAN))
-    rows.append(BenchRow(SECTION_NAME, "all judgements amortised per frame", costs.total_mean_ms,
-                         None, "ms", TARGET, extra={"frames": float(costs.frames)}))
+        rows.append(
+            BenchRow(
+                SECTION_NAME, f"{name} per frame", costs.median_ms[name], costs.p99_ms[name], "ms"
+            )
+        )
+        rows.append(
+            BenchRow(
+                SECTION_NAME, f"{name} amortised (mean per frame)", costs.mean_ms[name], None, "ms"
+            )
+        )
+    rows.append(
+        BenchRow(
+            SECTION_NAME,
+            "camera_shift per check",
+            costs.camera_check_ms,
+            None,
+            "ms",
+            extra={"checks": float(costs.camera_checks)},
+        )
+    )
+    rows.append(
+        BenchRow(
+            SECTION_NAME,
+            "all judgements per frame",
+            costs.total_median_ms,
+            costs.total_p99_ms,
+            "ms",
+            TARGET_MEDIAN,
+        )
+    )
+    rows.append(
+        BenchRow(
+            SECTION_NAME,
+            "all judgements amortised per frame",
+            costs.total_mean_ms,
+            None,
+            "ms",
+            TARGET,
+            extra={"frames": float(costs.frames)},
+        )
+    )
     return rows

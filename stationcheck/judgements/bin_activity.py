@@ -85,17 +85,24 @@ class BinReading:
 class BinActivityJudge:
     """One bin zone. Call :meth:`measure` on every frame, then :meth:`decide`."""
 
-    def __init__(self, zone_id: str, polygon_px: Sequence[tuple[float, float]],
-                 frame_size_px: tuple[int, int], settings: BinActivitySettings,
-                 empty_bgr: U8Array | None = None) -> None:
+    def __init__(
+        self,
+        zone_id: str,
+        polygon_px: Sequence[tuple[float, float]],
+        frame_size_px: tuple[int, int],
+        settings: BinActivitySettings,
+        empty_bgr: U8Array | None = None,
+    ) -> None:
         width, height = frame_size_px
         self.zone_id = zone_id
         self.settings = settings
         self.window = zone_window(zone_id, polygon_px, width, height)
         x0, y0, x1, y1 = zone_box_px(polygon_px)
         self._box_px = (float(x0), float(y0), float(x1), float(y1))
-        self._cells = (max(1, self.window.width_px // CELL_PX),
-                       max(1, self.window.height_px // CELL_PX))
+        self._cells = (
+            max(1, self.window.width_px // CELL_PX),
+            max(1, self.window.height_px // CELL_PX),
+        )
         mask = cv2.resize(self.window.mask, self._cells, interpolation=cv2.INTER_AREA)
         self._inside = np.asarray(mask, np.uint8) >= 128
         if not self._inside.any():
@@ -176,8 +183,9 @@ class BinActivityJudge:
             self._variance = np.full_like(background, max(START_SIGMA, spread) ** 2)
             self._learn_until_t_s = t_s + (LEARN_S if spread > LIKE_SPREAD else 0.0)
         learning = t_s < self._learn_until_t_s - 1e-9
-        threshold = np.maximum(np.float32(MIN_LEVELS),
-                               np.float32(K_SIGMA) * np.sqrt(self._variance))
+        threshold = np.maximum(
+            np.float32(MIN_LEVELS), np.float32(K_SIGMA) * np.sqrt(self._variance)
+        )
         changed = (np.abs(residual) > threshold) & inside
         fraction = float(changed.sum()) / self._count
         floor = float(K_SIGMA * np.sqrt(np.median(self._variance[inside])))
@@ -188,28 +196,41 @@ class BinActivityJudge:
         judgeable = floor <= MAX_FLOOR_LEVELS
         return BinReading(fraction, judgeable and fraction >= limit, floor, judgeable)
 
-    def _update(self, t_s: float, dt_s: float, levels: F32Array, residual: F32Array,
-                changed: npt.NDArray[np.bool_], threshold: F32Array, learning: bool) -> None:
+    def _update(
+        self,
+        t_s: float,
+        dt_s: float,
+        levels: F32Array,
+        residual: F32Array,
+        changed: npt.NDArray[np.bool_],
+        threshold: F32Array,
+        learning: bool,
+    ) -> None:
         if learning:
             like = np.abs(levels - self._reference) <= LIKE_REFERENCE * np.maximum(
-                self._reference, 16.0)
+                self._reference, 16.0
+            )
             rate = np.float32(LEARN_RATE)
             self._background += rate * np.where(like, residual, 0.0).astype(np.float32)
-            self._variance += rate * np.where(like, residual**2 - self._variance,
-                                              0.0).astype(np.float32)
+            self._variance += rate * np.where(like, residual**2 - self._variance, 0.0).astype(
+                np.float32
+            )
         else:
             rate = np.float32(min(0.5, dt_s / CALM_S))
             calm = ~changed
             if not self.active:
                 self._background += rate * np.where(calm, residual, 0.0).astype(np.float32)
-                self._variance += rate * np.where(calm, residual**2 - self._variance,
-                                                  0.0).astype(np.float32)
+                self._variance += rate * np.where(calm, residual**2 - self._variance, 0.0).astype(
+                    np.float32
+                )
         previous, self._previous = self._previous, levels
         if previous is None:
             return
         still = np.abs(levels - previous) <= threshold
-        self._still_since = np.where(still & changed, np.where(
-            self._still_since > 0, self._still_since, np.float32(t_s + 1e-3)), 0.0
+        self._still_since = np.where(
+            still & changed,
+            np.where(self._still_since > 0, self._still_since, np.float32(t_s + 1e-3)),
+            0.0,
         ).astype(np.float32)
         still_s = AWAY_STILL_S if self._tool_away(t_s) else STILL_S
         settled = (self._still_since > 0) & (t_s + 1e-3 - self._still_since >= still_s)
@@ -224,8 +245,9 @@ class BinActivityJudge:
         since = t_s if self._changed_since is None else self._changed_since
         return t_s - since >= self.settings.settle_ms / 1000.0 - 1e-9
 
-    def decide(self, t_s: float, reading: BinReading,
-               suppressed: bool = False) -> BinActivity | None:
+    def decide(
+        self, t_s: float, reading: BinReading, suppressed: bool = False
+    ) -> BinActivity | None:
         """The observation when the bin's state changes at ``t_s``, else None. ``suppressed``
         (e.g. the camera may have moved, the picture cannot be judged) forces it inactive."""
         settings = self.settings
@@ -260,7 +282,6 @@ class BinActivityJudge:
         return BinActivity(t_s=t_s, zone=self.zone_id, active=active)
 
     def _levels(self, image_bgr: U8Array) -> F32Array:
-        grey = cv2.cvtColor(np.asarray(self.window.crop(image_bgr), np.uint8),
-                            cv2.COLOR_BGR2GRAY)
+        grey = cv2.cvtColor(np.asarray(self.window.crop(image_bgr), np.uint8), cv2.COLOR_BGR2GRAY)
         cells = cv2.resize(grey.astype(np.float32), self._cells, interpolation=cv2.INTER_AREA)
         return np.asarray(cells, np.float32)

@@ -83,16 +83,23 @@ class ShiftEstimate:
         return float(moved[0] - point_px[0]), float(moved[1] - point_px[1])
 
 
-def fit_similarity(reference_px: npt.ArrayLike, live_px: npt.ArrayLike,
-                   threshold_px: float = RANSAC_PX) -> Fit | None:
+def fit_similarity(
+    reference_px: npt.ArrayLike, live_px: npt.ArrayLike, threshold_px: float = RANSAC_PX
+) -> Fit | None:
     """RANSAC similarity from matched points (N x 2 each); (matrix, inlier mask) or None."""
     src = np.asarray(reference_px, np.float64).reshape(-1, 2)
     dst = np.asarray(live_px, np.float64).reshape(-1, 2)
     if len(src) < 3 or len(src) != len(dst):
         return None
     matrix, inliers = cv2.estimateAffinePartial2D(
-        src, dst, method=cv2.RANSAC, ransacReprojThreshold=threshold_px, maxIters=2000,
-        confidence=0.995, refineIters=10)
+        src,
+        dst,
+        method=cv2.RANSAC,
+        ransacReprojThreshold=threshold_px,
+        maxIters=2000,
+        confidence=0.995,
+        refineIters=10,
+    )
     if matrix is None or inliers is None:
         return None
     return np.asarray(matrix, np.float64), inliers.ravel().astype(bool)
@@ -134,8 +141,9 @@ class ReferenceView:
         self.size_px = (int(reference.shape[1]), int(reference.shape[0]))
         self.scale = scale
         self.corners_px = np.asarray([p for z in zones for p in z.polygon_px], np.float64)
-        self._orb = cv2.ORB.create(nfeatures=ORB_FEATURES, nlevels=ORB_LEVELS,
-                                   fastThreshold=FAST_THRESHOLD)
+        self._orb = cv2.ORB.create(
+            nfeatures=ORB_FEATURES, nlevels=ORB_LEVELS, fastThreshold=FAST_THRESHOLD
+        )
         self._matcher = cv2.BFMatcher(cv2.NORM_HAMMING)
         self._static_mask = _outside_zones_mask(self.size_px, zones, scale)
         self.live_features = 0  # ORB features in the last live frame looked at
@@ -144,15 +152,19 @@ class ReferenceView:
         self._points_px = np.asarray([k.pt for k in keypoints], np.float64) / scale
         self._descriptors = descriptors
         if len(keypoints) < MIN_INLIERS:
-            logger.warning("the reference frame has only %d usable features outside the zones; "
-                           "camera moves may go unnoticed", len(keypoints))
+            logger.warning(
+                "the reference frame has only %d usable features outside the zones; "
+                "camera moves may go unnoticed",
+                len(keypoints),
+            )
 
     @property
     def feature_count(self) -> int:
         return len(self._points_px)
 
-    def estimate(self, image: U8Array,
-                 ignore_circles_px: Sequence[Circle] = ()) -> ShiftEstimate | None:
+    def estimate(
+        self, image: U8Array, ignore_circles_px: Sequence[Circle] = ()
+    ) -> ShiftEstimate | None:
         """Reference -> live transform for a frame (BGR or grey), or None when too few features
         agree. ``ignore_circles_px`` ((x, y, radius) in live pixels, e.g. around the tool) are
         left out."""
@@ -169,8 +181,9 @@ class ReferenceView:
         """The last live frame (tried with ORB) showed too few features to check the camera."""
         return self.live_features < FEW_FEATURES * max(MIN_INLIERS, self.feature_count)
 
-    def _fit(self, src: F64Array, dst: F64Array, min_inliers: int,
-             method: str) -> ShiftEstimate | None:
+    def _fit(
+        self, src: F64Array, dst: F64Array, min_inliers: int, method: str
+    ) -> ShiftEstimate | None:
         fitted = fit_similarity(src, dst)
         if fitted is None or int(fitted[1].sum()) < min_inliers:
             return None
@@ -179,11 +192,18 @@ class ReferenceView:
         residual = float(np.median(errors))
         if residual > MAX_RESIDUAL_PX:
             return None
-        return ShiftEstimate(matrix, displacement_px(matrix, self.corners_px),
-                             int(inliers.sum()), len(src), residual, method)
+        return ShiftEstimate(
+            matrix,
+            displacement_px(matrix, self.corners_px),
+            int(inliers.sum()),
+            len(src),
+            residual,
+            method,
+        )
 
-    def _estimate_orb(self, image: U8Array,
-                      ignore_circles_px: Sequence[Circle]) -> ShiftEstimate | None:
+    def _estimate_orb(
+        self, image: U8Array, ignore_circles_px: Sequence[Circle]
+    ) -> ShiftEstimate | None:
         self.live_features = 0
         if self._descriptors is None:
             return None
@@ -191,15 +211,23 @@ class ReferenceView:
         if ignore_circles_px:
             mask = mask.copy()
             for x, y, radius in ignore_circles_px:
-                cv2.circle(mask, (round(x * self.scale), round(y * self.scale)),
-                           max(1, round(radius * self.scale)), 0, -1)
+                cv2.circle(
+                    mask,
+                    (round(x * self.scale), round(y * self.scale)),
+                    max(1, round(radius * self.scale)),
+                    0,
+                    -1,
+                )
         keypoints, descriptors = self._features(image, mask)
         self.live_features = len(keypoints)
         if descriptors is None or len(keypoints) < 2:
             return None
         pairs = self._matcher.knnMatch(self._descriptors, descriptors, k=2)
-        good = [pair[0] for pair in pairs
-                if len(pair) == 2 and pair[0].distance < RATIO * pair[1].distance]
+        good = [
+            pair[0]
+            for pair in pairs
+            if len(pair) == 2 and pair[0].distance < RATIO * pair[1].distance
+        ]
         if len(good) < MIN_INLIERS:
             return None
         src = self._points_px[[m.queryIdx for m in good]]
@@ -213,15 +241,17 @@ class ReferenceView:
             return np.asarray(grey, np.uint8)
         return np.asarray(cv2.resize(grey, size, interpolation=cv2.INTER_AREA), np.uint8)
 
-    def _features(self, image: U8Array,
-                  mask: U8Array) -> tuple[Sequence[cv2.KeyPoint], U8Array | None]:
+    def _features(
+        self, image: U8Array, mask: U8Array
+    ) -> tuple[Sequence[cv2.KeyPoint], U8Array | None]:
         small = self._grey(image)
         keypoints, descriptors = self._orb.detectAndCompute(small, mask)
         return keypoints, None if descriptors is None else np.asarray(descriptors, np.uint8)
 
 
-def _outside_zones_mask(size_px: tuple[int, int], zones: Sequence[ZoneSpec],
-                        scale: float) -> U8Array:
+def _outside_zones_mask(
+    size_px: tuple[int, int], zones: Sequence[ZoneSpec], scale: float
+) -> U8Array:
     width, height = round(size_px[0] * scale), round(size_px[1] * scale)
     mask = np.full((height, width), 255, np.uint8)
     for zone in zones:
@@ -255,14 +285,20 @@ class CameraShiftJudge:
 
     def due(self, t_s: float) -> bool:
         last = self._last_check_t_s
-        return (last is None or self.suspect
-                or t_s - last >= self.settings.interval_ms / 1000.0 - 1e-9)
+        return (
+            last is None or self.suspect or t_s - last >= self.settings.interval_ms / 1000.0 - 1e-9
+        )
 
     def checked_at(self, t_s: float) -> bool:
         return self._last_check_t_s == t_s
 
-    def check(self, t_s: float, image: U8Array, ignore_circles_px: Sequence[Circle] = (),
-              picture_poor: bool = False) -> CameraMoved | None:
+    def check(
+        self,
+        t_s: float,
+        image: U8Array,
+        ignore_circles_px: Sequence[Circle] = (),
+        picture_poor: bool = False,
+    ) -> CameraMoved | None:
         """Estimate now on a frame (BGR or grey); the observation when the state changes.
         ``picture_poor``: the picture is known to be too dark, flat or noisy to trust."""
         self._last_check_t_s = t_s
@@ -273,8 +309,11 @@ class CameraShiftJudge:
         self.unchecked = False
         self.last = estimate
         tolerance = self.settings.tolerance_px
-        disagrees = (estimate.shift_px < CLEAR_RATIO * tolerance if self.moved
-                     else estimate.shift_px > tolerance)
+        disagrees = (
+            estimate.shift_px < CLEAR_RATIO * tolerance
+            if self.moved
+            else estimate.shift_px > tolerance
+        )
         self._streak = self._streak + 1 if disagrees else 0
         if self._streak < self.settings.confirm_checks:
             return None
@@ -295,13 +334,19 @@ class CameraShiftJudge:
         self.unchecked = False
         if self.moved or blind_s < BLIND_S:
             return None
-        logger.warning("no usable camera-shift estimate for %.1f s; counting the camera as moved",
-                       t_s - self._blind_since_t_s)
+        logger.warning(
+            "no usable camera-shift estimate for %.1f s; counting the camera as moved",
+            t_s - self._blind_since_t_s,
+        )
         shift = self.last.shift_px if self.last is not None else 0.0
         return self._switch(t_s, True, shift)
 
     def _switch(self, t_s: float, moved: bool, shift_px: float) -> CameraMoved:
         self.moved = moved
-        logger.info("camera %s at %.3f s (shift %.1f px at the zones)",
-                    "moved" if moved else "back in place", t_s, shift_px)
+        logger.info(
+            "camera %s at %.3f s (shift %.1f px at the zones)",
+            "moved" if moved else "back in place",
+            t_s,
+            shift_px,
+        )
         return CameraMoved(t_s=t_s, moved=moved, shift_px=round(max(0.0, shift_px), 2))

@@ -32,28 +32,43 @@ STAGES: tuple[Stage, ...] = ("empty", "gasket", "cover")
 NOISE_SIGMA = 2.6
 
 
-def render_teaching_frames(per_class: int = 8,
-                           seed: int = SEED) -> list[tuple[Label, U8Array, str]]:
+def render_teaching_frames(
+    per_class: int = 8, seed: int = SEED
+) -> list[tuple[Label, U8Array, str]]:
     """``per_class`` frames with the pin engaged ('present') and as many pulled ('absent')."""
     scene = StationScene()
     rng = np.random.default_rng(seed)
     frames: list[tuple[Label, U8Array, str]] = []
     for k in range(2 * per_class):
         label: Label = "present" if k % 2 == 0 else "absent"
-        camera = Camera(layout.FRAME_WIDTH_PX, layout.FRAME_HEIGHT_PX, seed + 100 + k,
-                        NOISE_SIGMA, vignette=float(rng.uniform(0.12, 0.32)),
-                        light_from=(float(rng.uniform(0.1, 0.9)), float(rng.uniform(0.0, 0.5))),
-                        falloff=float(rng.uniform(0.05, 0.25)))
+        camera = Camera(
+            layout.FRAME_WIDTH_PX,
+            layout.FRAME_HEIGHT_PX,
+            seed + 100 + k,
+            NOISE_SIGMA,
+            vignette=float(rng.uniform(0.12, 0.32)),
+            light_from=(float(rng.uniform(0.1, 0.9)), float(rng.uniform(0.0, 0.5))),
+            falloff=float(rng.uniform(0.05, 0.25)),
+        )
         state = StationState(stage=STAGES[k % 3], pin_engaged=label == "present")
         gain = GAINS[(k // 2) % len(GAINS)]
-        tint = (float(rng.uniform(0.9, 1.1)), float(rng.uniform(0.95, 1.05)),
-                float(rng.uniform(0.9, 1.1)))
-        pose = CameraTransform(float(rng.uniform(-1.0, 1.0)), float(rng.uniform(-1.0, 1.0)),
-                               float(rng.uniform(-0.15, 0.15)))
-        image = camera.develop(scene.image(state), pose, Exposure(gain, tint),
-                               np.random.default_rng((seed, k)))
-        source = (f"{DEMO_SOURCE} (seed {seed}, #{k}, gain {gain:.2f}, "
-                  f"camera dx {pose.dx_px:+.2f} dy {pose.dy_px:+.2f} px)")
+        tint = (
+            float(rng.uniform(0.9, 1.1)),
+            float(rng.uniform(0.95, 1.05)),
+            float(rng.uniform(0.9, 1.1)),
+        )
+        pose = CameraTransform(
+            float(rng.uniform(-1.0, 1.0)),
+            float(rng.uniform(-1.0, 1.0)),
+            float(rng.uniform(-0.15, 0.15)),
+        )
+        image = camera.develop(
+            scene.image(state), pose, Exposure(gain, tint), np.random.default_rng((seed, k))
+        )
+        source = (
+            f"{DEMO_SOURCE} (seed {seed}, #{k}, gain {gain:.2f}, "
+            f"camera dx {pose.dx_px:+.2f} dy {pose.dy_px:+.2f} px)"
+        )
         frames.append((label, np.asarray(image, np.uint8), source))
     return frames
 
@@ -77,7 +92,8 @@ def teach_demo_pin(config_path: Path, per_class: int = 8, zone_id: str = "lockin
 
 def main(argv: Sequence[str] | None = None) -> int:
     parser = argparse.ArgumentParser(
-        description="Teach the demo station's locking pin from rendered frames (demo data).")
+        description="Teach the demo station's locking pin from rendered frames (demo data)."
+    )
     parser.add_argument("config", type=Path, nargs="?", default=DEMO_CONFIG)
     parser.add_argument("--per-class", type=int, default=8)
     args = parser.parse_args(argv)

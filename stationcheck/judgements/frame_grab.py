@@ -19,16 +19,18 @@ CAMERA_WARMUP_FRAMES = 10  # let exposure settle before keeping a frame
 Grabbed = tuple[U8Array, str]  # BGR frame and a description of where it came from
 
 
-def frames_from_video(path: Path, at_s: float, count: int = 1,
-                      every_s: float = 1.0) -> list[Grabbed]:
+def frames_from_video(
+    path: Path, at_s: float, count: int = 1, every_s: float = 1.0
+) -> list[Grabbed]:
     """``count`` frames from ``at_s`` on, ``every_s`` apart.
 
     Raises:
         InputFileError: the video cannot be opened or ends before a wanted frame.
     """
     if count < 1 or at_s < 0 or every_s <= 0:
-        raise InputFileError(f"need count >= 1, at >= 0 s and every > 0 s; got {count}, "
-                             f"{at_s}, {every_s}")
+        raise InputFileError(
+            f"need count >= 1, at >= 0 s and every > 0 s; got {count}, {at_s}, {every_s}"
+        )
     capture = cv2.VideoCapture(str(path))
     if not capture.isOpened():
         raise InputFileError(f"{path}: cannot open the video")

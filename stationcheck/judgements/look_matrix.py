@@ -72,20 +72,27 @@ class Cell:
 
     @property
     def look(self) -> Look:
-        return replace(LIGHTS[self.light], noise_sigma=self.noise_sigma,
-                       jpeg_quality=self.jpeg_quality, blur_px=self.blur_px)
+        return replace(
+            LIGHTS[self.light],
+            noise_sigma=self.noise_sigma,
+            jpeg_quality=self.jpeg_quality,
+            blur_px=self.blur_px,
+        )
 
     @property
     def name(self) -> str:
         jpeg = "none" if self.jpeg_quality is None else f"q{self.jpeg_quality}"
-        return (f"light {self.light}, noise {self.noise_sigma:g}, JPEG {jpeg}, "
-                f"blur {self.blur_px:g}")
+        return f"light {self.light}, noise {self.noise_sigma:g}, JPEG {jpeg}, blur {self.blur_px:g}"
 
 
 def all_cells() -> list[Cell]:
     """The grid, then one cell beyond it that must say "cannot judge"."""
-    grid = [Cell(light, noise, jpeg, blur) for light, noise, jpeg, blur in
-            itertools.product(GRID_LIGHTS, NOISE_SIGMAS, JPEG_QUALITIES, BLURS_PX)]
+    grid = [
+        Cell(light, noise, jpeg, blur)
+        for light, noise, jpeg, blur in itertools.product(
+            GRID_LIGHTS, NOISE_SIGMAS, JPEG_QUALITIES, BLURS_PX
+        )
+    ]
     return [*grid, Cell(TOO_DARK, 6.0, 15, 1.2)]
 
 
@@ -106,8 +113,12 @@ class CellResult:
 
     @property
     def passed(self) -> bool:
-        return (self.early_picks == 0 and self.wrong_missed == 0 and self.false_moved == 0
-                and self.enabled_unjudged == 0)
+        return (
+            self.early_picks == 0
+            and self.wrong_missed == 0
+            and self.false_moved == 0
+            and self.enabled_unjudged == 0
+        )
 
     @property
     def status(self) -> str:
@@ -119,11 +130,13 @@ class CellResult:
 
     def line(self) -> str:
         verdict = "PASS" if self.passed else "FAIL"
-        return (f"{verdict} {self.status:<26} {self.cell.name:<52} {self.scene:<8} "
-                f"picks {self.picks_confirmed}/{self.picks_expected} early {self.early_picks} "
-                f"wrong-bin missed {self.wrong_missed}/{self.wrong_reaches} "
-                f"camera-moved {self.false_moved} unjudged {self.unjudged_frames}/{self.frames} "
-                f"enabled-unjudged {self.enabled_unjudged} enabled {self.enabled_frames}")
+        return (
+            f"{verdict} {self.status:<26} {self.cell.name:<52} {self.scene:<8} "
+            f"picks {self.picks_confirmed}/{self.picks_expected} early {self.early_picks} "
+            f"wrong-bin missed {self.wrong_missed}/{self.wrong_reaches} "
+            f"camera-moved {self.false_moved} unjudged {self.unjudged_frames}/{self.frames} "
+            f"enabled-unjudged {self.enabled_unjudged} enabled {self.enabled_frames}"
+        )
 
 
 class _RenderedSource:
@@ -143,8 +156,12 @@ class _RenderedSource:
         """Nothing to release."""
 
 
-def run_cell(cell: Cell, scene: Path = TUNING_SCENE, config_path: Path = DEMO_CONFIG,
-             max_frames: int | None = None) -> CellResult:
+def run_cell(
+    cell: Cell,
+    scene: Path = TUNING_SCENE,
+    config_path: Path = DEMO_CONFIG,
+    max_frames: int | None = None,
+) -> CellResult:
     """Render ``scene`` with the cell's look and score the station's decisions on it."""
     production = produce(scene, config_path)
     production.script = replace(production.script, look=cell.look)
@@ -152,16 +169,20 @@ def run_cell(cell: Cell, scene: Path = TUNING_SCENE, config_path: Path = DEMO_CO
     chor = production.choreography
     count = chor.frame_count if max_frames is None else min(max_frames, chor.frame_count)
     inputs: list[Observation] = [
-        parse_input({"t_s": round(item.frame / chor.fps, 6), "kind": item.kind, **item.data},
-                    f"input {n}") for n, item in enumerate(chor.inputs)]
+        parse_input(
+            {"t_s": round(item.frame / chor.fps, 6), "kind": item.kind, **item.data}, f"input {n}"
+        )
+        for n, item in enumerate(chor.inputs)
+    ]
     table = TruthTable(scene, {row.frame_index: row for row in production.rows})
     trace = RunTrace()
     decisions = DecisionCore(production.plan, sinks=[trace])
     judges = [StationImageJudge(StationJudgements.from_config(config))]
     path = FramePath(production.plan, truth_detector(table), decisions, judges)
     try:
-        run_loop(_RenderedSource(FrameRenderer(production), count, chor.fps), path,
-                 InputSchedule(inputs))
+        run_loop(
+            _RenderedSource(FrameRenderer(production), count, chor.fps), path, InputSchedule(inputs)
+        )
     finally:
         path.close()
     bins = {step.id: step.zone for step in production.plan.steps if isinstance(step, PickStep)}
@@ -186,13 +207,25 @@ def _reaches(table: TruthTable, frames: int, fps: float) -> dict[str, list[tuple
     return found
 
 
-def score(cell: Cell, scene: str, trace: RunTrace, table: TruthTable, frames: int,
-          fps: float, pick_bins: dict[str, str]) -> CellResult:
+def score(
+    cell: Cell,
+    scene: str,
+    trace: RunTrace,
+    table: TruthTable,
+    frames: int,
+    fps: float,
+    pick_bins: dict[str, str],
+) -> CellResult:
     """``pick_bins``: the bin of each pick step, by step id."""
     events = trace.events
     reaches = _reaches(table, frames, fps)
-    picks = [e for e in events if e.kind == "step_completed" and e.data.get("kind") == "pick"
-             and e.data.get("ended_by") == "completed"]  # not closed by a new unit
+    picks = [
+        e
+        for e in events
+        if e.kind == "step_completed"
+        and e.data.get("kind") == "pick"
+        and e.data.get("ended_by") == "completed"
+    ]  # not closed by a new unit
     early = 0
     for event in picks:
         zone, started = str(event.data.get("zone")), float(event.data["started_t_s"])
@@ -209,22 +242,42 @@ def score(cell: Cell, scene: str, trace: RunTrace, table: TruthTable, frames: in
             wrong += 1
             if any(x < b and a < y for x, y in unjudged):
                 continue  # the station said it cannot judge; the step stays open
-            if not any(e.kind == "alarm_raised" and e.data.get("code") == "wrong_bin"
-                       and e.data.get("subject") == zone
-                       and a - 0.05 <= e.t_s <= b + WRONG_BIN_GRACE_S for e in events):
+            if not any(
+                e.kind == "alarm_raised"
+                and e.data.get("code") == "wrong_bin"
+                and e.data.get("subject") == zone
+                and a - 0.05 <= e.t_s <= b + WRONG_BIN_GRACE_S
+                for e in events
+            ):
                 missed += 1
     states = trace.frames()
     unjudged_frames = sum(1 for s in states if any(x <= s.t_s < y for x, y in unjudged))
-    enabled_unjudged = sum(1 for s in states if s.enabled and any(x <= s.t_s < y
-                                                                 for x, y in unjudged))
+    enabled_unjudged = sum(
+        1 for s in states if s.enabled and any(x <= s.t_s < y for x, y in unjudged)
+    )
     expected = sum(1 for e in events if e.kind == "step_started" and e.data.get("kind") == "pick")
-    moved = sum(1 for e in events
-                if e.kind == "alarm_raised" and e.data.get("code") == "camera_moved")
-    return CellResult(cell, scene, frames, len(picks), expected, early, wrong, missed, moved,
-                      unjudged_frames, enabled_unjudged, sum(1 for s in states if s.enabled))
+    moved = sum(
+        1 for e in events if e.kind == "alarm_raised" and e.data.get("code") == "camera_moved"
+    )
+    return CellResult(
+        cell,
+        scene,
+        frames,
+        len(picks),
+        expected,
+        early,
+        wrong,
+        missed,
+        moved,
+        unjudged_frames,
+        enabled_unjudged,
+        sum(1 for s in states if s.enabled),
+    )
 
 
-def _spans(events: Sequence[Event], codes: Sequence[str], end_s: float) -> list[tuple[float, float]]:
+def _spans(
+    events: Sequence[Event], codes: Sequence[str], end_s: float
+) -> list[tuple[float, float]]:
     spans, since = [], None
     active: set[str] = set()
     for event in events:
@@ -243,8 +296,9 @@ def _spans(events: Sequence[Event], codes: Sequence[str], end_s: float) -> list[
     return spans
 
 
-def _pick_steps(events: Sequence[Event], end_s: float,
-                pick_bins: dict[str, str]) -> list[tuple[float, float, str]]:
+def _pick_steps(
+    events: Sequence[Event], end_s: float, pick_bins: dict[str, str]
+) -> list[tuple[float, float, str]]:
     """(start, end, bin) of every pick step, from the step events."""
     steps: list[tuple[float, float, str]] = []
     open_step: tuple[float, str] | None = None
@@ -261,9 +315,12 @@ def _pick_steps(events: Sequence[Event], end_s: float,
 
 def main(argv: Sequence[str] | None = None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
-    parser.add_argument("--scene", action="append", type=Path,
-                        help="scene script(s) (default: the tuning and the second held-out "
-                             "scene)")
+    parser.add_argument(
+        "--scene",
+        action="append",
+        type=Path,
+        help="scene script(s) (default: the tuning and the second held-out scene)",
+    )
     parser.add_argument("--light", choices=sorted(LIGHTS), action="append")
     parser.add_argument("--frames", type=int, default=None, help="first N frames of a scene")
     args = parser.parse_args(argv)

@@ -41,34 +41,46 @@ class PatchAligner:
         mask[-margin:, :] = 0
         mask[:, :margin] = 0
         mask[:, -margin:] = 0
-        mask = np.asarray(cv2.erode(mask, np.ones((2 * HALF_PX + 1, 2 * HALF_PX + 1), np.uint8)),
-                          np.uint8)
-        found = cv2.goodFeaturesToTrack(reference_half, MAX_PATCHES, 0.01, MIN_DISTANCE_PX,
-                                        mask=mask, blockSize=7)
-        points = np.zeros((0, 2), np.int32) if found is None else np.round(
-            found.reshape(-1, 2)).astype(np.int32)
+        mask = np.asarray(
+            cv2.erode(mask, np.ones((2 * HALF_PX + 1, 2 * HALF_PX + 1), np.uint8)), np.uint8
+        )
+        found = cv2.goodFeaturesToTrack(
+            reference_half, MAX_PATCHES, 0.01, MIN_DISTANCE_PX, mask=mask, blockSize=7
+        )
+        points = (
+            np.zeros((0, 2), np.int32)
+            if found is None
+            else np.round(found.reshape(-1, 2)).astype(np.int32)
+        )
         self.points_half = points
         ref = reference_half.astype(np.float32)
-        self._patches = [ref[y - HALF_PX:y + HALF_PX + 1, x - HALF_PX:x + HALF_PX + 1].copy()
-                         for x, y in points]
+        self._patches = [
+            ref[y - HALF_PX : y + HALF_PX + 1, x - HALF_PX : x + HALF_PX + 1].copy()
+            for x, y in points
+        ]
         self.last_peaks: F64Array = np.zeros(0)
 
     @property
     def count(self) -> int:
         return len(self._patches)
 
-    def match(self, live_half: U8Array,
-              ignore_circles_px: Sequence[Circle] = ()) -> tuple[F64Array, F64Array]:
+    def match(
+        self, live_half: U8Array, ignore_circles_px: Sequence[Circle] = ()
+    ) -> tuple[F64Array, F64Array]:
         """(reference points, live points) in full-resolution pixels of the patches found."""
         live = live_half.astype(np.float32)
         src, dst, peaks = [], [], []
         for (x, y), patch in zip(self.points_half, self._patches, strict=True):
             full = (x / self.scale, y / self.scale)
-            if any((full[0] - cx) ** 2 + (full[1] - cy) ** 2 <= r * r
-                   for cx, cy, r in ignore_circles_px):
+            if any(
+                (full[0] - cx) ** 2 + (full[1] - cy) ** 2 <= r * r
+                for cx, cy, r in ignore_circles_px
+            ):
                 continue
-            window = live[y - HALF_PX - SEARCH_PX:y + HALF_PX + SEARCH_PX + 1,
-                          x - HALF_PX - SEARCH_PX:x + HALF_PX + SEARCH_PX + 1]
+            window = live[
+                y - HALF_PX - SEARCH_PX : y + HALF_PX + SEARCH_PX + 1,
+                x - HALF_PX - SEARCH_PX : x + HALF_PX + SEARCH_PX + 1,
+            ]
             result = cv2.matchTemplate(window, patch, cv2.TM_CCOEFF_NORMED)
             _, peak, _, at = cv2.minMaxLoc(result)
             peaks.append(peak)
@@ -76,22 +88,34 @@ class PatchAligner:
                 continue
             dx, dy = _subpixel(np.asarray(result, np.float32), at)
             src.append(full)
-            dst.append(((x + at[0] + dx - SEARCH_PX) / self.scale,
-                        (y + at[1] + dy - SEARCH_PX) / self.scale))
+            dst.append(
+                (
+                    (x + at[0] + dx - SEARCH_PX) / self.scale,
+                    (y + at[1] + dy - SEARCH_PX) / self.scale,
+                )
+            )
         self.last_peaks = np.asarray(peaks, np.float64)
-        return np.asarray(src, np.float64).reshape(-1, 2), np.asarray(dst, np.float64).reshape(-1, 2)
+        return np.asarray(src, np.float64).reshape(-1, 2), np.asarray(dst, np.float64).reshape(
+            -1, 2
+        )
 
 
 def _subpixel(result: npt.NDArray[np.float32], at: Sequence[int]) -> tuple[float, float]:
     ax, ay = int(at[0]), int(at[1])
     offsets = []
     for before, peak, after, inside in (
-        (result[ay, ax - 1] if ax > 0 else 0.0, result[ay, ax],
-         result[ay, ax + 1] if ax < result.shape[1] - 1 else 0.0,
-         0 < ax < result.shape[1] - 1),
-        (result[ay - 1, ax] if ay > 0 else 0.0, result[ay, ax],
-         result[ay + 1, ax] if ay < result.shape[0] - 1 else 0.0,
-         0 < ay < result.shape[0] - 1),
+        (
+            result[ay, ax - 1] if ax > 0 else 0.0,
+            result[ay, ax],
+            result[ay, ax + 1] if ax < result.shape[1] - 1 else 0.0,
+            0 < ax < result.shape[1] - 1,
+        ),
+        (
+            result[ay - 1, ax] if ay > 0 else 0.0,
+            result[ay, ax],
+            result[ay + 1, ax] if ay < result.shape[0] - 1 else 0.0,
+            0 < ay < result.shape[0] - 1,
+        ),
     ):
         curve = float(before) - 2.0 * float(peak) + float(after)
         shift = 0.5 * (float(before) - float(after)) / curve if inside and curve < 0 else 0.0

@@ -47,9 +47,13 @@ class QualityFigures:
     blockiness: float
 
     def rounded(self) -> dict[str, float]:
-        return {"brightness": round(self.brightness, 1), "contrast": round(self.contrast, 1),
-                "noise_sigma": round(self.noise_sigma, 2), "sharpness": round(self.sharpness, 1),
-                "blockiness": round(self.blockiness, 3)}
+        return {
+            "brightness": round(self.brightness, 1),
+            "contrast": round(self.contrast, 1),
+            "noise_sigma": round(self.noise_sigma, 2),
+            "sharpness": round(self.sharpness, 1),
+            "blockiness": round(self.blockiness, 3),
+        }
 
 
 def measure_quality(image_bgr: U8Array) -> QualityFigures:
@@ -58,17 +62,22 @@ def measure_quality(image_bgr: U8Array) -> QualityFigures:
     # the noise is measured on a centre crop half the frame's width and height (a quarter of
     # the pixels keeps the cost low; noise is the same everywhere on a sensor)
     height, width = grey.shape[:2]
-    centre = grey[height // 4:height - height // 4, width // 4:width - width // 4]
+    centre = grey[height // 4 : height - height // 4, width // 4 : width - width // 4]
     response = np.abs(cv2.filter2D(centre, cv2.CV_16S, NOISE_MASK))[1:-1, 1:-1]
-    gradient = cv2.add(np.abs(cv2.Sobel(centre, cv2.CV_16S, 1, 0)),
-                       np.abs(cv2.Sobel(centre, cv2.CV_16S, 0, 1)))[1:-1, 1:-1]
+    gradient = cv2.add(
+        np.abs(cv2.Sobel(centre, cv2.CV_16S, 1, 0)), np.abs(cv2.Sobel(centre, cv2.CV_16S, 0, 1))
+    )[1:-1, 1:-1]
     sample = gradient[::3, ::3].ravel()
-    edge = np.partition(sample, int(len(sample) * (1.0 - EDGE_PERCENT / 100.0)))[
-        int(len(sample) * (1.0 - EDGE_PERCENT / 100.0))] if sample.size else 0
+    edge = (
+        np.partition(sample, int(len(sample) * (1.0 - EDGE_PERCENT / 100.0)))[
+            int(len(sample) * (1.0 - EDGE_PERCENT / 100.0))
+        ]
+        if sample.size
+        else 0
+    )
     flat = gradient <= edge
     count = int(np.count_nonzero(flat))
-    noise = (float(response[flat].sum()) / count * math.sqrt(math.pi / 2.0) / 6.0
-             if count else 0.0)
+    noise = float(response[flat].sum()) / count * math.sqrt(math.pi / 2.0) / 6.0 if count else 0.0
     half = cv2.resize(grey, (width // 2, height // 2), interpolation=cv2.INTER_AREA)
     sharpness = float(cv2.Laplacian(half, cv2.CV_32F).var())
     steps = np.abs(np.diff(grey[::4].astype(np.int16), axis=1))
@@ -114,8 +123,9 @@ class QualityMonitor:
             judge_reasons.append("too strongly compressed")
         return not camera_reasons, not judge_reasons, ", ".join(judge_reasons)
 
-    def observe(self, t_s: float, image_bgr: U8Array, judge_reason: str = "",
-                camera_reason: str = "") -> PictureState | None:
+    def observe(
+        self, t_s: float, image_bgr: U8Array, judge_reason: str = "", camera_reason: str = ""
+    ) -> PictureState | None:
         """``judge_reason``: another judgement cannot work (e.g. a bin's noise floor is too
         high), so the picture cannot be judged; ``camera_reason``: the camera check cannot
         work, so neither."""
@@ -145,6 +155,10 @@ class QualityMonitor:
 
     def _state(self, t_s: float, figures: QualityFigures) -> PictureState:
         self._last_report_t_s = t_s
-        return PictureState(t_s=t_s, judgeable=self.judgeable,
-                            camera_checkable=self.camera_checkable, reason=self.reason,
-                            **figures.rounded())
+        return PictureState(
+            t_s=t_s,
+            judgeable=self.judgeable,
+            camera_checkable=self.camera_checkable,
+            reason=self.reason,
+            **figures.rounded(),
+        )

@@ -112,9 +112,14 @@ UNDECIDED_SCORE = PresenceScore("undecided", "untaught", 0.0, 0.0, 0.0, 0.0)
 class PresenceJudge:
     """One check zone against its taught references. :meth:`score` then :meth:`decide`."""
 
-    def __init__(self, zone_id: str, polygon_px: Sequence[tuple[float, float]],
-                 frame_size_px: tuple[int, int], taught: TaughtClasses,
-                 settings: PresenceSettings) -> None:
+    def __init__(
+        self,
+        zone_id: str,
+        polygon_px: Sequence[tuple[float, float]],
+        frame_size_px: tuple[int, int],
+        taught: TaughtClasses,
+        settings: PresenceSettings,
+    ) -> None:
         if not taught.complete:
             raise ConfigError(f"check zone '{zone_id}' needs taught images of both classes")
         self.zone_id = zone_id
@@ -129,15 +134,21 @@ class PresenceJudge:
                 f"--zone {zone_id} --clear, then --present/--absent)"
             )
         pad = settings.search_px
-        self._box = (max(0, bx0 - pad), max(0, by0 - pad), min(width, bx1 + pad),
-                     min(height, by1 + pad))
+        self._box = (
+            max(0, bx0 - pad),
+            max(0, by0 - pad),
+            min(width, bx1 + pad),
+            min(height, by1 + pad),
+        )
         x0, y0, x1, y1 = self._box
         if x1 - x0 < tx1 - tx0 or y1 - y0 < ty1 - ty0:
             raise ConfigError(f"check zone '{zone_id}' lies partly outside the camera frame")
         self._templates = {label: class_template(taught.crops[label]) for label in LABELS}
         kernel = np.ones((3, 3), np.uint8)
-        self._ranges = {label: (cv2.erode(t, kernel), cv2.dilate(t, kernel))
-                        for label, t in self._templates.items()}
+        self._ranges = {
+            label: (cv2.erode(t, kernel), cv2.dilate(t, kernel))
+            for label, t in self._templates.items()
+        }
         self._cells_size = (max(1, (x1 - x0) // CELL_PX), max(1, (y1 - y0) // CELL_PX))
         self._previous_cells: F32Array | None = None
         self._noise_levels = CELL_LEVELS / MOVING_K
@@ -171,8 +182,9 @@ class PresenceJudge:
         verdict: Verdict = winner if reason == "match" else "undecided"
         return PresenceScore(verdict, reason, present, absent, covered, moving)
 
-    def decide(self, t_s: float, score: PresenceScore,
-               suppressed: bool = False) -> CheckVerdict | None:
+    def decide(
+        self, t_s: float, score: PresenceScore, suppressed: bool = False
+    ) -> CheckVerdict | None:
         """The verdict to report at ``t_s`` if it changed or was last said ``REPEAT_S`` ago
         (so a check step that starts later still hears it), else None."""
         frame_verdict: Verdict = "undecided" if suppressed else score.verdict
@@ -181,18 +193,23 @@ class PresenceJudge:
         held_s = t_s - self._candidate_since
         confirmed = held_s >= self.settings.confirm_ms / 1000.0 - 1e-9
         verdict: Verdict = self._candidate if confirmed else "undecided"
-        due = (self._last_report_t_s is None or verdict != self.verdict
-               or t_s - self._last_report_t_s >= REPEAT_S - 1e-9)
+        due = (
+            self._last_report_t_s is None
+            or verdict != self.verdict
+            or t_s - self._last_report_t_s >= REPEAT_S - 1e-9
+        )
         self.verdict = verdict
         if not due:
             return None
         self._last_report_t_s = t_s
-        return CheckVerdict(t_s=t_s, zone=self.zone_id, verdict=verdict,
-                            margin=round(score.margin, 4))
+        return CheckVerdict(
+            t_s=t_s, zone=self.zone_id, verdict=verdict, margin=round(score.margin, 4)
+        )
 
     def _moving_fraction(self, window: F32Array) -> float:
-        cells = np.asarray(cv2.resize(window, self._cells_size, interpolation=cv2.INTER_AREA),
-                           np.float32)
+        cells = np.asarray(
+            cv2.resize(window, self._cells_size, interpolation=cv2.INTER_AREA), np.float32
+        )
         previous, self._previous_cells = self._previous_cells, cells
         if previous is None:
             return 1.0
@@ -204,8 +221,9 @@ class PresenceJudge:
         # the zone's frame-to-frame noise: the median change over its cells, followed slowly
         # (at most 10 % up per frame), so one sudden change of the whole zone still counts
         scale = 1.4826 * float(np.median(change))
-        self._noise_levels += NOISE_RATE * (min(scale, 2.0 * self._noise_levels)
-                                            - self._noise_levels)
+        self._noise_levels += NOISE_RATE * (
+            min(scale, 2.0 * self._noise_levels) - self._noise_levels
+        )
         return float(np.mean(change > limit))
 
     def _covered_fraction(self, window: F32Array, label: Label, at: tuple[int, int]) -> float:

@@ -59,9 +59,14 @@ def read_reference_frame(path: Path) -> U8Array:
 class StationJudgements:
     """Bin activity, check-zone presence and camera shift for one station."""
 
-    def __init__(self, zones: Sequence[ZoneSpec], reference_bgr: U8Array,
-                 settings: JudgementSettings, taught: Mapping[str, TaughtClasses | None],
-                 clock: Callable[[], float] = time.perf_counter) -> None:
+    def __init__(
+        self,
+        zones: Sequence[ZoneSpec],
+        reference_bgr: U8Array,
+        settings: JudgementSettings,
+        taught: Mapping[str, TaughtClasses | None],
+        clock: Callable[[], float] = time.perf_counter,
+    ) -> None:
         """``clock`` (seconds) times each judgement for :attr:`last_costs_ms`; the benchmark
         passes ``time.thread_time`` to count CPU time."""
         self._reference = np.asarray(reference_bgr, np.uint8)
@@ -69,31 +74,39 @@ class StationJudgements:
         self.size_px = (width, height)
         self._clock = clock
         self.quality = QualityMonitor(settings.picture_quality)
-        self.camera = CameraShiftJudge(ReferenceView(self._reference, zones),
-                                       settings.camera_shift)
-        self.bins = [BinActivityJudge(zone.id, zone.polygon_px, self.size_px,
-                                      settings.bin_activity, self._reference)
-                     for zone in zones if zone.kind == "bin"]
+        self.camera = CameraShiftJudge(ReferenceView(self._reference, zones), settings.camera_shift)
+        self.bins = [
+            BinActivityJudge(
+                zone.id, zone.polygon_px, self.size_px, settings.bin_activity, self._reference
+            )
+            for zone in zones
+            if zone.kind == "bin"
+        ]
         self.checks: dict[str, PresenceJudge | None] = {}
         for zone in zones:
             if zone.kind != "check":
                 continue
             classes = taught.get(zone.id)
             if classes is None or not classes.complete:
-                logger.warning("check zone '%s' has no taught present and absent images; it "
-                               "stays undecided and no unit is released", zone.id)
+                logger.warning(
+                    "check zone '%s' has no taught present and absent images; it "
+                    "stays undecided and no unit is released",
+                    zone.id,
+                )
                 self.checks[zone.id] = None
             else:
-                self.checks[zone.id] = PresenceJudge(zone.id, zone.polygon_px, self.size_px,
-                                                     classes, settings.presence)
+                self.checks[zone.id] = PresenceJudge(
+                    zone.id, zone.polygon_px, self.size_px, classes, settings.presence
+                )
         self._untaught_said: dict[str, float] = {}
         self.last_costs_ms: dict[str, float] = dict.fromkeys(COST_NAMES, 0.0)
         self.last_readings: dict[str, BinReading] = {}
         self.last_scores: dict[str, PresenceScore] = {}
 
     @classmethod
-    def from_config(cls, config: StationConfig,
-                    clock: Callable[[], float] = time.perf_counter) -> StationJudgements:
+    def from_config(
+        cls, config: StationConfig, clock: Callable[[], float] = time.perf_counter
+    ) -> StationJudgements:
         """Reads the reference frame and the taught references next to the config.
 
         Raises:
@@ -105,14 +118,22 @@ class StationJudgements:
         if (reference.shape[1], reference.shape[0]) != size:
             raise ConfigError(
                 f"{config.reference_frame_path}: the reference frame is "
-                f"{reference.shape[1]}x{reference.shape[0]} px; camera is {size[0]}x{size[1]}")
+                f"{reference.shape[1]}x{reference.shape[0]} px; camera is {size[0]}x{size[1]}"
+            )
         zones = config.zone_specs()
-        taught = {zone.id: load_taught(teaching_dir(config, zone.id), zone)
-                  for zone in zones if zone.kind == "check"}
+        taught = {
+            zone.id: load_taught(teaching_dir(config, zone.id), zone)
+            for zone in zones
+            if zone.kind == "check"
+        }
         return cls(zones, reference, config.judgements.to_settings(), taught, clock)
 
-    def observe(self, frame: Frame, ignore_circles_px: Sequence[Circle] = (),
-                tip_px: tuple[float, float] | None = None) -> list[Observation]:
+    def observe(
+        self,
+        frame: Frame,
+        ignore_circles_px: Sequence[Circle] = (),
+        tip_px: tuple[float, float] | None = None,
+    ) -> list[Observation]:
         """The judgements' observations for one frame (often none).
 
         ``ignore_circles_px`` are areas the camera check should not take features from, e.g.
@@ -125,7 +146,8 @@ class StationJudgements:
         if (frame.width_px, frame.height_px) != self.size_px:
             raise InputFileError(
                 f"frame {frame.index} is {frame.width_px}x{frame.height_px} px; the reference "
-                f"frame is {self.size_px[0]}x{self.size_px[1]}")
+                f"frame is {self.size_px[0]}x{self.size_px[1]}"
+            )
         t_s, image = frame.t_s, frame.image
         clock = _CostClock(self._clock)
         poor = not self.quality.picture_checkable
@@ -144,8 +166,13 @@ class StationJudgements:
             for judge in self.bins:
                 judge.relearn(self._reference)
         quality = self.quality
-        unsure = (self.camera.moved or self.camera.suspect or self.camera.unchecked
-                  or not quality.judgeable or not quality.camera_checkable)
+        unsure = (
+            self.camera.moved
+            or self.camera.suspect
+            or self.camera.unchecked
+            or not quality.judgeable
+            or not quality.camera_checkable
+        )
         for judge, reading in readings:
             self.last_readings[judge.zone_id] = reading
             out += _some(judge.decide(t_s, reading, suppressed=unsure))
@@ -153,11 +180,15 @@ class StationJudgements:
         out += self._judge_checks(t_s, image, unsure)
         clock.lap("presence")
         learning = [judge.zone_id for judge, reading in readings if reading.learning]
-        noisy = [judge.zone_id for judge, reading in readings
-                 if not reading.judgeable and not reading.learning]
+        noisy = [
+            judge.zone_id
+            for judge, reading in readings
+            if not reading.judgeable and not reading.learning
+        ]
         bins_reason = ", ".join(
             [f"{', '.join(learning)} learning the live picture"] * bool(learning)
-            + [f"{', '.join(noisy)} too noisy to judge"] * bool(noisy))
+            + [f"{', '.join(noisy)} too noisy to judge"] * bool(noisy)
+        )
         camera_reason = "too few features to check the camera" if self.camera.unchecked else ""
         out += _some(quality.observe(t_s, image, bins_reason, camera_reason))
         clock.lap("picture_quality")

@@ -83,7 +83,8 @@ def check_zone(config: StationConfig, zone_id: str) -> ZoneSpec:
         raise ConfigError(f"no zone named '{zone_id}'; check zones: {listing}")
     if zone.kind != "check":
         raise ConfigError(
-            f"'{zone_id}' is a {zone.kind} zone, not a check zone; check zones: {listing}")
+            f"'{zone_id}' is a {zone.kind} zone, not a check zone; check zones: {listing}"
+        )
     return zone
 
 
@@ -116,16 +117,18 @@ def _manifest_from_data(data: Any) -> Manifest:
     if not isinstance(data, dict):
         raise TypeError("expected a mapping")
     if data.get("format_version") != FORMAT_VERSION:
-        raise ValueError(f"format_version must be {FORMAT_VERSION}, "
-                         f"got {data.get('format_version')!r}")
+        raise ValueError(
+            f"format_version must be {FORMAT_VERSION}, got {data.get('format_version')!r}"
+        )
     images = []
     for item in data.get("images") or []:
         label = item["class"]
         if label not in LABELS:
             raise ValueError(f"class must be 'present' or 'absent', got {label!r}")
         images.append(TaughtImage(str(item["file"]), label, str(item.get("source", ""))))
-    return Manifest(str(data["zone"]), _box(data["zone_box_px"]), _box(data["crop_box_px"]),
-                    tuple(images))
+    return Manifest(
+        str(data["zone"]), _box(data["zone_box_px"]), _box(data["crop_box_px"]), tuple(images)
+    )
 
 
 def _box(value: Any) -> Box:
@@ -143,25 +146,39 @@ def write_manifest(folder: Path, manifest: Manifest) -> None:
         "crop_box_px": yaml_text.flow_list(manifest.crop_box_px),
         "method": METHOD,
     }
-    images = {"images": [{"file": image.file, "class": image.label, "source": image.source}
-                         for image in manifest.images]}
-    header = (f"# Taught references of check zone '{manifest.zone}' (stationcheck teach).\n"
-              "# Boxes are [x0, y0, x1, y1] in camera pixels; each image is a crop at "
-              "crop_box_px.\n")
+    images = {
+        "images": [
+            {"file": image.file, "class": image.label, "source": image.source}
+            for image in manifest.images
+        ]
+    }
+    header = (
+        f"# Taught references of check zone '{manifest.zone}' (stationcheck teach).\n"
+        "# Boxes are [x0, y0, x1, y1] in camera pixels; each image is a crop at "
+        "crop_box_px.\n"
+    )
     if manifest.images and all(i.source.startswith(DEMO_SOURCE) for i in manifest.images):
-        header = ("# DEMO DATA: taught from rendered frames of the invented demo station, not "
-                  "from a real camera.\n" + header)
+        header = (
+            "# DEMO DATA: taught from rendered frames of the invented demo station, not "
+            "from a real camera.\n" + header
+        )
     try:
         folder.mkdir(parents=True, exist_ok=True)
         (folder / MANIFEST_NAME).write_text(
             header + yaml_text.dump_text(head) + yaml_text.dump_text(images, width=100),
-            encoding="utf-8")
+            encoding="utf-8",
+        )
     except OSError as exc:
         raise InputFileError(f"cannot write {folder / MANIFEST_NAME}: {exc}") from exc
 
 
-def teach(folder: Path, zone: ZoneSpec, label: Label, frames: Iterable[tuple[U8Array, str]],
-          frame_size_px: tuple[int, int] | None = None) -> Manifest:
+def teach(
+    folder: Path,
+    zone: ZoneSpec,
+    label: Label,
+    frames: Iterable[tuple[U8Array, str]],
+    frame_size_px: tuple[int, int] | None = None,
+) -> Manifest:
     """Add one crop per frame (BGR camera frames with a source description) to the zone's
     references and return the updated manifest.
 
@@ -175,8 +192,10 @@ def teach(folder: Path, zone: ZoneSpec, label: Label, frames: Iterable[tuple[U8A
     for image, source in frames:
         size = (int(image.shape[1]), int(image.shape[0]))
         if frame_size_px is not None and size != tuple(frame_size_px):
-            raise InputFileError(f"{source}: the frame is {size[0]}x{size[1]} px; the station's "
-                                 f"camera gives {frame_size_px[0]}x{frame_size_px[1]}")
+            raise InputFileError(
+                f"{source}: the frame is {size[0]}x{size[1]} px; the station's "
+                f"camera gives {frame_size_px[0]}x{frame_size_px[1]}"
+            )
         if manifest is None:
             crop_box = _crop_box(zone_box, image.shape[1], image.shape[0])
             manifest = Manifest(zone.id, zone_box, crop_box)
@@ -204,8 +223,11 @@ def clear(folder: Path, label: Label | None = None) -> int:
     image files were removed. Only files this module writes are touched."""
     manifest = read_manifest(folder)
     names = {path.name for path in folder.glob("*.png")} if folder.is_dir() else set()
-    gone = sorted(name for name in names if (m := TAUGHT_FILE_PATTERN.fullmatch(name))
-                  and (label is None or m.group(1) == label))
+    gone = sorted(
+        name
+        for name in names
+        if (m := TAUGHT_FILE_PATTERN.fullmatch(name)) and (label is None or m.group(1) == label)
+    )
     try:
         for name in gone:
             (folder / name).unlink(missing_ok=True)
@@ -231,8 +253,9 @@ def load_taught(folder: Path, zone: ZoneSpec) -> TaughtClasses | None:
     if manifest is None:
         return None
     if manifest.zone != zone.id:
-        raise ConfigError(f"{folder / MANIFEST_NAME}: taught for zone '{manifest.zone}', "
-                          f"not '{zone.id}'")
+        raise ConfigError(
+            f"{folder / MANIFEST_NAME}: taught for zone '{manifest.zone}', not '{zone.id}'"
+        )
     crops: dict[Label, list[F32Array]] = {label: [] for label in LABELS}
     cx0, cy0, _, _ = manifest.crop_box_px
     x0, y0, x1, y1 = manifest.zone_box_px
@@ -245,8 +268,11 @@ def load_taught(folder: Path, zone: ZoneSpec) -> TaughtClasses | None:
         if grey.shape[0] < box[3] or grey.shape[1] < box[2]:
             raise ConfigError(f"{path}: image is smaller than the crop box in {MANIFEST_NAME}")
         crops[image.label].append(grey.astype(np.float32))
-    return TaughtClasses(zone.id, manifest.zone_box_px,
-                         {label: aligned_templates(items, box) for label, items in crops.items()})
+    return TaughtClasses(
+        zone.id,
+        manifest.zone_box_px,
+        {label: aligned_templates(items, box) for label, items in crops.items()},
+    )
 
 
 def aligned_templates(crops: Sequence[F32Array], box: Box) -> tuple[F32Array, ...]:
@@ -302,8 +328,12 @@ def separation(taught: TaughtClasses) -> Separation | None:
             if against >= own:
                 misfits.append(index)
             index += 1
-    return Separation({label: len(crops[label]) for label in LABELS}, min(own_scores),
-                      max(other_scores), tuple(misfits))
+    return Separation(
+        {label: len(crops[label]) for label in LABELS},
+        min(own_scores),
+        max(other_scores),
+        tuple(misfits),
+    )
 
 
 def misfit_files(manifest: Manifest, found: Separation) -> list[str]:
@@ -317,11 +347,16 @@ def poor_teaching(manifest: Manifest, found: Separation) -> str | None:
     if found.gap >= 0 and not found.misfits:
         return None
     names = misfit_files(manifest, found)
-    which = (f"; {len(names)} image(s) look more like the other class: {', '.join(names)}"
-             if names else "")
-    return (f"the taught classes do not stand apart (gap {found.gap:.2f}, should be above 0)"
-            f"{which}; check their labels, or forget that class and teach it again with the "
-            "part clearly present or absent")
+    which = (
+        f"; {len(names)} image(s) look more like the other class: {', '.join(names)}"
+        if names
+        else ""
+    )
+    return (
+        f"the taught classes do not stand apart (gap {found.gap:.2f}, should be above 0)"
+        f"{which}; check their labels, or forget that class and teach it again with the "
+        "part clearly present or absent"
+    )
 
 
 def _other(label: Label) -> Label:
@@ -330,40 +365,61 @@ def _other(label: Label) -> Label:
 
 def _crop_box(zone_box: Box, width_px: int, height_px: int) -> Box:
     x0, y0, x1, y1 = zone_box
-    return (max(0, x0 - CROP_MARGIN_PX), max(0, y0 - CROP_MARGIN_PX),
-            min(width_px, x1 + CROP_MARGIN_PX), min(height_px, y1 + CROP_MARGIN_PX))
+    return (
+        max(0, x0 - CROP_MARGIN_PX),
+        max(0, y0 - CROP_MARGIN_PX),
+        min(width_px, x1 + CROP_MARGIN_PX),
+        min(height_px, y1 + CROP_MARGIN_PX),
+    )
 
 
 def _require_same_geometry(manifest: Manifest, zone: ZoneSpec, zone_box: Box) -> None:
     if manifest.zone != zone.id or manifest.zone_box_px != zone_box:
         raise ConfigError(
             f"zone '{zone.id}' was taught with box {list(manifest.zone_box_px)} and is "
-            f"{list(zone_box)} now; clear its references first (--clear)")
+            f"{list(zone_box)} now; clear its references first (--clear)"
+        )
 
 
 def _crop(image: U8Array, box: Box, source: str) -> U8Array:
     x0, y0, x1, y1 = box
     if image.ndim != 3 or image.shape[0] < y1 or image.shape[1] < x1:
-        raise InputFileError(f"{source}: a {image.shape[1]}x{image.shape[0]} image does not hold "
-                             f"the zone's crop box {list(box)}")
+        raise InputFileError(
+            f"{source}: a {image.shape[1]}x{image.shape[0]} image does not hold "
+            f"the zone's crop box {list(box)}"
+        )
     return np.ascontiguousarray(image[y0:y1, x0:x1])
 
 
 def _next_file(folder: Path, manifest: Manifest, label: Label) -> str:
     """The next free number of the class, counting files on disk as well as listed ones."""
-    numbers = [int(m.group(2)) for image in manifest.images
-               if (m := TAUGHT_FILE_PATTERN.fullmatch(image.file)) and m.group(1) == label]
-    existing = [int(m.group(2)) for path in folder.glob(f"{label}-*.png")
-                if (m := TAUGHT_FILE_PATTERN.fullmatch(path.name))] if folder.exists() else []
+    numbers = [
+        int(m.group(2))
+        for image in manifest.images
+        if (m := TAUGHT_FILE_PATTERN.fullmatch(image.file)) and m.group(1) == label
+    ]
+    existing = (
+        [
+            int(m.group(2))
+            for path in folder.glob(f"{label}-*.png")
+            if (m := TAUGHT_FILE_PATTERN.fullmatch(path.name))
+        ]
+        if folder.exists()
+        else []
+    )
     return f"{label}-{max(numbers + existing, default=0) + 1:03d}.png"
 
 
 def describe(manifest: Manifest) -> str:
-    return (f"{manifest.zone}: {manifest.count('present')} present, "
-            f"{manifest.count('absent')} absent")
+    return (
+        f"{manifest.zone}: {manifest.count('present')} present, {manifest.count('absent')} absent"
+    )
 
 
 def taught_zones(config: StationConfig) -> Sequence[tuple[ZoneSpec, Manifest | None]]:
     """Every check zone with its manifest (None when not taught)."""
-    return [(zone, read_manifest(teaching_dir(config, zone.id)))
-            for zone in config.zone_specs() if zone.kind == "check"]
+    return [
+        (zone, read_manifest(teaching_dir(config, zone.id)))
+        for zone in config.zone_specs()
+        if zone.kind == "check"
+    ]

@@ -39,8 +39,7 @@ class JudgementTrace:
         return np.asarray(np.sum(columns, axis=0), np.float64)
 
 
-def video_frames(path: Path, fps: float | None = None,
-                 limit: int | None = None) -> Iterator[Frame]:
+def video_frames(path: Path, fps: float | None = None, limit: int | None = None) -> Iterator[Frame]:
     """Frames of a video file, ``t_s = index / fps`` (the file's rate unless given).
 
     Raises:
@@ -64,8 +63,11 @@ def video_frames(path: Path, fps: float | None = None,
         capture.release()
 
 
-def run_judgements(judgements: StationJudgements, frames: Iterator[Frame],
-                   progress: Callable[[int], None] | None = None) -> JudgementTrace:
+def run_judgements(
+    judgements: StationJudgements,
+    frames: Iterator[Frame],
+    progress: Callable[[int], None] | None = None,
+) -> JudgementTrace:
     trace = JudgementTrace()
     trace.bins = {judge.zone_id: [] for judge in judgements.bins}
     trace.verdicts = {zone: [] for zone in judgements.checks}

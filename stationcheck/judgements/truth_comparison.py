@@ -69,8 +69,11 @@ def compare_bins(found: BoolArray, truth: BoolArray, zone: str) -> BinComparison
         if hit is not None:
             used.add(hit)
     truth_runs = runs(truth)
-    extra = tuple(f for f in found_runs if f not in used
-                  and not any(f[0] < t[1] and t[0] < f[1] for t in truth_runs))
+    extra = tuple(
+        f
+        for f in found_runs
+        if f not in used and not any(f[0] < t[1] and t[0] < f[1] for t in truth_runs)
+    )
     return BinComparison(zone, tuple(matches), extra)
 
 
@@ -108,8 +111,9 @@ def compare_check(verdicts: Sequence[str], present: BoolArray, clear: BoolArray)
     )
 
 
-def true_zone_shift_px(dx_px: npt.ArrayLike, dy_px: npt.ArrayLike, rot_deg: npt.ArrayLike,
-                       zones: Sequence[ZoneSpec]) -> npt.NDArray[np.float64]:
+def true_zone_shift_px(
+    dx_px: npt.ArrayLike, dy_px: npt.ArrayLike, rot_deg: npt.ArrayLike, zones: Sequence[ZoneSpec]
+) -> npt.NDArray[np.float64]:
     """Per frame, the largest displacement of any zone corner under the true camera transform
     ``R(rot) (p - c) + c + (dx, dy)``."""
     corners = np.asarray([p for zone in zones for p in zone.polygon_px], np.float64)
@@ -136,16 +140,20 @@ class CameraComparison:
         return self.first_judged_frame - self.first_true_frame
 
 
-def compare_camera(moved: Sequence[bool], true_shift_px: npt.ArrayLike,
-                   tolerance_px: float) -> CameraComparison:
+def compare_camera(
+    moved: Sequence[bool], true_shift_px: npt.ArrayLike, tolerance_px: float
+) -> CameraComparison:
     judged = np.asarray(moved, bool)
     shift = np.asarray(true_shift_px, np.float64)
     over = shift > tolerance_px
     first_true = int(np.argmax(over)) if over.any() else None
     first_judged = int(np.argmax(judged)) if judged.any() else None
-    return CameraComparison(first_true, first_judged,
-                            int(np.sum(judged & (shift <= 0.5 * tolerance_px))),
-                            int(np.sum(over & ~judged)))
+    return CameraComparison(
+        first_true,
+        first_judged,
+        int(np.sum(judged & (shift <= 0.5 * tolerance_px))),
+        int(np.sum(over & ~judged)),
+    )
 
 
 @dataclass(frozen=True)
@@ -155,23 +163,36 @@ class TruthComparison:
     camera: CameraComparison
 
 
-def compare_trace(trace: JudgementTrace, truth_columns: Mapping[str, npt.ArrayLike],
-                  zones: Sequence[ZoneSpec], tolerance_px: float,
-                  check_columns: Mapping[str, tuple[str, str]]) -> TruthComparison:
+def compare_trace(
+    trace: JudgementTrace,
+    truth_columns: Mapping[str, npt.ArrayLike],
+    zones: Sequence[ZoneSpec],
+    tolerance_px: float,
+    check_columns: Mapping[str, tuple[str, str]],
+) -> TruthComparison:
     """``truth_columns`` maps column names to per-frame values (the CSV's columns);
     ``check_columns`` maps a check zone to its (state column, clear column)."""
     n = trace.frames
     bins = tuple(
-        compare_bins(trace.bin_array(zone), np.asarray(truth_columns[f"hand_in_{zone}"])[:n] > 0,
-                     zone)
-        for zone in trace.bins)
+        compare_bins(
+            trace.bin_array(zone), np.asarray(truth_columns[f"hand_in_{zone}"])[:n] > 0, zone
+        )
+        for zone in trace.bins
+    )
     checks = {
-        zone: compare_check(trace.verdicts[zone], np.asarray(truth_columns[state])[:n] > 0,
-                            np.asarray(truth_columns[clear])[:n] > 0)
-        for zone, (state, clear) in check_columns.items()}
-    shift = true_zone_shift_px(np.asarray(truth_columns["cam_dx_px"])[:n],
-                               np.asarray(truth_columns["cam_dy_px"])[:n],
-                               np.asarray(truth_columns["cam_rot_deg"])[:n], zones)
+        zone: compare_check(
+            trace.verdicts[zone],
+            np.asarray(truth_columns[state])[:n] > 0,
+            np.asarray(truth_columns[clear])[:n] > 0,
+        )
+        for zone, (state, clear) in check_columns.items()
+    }
+    shift = true_zone_shift_px(
+        np.asarray(truth_columns["cam_dx_px"])[:n],
+        np.asarray(truth_columns["cam_dy_px"])[:n],
+        np.asarray(truth_columns["cam_rot_deg"])[:n],
+        zones,
+    )
     return TruthComparison(bins, checks, compare_camera(trace.moved, shift, tolerance_px))
 
 
@@ -183,23 +204,29 @@ def summary_lines(result: TruthComparison) -> list[str]:
             if match.found is None:
                 lines.append(f"{comparison.zone} reach {match.truth}: MISSED")
             else:
-                lines.append(f"{comparison.zone} reach {match.truth}: judged {match.found}, "
-                             f"onset {match.onset_lag:+d}, offset {match.offset_lag:+d} frames")
+                lines.append(
+                    f"{comparison.zone} reach {match.truth}: judged {match.found}, "
+                    f"onset {match.onset_lag:+d}, offset {match.offset_lag:+d} frames"
+                )
         for interval in comparison.extra:
             lines.append(f"{comparison.zone} activity {interval} with no reach in the truth")
     for zone, check in result.checks.items():
-        lines.append(f"{zone}: 'present' on an absent part in {check.wrong_present} frames, "
-                     f"'absent' on a present part in {check.wrong_absent}; undecided in "
-                     f"{check.undecided_clear} of {check.clear_frames} clear frames")
+        lines.append(
+            f"{zone}: 'present' on an absent part in {check.wrong_present} frames, "
+            f"'absent' on a present part in {check.wrong_absent}; undecided in "
+            f"{check.undecided_clear} of {check.clear_frames} clear frames"
+        )
         for state, interval, lag in check.visible_runs:
             word = "present" if state else "absent"
             told = "never said" if lag is None else f"said after {lag} frames"
             lines.append(f"{zone} {word} and clear {interval}: {told}")
     camera = result.camera
     late = "n/a" if camera.lag is None else f"{camera.lag:+d} frames"
-    lines.append(f"camera: truly moved from frame {camera.first_true_frame}, judged moved from "
-                 f"{camera.first_judged_frame} (lag {late}); false moved frames "
-                 f"{camera.false_frames}")
+    lines.append(
+        f"camera: truly moved from frame {camera.first_true_frame}, judged moved from "
+        f"{camera.first_judged_frame} (lag {late}); false moved frames "
+        f"{camera.false_frames}"
+    )
     return lines
 
 
@@ -211,8 +238,9 @@ def read_truth_columns(path: Path) -> dict[str, npt.NDArray[np.float64]]:
     """
     rows = read_truth_csv(path)
     names = [f.name for f in fields(TruthRow) if f.name not in TEXT_COLUMNS]
-    return {name: np.asarray([getattr(row, name) for row in rows], dtype=np.float64)
-            for name in names}
+    return {
+        name: np.asarray([getattr(row, name) for row in rows], dtype=np.float64) for name in names
+    }
 
 
 def main(argv: Sequence[str] | None = None) -> int:
@@ -225,17 +253,25 @@ def main(argv: Sequence[str] | None = None) -> int:
     root = Path(__file__).resolve().parents[2]
     parser = argparse.ArgumentParser(description=main.__doc__)
     parser.add_argument("--config", type=Path, default=root / "configs" / "demo_station.yaml")
-    parser.add_argument("--video", type=Path,
-                        default=root / "sample_video" / "demo_station.mp4")
-    parser.add_argument("--truth", type=Path,
-                        default=root / "sample_video" / "demo_station_truth.csv")
+    parser.add_argument("--video", type=Path, default=root / "sample_video" / "demo_station.mp4")
+    parser.add_argument(
+        "--truth", type=Path, default=root / "sample_video" / "demo_station_truth.csv"
+    )
     args = parser.parse_args(argv)
     config = load_config(args.config)
     trace = run_judgements(StationJudgements.from_config(config), video_frames(args.video))
-    checks = {zone.id: ("pin_engaged", "pin_zone_clear")
-              for zone in config.zone_specs() if zone.kind == "check"}
-    result = compare_trace(trace, read_truth_columns(args.truth), config.zone_specs(),
-                           config.judgements.camera_shift.tolerance_px, checks)
+    checks = {
+        zone.id: ("pin_engaged", "pin_zone_clear")
+        for zone in config.zone_specs()
+        if zone.kind == "check"
+    }
+    result = compare_trace(
+        trace,
+        read_truth_columns(args.truth),
+        config.zone_specs(),
+        config.judgements.camera_shift.tolerance_px,
+        checks,
+    )
     print("\n".join(summary_lines(result)))
     return 0
 

@@ -55,8 +55,7 @@ def rewrite_config_text(text: str, zones_block: str, reference_frame: str) -> st
     start = next((i for i, line in enumerate(lines) if _ZONES_START.match(line)), None)
     if start is None:
         raise ConfigError("the config has no top-level 'zones:' line to replace")
-    end = next((i for i in range(start + 1, len(lines)) if _TOP_LEVEL.match(lines[i])),
-               len(lines))
+    end = next((i for i in range(start + 1, len(lines)) if _TOP_LEVEL.match(lines[i])), len(lines))
     while end - 1 > start and (lines[end - 1].startswith("#") or not lines[end - 1].strip()):
         end -= 1  # comments and blank lines just before the next section belong to it
     block = zones_block if zones_block.endswith("\n") else zones_block + "\n"
@@ -72,8 +71,9 @@ def rewrite_config_text(text: str, zones_block: str, reference_frame: str) -> st
     return "".join(lines)
 
 
-def write_remapped_config(source: Path, target: Path, zones: Sequence[ZoneSpec],
-                          reference_image: Path, note: str) -> None:
+def write_remapped_config(
+    source: Path, target: Path, zones: Sequence[ZoneSpec], reference_image: Path, note: str
+) -> None:
     """Write ``target``: ``source`` with re-mapped zones and ``reference_image`` as reference.
 
     Raises:
@@ -85,8 +85,11 @@ def write_remapped_config(source: Path, target: Path, zones: Sequence[ZoneSpec],
         raise ConfigError(f"{source}: cannot be read ({exc})") from exc
     relative = Path(os.path.relpath(reference_image.resolve(), target.resolve().parent)).as_posix()
     new_text = rewrite_config_text(text, zones_yaml(zones, note), relative)
-    result = check_data(yaml_text.load_plain(new_text, str(target)), base_dir=target.resolve().parent,
-                        source=str(target))
+    result = check_data(
+        yaml_text.load_plain(new_text, str(target)),
+        base_dir=target.resolve().parent,
+        source=str(target),
+    )
     if not result.ok:
         first = result.errors[0].format(result.source)
         raise ConfigError(f"the re-mapped config would not be valid: {first}")

@@ -47,8 +47,9 @@ def zone_box_px(polygon: PolygonPx) -> tuple[int, int, int, int]:
     return (math.floor(min(xs)), math.floor(min(ys)), math.ceil(max(xs)), math.ceil(max(ys)))
 
 
-def zone_window(zone_id: str, polygon: PolygonPx, width_px: int, height_px: int,
-                margin_px: int = 0) -> ZoneWindow:
+def zone_window(
+    zone_id: str, polygon: PolygonPx, width_px: int, height_px: int, margin_px: int = 0
+) -> ZoneWindow:
     """The window of a zone in a ``width_px`` x ``height_px`` frame, grown by ``margin_px``.
 
     Raises:

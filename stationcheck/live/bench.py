@@ -63,10 +63,24 @@ def start_simulator(port: int, errors: IO[bytes], speed: float = 1.0) -> subproc
     """``stationcheck simulate --inputs`` in a child process; returns once it accepts a
     connection (its complaints go to ``errors``)."""
     proc = subprocess.Popen(
-        [sys.executable, "-m", "stationcheck", "simulate", "--inputs", str(SAMPLE_INPUTS),
-         "--host", "127.0.0.1", "--port", str(port), "--speed", str(speed),
-         "--exit-after-script"],  # ends by itself even if this process is killed
-        stdout=subprocess.DEVNULL, stderr=errors)
+        [
+            sys.executable,
+            "-m",
+            "stationcheck",
+            "simulate",
+            "--inputs",
+            str(SAMPLE_INPUTS),
+            "--host",
+            "127.0.0.1",
+            "--port",
+            str(port),
+            "--speed",
+            str(speed),
+            "--exit-after-script",
+        ],  # ends by itself even if this process is killed
+        stdout=subprocess.DEVNULL,
+        stderr=errors,
+    )
     deadline = time.monotonic() + SIMULATOR_START_S
     while True:
         try:
@@ -113,9 +127,13 @@ def machine_jitter_ms(bursts: int = 300, idle_s: float = 0.03) -> tuple[float, f
     return float(np.percentile(times, 50)), float(np.percentile(times, 99))
 
 
-def run_on_loopback(options: BenchOptions, frames: int, speed: float,
-                    sinks: tuple[FrameSink, ...] = (),
-                    log_path: Path | None = None) -> tuple[LiveStats, LiveLoop]:
+def run_on_loopback(
+    options: BenchOptions,
+    frames: int,
+    speed: float,
+    sinks: tuple[FrameSink, ...] = (),
+    log_path: Path | None = None,
+) -> tuple[LiveStats, LiveLoop]:
     """One live run of the sample video at ``speed`` against a simulator process at the same
     speed; ``sinks`` are added to the loop's frame sinks; the step log goes to ``log_path``
     (default: a temporary file)."""
@@ -131,11 +149,20 @@ def run_on_loopback(options: BenchOptions, frames: int, speed: float,
     with tempfile.TemporaryDirectory() as folder, tempfile.TemporaryFile() as errors:
         proc = start_simulator(port, errors, speed)
         try:
-            stats = run_live(LiveSettings(
-                config_path=DEMO_CONFIG, log_path=log_path or Path(folder) / "bench.sqlite",
-                source=str(options.video or SAMPLE_VIDEO), link="client", host="127.0.0.1",
-                port=port, speed=speed, max_frames=frames, model_path=options.model),
-                on_ready=ready)
+            stats = run_live(
+                LiveSettings(
+                    config_path=DEMO_CONFIG,
+                    log_path=log_path or Path(folder) / "bench.sqlite",
+                    source=str(options.video or SAMPLE_VIDEO),
+                    link="client",
+                    host="127.0.0.1",
+                    port=port,
+                    speed=speed,
+                    max_frames=frames,
+                    model_path=options.model,
+                ),
+                on_ready=ready,
+            )
         finally:
             proc.terminate()
             proc.wait(10)
@@ -176,36 +203,95 @@ def measure(options: BenchOptions) -> list[BenchRow]:
         "rss_mb": memory.peak_mb,
     }
     return [
-        BenchRow(SECTION_NAME, "decision latency: frame in hand -> coil written", p50, p99,
-                 "ms", LATENCY_TARGET,
-                 extra={"writes": float(latency.size),
-                        "share_over_10_ms": float((latency > 10.0).mean())},
-                 headline=headline),
-        BenchRow(SECTION_NAME, "frame in hand -> all outputs written",
-                 float(np.percentile(all_outputs, 50)), float(np.percentile(all_outputs, 99)),
-                 "ms"),
-        BenchRow(SECTION_NAME, "outputs handed over -> written (link only)",
-                 float(np.percentile(link_only, 50)), float(np.percentile(link_only, 99)), "ms"),
-        BenchRow(SECTION_NAME, "frame path per frame (detector..sequencer)",
-                 float(np.median(process)), float(np.percentile(process, 99)), "ms"),
-        BenchRow(SECTION_NAME, "busy per frame (+ outputs, step-log commit)",
-                 float(np.median(busy)), float(np.percentile(busy, 99)), "ms"),
-        BenchRow(SECTION_NAME, f"loop frames/s, video at {camera_fps:.0f}", stats.fps, None,
-                 "f/s", extra={"dropped": float(grabber.counts.dropped),
-                               "frames": float(stats.frames)}),
-        BenchRow(SECTION_NAME, f"offered 4x ({4 * camera_fps:.0f} f/s): share of frames taken",
-                 100.0 * at_4x_share, None, "%", "the rest dropped, never queued",
-                 extra={"taken_fps": at_4x_fps}),
-        BenchRow(SECTION_NAME, "loop capacity: most frames/s taken, offered "
-                 + ", ".join(f"{speed:.0f}x" for speed in CAPACITY_SPEEDS),
-                 capacity_fps, None, "f/s", f"{CAPACITY_TARGET} (>= {4 * camera_fps:.0f})",
-                 extra={"headroom_x": capacity_fps / camera_fps,
-                        **{f"taken_fps_at_{speed:.0f}x": fps for speed, fps, _ in taken},
-                        "busy_share_at_camera_rate": float(busy.sum()) / 1000.0 / stats.wall_s
-                        if stats.wall_s else 0.0}),
-        BenchRow(SECTION_NAME, "machine: 1 ms burst after 30 ms idle", jitter50, jitter99,
-                 "ms", "reference for the latency tail",
-                 headline={"machine_burst_p99_over_p50": jitter99 / jitter50}),
-        BenchRow(SECTION_NAME, "resident memory during the run (peak)", memory.peak_mb, None,
-                 "MB", "< 400 MB"),
+        BenchRow(
+            SECTION_NAME,
+            "decision latency: frame in hand -> coil written",
+            p50,
+            p99,
+            "ms",
+            LATENCY_TARGET,
+            extra={
+                "writes": float(latency.size),
+                "share_over_10_ms": float((latency > 10.0).mean()),
+            },
+            headline=headline,
+        ),
+        BenchRow(
+            SECTION_NAME,
+            "frame in hand -> all outputs written",
+            float(np.percentile(all_outputs, 50)),
+            float(np.percentile(all_outputs, 99)),
+            "ms",
+        ),
+        BenchRow(
+            SECTION_NAME,
+            "outputs handed over -> written (link only)",
+            float(np.percentile(link_only, 50)),
+            float(np.percentile(link_only, 99)),
+            "ms",
+        ),
+        BenchRow(
+            SECTION_NAME,
+            "frame path per frame (detector..sequencer)",
+            float(np.median(process)),
+            float(np.percentile(process, 99)),
+            "ms",
+        ),
+        BenchRow(
+            SECTION_NAME,
+            "busy per frame (+ outputs, step-log commit)",
+            float(np.median(busy)),
+            float(np.percentile(busy, 99)),
+            "ms",
+        ),
+        BenchRow(
+            SECTION_NAME,
+            f"loop frames/s, video at {camera_fps:.0f}",
+            stats.fps,
+            None,
+            "f/s",
+            extra={"dropped": float(grabber.counts.dropped), "frames": float(stats.frames)},
+        ),
+        BenchRow(
+            SECTION_NAME,
+            f"offered 4x ({4 * camera_fps:.0f} f/s): share of frames taken",
+            100.0 * at_4x_share,
+            None,
+            "%",
+            "the rest dropped, never queued",
+            extra={"taken_fps": at_4x_fps},
+        ),
+        BenchRow(
+            SECTION_NAME,
+            "loop capacity: most frames/s taken, offered "
+            + ", ".join(f"{speed:.0f}x" for speed in CAPACITY_SPEEDS),
+            capacity_fps,
+            None,
+            "f/s",
+            f"{CAPACITY_TARGET} (>= {4 * camera_fps:.0f})",
+            extra={
+                "headroom_x": capacity_fps / camera_fps,
+                **{f"taken_fps_at_{speed:.0f}x": fps for speed, fps, _ in taken},
+                "busy_share_at_camera_rate": float(busy.sum()) / 1000.0 / stats.wall_s
+                if stats.wall_s
+                else 0.0,
+            },
+        ),
+        BenchRow(
+            SECTION_NAME,
+            "machine: 1 ms burst after 30 ms idle",
+            jitter50,
+            jitter99,
+            "ms",
+            "reference for the latency tail",
+            headline={"machine_burst_p99_over_p50": jitter99 / jitter50},
+        ),
+        BenchRow(
+            SECTION_NAME,
+            "resident memory during the run (peak)",
+            memory.peak_mb,
+            None,
+            "MB",
+            "< 400 MB",
+        ),
     ]

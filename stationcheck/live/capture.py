@@ -47,8 +47,12 @@ class CaptureSource:
             if image.ndim == 2:
                 image = cv2.cvtColor(image, cv2.COLOR_GRAY2BGR)
             stamp_ms = float(self._capture.get(cv2.CAP_PROP_POS_MSEC) or 0.0)
-            yield Frame(index=index, t_s=self.clock(), image=np.ascontiguousarray(image),
-                        source_t_s=stamp_ms / 1000.0 if stamp_ms > 0 else None)
+            yield Frame(
+                index=index,
+                t_s=self.clock(),
+                image=np.ascontiguousarray(image),
+                source_t_s=stamp_ms / 1000.0 if stamp_ms > 0 else None,
+            )
             index += 1
 
     def close(self) -> None:

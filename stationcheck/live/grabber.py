@@ -40,9 +40,16 @@ class GrabberCounts:
 
 
 class FrameGrabber:
-    def __init__(self, opener: SourceOpener, *, pace: bool = False, speed: float = 1.0,
-                 retry: bool = True,
-                 backoff_first_s: float = 0.2, backoff_max_s: float = 5.0) -> None:
+    def __init__(
+        self,
+        opener: SourceOpener,
+        *,
+        pace: bool = False,
+        speed: float = 1.0,
+        retry: bool = True,
+        backoff_first_s: float = 0.2,
+        backoff_max_s: float = 5.0,
+    ) -> None:
         self.opener = opener
         self.pace = pace
         if speed <= 0:

@@ -51,10 +51,16 @@ class LiveStats:
 
 
 class LiveLoop:
-    def __init__(self, path: FramePath, grabber: FrameGrabber, worker: LinkWorker, *,
-                 limits: WatchdogLimits | None = None,
-                 frame_sinks: tuple[FrameSink, ...] = (),
-                 on_frame_taken: Callable[[Frame], None] | None = None) -> None:
+    def __init__(
+        self,
+        path: FramePath,
+        grabber: FrameGrabber,
+        worker: LinkWorker,
+        *,
+        limits: WatchdogLimits | None = None,
+        frame_sinks: tuple[FrameSink, ...] = (),
+        on_frame_taken: Callable[[Frame], None] | None = None,
+    ) -> None:
         self.path = path
         self.decisions = path.decisions
         self.grabber = grabber
@@ -87,14 +93,16 @@ class LiveLoop:
                 self.stats.cycles += 1
                 now = time.perf_counter()
                 self._advance_clock(now)
-                taken = (None if grabbed is None
-                         else (self._sight(grabbed.frame), grabbed.grabbed_at_s))
+                taken = (
+                    None if grabbed is None else (self._sight(grabbed.frame), grabbed.grabbed_at_s)
+                )
                 previous = self.path.settle()  # the previous frame's judgements decided
                 for observation in self._link_observations(now):
                     self._apply(observation)
                 if taken is None:
-                    for observation in self.watchdogs.check_frames(now - self._last_frame_at,
-                                                                  self.t_s):
+                    for observation in self.watchdogs.check_frames(
+                        now - self._last_frame_at, self.t_s
+                    ):
                         self._apply(observation)
                     since_s = None
                 else:
@@ -131,11 +139,11 @@ class LiveLoop:
             self.t_s = max(self.t_s, self._last_frame_t_s + max(0.0, waited))
 
     def _link_observations(self, now: float) -> list[Observation]:
-        found = [replace(o, t_s=self.t_s) for o in self.worker.take()
-                 if not isinstance(o, LinkStatus)]
+        found = [
+            replace(o, t_s=self.t_s) for o in self.worker.take() if not isinstance(o, LinkStatus)
+        ]
         self._acks_taken = self.worker.acks
-        return self.watchdogs.check_link(self.worker.up, self.worker.silent_s(),
-                                         self.t_s) + found
+        return self.watchdogs.check_link(self.worker.up, self.worker.silent_s(), self.t_s) + found
 
     def _sight(self, frame: Frame) -> Sighting:
         if self.on_frame_taken is not None:
@@ -174,15 +182,21 @@ class LiveLoop:
         """The cycle's outputs; the link writes them only if they changed since the decision."""
         self._send(self.decisions.last_output, since_s, force_inhibit)
 
-    def _send(self, output: Output | None, since_s: float | None,
-              force_inhibit: bool = False) -> None:
+    def _send(
+        self, output: Output | None, since_s: float | None, force_inhibit: bool = False
+    ) -> None:
         """``output`` as signals with the heartbeat and the committed handshakes."""
         unit_ack, result_ack = self._acks_committed
         if output is None:
-            signals = OutputSignals(heartbeat=self.stats.heartbeat, unit_ack=unit_ack,
-                                    result_ack=result_ack)
+            signals = OutputSignals(
+                heartbeat=self.stats.heartbeat, unit_ack=unit_ack, result_ack=result_ack
+            )
         else:
-            signals = self.encoder.encode(output, heartbeat=self.stats.heartbeat,
-                                          unit_ack=unit_ack, result_ack=result_ack,
-                                          force_inhibit=force_inhibit)
+            signals = self.encoder.encode(
+                output,
+                heartbeat=self.stats.heartbeat,
+                unit_ack=unit_ack,
+                result_ack=result_ack,
+                force_inhibit=force_inhibit,
+            )
         self.worker.publish(signals, since_s)

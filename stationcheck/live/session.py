@@ -61,28 +61,38 @@ def make_link(config: StationConfig, settings: LiveSettings) -> SignalLink:
     if mode == "server":
         from stationcheck.plc.modbus_server import ModbusServerLink
 
-        return ModbusServerLink(settings.host or plc.host, settings.port or plc.port,
-                                device_id=plc.device_id,
-                                address_map=address_map_from(plc.address_map, server=True))
+        return ModbusServerLink(
+            settings.host or plc.host,
+            settings.port or plc.port,
+            device_id=plc.device_id,
+            address_map=address_map_from(plc.address_map, server=True),
+        )
     from stationcheck.plc.modbus_client import ModbusClientLink
 
-    return ModbusClientLink(settings.host or plc.host, settings.port or plc.port,
-                            device_id=plc.device_id, timeout_ms=plc.timeout_ms,
-                            retries=plc.retries, address_map=address_map_from(plc.address_map))
+    return ModbusClientLink(
+        settings.host or plc.host,
+        settings.port or plc.port,
+        device_id=plc.device_id,
+        timeout_ms=plc.timeout_ms,
+        retries=plc.retries,
+        address_map=address_map_from(plc.address_map),
+    )
 
 
 def worker_settings(config: StationConfig) -> WorkerSettings:
     """The PLC's liveness counter is watched (Modbus links; a console link has none)."""
     plc = config.plc
-    return WorkerSettings(liveness_timeout_s=plc.liveness_timeout_ms / 1000.0,
-                          session=SessionSettings(serial_pattern=plc.serial_pattern))
+    return WorkerSettings(
+        liveness_timeout_s=plc.liveness_timeout_ms / 1000.0,
+        session=SessionSettings(serial_pattern=plc.serial_pattern),
+    )
 
 
-def source_opener(config: StationConfig, settings: LiveSettings,
-                  clock: Callable[[], float]) -> tuple[SourceOpener, bool, str]:
+def source_opener(
+    config: StationConfig, settings: LiveSettings, clock: Callable[[], float]
+) -> tuple[SourceOpener, bool, str]:
     """How to (re)open the frame source, whether it is a file, and its name."""
-    where = parse_source(settings.source) if settings.source is not None \
-        else config.camera_source
+    where = parse_source(settings.source) if settings.source is not None else config.camera_source
     if isinstance(where, Path):
         from stationcheck.sources.video_file import VideoFileSource
 
@@ -101,13 +111,17 @@ def link_limits(config: StationConfig, timeout_ms: float | None = None) -> Watch
     plc = config.plc
     request_s = (timeout_ms if timeout_ms is not None else plc.timeout_ms) / 1000.0
     stale_s = min(config.to_plan().thresholds.stale_frame_ms / 1000.0, 0.08)
-    return WatchdogLimits(frame_timeout_s=stale_s,
-                          link_timeout_s=(plc.retries + 1) * request_s + 2 * request_s
-                          + WorkerSettings().cycle_s)
+    return WatchdogLimits(
+        frame_timeout_s=stale_s,
+        link_timeout_s=(plc.retries + 1) * request_s + 2 * request_s + WorkerSettings().cycle_s,
+    )
 
 
-def run_live(settings: LiveSettings, should_stop: Callable[[], bool] = lambda: False,
-             on_ready: Callable[[LiveLoop], None] | None = None) -> LiveStats:
+def run_live(
+    settings: LiveSettings,
+    should_stop: Callable[[], bool] = lambda: False,
+    on_ready: Callable[[LiveLoop], None] | None = None,
+) -> LiveStats:
     from stationcheck.judgements.station import StationJudgements
     from stationcheck.pipeline.decisions import DecisionCore
     from stationcheck.pipeline.evidence import EvidenceWriter, prune_evidence
@@ -129,8 +143,9 @@ def run_live(settings: LiveSettings, should_stop: Callable[[], bool] = lambda: F
     opener = opened_first(opener, source_name)
     log_path = settings.log_path or config.resolve(config.log.path)
     with ExitStack() as stack:
-        detector = load_detector(settings.model_path or config.model_path,
-                                 threads=config.model.threads)
+        detector = load_detector(
+            settings.model_path or config.model_path, threads=config.model.threads
+        )
         judges = [StationImageJudge(StationJudgements.from_config(config))]
         log = SqliteStepLog(log_path, station_id=config.station_id)
         stack.callback(log.close)
@@ -138,28 +153,33 @@ def run_live(settings: LiveSettings, should_stop: Callable[[], bool] = lambda: F
         if open_unit:
             logger.info("continuing the open unit from the step log (%d events)", len(open_unit))
         prune_evidence(log, config.log.retention_days)
-        evidence = (EvidenceWriter(plan, log_path.parent) if config.log.evidence_images
-                    else None)
+        evidence = EvidenceWriter(plan, log_path.parent) if config.log.evidence_images else None
         log_sink = StepLogSink(log, evidence=evidence, deferred=True)
 
         def rework_lookup(serial: str) -> tuple[PositionRef, ...]:
             log_sink.flush()  # the unit's last pass must be on disk before it is read back
             return rework_positions_from_log(log, serial)
 
-        decisions = DecisionCore(plan, sinks=[log_sink], resume_from=open_unit,
-                                 rework_lookup=rework_lookup)
+        decisions = DecisionCore(
+            plan, sinks=[log_sink], resume_from=open_unit, rework_lookup=rework_lookup
+        )
         path = FramePath(plan, detector, decisions, judges)
-        grabber = FrameGrabber(opener, pace=is_file and settings.pace,
-                               speed=settings.speed,
-                               retry=not is_file).start()
+        grabber = FrameGrabber(
+            opener, pace=is_file and settings.pace, speed=settings.speed, retry=not is_file
+        ).start()
         stack.callback(grabber.stop)
         shutdown = getattr(link, "shutdown", None)
         if shutdown is not None:
             stack.callback(shutdown)  # a server link serves until the run ends
         worker = LinkWorker(link, clock, worker_settings(config)).start()
         stack.callback(worker.stop)
-        loop = LiveLoop(path, grabber, worker, limits=link_limits(config, settings.timeout_ms),
-                        on_frame_taken=evidence.see if evidence is not None else None)
+        loop = LiveLoop(
+            path,
+            grabber,
+            worker,
+            limits=link_limits(config, settings.timeout_ms),
+            on_frame_taken=evidence.see if evidence is not None else None,
+        )
         if on_ready is not None:
             on_ready(loop)
         logger.info("live run: %s, link %s, log %s", source_name, link.name, log_path)

@@ -65,8 +65,14 @@ class _Stage(Generic[T]):
 class AnnotatedVideoWriter:
     """A step sink (to follow every event) and a frame sink (to draw and write each frame)."""
 
-    def __init__(self, path: Path | str, plan: StationPlan, fps: float,
-                 title: str = "stationcheck replay", every: int = 1) -> None:
+    def __init__(
+        self,
+        path: Path | str,
+        plan: StationPlan,
+        fps: float,
+        title: str = "stationcheck replay",
+        every: int = 1,
+    ) -> None:
         """``every``: draw every n-th frame only (the video then plays at ``fps / every``)."""
         self.path = Path(path)
         if every < 1:
@@ -95,8 +101,12 @@ class AnnotatedVideoWriter:
             return
         pose = result.pose
         view = self.views.view(
-            result.output, frame_index=result.frame.index, t_s=result.frame.t_s,
-            tip_px=pose.tip_px, rear_px=pose.rear_px, tip_seen=pose.seen,
+            result.output,
+            frame_index=result.frame.index,
+            t_s=result.frame.t_s,
+            tip_px=pose.tip_px,
+            rear_px=pose.rear_px,
+            tip_seen=pose.seen,
         )
         self._draw.queue.put((result.frame.image, view))
 
@@ -121,7 +131,9 @@ class AnnotatedVideoWriter:
     def _write(self, canvas: Image) -> None:
         if self._writer is None:
             self._writer = cv2.VideoWriter(
-                str(self.path), cv2.VideoWriter.fourcc(*FOURCC), self.fps,
+                str(self.path),
+                cv2.VideoWriter.fourcc(*FOURCC),
+                self.fps,
                 (canvas.shape[1], canvas.shape[0]),
             )
             if not self._writer.isOpened():

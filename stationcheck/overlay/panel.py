@@ -37,8 +37,15 @@ LEGEND: tuple[tuple[Meaning, str], ...] = (
 
 def _steady(view: StationView) -> StationView:
     """The view without what changes every frame and is not on the panel (time, tip)."""
-    return replace(view, frame_index=0, t_s=0.0, tip_px=None, rear_px=None, tip_seen=False,
-                   output=replace(view.output, t_s=0.0))
+    return replace(
+        view,
+        frame_index=0,
+        t_s=0.0,
+        tip_px=None,
+        rear_px=None,
+        tip_seen=False,
+        output=replace(view.output, t_s=0.0),
+    )
 
 
 def _label(plan: StationPlan, zone_id: str) -> str:
@@ -108,21 +115,28 @@ class PanelPainter:
             put_text(panel, "No unit on the station", (PAD, y + 20), 0.6, WHITE, 1, outline=None)
             return y + 30
         rework = "  (rework pass)" if output.rework else ""
-        put_text(panel, f"Unit {output.serial}{rework}", (PAD, y + 20), 0.65, WHITE, 1, FONT_BOLD,
-                 None)
+        put_text(
+            panel, f"Unit {output.serial}{rework}", (PAD, y + 20), 0.65, WHITE, 1, FONT_BOLD, None
+        )
         y += 30
         if output.step_count:
             step = (output.step_id or "").replace("_", " ")
-            put_text(panel, f"Step {output.step_number} of {output.step_count}: {step}",
-                     (PAD, y + 16), 0.5, WHITE, 1, outline=None)
+            put_text(
+                panel,
+                f"Step {output.step_number} of {output.step_count}: {step}",
+                (PAD, y + 16),
+                0.5,
+                WHITE,
+                1,
+                outline=None,
+            )
             y += 24
         zones = self.fasten_zones.get(output.step_id or "", ())
         if zones:
             y = self._position_row(panel, view, zones, y)
         return y
 
-    def _position_row(self, panel: Image, view: StationView, zones: tuple[str, ...],
-                      y: int) -> int:
+    def _position_row(self, panel: Image, view: StationView, zones: tuple[str, ...], y: int) -> int:
         size, gap = 34, 8
         x = PAD
         target = view.output.target.zone if view.output.target is not None else None
@@ -142,8 +156,9 @@ class PanelPainter:
                 cv2.rectangle(panel, (x, y), (x + size, y + size), COLOURS["neutral"], 1)
                 ink = WHITE
             w, h = text_size(name, 0.55, 1, FONT_BOLD)
-            put_text(panel, name, (x + (size - w) / 2, y + (size + h) / 2), 0.55, ink, 1,
-                     FONT_BOLD, None)
+            put_text(
+                panel, name, (x + (size - w) / 2, y + (size + h) / 2), 0.55, ink, 1, FONT_BOLD, None
+            )
             if zone in view.failed_zones:
                 draw_symbol(panel, "fault", (x + size - 3, y + 3), 12)
             elif zone in view.done_zones and zone != target:
@@ -153,7 +168,9 @@ class PanelPainter:
         output = view.output
         if output.position_number:
             label = f" - {_label(self.plan, target)}" if target else ""  # OpenCV fonts: ASCII
-            text = f"order {output.position_number} of {len(zones)}{label}, attempt {output.attempt}"
+            text = (
+                f"order {output.position_number} of {len(zones)}{label}, attempt {output.attempt}"
+            )
             put_text(panel, text, (PAD, y + 16), 0.5, WHITE, 1, outline=None)
             y += 22
         return y
@@ -163,8 +180,7 @@ class PanelPainter:
             return y
         labels = ", ".join(_label(self.plan, z) for z in view.failed_zones)
         draw_symbol(panel, "fault", (PAD + 9, y + 11), 16)
-        put_text(panel, f"Left for rework: {labels}", (PAD + 24, y + 17), 0.5,
-                 COLOURS["fault"], 1)
+        put_text(panel, f"Left for rework: {labels}", (PAD + 24, y + 17), 0.5, COLOURS["fault"], 1)
         return y + 24
 
     def _instruction(self, panel: Image, view: StationView, y: int) -> int:
@@ -191,8 +207,15 @@ class PanelPainter:
             if result.angle_deg is not None:
                 values.append(f"{result.angle_deg:.1f} deg")
             draw_symbol(panel, meaning, (PAD + 10, y + 34), 18)
-            put_text(panel, "OK" if result.ok else "NOK", (PAD + 26, y + 42), 0.7,
-                     COLOURS[meaning], 2, FONT_BOLD)
+            put_text(
+                panel,
+                "OK" if result.ok else "NOK",
+                (PAD + 26, y + 42),
+                0.7,
+                COLOURS[meaning],
+                2,
+                FONT_BOLD,
+            )
             put_text(panel, "  ".join(values), (PAD + 90, y + 41), 0.6, WHITE, 1, outline=None)
             y += 50
         unit = view.last_unit
@@ -205,8 +228,9 @@ class PanelPainter:
             y += 26
             if unit.failed_zones:
                 labels = ", ".join(_label(self.plan, z) for z in unit.failed_zones)
-                put_text(panel, f"rework: {labels}", (PAD + 26, y + 14), 0.5, WHITE, 1,
-                         outline=None)
+                put_text(
+                    panel, f"rework: {labels}", (PAD + 26, y + 14), 0.5, WHITE, 1, outline=None
+                )
                 y += 22
         return y
 

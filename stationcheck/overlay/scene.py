@@ -52,8 +52,9 @@ def _fill(image: Image, zone: ZoneSpec, colour: tuple[int, int, int], alpha: flo
     cv2.addWeighted(layer, alpha, roi, 1.0 - alpha, 0.0, dst=roi)
 
 
-def _outline(image: Image, zone: ZoneSpec, colour: tuple[int, int, int], thickness: int,
-             halo: bool = False) -> None:
+def _outline(
+    image: Image, zone: ZoneSpec, colour: tuple[int, int, int], thickness: int, halo: bool = False
+) -> None:
     """The zone's outline on a dark rim; ``halo`` adds a white rim so it stands out on a
     background of its own colour."""
     pts = _polygon(zone)
@@ -63,8 +64,9 @@ def _outline(image: Image, zone: ZoneSpec, colour: tuple[int, int, int], thickne
     cv2.polylines(image, [pts], True, colour, thickness, cv2.LINE_AA)
 
 
-def _tag(image: Image, text: str, anchor: tuple[float, float], meaning: Meaning,
-         above: bool = True) -> None:
+def _tag(
+    image: Image, text: str, anchor: tuple[float, float], meaning: Meaning, above: bool = True
+) -> None:
     """A small filled label in the meaning's colour, centred on ``anchor``'s x."""
     scale = 0.42
     w, h = text_size(text, scale, 1, FONT_BOLD)
@@ -128,18 +130,24 @@ def draw_fastener(image: Image, zone: ZoneSpec, name: str, state: str, rework: b
     else:
         _outline(image, zone, COLOURS["neutral"], 1)
     w, h = text_size(name, 0.5, 1, FONT_BOLD)
-    put_text(image, name, (centre[0] - w / 2, centre[1] + h / 2), 0.5, (255, 255, 255), 1,
-             FONT_BOLD)
+    put_text(
+        image, name, (centre[0] - w / 2, centre[1] + h / 2), 0.5, (255, 255, 255), 1, FONT_BOLD
+    )
 
 
 def draw_area(image: Image, zone: ZoneSpec, state: str, caption: str) -> None:
     """A bin or check zone: outline, its label, and a tag for its state."""
     x0, y0, x1, y1 = _box(zone)
     centre = _centre(zone)
-    meaning: Meaning = {"target": "action", "wrong": "abnormal", "ok": "normal",
-                        "failed": "fault"}.get(state, "neutral")  # type: ignore[assignment]
-    _outline(image, zone, COLOURS[meaning], 1 if meaning == "neutral" else 3,
-             halo=meaning != "neutral")
+    meaning: Meaning = {
+        "target": "action",
+        "wrong": "abnormal",
+        "ok": "normal",
+        "failed": "fault",
+    }.get(state, "neutral")  # type: ignore[assignment]
+    _outline(
+        image, zone, COLOURS[meaning], 1 if meaning == "neutral" else 3, halo=meaning != "neutral"
+    )
     label = zone.label or zone.id
     if text_size(label, 0.4)[0] + 8 <= x1 - x0:
         put_text(image, label, (x0 + 4, y0 + 14), 0.4, (255, 255, 255))
@@ -166,20 +174,30 @@ def draw_tip(image: Image, view: StationView) -> None:
             a = point(tip[0] - 13 * dx, tip[1] - 13 * dy)
             b = point(tip[0] + 13 * dx, tip[1] + 13 * dy)
             cv2.line(image, a, b, colour, 1, cv2.LINE_AA)
-    put_text(image, "tip" if view.tip_seen else "tip (held)", (tip[0] + 11, tip[1] + 20), 0.4,
-             colour)
+    put_text(
+        image, "tip" if view.tip_seen else "tip (held)", (tip[0] + 11, tip[1] + 20), 0.4, colour
+    )
 
 
 def draw_camera_banner(image: Image) -> None:
     h = 34
     cv2.rectangle(image, (0, 0), (image.shape[1], h), COLOURS["fault"], -1)
     draw_symbol(image, "fault", (20, h / 2), 24, (255, 255, 255), ink=COLOURS["fault"])
-    put_text(image, "CAMERA MOVED - zones do not match the view", (40, 23), 0.6,
-             (255, 255, 255), 1, FONT_BOLD, None)
+    put_text(
+        image,
+        "CAMERA MOVED - zones do not match the view",
+        (40, 23),
+        0.6,
+        (255, 255, 255),
+        1,
+        FONT_BOLD,
+        None,
+    )
 
 
-def draw_scene(image: Image, plan: StationPlan, view: StationView,
-               names: Mapping[str, str]) -> None:
+def draw_scene(
+    image: Image, plan: StationPlan, view: StationView, names: Mapping[str, str]
+) -> None:
     """All marks on the camera image (drawn in place)."""
     output = view.output
     target_zone = output.guidance.target

@@ -18,8 +18,14 @@ def point(x: float, y: float) -> tuple[int, int]:
     return (round(x), round(y))
 
 
-def draw_symbol(image: Image, meaning: Meaning, centre: tuple[float, float], size_px: float,
-                colour: BGR | None = None, ink: BGR = (255, 255, 255)) -> None:
+def draw_symbol(
+    image: Image,
+    meaning: Meaning,
+    centre: tuple[float, float],
+    size_px: float,
+    colour: BGR | None = None,
+    ink: BGR = (255, 255, 255),
+) -> None:
     """The meaning's symbol, ``size_px`` across, in its colour (or ``colour``) on a dark rim;
     ``ink`` is the colour of the cross inside the fault symbol."""
     c = colour if colour is not None else COLOURS[meaning]
@@ -27,13 +33,20 @@ def draw_symbol(image: Image, meaning: Meaning, centre: tuple[float, float], siz
     r = size_px / 2.0
     thick = max(2, int(size_px / 7))
     if meaning == "normal":  # check mark
-        pts = np.array([point(x - 0.8 * r, y), point(x - 0.2 * r, y + 0.6 * r),
-                        point(x + 0.85 * r, y - 0.65 * r)], np.int32)
+        pts = np.array(
+            [
+                point(x - 0.8 * r, y),
+                point(x - 0.2 * r, y + 0.6 * r),
+                point(x + 0.85 * r, y - 0.65 * r),
+            ],
+            np.int32,
+        )
         cv2.polylines(image, [pts], False, DARK, thick + 3, cv2.LINE_AA)
         cv2.polylines(image, [pts], False, c, thick, cv2.LINE_AA)
     elif meaning == "abnormal":  # triangle with "!"
-        pts = np.array([point(x, y - r), point(x + r, y + 0.8 * r), point(x - r, y + 0.8 * r)],
-                       np.int32)
+        pts = np.array(
+            [point(x, y - r), point(x + r, y + 0.8 * r), point(x - r, y + 0.8 * r)], np.int32
+        )
         cv2.fillPoly(image, [pts], c, cv2.LINE_AA)
         cv2.polylines(image, [pts], True, DARK, 1, cv2.LINE_AA)
         cv2.line(image, point(x, y - 0.45 * r), point(x, y + 0.25 * r), DARK, thick, cv2.LINE_AA)
@@ -45,9 +58,18 @@ def draw_symbol(image: Image, meaning: Meaning, centre: tuple[float, float], siz
         for a, b in (((x - d, y - d), (x + d, y + d)), ((x - d, y + d), (x + d, y - d))):
             cv2.line(image, point(*a), point(*b), ink, thick, cv2.LINE_AA)
     elif meaning == "action":  # arrow pointing right
-        pts = np.array([point(x - r, y - 0.3 * r), point(x, y - 0.3 * r), point(x, y - 0.8 * r),
-                        point(x + r, y), point(x, y + 0.8 * r), point(x, y + 0.3 * r),
-                        point(x - r, y + 0.3 * r)], np.int32)
+        pts = np.array(
+            [
+                point(x - r, y - 0.3 * r),
+                point(x, y - 0.3 * r),
+                point(x, y - 0.8 * r),
+                point(x + r, y),
+                point(x, y + 0.8 * r),
+                point(x, y + 0.3 * r),
+                point(x - r, y + 0.3 * r),
+            ],
+            np.int32,
+        )
         cv2.fillPoly(image, [pts], c, cv2.LINE_AA)
         cv2.polylines(image, [pts], True, DARK, 1, cv2.LINE_AA)
     else:  # neutral: plain ring
@@ -55,8 +77,9 @@ def draw_symbol(image: Image, meaning: Meaning, centre: tuple[float, float], siz
         cv2.circle(image, point(x, y), int(r * 0.8), c, thick, cv2.LINE_AA)
 
 
-def draw_inhibit_sign(image: Image, centre: tuple[float, float], size_px: float,
-                      colour: BGR) -> None:
+def draw_inhibit_sign(
+    image: Image, centre: tuple[float, float], size_px: float, colour: BGR
+) -> None:
     """A circle with a slash: the tool may not run."""
     x, y = centre
     r = int(size_px / 2)
@@ -79,8 +102,16 @@ def text_size(text: str, scale: float, thickness: int = 1, font: int = FONT) -> 
     return w, h
 
 
-def put_text(image: Image, text: str, origin: tuple[float, float], scale: float, colour: BGR,
-             thickness: int = 1, font: int = FONT, outline: BGR | None = DARK) -> None:
+def put_text(
+    image: Image,
+    text: str,
+    origin: tuple[float, float],
+    scale: float,
+    colour: BGR,
+    thickness: int = 1,
+    font: int = FONT,
+    outline: BGR | None = DARK,
+) -> None:
     """Text with its baseline at ``origin``; a dark outline keeps it readable on the video."""
     at = point(*origin)
     if outline is not None:
@@ -88,8 +119,7 @@ def put_text(image: Image, text: str, origin: tuple[float, float], scale: float,
     cv2.putText(image, text, at, font, scale, colour, thickness, cv2.LINE_AA)
 
 
-def wrap(text: str, scale: float, width_px: int, thickness: int = 1,
-         font: int = FONT) -> list[str]:
+def wrap(text: str, scale: float, width_px: int, thickness: int = 1, font: int = FONT) -> list[str]:
     lines: list[str] = []
     current = ""
     for word in text.split():

@@ -26,20 +26,44 @@ def measure(options: BenchOptions) -> list[BenchRow]:
 
     frames = options.frames_or(DEFAULT_FRAMES)
     with tempfile.TemporaryDirectory() as folder:
-        report = run_replay(ReplaySettings(
-            config_path=DEMO_CONFIG, log_path=Path(folder) / "bench.sqlite",
-            video=options.video or SAMPLE_VIDEO, inputs=SAMPLE_INPUTS, model_path=options.model,
-            threads=options.threads[0], max_frames=frames))
+        report = run_replay(
+            ReplaySettings(
+                config_path=DEMO_CONFIG,
+                log_path=Path(folder) / "bench.sqlite",
+                video=options.video or SAMPLE_VIDEO,
+                inputs=SAMPLE_INPUTS,
+                model_path=options.model,
+                threads=options.threads[0],
+                max_frames=frames,
+            )
+        )
     stats = report.stats
     medians = stats.medians_ms()
     headline = {"full_path_fps": report.fps}
-    headline.update({f"stage_{name}_ms_median": ms for name, ms in medians.items()
-                     if name != "outputs"})
-    rows = [BenchRow(SECTION_NAME, f"whole path frames/s ({stats.frames} frames)", report.fps,
-                     None, "f/s", FPS_TARGET, headline=headline)]
+    headline.update(
+        {f"stage_{name}_ms_median": ms for name, ms in medians.items() if name != "outputs"}
+    )
+    rows = [
+        BenchRow(
+            SECTION_NAME,
+            f"whole path frames/s ({stats.frames} frames)",
+            report.fps,
+            None,
+            "f/s",
+            FPS_TARGET,
+            headline=headline,
+        )
+    ]
     for name, values in stats.stage_ms.items():
         if name == "outputs" or not values:
             continue
-        rows.append(BenchRow(SECTION_NAME, f"stage {name}", float(np.median(values)),
-                             float(np.percentile(values, 99)), "ms"))
+        rows.append(
+            BenchRow(
+                SECTION_NAME,
+                f"stage {name}",
+                float(np.median(values)),
+                float(np.percentile(values, 99)),
+                "ms",
+            )
+        )
     return rows

@@ -114,13 +114,21 @@ def compare_decisions(
     groups: dict[Key, tuple[list[Decision], list[Decision]]] = {}
     for side, decisions in enumerate((expected, actual)):
         for decision in decisions:
-            key = (decision.kind, decision.serial, decision.pass_no,
-                   *IDENTITY[decision.kind](decision.data))
+            key = (
+                decision.kind,
+                decision.serial,
+                decision.pass_no,
+                *IDENTITY[decision.kind](decision.data),
+            )
             groups.setdefault(key, ([], []))[side].append(decision)
     for (kind, serial, pass_no, *_), (wanted, got) in groups.items():
         tolerance = edge_tolerance_frames if kind == "enable" else other_tolerance_frames
         pairs = sorted(
-            ((abs(a.frame - e.frame), i, j) for i, e in enumerate(wanted) for j, a in enumerate(got)),
+            (
+                (abs(a.frame - e.frame), i, j)
+                for i, e in enumerate(wanted)
+                for j, a in enumerate(got)
+            ),
         )
         used_e: set[int] = set()
         used_a: set[int] = set()
@@ -132,13 +140,29 @@ def compare_decisions(
             e, a = wanted[i], got[j]
             result.offsets_by_kind.setdefault(kind, []).append(a.frame - e.frame)
             if distance > tolerance:
-                result.mismatches.append(Mismatch(
-                    kind, "timing", serial, pass_no, e.frame, a.frame,
-                    f"{_describe(e)}: {a.frame - e.frame:+d} frames (tolerance {tolerance})"))
+                result.mismatches.append(
+                    Mismatch(
+                        kind,
+                        "timing",
+                        serial,
+                        pass_no,
+                        e.frame,
+                        a.frame,
+                        f"{_describe(e)}: {a.frame - e.frame:+d} frames (tolerance {tolerance})",
+                    )
+                )
             elif VALUES[kind](e.data) != VALUES[kind](a.data):
-                result.mismatches.append(Mismatch(
-                    kind, "differs", serial, pass_no, e.frame, a.frame,
-                    f"expected {_describe(e)}; got {_describe(a)}"))
+                result.mismatches.append(
+                    Mismatch(
+                        kind,
+                        "differs",
+                        serial,
+                        pass_no,
+                        e.frame,
+                        a.frame,
+                        f"expected {_describe(e)}; got {_describe(a)}",
+                    )
+                )
             else:
                 result.matched[kind] += 1
                 if kind == "enable":
@@ -146,13 +170,16 @@ def compare_decisions(
         for i, e in enumerate(wanted):
             if i not in used_e:
                 result.mismatches.append(
-                    Mismatch(kind, "missing", serial, pass_no, e.frame, None, _describe(e)))
+                    Mismatch(kind, "missing", serial, pass_no, e.frame, None, _describe(e))
+                )
         for j, a in enumerate(got):
             if j not in used_a:
                 result.mismatches.append(
-                    Mismatch(kind, "extra", serial, pass_no, None, a.frame, _describe(a)))
-    result.mismatches.sort(key=lambda m: min(f for f in (m.expected_frame, m.actual_frame)
-                                             if f is not None))
+                    Mismatch(kind, "extra", serial, pass_no, None, a.frame, _describe(a))
+                )
+    result.mismatches.sort(
+        key=lambda m: min(f for f in (m.expected_frame, m.actual_frame) if f is not None)
+    )
     return result
 
 
@@ -162,8 +189,11 @@ class FalseEnables:
     episodes: tuple[tuple[int, int], ...]  # first and last frame of each run
 
     def to_dict(self) -> dict[str, Any]:
-        return {"frames": self.frames, "episodes": len(self.episodes),
-                "episode_frames": [list(e) for e in self.episodes]}
+        return {
+            "frames": self.frames,
+            "episodes": len(self.episodes),
+            "episode_frames": [list(e) for e in self.episodes],
+        }
 
 
 def truly_at_target(row: Any, polygon: Any, hysteresis_px: float) -> bool:
@@ -184,8 +214,9 @@ def count_false_enables(
     for state in states:
         if not state.enabled or state.running:
             continue
-        if truly_at_target(truth.rows.get(state.frame_index),
-                           polygons.get(state.target_zone or ""), hysteresis_px):
+        if truly_at_target(
+            truth.rows.get(state.frame_index), polygons.get(state.target_zone or ""), hysteresis_px
+        ):
             continue
         bad.append(state.frame_index)
     episodes: list[tuple[int, int]] = []

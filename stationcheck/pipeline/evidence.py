@@ -46,8 +46,9 @@ def safe_name(text: str) -> str:
     return cleaned or "x"
 
 
-def crop_box(polygon_px: Sequence[tuple[float, float]], margin_px: int, width_px: int,
-             height_px: int) -> Box:
+def crop_box(
+    polygon_px: Sequence[tuple[float, float]], margin_px: int, width_px: int, height_px: int
+) -> Box:
     """The polygon's bounding box grown by ``margin_px`` on every side, clipped to the frame."""
     if margin_px < 0:
         raise ValueError(f"margin_px must be >= 0, got {margin_px}")
@@ -58,15 +59,18 @@ def crop_box(polygon_px: Sequence[tuple[float, float]], margin_px: int, width_px
     x1 = min(width_px, math.ceil(max(xs)) + margin_px)
     y1 = min(height_px, math.ceil(max(ys)) + margin_px)
     if x1 <= x0 or y1 <= y0:
-        raise ValueError(f"zone box {(x0, y0, x1, y1)} lies outside the {width_px}x{height_px} frame")
+        raise ValueError(
+            f"zone box {(x0, y0, x1, y1)} lies outside the {width_px}x{height_px} frame"
+        )
     return x0, y0, x1, y1
 
 
 class EvidenceWriter:
     """Sees every frame (:meth:`see`) and turns tightening results into events with an image."""
 
-    def __init__(self, plan: StationPlan, log_folder: Path,
-                 margin_px: int = DEFAULT_MARGIN_PX) -> None:
+    def __init__(
+        self, plan: StationPlan, log_folder: Path, margin_px: int = DEFAULT_MARGIN_PX
+    ) -> None:
         self.polygons = {zone.id: zone.polygon_px for zone in plan.zones}
         self.log_folder = log_folder
         self.margin_px = margin_px
@@ -91,20 +95,28 @@ class EvidenceWriter:
     def _with_image(self, event: Event) -> Event:
         zone = str(event.data.get("zone", ""))
         if self._frame is None or zone not in self.polygons:
-            logger.warning("no evidence image for the tightening result at %.3f s "
-                           "(no frame or unknown zone %r)", event.t_s, zone)
+            logger.warning(
+                "no evidence image for the tightening result at %.3f s "
+                "(no frame or unknown zone %r)",
+                event.t_s,
+                zone,
+            )
             self.failures += 1
             return event
         serial = event.serial or "no-serial"
         name = "{}_pass{}_{}_attempt{}.png".format(
-            safe_name(serial), self._passes.get(serial, 1), safe_name(zone),
-            int(event.data.get("attempt", 1)))
+            safe_name(serial),
+            self._passes.get(serial, 1),
+            safe_name(zone),
+            int(event.data.get("attempt", 1)),
+        )
         relative = Path(EVIDENCE_FOLDER) / name
         try:
             self._write(self.log_folder / relative, self._crop(zone, self._frame.image))
         except (OSError, ValueError, cv2.error) as exc:
-            logger.warning("evidence image %s not written, result logged without it: %s",
-                           relative, exc)
+            logger.warning(
+                "evidence image %s not written, result logged without it: %s", relative, exc
+            )
             self.failures += 1
             return event
         self.images_written += 1
@@ -124,10 +136,17 @@ class EvidenceWriter:
         path.write_bytes(encoded.tobytes())
 
 
-def prune_evidence(log: SqliteStepLog, retention_days: float,
-                   now_s: float | None = None) -> RetentionReport:
+def prune_evidence(
+    log: SqliteStepLog, retention_days: float, now_s: float | None = None
+) -> RetentionReport:
     """Remove evidence images older than ``retention_days`` (by wall-clock record time); the
     rows keep their paths."""
-    return apply_retention(log, retention_days, time.time() if now_s is None else now_s,
-                           basis="recorded_at", evidence=True, rows=False,
-                           evidence_root=log.path.parent)
+    return apply_retention(
+        log,
+        retention_days,
+        time.time() if now_s is None else now_s,
+        basis="recorded_at",
+        evidence=True,
+        rows=False,
+        evidence_root=log.path.parent,
+    )

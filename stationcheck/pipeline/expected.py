@@ -59,7 +59,9 @@ def read_expected(path: Path | str) -> list[Decision]:
         if not isinstance(frame, int) or isinstance(frame, bool) or frame < 0:
             raise InputFileError(f"{where}: frame must be a whole number >= 0, got {frame!r}")
         if kind not in DECISION_KINDS:
-            raise InputFileError(f"{where}: kind must be one of {list(DECISION_KINDS)}, got {kind!r}")
+            raise InputFileError(
+                f"{where}: kind must be one of {list(DECISION_KINDS)}, got {kind!r}"
+            )
         if serial is not None and not isinstance(serial, str):
             raise InputFileError(f"{where}: serial must be text or null, got {serial!r}")
         data = {k: v for k, v in raw.items() if k not in ("frame", "t_s", "kind", "serial")}
@@ -119,21 +121,48 @@ def decisions_from_events(framed: Iterable[FramedEvent], end_frame: int) -> list
             enabled_zone = data.get("zone")
             out.append(Decision(frame, "enable", serial, {"on": True, "zone": enabled_zone}))
         elif kind == "tool_inhibited":
-            out.append(Decision(frame, "enable", serial,
-                                {"on": False, "zone": enabled_zone, "reason": data.get("reason")}))
+            out.append(
+                Decision(
+                    frame,
+                    "enable",
+                    serial,
+                    {"on": False, "zone": enabled_zone, "reason": data.get("reason")},
+                )
+            )
             enabled_zone = None
         elif kind == "tightening_result":
-            out.append(Decision(frame, "position_result", serial, {
-                "zone": data["zone"], "attempt": data["attempt"], "ok": data["result"] == RESULT_OK,
-            }))
+            out.append(
+                Decision(
+                    frame,
+                    "position_result",
+                    serial,
+                    {
+                        "zone": data["zone"],
+                        "attempt": data["attempt"],
+                        "ok": data["result"] == RESULT_OK,
+                    },
+                )
+            )
         elif kind == "position_failed":
             out.append(Decision(frame, "rework_mark", serial, {"zone": data["zone"]}))
         elif kind == "step_completed" and data["kind"] == "check":
-            out.append(Decision(frame, "check_result", serial,
-                                {"step": data["step"], "passed": data["result"] == RESULT_OK}))
+            out.append(
+                Decision(
+                    frame,
+                    "check_result",
+                    serial,
+                    {"step": data["step"], "passed": data["result"] == RESULT_OK},
+                )
+            )
         elif kind == "step_completed":
-            out.append(Decision(frame, "step_done", serial,
-                                {"step": data["step"], "failed": _zones(data["failed_positions"])}))
+            out.append(
+                Decision(
+                    frame,
+                    "step_done",
+                    serial,
+                    {"step": data["step"], "failed": _zones(data["failed_positions"])},
+                )
+            )
         elif kind == "unit_started":
             assert serial is not None
             open_units[serial] = bool(data["rework"])
@@ -141,17 +170,34 @@ def decisions_from_events(framed: Iterable[FramedEvent], end_frame: int) -> list
             if serial is not None:
                 open_units.pop(serial, None)
             failed = _zones(data["failed_positions"])
-            out.append(Decision(frame, "unit_result", serial, {
-                "result": unit_result_word(str(data["result"]), failed),
-                "failed": failed,
-                "rework": bool(data["rework"]),
-                "ended_by": data["ended_by"],
-            }))
+            out.append(
+                Decision(
+                    frame,
+                    "unit_result",
+                    serial,
+                    {
+                        "result": unit_result_word(str(data["result"]), failed),
+                        "failed": failed,
+                        "rework": bool(data["rework"]),
+                        "ended_by": data["ended_by"],
+                    },
+                )
+            )
         elif kind == "alarm_raised" and _is_alarm(str(data["code"])):
             subject = data.get("subject") or None
             out.append(Decision(frame, "alarm", serial, {"alarm": data["code"], "zone": subject}))
     for serial, rework in open_units.items():
-        out.append(Decision(end_frame, "unit_result", serial, {
-            "result": NOT_RELEASED, "failed": [], "rework": rework, "ended_by": "open_at_end",
-        }))
+        out.append(
+            Decision(
+                end_frame,
+                "unit_result",
+                serial,
+                {
+                    "result": NOT_RELEASED,
+                    "failed": [],
+                    "rework": rework,
+                    "ended_by": "open_at_end",
+                },
+            )
+        )
     return number_passes(out)

@@ -148,8 +148,15 @@ class FramePath:
             zone_obs = replace(zone_obs, frozen_ms=frozen_ms)
         self.last_pose = pose
         t2 = time.perf_counter()
-        return Sighting(frame, keypoints, fault, pose, zone_obs,
-                        detect_ms=(t1 - t0) * 1e3, track_ms=(t2 - t1) * 1e3)
+        return Sighting(
+            frame,
+            keypoints,
+            fault,
+            pose,
+            zone_obs,
+            detect_ms=(t1 - t0) * 1e3,
+            track_ms=(t2 - t1) * 1e3,
+        )
 
     def decide(self, sighting: Sighting, judge_now: bool = False) -> None:
         """Steps the sighting's zone observation (or detector fault), hands the output to
@@ -165,7 +172,8 @@ class FramePath:
         pending = _Pending(sighting, first, decide_ms)
         if self.judges and not judge_now:
             pending.judged = self._judging_thread().submit(
-                self._judge, sighting.frame, sighting.pose, first.output)
+                self._judge, sighting.frame, sighting.pose, first.output
+            )
         self._pending = pending
 
     def settle(self) -> FrameResult | None:
@@ -189,8 +197,12 @@ class FramePath:
             zone=sighting.zone,
             steps=tuple(steps),
             output=steps[-1].output,
-            times=StageTimes(detect_ms=sighting.detect_ms, track_ms=sighting.track_ms,
-                             judge_ms=judge_ms, decide_ms=decide_ms),
+            times=StageTimes(
+                detect_ms=sighting.detect_ms,
+                track_ms=sighting.track_ms,
+                judge_ms=judge_ms,
+                decide_ms=decide_ms,
+            ),
         )
 
     def close(self) -> None:
@@ -204,8 +216,9 @@ class FramePath:
             self._executor = ThreadPoolExecutor(max_workers=1, thread_name_prefix="judging")
         return self._executor
 
-    def _judge(self, frame: Frame, pose: ToolPose,
-               output: Output) -> tuple[list[Observation], float]:
+    def _judge(
+        self, frame: Frame, pose: ToolPose, output: Output
+    ) -> tuple[list[Observation], float]:
         t0 = time.perf_counter()
         judged: list[Observation] = []
         for judge in self.judges:

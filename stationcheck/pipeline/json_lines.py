@@ -36,12 +36,15 @@ def read_json_lines(path: Path, what: str) -> Iterator[tuple[str, dict[str, Any]
     """
     try:
         with open(path, encoding="utf-8") as handle:
-            for number, line in enumerate(iter(lambda: handle.readline(MAX_LINE_CHARS + 1), ""),
-                                          start=1):
+            for number, line in enumerate(
+                iter(lambda: handle.readline(MAX_LINE_CHARS + 1), ""), start=1
+            ):
                 where = f"{path}:{number}"
                 if len(line) > MAX_LINE_CHARS:
-                    raise InputFileError(f"{where}: a line longer than {MAX_LINE_CHARS} "
-                                         "characters; one record per line")
+                    raise InputFileError(
+                        f"{where}: a line longer than {MAX_LINE_CHARS} "
+                        "characters; one record per line"
+                    )
                 if not line.strip():
                     continue
                 try:
@@ -49,8 +52,7 @@ def read_json_lines(path: Path, what: str) -> Iterator[tuple[str, dict[str, Any]
                 except json.JSONDecodeError as exc:
                     raise InputFileError(f"{where}: not valid JSON ({exc.msg})") from exc
                 except RecursionError as exc:
-                    raise InputFileError(f"{where}: nested deeper than {MAX_DEPTH} levels") \
-                        from exc
+                    raise InputFileError(f"{where}: nested deeper than {MAX_DEPTH} levels") from exc
                 if nests_deeper(data, MAX_DEPTH):
                     raise InputFileError(f"{where}: nested deeper than {MAX_DEPTH} levels")
                 if not isinstance(data, dict):

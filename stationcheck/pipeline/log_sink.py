@@ -40,8 +40,14 @@ class StepLogSink:
     sync time never delays the enable signal. Events wait at most one loop cycle.
     """
 
-    def __init__(self, log: StepLog, clock: Callable[[], float] = time.time,
-                 evidence: EvidenceWriter | None = None, *, deferred: bool = False) -> None:
+    def __init__(
+        self,
+        log: StepLog,
+        clock: Callable[[], float] = time.time,
+        evidence: EvidenceWriter | None = None,
+        *,
+        deferred: bool = False,
+    ) -> None:
         self.log = log
         self.clock = clock
         self.evidence = evidence
@@ -81,8 +87,9 @@ class StepLogSink:
         data: dict[str, object] = {"reason": STOPPED_ON_REQUEST, "was_enabled": self._enabled}
         if not stop_requested(error):
             data.update(reason=STOPPED_ON_ERROR, error=first_line(error)[:300])
-        event = Event(t_s=self._last_t_s, kind="tool_inhibited", serial=self._last_serial,
-                      data=data)
+        event = Event(
+            t_s=self._last_t_s, kind="tool_inhibited", serial=self._last_serial, data=data
+        )
         self.log.append([event], recorded_at_s=self.clock())
         self.events_written += 1
         logger.info("run stopped (%s); tool inhibited and recorded in the log", data["reason"])

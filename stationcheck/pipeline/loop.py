@@ -115,8 +115,9 @@ def run_loop(
                 decisions.apply(observation)
         stats.inputs_not_applied = schedule.pending
         if stats.inputs_not_applied:
-            logger.info("%d station inputs after the last frame were not applied",
-                        stats.inputs_not_applied)
+            logger.info(
+                "%d station inputs after the last frame were not applied", stats.inputs_not_applied
+            )
     except BaseException as exc:
         error = exc
         logger.info("frame loop stopped: %s", exc)
@@ -128,8 +129,13 @@ def run_loop(
     return stats
 
 
-def _hand_on(result: FrameResult | None, stats: LoopStats, frame_sinks: Sequence[FrameSink],
-             progress: Progress | None, frame_count: int | None) -> None:
+def _hand_on(
+    result: FrameResult | None,
+    stats: LoopStats,
+    frame_sinks: Sequence[FrameSink],
+    progress: Progress | None,
+    frame_count: int | None,
+) -> None:
     """A settled frame's result to the sinks and the figures."""
     if result is None:
         return

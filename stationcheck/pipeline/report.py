@@ -47,7 +47,9 @@ class ReplayReport:
             "last_frame": self.last_frame,
             "units": [unit.to_dict() for unit in self.units],
             "false_enables": self.false_enables.frames if self.false_enables else None,
-            "false_enable_episodes": len(self.false_enables.episodes) if self.false_enables else None,
+            "false_enable_episodes": len(self.false_enables.episodes)
+            if self.false_enables
+            else None,
             "false_enable_frames": (
                 [list(e) for e in self.false_enables.episodes] if self.false_enables else None
             ),
@@ -55,7 +57,8 @@ class ReplayReport:
             "mismatches_by_kind": comparison.mismatches_by_kind if comparison else None,
             "mismatch_details": (
                 [m.to_dict() for m in comparison.mismatches[:MAX_MISMATCHES_SHOWN]]
-                if comparison else None
+                if comparison
+                else None
             ),
             "matched_by_kind": dict(sorted(comparison.matched.items())) if comparison else None,
             "edge_offset_frames_median": comparison.edge_offset_median if comparison else None,
@@ -80,31 +83,43 @@ class ReplayReport:
         comparison = self.comparison
         if self.false_enables is not None:
             fe = self.false_enables
-            lines.append(f"false enables: {fe.frames} frames in {len(fe.episodes)} episodes "
-                         "(tool enabled away from the target, from the ground truth)")
+            lines.append(
+                f"false enables: {fe.frames} frames in {len(fe.episodes)} episodes "
+                "(tool enabled away from the target, from the ground truth)"
+            )
         if comparison is not None:
-            lines.append(f"expected decisions: {sum(comparison.matched.values())} matched, "
-                         f"{len(comparison.mismatches)} mismatches")
+            lines.append(
+                f"expected decisions: {sum(comparison.matched.values())} matched, "
+                f"{len(comparison.mismatches)} mismatches"
+            )
             for mismatch in comparison.mismatches[:MAX_MISMATCHES_SHOWN]:
                 frames = "/".join(
                     str(f) if f is not None else "-"
                     for f in (mismatch.expected_frame, mismatch.actual_frame)
                 )
-                lines.append(f"  {mismatch.problem:<8} {mismatch.kind:<15} "
-                             f"{mismatch.serial or '-':<10} frame {frames:<11} {mismatch.detail}")
+                lines.append(
+                    f"  {mismatch.problem:<8} {mismatch.kind:<15} "
+                    f"{mismatch.serial or '-':<10} frame {frames:<11} {mismatch.detail}"
+                )
             if comparison.edge_offset_median is not None:
-                lines.append(f"enable edges: offset median {comparison.edge_offset_median:g} "
-                             f"frames, max {comparison.edge_offset_max} frames "
-                             f"({len(comparison.edge_offsets_frames)} edges paired)")
+                lines.append(
+                    f"enable edges: offset median {comparison.edge_offset_median:g} "
+                    f"frames, max {comparison.edge_offset_max} frames "
+                    f"({len(comparison.edge_offsets_frames)} edges paired)"
+                )
         stages = ", ".join(f"{k} {v:.2f}" for k, v in self.stats.medians_ms().items())
-        lines.append(f"speed: {self.fps:.0f} frames/s through the whole decision path "
-                     f"({self.stats.frames} frames, {self.stats.wall_s:.1f} s wall)")
+        lines.append(
+            f"speed: {self.fps:.0f} frames/s through the whole decision path "
+            f"({self.stats.frames} frames, {self.stats.wall_s:.1f} s wall)"
+        )
         if stages:
             lines.append(f"  median ms per frame: {stages}")
         lines.append(f"detector: {self.detector}; image judgements: {self.judgements}")
         if self.stats.inputs_not_applied:
-            lines.append(f"{self.stats.inputs_not_applied} station inputs lie after the last "
-                         "frame processed and were left out")
+            lines.append(
+                f"{self.stats.inputs_not_applied} station inputs lie after the last "
+                "frame processed and were left out"
+            )
         lines.append(f"step log: {self.log_path} ({self.events} events)")
         if self.annotated_video:
             lines.append(f"annotated video: {self.annotated_video}")

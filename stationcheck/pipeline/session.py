@@ -103,8 +103,9 @@ class Watcher(FrameSink, StepSink, Protocol):
     """Sees every sequencer step and every frame (an operator screen, a playback pacer)."""
 
 
-def run_replay(settings: ReplaySettings, progress: Progress | None = None,
-               watchers: Sequence[Watcher] = ()) -> ReplayReport:
+def run_replay(
+    settings: ReplaySettings, progress: Progress | None = None, watchers: Sequence[Watcher] = ()
+) -> ReplayReport:
     config = load_config(settings.config_path)
     prepared = _Prepared(config=config, plan=config.to_plan())
     if settings.expected is not None:
@@ -119,8 +120,12 @@ def run_replay(settings: ReplaySettings, progress: Progress | None = None,
     return _replay_video(settings, prepared, progress, watchers)
 
 
-def _replay_video(settings: ReplaySettings, prepared: _Prepared,
-                  progress: Progress | None, watchers: Sequence[Watcher] = ()) -> ReplayReport:
+def _replay_video(
+    settings: ReplaySettings,
+    prepared: _Prepared,
+    progress: Progress | None,
+    watchers: Sequence[Watcher] = (),
+) -> ReplayReport:
     from stationcheck.sources.video_file import VideoFileSource
 
     if settings.video is None:
@@ -130,8 +135,9 @@ def _replay_video(settings: ReplaySettings, prepared: _Prepared,
     inputs = read_station_inputs(settings.inputs)
     plan, config = prepared.plan, prepared.config
     with ExitStack() as stack:
-        source = VideoFileSource(settings.video, first_frame=settings.first_frame,
-                                 max_frames=settings.max_frames)
+        source = VideoFileSource(
+            settings.video, first_frame=settings.first_frame, max_frames=settings.max_frames
+        )
         stack.callback(source.close)
         detector = _detector(settings, config, prepared.truth)
         judges = _judges(settings, config, plan, prepared.truth)
@@ -142,15 +148,17 @@ def _replay_video(settings: ReplaySettings, prepared: _Prepared,
         if settings.annotate is not None:
             from stationcheck.overlay.annotated_video import AnnotatedVideoWriter
 
-            writer = AnnotatedVideoWriter(settings.annotate, plan, source.fps,
-                                          every=settings.annotate_every)
+            writer = AnnotatedVideoWriter(
+                settings.annotate, plan, source.fps, every=settings.annotate_every
+            )
             stack.callback(writer.on_stop, None)
             outputs.sinks.append(writer)
             frame_sinks.append(writer)
         outputs.sinks.extend(watchers)
         frame_sinks.extend(watchers)
         decisions = DecisionCore(
-            plan, rework_lookup=lambda serial: rework_positions_from_log(log, serial),
+            plan,
+            rework_lookup=lambda serial: rework_positions_from_log(log, serial),
             sinks=outputs.sinks,
         )
         path = FramePath(plan, detector, decisions, judges)
@@ -158,17 +166,30 @@ def _replay_video(settings: ReplaySettings, prepared: _Prepared,
         if settings.first_frame > 0:
             schedule.skip_before(settings.first_frame / source.fps)
         evidence = outputs.log_sink.evidence
-        stats = run_loop(source, path, schedule, frame_sinks, progress,
-                         on_read=evidence.see if evidence is not None else None)
+        stats = run_loop(
+            source,
+            path,
+            schedule,
+            frame_sinks,
+            progress,
+            on_read=evidence.see if evidence is not None else None,
+        )
         if writer is not None:
             writer.raise_if_failed()
-        return _report(settings, prepared, outputs, stats, settings.first_frame,
-                       detector_name=_detector_name(settings, detector),
-                       judges_name=settings.judges)
+        return _report(
+            settings,
+            prepared,
+            outputs,
+            stats,
+            settings.first_frame,
+            detector_name=_detector_name(settings, detector),
+            judges_name=settings.judges,
+        )
 
 
-def _replay_observations(settings: ReplaySettings, prepared: _Prepared,
-                         progress: Progress | None) -> ReplayReport:
+def _replay_observations(
+    settings: ReplaySettings, prepared: _Prepared, progress: Progress | None
+) -> ReplayReport:
     assert settings.observations is not None
     if settings.annotate is not None:
         raise InputFileError("an annotated video needs the video itself, not --observations")
@@ -193,8 +214,15 @@ def _replay_observations(settings: ReplaySettings, prepared: _Prepared,
             stats.wall_s = time.perf_counter() - started
             decisions.stop(error)
         first = next((o.frame_index for o in observations if isinstance(o, ZoneObservation)), 0)
-        return _report(settings, prepared, outputs, stats, first,
-                       detector_name="recorded observations", judges_name="recorded observations")
+        return _report(
+            settings,
+            prepared,
+            outputs,
+            stats,
+            first,
+            detector_name="recorded observations",
+            judges_name="recorded observations",
+        )
 
 
 @dataclass
@@ -208,8 +236,13 @@ class _Outputs:
     sinks: list[StepSink]
 
 
-def _open_outputs(stack: ExitStack, settings: ReplaySettings, plan: StationPlan,
-                  fps: float | None, config: StationConfig | None = None) -> _Outputs:
+def _open_outputs(
+    stack: ExitStack,
+    settings: ReplaySettings,
+    plan: StationPlan,
+    fps: float | None,
+    config: StationConfig | None = None,
+) -> _Outputs:
     """``config`` given (a replay with frames): evidence images as the config's log section
     says, old ones pruned first."""
     log = open_fresh_log(settings.log_path, config.station_id if config is not None else None)
@@ -228,8 +261,9 @@ def _open_outputs(stack: ExitStack, settings: ReplaySettings, plan: StationPlan,
     return _Outputs(log, log_sink, trace, sinks)
 
 
-def _detector(settings: ReplaySettings, config: StationConfig,
-              truth: TruthTable | None) -> KeypointDetector:
+def _detector(
+    settings: ReplaySettings, config: StationConfig, truth: TruthTable | None
+) -> KeypointDetector:
     if settings.detector == "truth":
         if truth is None:
             raise InputFileError("--detector truth needs the ground-truth file (--truth)")
@@ -248,8 +282,9 @@ def _detector_name(settings: ReplaySettings, detector: object) -> str:
     return str(getattr(coarse, "path", "model"))
 
 
-def _judges(settings: ReplaySettings, config: StationConfig, plan: StationPlan,
-            truth: TruthTable | None) -> Sequence[ImageJudge]:
+def _judges(
+    settings: ReplaySettings, config: StationConfig, plan: StationPlan, truth: TruthTable | None
+) -> Sequence[ImageJudge]:
     if settings.judges == "truth":
         if truth is None:
             raise InputFileError("--judges truth needs the ground-truth file (--truth)")
@@ -260,8 +295,16 @@ def _judges(settings: ReplaySettings, config: StationConfig, plan: StationPlan,
     return [StationImageJudge(StationJudgements.from_config(config))]
 
 
-def _report(settings: ReplaySettings, prepared: _Prepared, outputs: _Outputs, stats: LoopStats,
-            first_frame: int, *, detector_name: str, judges_name: str) -> ReplayReport:
+def _report(
+    settings: ReplaySettings,
+    prepared: _Prepared,
+    outputs: _Outputs,
+    stats: LoopStats,
+    first_frame: int,
+    *,
+    detector_name: str,
+    judges_name: str,
+) -> ReplayReport:
     trace = outputs.trace
     last_frame = trace.last_frame_index
     frames = trace.frames()
@@ -292,5 +335,7 @@ def _report(settings: ReplaySettings, prepared: _Prepared, outputs: _Outputs, st
         log_path=str(settings.log_path),
         events=outputs.log_sink.events_written,
         annotated_video=str(settings.annotate) if settings.annotate else None,
-        observations_path=str(settings.record_observations) if settings.record_observations else None,
+        observations_path=str(settings.record_observations)
+        if settings.record_observations
+        else None,
     )

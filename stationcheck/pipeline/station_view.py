@@ -173,26 +173,43 @@ class StationViewBuilder:
                 self.done.append(str(data["zone"]))
             elif event.kind == "tightening_result":
                 self.last_tightening = TighteningShown(
-                    zone=str(data["zone"]), position=int(data["position"]),
-                    attempt=int(data["attempt"]), ok=data["result"] == RESULT_OK,
-                    torque_nm=data["torque"]["value"], angle_deg=data["angle"]["value"],
+                    zone=str(data["zone"]),
+                    position=int(data["position"]),
+                    attempt=int(data["attempt"]),
+                    ok=data["result"] == RESULT_OK,
+                    torque_nm=data["torque"]["value"],
+                    angle_deg=data["angle"]["value"],
                     t_s=event.t_s,
                     torque_limits_nm=(data["torque"].get("low"), data["torque"].get("high")),
                     angle_limits_deg=(data["angle"].get("low"), data["angle"].get("high")),
-                    max_attempts=data.get("max_attempts"))
+                    max_attempts=data.get("max_attempts"),
+                )
             elif event.kind == "check_verdict":
                 self.check_verdict = str(data["verdict"])
             elif event.kind == "unit_ended" and event.serial is not None:
                 failed = tuple(str(r["zone"]) for r in data["failed_positions"])
                 result = unit_word(str(data["result"]))
-                self.last_unit = UnitShown(event.serial, bool(data["rework"]), result,
-                                           bool(data["released"]), failed, event.t_s)
+                self.last_unit = UnitShown(
+                    event.serial,
+                    bool(data["rework"]),
+                    result,
+                    bool(data["released"]),
+                    failed,
+                    event.t_s,
+                )
             elif event.kind == "alarm_raised" and data["code"] in ("wrong_position", "wrong_bin"):
                 self._wrong[str(data["code"])] = str(data["subject"])
 
-    def view(self, output: Output, *, frame_index: int, t_s: float,
-             tip_px: tuple[float, float] | None = None,
-             rear_px: tuple[float, float] | None = None, tip_seen: bool = False) -> StationView:
+    def view(
+        self,
+        output: Output,
+        *,
+        frame_index: int,
+        t_s: float,
+        tip_px: tuple[float, float] | None = None,
+        rear_px: tuple[float, float] | None = None,
+        tip_seen: bool = False,
+    ) -> StationView:
         active = set(output.alarms)
         alarms = tuple(
             AlarmShown(code, *ALARM_WORDS[code]) for code in sorted(active) if code in ALARM_WORDS

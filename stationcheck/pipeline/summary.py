@@ -75,37 +75,49 @@ def summarise_units(events: Iterable[Event], end_t_s: float | None = None) -> li
         elif event.kind == "alarm_raised":
             alarms.append(str(data["code"]))
         elif event.kind == "unit_ended":
-            passes.append(UnitPass(
-                serial=current.serial,
-                rework=current.rework,
-                started_t_s=current.started_t_s,
-                result=unit_word(str(data["result"])),
-                released=bool(data["released"]),
-                ended_by=str(data["ended_by"]),
-                failed_positions=tuple(r["zone"] for r in data["failed_positions"]),
-                unfinished_positions=tuple(r["zone"] for r in data["unfinished_positions"]),
-                cycle_time_s=float(data["cycle_time_s"]),
-                tightenings=current.tightenings,
-                nok_results=current.nok_results,
-                alarms=tuple(alarms),
-            ))
+            passes.append(
+                UnitPass(
+                    serial=current.serial,
+                    rework=current.rework,
+                    started_t_s=current.started_t_s,
+                    result=unit_word(str(data["result"])),
+                    released=bool(data["released"]),
+                    ended_by=str(data["ended_by"]),
+                    failed_positions=tuple(r["zone"] for r in data["failed_positions"]),
+                    unfinished_positions=tuple(r["zone"] for r in data["unfinished_positions"]),
+                    cycle_time_s=float(data["cycle_time_s"]),
+                    tightenings=current.tightenings,
+                    nok_results=current.nok_results,
+                    alarms=tuple(alarms),
+                )
+            )
             current = None
     if current is not None:
         end = end_t_s if end_t_s is not None else last_t_s
-        passes.append(UnitPass(
-            serial=current.serial, rework=current.rework, started_t_s=current.started_t_s,
-            result=unit_word(UNIT_OPEN), released=False, ended_by="open_at_end",
-            failed_positions=(), unfinished_positions=(),
-            cycle_time_s=max(0.0, end - current.started_t_s),
-            tightenings=current.tightenings, nok_results=current.nok_results,
-            alarms=tuple(alarms),
-        ))
+        passes.append(
+            UnitPass(
+                serial=current.serial,
+                rework=current.rework,
+                started_t_s=current.started_t_s,
+                result=unit_word(UNIT_OPEN),
+                released=False,
+                ended_by="open_at_end",
+                failed_positions=(),
+                unfinished_positions=(),
+                cycle_time_s=max(0.0, end - current.started_t_s),
+                tightenings=current.tightenings,
+                nok_results=current.nok_results,
+                alarms=tuple(alarms),
+            )
+        )
     return passes
 
 
 def format_unit_table(passes: Iterable[UnitPass]) -> list[str]:
-    header = (f"{'serial':<12} {'pass':<7} {'result':<13} {'failed positions':<22} "
-              f"{'cycle time':>10}  notes")
+    header = (
+        f"{'serial':<12} {'pass':<7} {'result':<13} {'failed positions':<22} "
+        f"{'cycle time':>10}  notes"
+    )
     lines = [header]
     for p in passes:
         failed = ", ".join(p.failed_positions) or "-"
@@ -117,6 +129,8 @@ def format_unit_table(passes: Iterable[UnitPass]) -> list[str]:
         shown_alarms = sorted(set(p.alarms))
         if shown_alarms:
             notes.append("alarms: " + ", ".join(shown_alarms))
-        lines.append(f"{p.serial:<12} {p.pass_name:<7} {p.result:<13} {failed:<22} "
-                     f"{p.cycle_time_s:>9.1f}s  {'; '.join(notes)}")
+        lines.append(
+            f"{p.serial:<12} {p.pass_name:<7} {p.result:<13} {failed:<22} "
+            f"{p.cycle_time_s:>9.1f}s  {'; '.join(notes)}"
+        )
     return lines

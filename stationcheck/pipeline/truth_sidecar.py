@@ -71,8 +71,9 @@ def truth_detector(table: TruthTable) -> ReplayKeypointDetector:
     return ReplayKeypointDetector(truth_points(table), ("tip", "rear"))
 
 
-def camera_shift_px(row: TruthRow, points: Sequence[tuple[float, float]],
-                    size_px: tuple[int, int]) -> float:
+def camera_shift_px(
+    row: TruthRow, points: Sequence[tuple[float, float]], size_px: tuple[int, int]
+) -> float:
     """Largest displacement of ``points`` under the row's camera pose (rotation about the
     image centre, then shift)."""
     cx, cy = (size_px[0] - 1) / 2.0, (size_px[1] - 1) / 2.0
@@ -81,7 +82,10 @@ def camera_shift_px(row: TruthRow, points: Sequence[tuple[float, float]],
     worst = 0.0
     for x, y in points:
         u, v = x - cx, y - cy
-        moved = (cos_a * u - sin_a * v + cx + row.cam_dx_px, sin_a * u + cos_a * v + cy + row.cam_dy_px)
+        moved = (
+            cos_a * u - sin_a * v + cx + row.cam_dx_px,
+            sin_a * u + cos_a * v + cy + row.cam_dy_px,
+        )
         worst = max(worst, math.dist((x, y), moved))
     return worst
 
@@ -89,11 +93,14 @@ def camera_shift_px(row: TruthRow, points: Sequence[tuple[float, float]],
 class TruthJudge:
     """Bin activity, the check zone's verdict and camera moves, read from the ground truth."""
 
-    def __init__(self, table: TruthTable, plan: StationPlan,
-                 frame_size_px: tuple[int, int] = (640, 480)) -> None:
+    def __init__(
+        self, table: TruthTable, plan: StationPlan, frame_size_px: tuple[int, int] = (640, 480)
+    ) -> None:
         self.table = table
         self.size_px = frame_size_px
-        self.bins = {z.id: BIN_FLAGS[z.id] for z in plan.zones if z.kind == "bin" and z.id in BIN_FLAGS}
+        self.bins = {
+            z.id: BIN_FLAGS[z.id] for z in plan.zones if z.kind == "bin" and z.id in BIN_FLAGS
+        }
         self.check_zones = {z.id for z in plan.zones if z.kind == "check"}
         self.corners = [p for z in plan.zones for p in z.polygon_px]
         self._bins_active: dict[str, bool] = {zone: False for zone in self.bins}

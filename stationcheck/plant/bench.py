@@ -36,8 +36,10 @@ if TYPE_CHECKING:
 logger = logging.getLogger(__name__)
 
 SECTION_NAME = "plant"
-SECTION_HELP = ("plant database: forwarding events/s, review p95 across stations, live enable "
-                "latency with forwarding")
+SECTION_HELP = (
+    "plant database: forwarding events/s, review p95 across stations, live enable "
+    "latency with forwarding"
+)
 REPEATS = 20
 REVIEW_TARGET = "p95 < 200 ms"
 _TIME_COLUMNS = {"started_at_s", "ended_at_s", "recorded_at_s", "t_s", "cleared_t_s"}
@@ -73,8 +75,9 @@ def _forward(log: str, station_id: str, url: str) -> None:
 def _follow(log: str, station_id: str, url: str, stop: Any) -> None:
     from stationcheck.plant.forwarder import Backoff, Forwarder
 
-    Forwarder(Path(log), station_id, url, poll_s=0.1,
-              backoff=Backoff(first_s=0.2, max_s=1.0)).run(stop)
+    Forwarder(Path(log), station_id, url, poll_s=0.1, backoff=Backoff(first_s=0.2, max_s=1.0)).run(
+        stop
+    )
 
 
 def _copy_station(admin: Any, source: str, target: str, shift_s: float) -> None:
@@ -86,12 +89,18 @@ def _copy_station(admin: Any, source: str, target: str, shift_s: float) -> None:
         UNIT_COLUMNS,
     )
 
-    for table, columns in (("units", UNIT_COLUMNS), ("steps", STEP_COLUMNS),
-                           ("alarms", ALARM_COLUMNS), ("unit_tags", TAG_COLUMNS)):
+    for table, columns in (
+        ("units", UNIT_COLUMNS),
+        ("steps", STEP_COLUMNS),
+        ("alarms", ALARM_COLUMNS),
+        ("unit_tags", TAG_COLUMNS),
+    ):
         values = ", ".join(f"{c} + {shift_s}" if c in _TIME_COLUMNS else c for c in columns)
-        admin.execute(f"INSERT INTO plant.{table} (station_id, {', '.join(columns)}) "
-                      f"SELECT %s, {values} FROM plant.{table} WHERE station_id = %s",
-                      (target, source))
+        admin.execute(
+            f"INSERT INTO plant.{table} (station_id, {', '.join(columns)}) "
+            f"SELECT %s, {values} FROM plant.{table} WHERE station_id = %s",
+            (target, source),
+        )
 
 
 def _fill(cluster: Cluster, stations: int, units: int, forwarded: int) -> dict[str, float]:
@@ -108,15 +117,21 @@ def _fill(cluster: Cluster, stations: int, units: int, forwarded: int) -> dict[s
         for n, sid in enumerate(names):
             line = f"line-{n % 10 + 1}"
             if n < forwarded:
-                roles[sid] = schema.add_station(admin, sid, line, "demo-plant",
-                                                role_password=cluster.password)
+                roles[sid] = schema.add_station(
+                    admin, sid, line, "demo-plant", role_password=cluster.password
+                )
             else:
-                admin.execute("INSERT INTO plant.stations (station_id, line, plant) "
-                              "VALUES (%s, %s, 'demo-plant')", (sid, line))
+                admin.execute(
+                    "INSERT INTO plant.stations (station_id, line, plant) "
+                    "VALUES (%s, %s, 'demo-plant')",
+                    (sid, line),
+                )
         context = multiprocessing.get_context("spawn")
         started = time.perf_counter()
-        workers = [context.Process(target=_forward, args=(str(log), sid, cluster.url(role)))
-                   for sid, role in roles.items()]
+        workers = [
+            context.Process(target=_forward, args=(str(log), sid, cluster.url(role)))
+            for sid, role in roles.items()
+        ]
         for worker in workers:
             worker.start()
         for worker in workers:
@@ -132,8 +147,14 @@ def _fill(cluster: Cluster, stations: int, units: int, forwarded: int) -> dict[s
         admin.execute("VACUUM ANALYZE")  # as autovacuum would: visibility map, statistics
         copy_s = time.perf_counter() - started
         total_units = int(admin.execute("SELECT count(*) FROM plant.units").fetchone()[0])
-    return {"events": events, "forward_s": forward_s, "folded": folded, "fold_s": fold_s,
-            "copy_s": copy_s, "units": total_units}
+    return {
+        "events": events,
+        "forward_s": forward_s,
+        "folded": folded,
+        "fold_s": fold_s,
+        "copy_s": copy_s,
+        "units": total_units,
+    }
 
 
 def _review_rows(cluster: Cluster, stations: int) -> list[BenchRow]:
@@ -142,8 +163,9 @@ def _review_rows(cluster: Cluster, stations: int) -> list[BenchRow]:
     from stationcheck.web.listener import WebServer
     from stationcheck.web.review import build_review_router, review_source
 
-    server = WebServer(build_review_router(review_source(cluster.url())), "127.0.0.1", 0,
-                       AccessRule(None)).start()
+    server = WebServer(
+        build_review_router(review_source(cluster.url())), "127.0.0.1", 0, AccessRule(None)
+    ).start()
     host, port = server.server_address[:2]
 
     def get(path: str) -> Callable[[], object]:
@@ -158,6 +180,7 @@ def _review_rows(cluster: Cluster, stations: int) -> list[BenchRow]:
                 return body
             finally:
                 conn.close()
+
         return run
 
     import json
@@ -182,9 +205,17 @@ def _review_rows(cluster: Cluster, stations: int) -> list[BenchRow]:
             first_ms = timed_ms(get(path), 1)[0]  # cold: fills a figure cache, if any
             times = timed_ms(get(path), REPEATS + 1)[1:]  # one more warm-up request
             p95 = percentile(times, 0.95)
-            rows.append(BenchRow(SECTION_NAME, f"review: {name}", float(np.median(times)),
-                                 percentile(times, 0.99), "ms", REVIEW_TARGET,
-                                 extra={"p95_ms": p95, "first_ms": first_ms}))
+            rows.append(
+                BenchRow(
+                    SECTION_NAME,
+                    f"review: {name}",
+                    float(np.median(times)),
+                    percentile(times, 0.99),
+                    "ms",
+                    REVIEW_TARGET,
+                    extra={"p95_ms": p95, "first_ms": first_ms},
+                )
+            )
     finally:
         server.close()
     return rows
@@ -200,9 +231,14 @@ def _live_rows(options: BenchOptions, cluster: Cluster) -> list[BenchRow]:
     from stationcheck.plant import schema
 
     with cluster.connect_admin() as admin:
-        urls = {sid: cluster.url(schema.add_station(admin, sid, "line-0", "demo-plant",
-                                                    role_password=cluster.password))
-                for sid in ("live-on", "live-down-up")}
+        urls = {
+            sid: cluster.url(
+                schema.add_station(
+                    admin, sid, "line-0", "demo-plant", role_password=cluster.password
+                )
+            )
+            for sid in ("live-on", "live-down-up")
+        }
     for mode in ("off", "on", "down-up"):
         with tempfile.TemporaryDirectory() as folder:
             log = Path(folder) / "live.sqlite"
@@ -227,12 +263,23 @@ def _live_rows(options: BenchOptions, cluster: Cluster) -> list[BenchRow]:
             results[mode] = np.array(loop.worker.coil_latency_ms, dtype=float)
     base50, base99 = (float(np.percentile(results["off"], q)) for q in (50, 99))
     rows = []
-    for mode, name in (("off", "forwarding off"), ("on", "forwarding on"),
-                       ("down-up", "forwarding on, server down and up")):
+    for mode, name in (
+        ("off", "forwarding off"),
+        ("on", "forwarding on"),
+        ("down-up", "forwarding on, server down and up"),
+    ):
         p50, p99 = (float(np.percentile(results[mode], q)) for q in (50, 99))
-        rows.append(BenchRow(SECTION_NAME, f"live decision latency, {name}", p50, p99, "ms",
-                             "within 10 % of off",
-                             extra={"p50_vs_off": p50 / base50, "p99_vs_off": p99 / base99}))
+        rows.append(
+            BenchRow(
+                SECTION_NAME,
+                f"live decision latency, {name}",
+                p50,
+                p99,
+                "ms",
+                "within 10 % of off",
+                extra={"p50_vs_off": p50 / base50, "p99_vs_off": p99 / base99},
+            )
+        )
     return rows
 
 
@@ -255,17 +302,32 @@ def measure(options: BenchOptions) -> list[BenchRow]:
         os.environ["STATIONCHECK_PG_PASSWORD"] = cluster.password
         filled = _fill(cluster, stations, units, forwarded)
         rows = [
-            BenchRow(SECTION_NAME, f"forwarding: {forwarded} stations at once, events/s",
-                     filled["events"] / filled["forward_s"], None, "ev/s", ">= 20,000",
-                     extra={"events": filled["events"], "seconds": filled["forward_s"]},
-                     headline={"plant_forward_events_per_s":
-                               filled["events"] / filled["forward_s"]}),
-            BenchRow(SECTION_NAME, "fold on the server (projection), events/s",
-                     filled["folded"] / filled["fold_s"], None, "ev/s",
-                     extra={"events": filled["folded"], "seconds": filled["fold_s"]}),
-            BenchRow(SECTION_NAME, f"units in the plant database ({stations} stations)",
-                     filled["units"], None, "units",
-                     extra={"copy_s": filled["copy_s"]}),
+            BenchRow(
+                SECTION_NAME,
+                f"forwarding: {forwarded} stations at once, events/s",
+                filled["events"] / filled["forward_s"],
+                None,
+                "ev/s",
+                ">= 20,000",
+                extra={"events": filled["events"], "seconds": filled["forward_s"]},
+                headline={"plant_forward_events_per_s": filled["events"] / filled["forward_s"]},
+            ),
+            BenchRow(
+                SECTION_NAME,
+                "fold on the server (projection), events/s",
+                filled["folded"] / filled["fold_s"],
+                None,
+                "ev/s",
+                extra={"events": filled["folded"], "seconds": filled["fold_s"]},
+            ),
+            BenchRow(
+                SECTION_NAME,
+                f"units in the plant database ({stations} stations)",
+                filled["units"],
+                None,
+                "units",
+                extra={"copy_s": filled["copy_s"]},
+            ),
         ]
         rows += _review_rows(cluster, stations)
         if os.environ.get("STATIONCHECK_PLANT_LIVE", "1") != "0":

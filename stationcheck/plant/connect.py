@@ -35,20 +35,23 @@ def driver() -> Any:
 
 def check_url(url: str) -> str:
     if not is_plant_url(url):
-        raise PlantDatabaseError(f"expected a postgresql://USER@HOST[:PORT]/DATABASE URL, got "
-                                 f"{url!r}")
+        raise PlantDatabaseError(
+            f"expected a postgresql://USER@HOST[:PORT]/DATABASE URL, got {url!r}"
+        )
     if urlsplit(url).password is not None:
         raise PlantDatabaseError(
             f"the URL holds a password; put it in {PASSWORD_ENV} or a file named by "
-            f"{PASSWORD_FILE_ENV} or --password-file instead (a URL shows in the process list)")
+            f"{PASSWORD_FILE_ENV} or --password-file instead (a URL shows in the process list)"
+        )
     return url
 
 
 def password(password_file: Path | None = None) -> str | None:
     """The password from ``password_file``, the file named by the environment, or the
     environment variable; None lets libpq use ~/.pgpass or a client certificate."""
-    file = password_file or (Path(os.environ[PASSWORD_FILE_ENV])
-                             if os.environ.get(PASSWORD_FILE_ENV) else None)
+    file = password_file or (
+        Path(os.environ[PASSWORD_FILE_ENV]) if os.environ.get(PASSWORD_FILE_ENV) else None
+    )
     if file is not None:
         try:
             return file.read_text(encoding="utf-8").strip()
@@ -62,19 +65,28 @@ def redacted(url: str) -> str:
     return url.split("?", 1)[0]
 
 
-def connect(url: str, password_file: Path | None = None, *, autocommit: bool = True,
-            application: str = "stationcheck", **options: Any) -> psycopg.Connection[Any]:
+def connect(
+    url: str,
+    password_file: Path | None = None,
+    *,
+    autocommit: bool = True,
+    application: str = "stationcheck",
+    **options: Any,
+) -> psycopg.Connection[Any]:
     """An open connection; a refused or unreachable server is a :class:`PlantDatabaseError`."""
     psycopg_module = driver()
-    extra: dict[str, Any] = {"connect_timeout": CONNECT_TIMEOUT_S,
-                             "application_name": application, **options}
+    extra: dict[str, Any] = {
+        "connect_timeout": CONNECT_TIMEOUT_S,
+        "application_name": application,
+        **options,
+    }
     secret = password(password_file)
     if secret is not None:
         extra["password"] = secret
     try:
         conn: psycopg.Connection[Any] = psycopg_module.connect(
-            check_url(url), autocommit=autocommit, **extra)
+            check_url(url), autocommit=autocommit, **extra
+        )
     except psycopg_module.Error as exc:
-        raise PlantDatabaseError(
-            f"plant database {redacted(url)}: {first_line(exc)}") from exc
+        raise PlantDatabaseError(f"plant database {redacted(url)}: {first_line(exc)}") from exc
     return conn

@@ -42,10 +42,13 @@ def _upsert(table: str, columns: tuple[str, ...], key: tuple[str, ...], update: 
     names = ("station_id", *columns)
     action = (
         "DO UPDATE SET " + ", ".join(f"{c} = excluded.{c}" for c in columns if c not in key)
-        if update else "DO NOTHING"
+        if update
+        else "DO NOTHING"
     )
-    return (f"INSERT INTO plant.{table} ({', '.join(names)}) VALUES "
-            f"({', '.join('%s' for _ in names)}) ON CONFLICT ({', '.join(key)}) {action}")
+    return (
+        f"INSERT INTO plant.{table} ({', '.join(names)}) VALUES "
+        f"({', '.join('%s' for _ in names)}) ON CONFLICT ({', '.join(key)}) {action}"
+    )
 
 
 _UNITS_SQL = _upsert("units", UNIT_COLUMNS, ("station_id", "serial"), True)
@@ -65,7 +68,9 @@ class PlantTables(BufferedSqlTables):
     def _stored_unit(self, serial: str) -> Any:
         return self._conn.execute(
             f"SELECT {', '.join(UNIT_COLUMNS)} FROM plant.units WHERE station_id = %s AND "
-            "serial = %s", (self.station_id, serial)).fetchone()
+            "serial = %s",
+            (self.station_id, serial),
+        ).fetchone()
 
     def _store_position_result(
         self, serial: str, pass_no: int, step: str, position: str, result: str
@@ -74,38 +79,51 @@ class PlantTables(BufferedSqlTables):
             "UPDATE plant.steps SET position_result = %s WHERE station_id = %s AND seq = ("
             "SELECT seq FROM plant.steps WHERE station_id = %s AND serial = %s AND pass_no = %s "
             "AND step = %s AND position = %s ORDER BY seq DESC LIMIT 1)",
-            (result, self.station_id, self.station_id, serial, pass_no, step, position))
+            (result, self.station_id, self.station_id, serial, pass_no, step, position),
+        )
 
     def _store_cleared(self, code: str, subject: str, cleared_t_s: float) -> None:
         self._conn.execute(
             "UPDATE plant.alarms SET cleared_t_s = %s WHERE station_id = %s AND seq = (SELECT "
             "max(seq) FROM plant.alarms WHERE station_id = %s AND code = %s AND subject = %s "
-            "AND cleared_t_s IS NULL)", (cleared_t_s, self.station_id, self.station_id, code,
-                                         subject))
+            "AND cleared_t_s IS NULL)",
+            (cleared_t_s, self.station_id, self.station_id, code, subject),
+        )
 
     def flush(self) -> None:
         station = (self.station_id,)
         conn: Any = self._conn  # a psycopg connection here
         with conn.cursor() as cur:
             if self._dirty:
-                cur.executemany(_UNITS_SQL, [station + _ints(unit_to_sql(self._units[s]))
-                                             for s in self._dirty])
+                cur.executemany(
+                    _UNITS_SQL, [station + _ints(unit_to_sql(self._units[s])) for s in self._dirty]
+                )
             if self._steps:
-                cur.executemany(_STEPS_SQL, [station + _ints(step_to_sql(s))
-                                             for s in self._steps.values()])
+                cur.executemany(
+                    _STEPS_SQL, [station + _ints(step_to_sql(s)) for s in self._steps.values()]
+                )
             if self._alarms:
-                cur.executemany(_ALARMS_SQL, [station + alarm_to_sql(a)
-                                              for a in self._alarms.values()])
+                cur.executemany(
+                    _ALARMS_SQL, [station + alarm_to_sql(a) for a in self._alarms.values()]
+                )
             if self._tags:
-                cur.executemany(_TAGS_SQL, [(*station, tag, serial, *times)
-                                            for (tag, serial), times in self._tags.items()])
+                cur.executemany(
+                    _TAGS_SQL,
+                    [
+                        (*station, tag, serial, *times)
+                        for (tag, serial), times in self._tags.items()
+                    ],
+                )
         self.discard()
 
 
 def _stored(row: tuple[Any, ...]) -> StoredEvent:
     seq, t_s, kind, serial, data, recorded_at_s = row
-    return StoredEvent(int(seq), float(recorded_at_s),
-                       Event(t_s=float(t_s), kind=kind, serial=serial, data=json.loads(data)))
+    return StoredEvent(
+        int(seq),
+        float(recorded_at_s),
+        Event(t_s=float(t_s), kind=kind, serial=serial, data=json.loads(data)),
+    )
 
 
 def fold_station(conn: Any, station_id: str, chunk_events: int = FOLD_CHUNK_EVENTS) -> int:
@@ -113,30 +131,36 @@ def fold_station(conn: Any, station_id: str, chunk_events: int = FOLD_CHUNK_EVEN
     count = 0
     while True:
         with conn.transaction():
-            conn.execute("SELECT pg_advisory_xact_lock(hashtext('stationcheck fold ' || %s))",
-                         (station_id,))
-            row = conn.execute("SELECT folded_seq FROM plant.stations WHERE station_id = %s",
-                               (station_id,)).fetchone()
+            conn.execute(
+                "SELECT pg_advisory_xact_lock(hashtext('stationcheck fold ' || %s))", (station_id,)
+            )
+            row = conn.execute(
+                "SELECT folded_seq FROM plant.stations WHERE station_id = %s", (station_id,)
+            ).fetchone()
             folded = int(row[0])
             rows = conn.execute(
                 "SELECT seq, t_s, kind, serial, data, recorded_at_s FROM plant.events WHERE "
                 "station_id = %s AND seq > %s ORDER BY seq LIMIT %s",
-                (station_id, folded, chunk_events)).fetchall()
+                (station_id, folded, chunk_events),
+            ).fetchall()
             if not rows:
                 return count
             tables = PlantTables(conn, station_id)
             for event_row in rows:
                 project(_stored(event_row), tables)
             tables.flush()
-            conn.execute("UPDATE plant.stations SET folded_seq = %s WHERE station_id = %s",
-                         (int(rows[-1][0]), station_id))
+            conn.execute(
+                "UPDATE plant.stations SET folded_seq = %s WHERE station_id = %s",
+                (int(rows[-1][0]), station_id),
+            )
         count += len(rows)
 
 
 def fold_all(conn: Any, chunk_events: int = FOLD_CHUNK_EVENTS) -> int:
     """Fold every station's new events; returns how many were folded."""
-    stations = conn.execute("SELECT station_id FROM plant.stations WHERE last_seq > folded_seq "
-                            "ORDER BY station_id").fetchall()
+    stations = conn.execute(
+        "SELECT station_id FROM plant.stations WHERE last_seq > folded_seq ORDER BY station_id"
+    ).fetchall()
     total = 0
     for (station_id,) in stations:
         folded = fold_station(conn, str(station_id), chunk_events)

@@ -29,11 +29,18 @@ logger = logging.getLogger(__name__)
 BATCH_EVENTS = 5000
 POLL_S = 0.5
 PROGRESS_EVERY_S = 10.0
-_FORWARD_SQL = ("SELECT plant.forward_events(%s, %s::bigint[], %s::float8[], %s::text[], "
-                "%s::text[], %s::text[], %s::float8[])")
+_FORWARD_SQL = (
+    "SELECT plant.forward_events(%s, %s::bigint[], %s::float8[], %s::text[], "
+    "%s::text[], %s::text[], %s::float8[])"
+)
 # libpq: notice a dead server or network within about 10 s instead of the system's minutes
-_KEEPALIVE: dict[str, Any] = {"keepalives": 1, "keepalives_idle": 5, "keepalives_interval": 2,
-              "keepalives_count": 2, "tcp_user_timeout": 10_000}
+_KEEPALIVE: dict[str, Any] = {
+    "keepalives": 1,
+    "keepalives_idle": 5,
+    "keepalives_interval": 2,
+    "keepalives_count": 2,
+    "tcp_user_timeout": 10_000,
+}
 _FATAL_SQLSTATES = {"42501", "42883", "42P01", "3F000", "28000", "28P01"}
 
 
@@ -67,19 +74,34 @@ class ForwardStatus:
     last_error: str | None = None
 
     def line(self) -> str:
-        state = ("connected" if self.connected else
-                 f"not connected ({self.last_error})" if self.last_error else "not connected")
-        return (f"forwarding {self.station_id}: {state}; server at seq {self.server_seq}, "
-                f"local {self.local_seq}; behind {self.lag_events} events, {self.lag_s:.1f} s")
+        state = (
+            "connected"
+            if self.connected
+            else f"not connected ({self.last_error})"
+            if self.last_error
+            else "not connected"
+        )
+        return (
+            f"forwarding {self.station_id}: {state}; server at seq {self.server_seq}, "
+            f"local {self.local_seq}; behind {self.lag_events} events, {self.lag_s:.1f} s"
+        )
 
 
 class Forwarder:
     """One station's forwarder; :meth:`run` until ``stop`` is set (its own thread or process)."""
 
-    def __init__(self, log_path: Path, station_id: str, url: str,
-                 password_file: Path | None = None, *, batch_events: int = BATCH_EVENTS,
-                 poll_s: float = POLL_S, backoff: Backoff = Backoff(),
-                 wall_clock: Callable[[], float] = time.time) -> None:
+    def __init__(
+        self,
+        log_path: Path,
+        station_id: str,
+        url: str,
+        password_file: Path | None = None,
+        *,
+        batch_events: int = BATCH_EVENTS,
+        poll_s: float = POLL_S,
+        backoff: Backoff = Backoff(),
+        wall_clock: Callable[[], float] = time.time,
+    ) -> None:
         self.log_path = log_path
         self.station_id = station_id
         self.url = url
@@ -112,13 +134,19 @@ class Forwarder:
 
     def _connect(self) -> Any:
         if self._conn is None:
-            self._conn = connect(self.url, self.password_file, application="stationcheck forward",
-                                 **_KEEPALIVE)
-            mark = self._conn.execute("SELECT plant.station_high_water_mark(%s)",
-                                      (self.station_id,)).fetchone()[0]
+            self._conn = connect(
+                self.url, self.password_file, application="stationcheck forward", **_KEEPALIVE
+            )
+            mark = self._conn.execute(
+                "SELECT plant.station_high_water_mark(%s)", (self.station_id,)
+            ).fetchone()[0]
             self._set(connected=True, server_seq=int(mark), last_error=None)
-            logger.info("connected to %s as station %s; the server holds seq 1..%d",
-                        redacted(self.url), self.station_id, mark)
+            logger.info(
+                "connected to %s as station %s; the server holds seq 1..%d",
+                redacted(self.url),
+                self.station_id,
+                mark,
+            )
         return self._conn
 
     def _disconnect(self) -> None:
@@ -144,14 +172,28 @@ class Forwarder:
             if owner is not None and owner != self.station_id:
                 raise StoreError(
                     f"step log {self.log_path} holds events of station {owner!r} (seq {row[0]}),"
-                    f" not of {self.station_id!r}: forward each station's log with its own config")
+                    f" not of {self.station_id!r}: forward each station's log with its own config"
+                )
         return rows
 
     def _send(self, rows: list[tuple[Any, ...]]) -> int:
         columns = list(zip(*rows, strict=True))
-        mark = self._connect().execute(_FORWARD_SQL, (
-            self.station_id, list(columns[0]), list(columns[1]), list(columns[2]),
-            list(columns[3]), list(columns[4]), list(columns[5]))).fetchone()[0]
+        mark = (
+            self._connect()
+            .execute(
+                _FORWARD_SQL,
+                (
+                    self.station_id,
+                    list(columns[0]),
+                    list(columns[1]),
+                    list(columns[2]),
+                    list(columns[3]),
+                    list(columns[4]),
+                    list(columns[5]),
+                ),
+            )
+            .fetchone()[0]
+        )
         return int(mark)
 
     def _update_lag(self) -> None:
@@ -165,8 +207,12 @@ class Forwarder:
         self._rate_window = window
         span = now - window[0][0] if len(window) > 1 else 0.0
         rate = sum(n for _, n in window[1:]) / span if span > 0 else 0.0
-        self._set(local_seq=local_seq, lag_events=max(0, local_seq - server), lag_s=lag_s,
-                  events_per_s=rate)
+        self._set(
+            local_seq=local_seq,
+            lag_events=max(0, local_seq - server),
+            lag_s=lag_s,
+            events_per_s=rate,
+        )
 
     def forward_once(self) -> int:
         """Send everything the server lacks, batch by batch; returns the events sent. A failed
@@ -177,7 +223,8 @@ class Forwarder:
             return self._forward_all()
         except psycopg.Error as exc:
             raise PlantDatabaseError(
-                f"plant database {redacted(self.url)}: {first_line(exc)}") from exc
+                f"plant database {redacted(self.url)}: {first_line(exc)}"
+            ) from exc
 
     def _forward_all(self) -> int:
         sent = 0
@@ -197,7 +244,8 @@ class Forwarder:
             if mark < int(rows[-1][0]):
                 raise PlantDatabaseError(
                     f"the plant database kept station {self.station_id} at seq {mark} after a "
-                    f"batch up to {rows[-1][0]}")
+                    f"batch up to {rows[-1][0]}"
+                )
             self._update_lag()
             self._log_progress()
         self._update_lag()
@@ -208,8 +256,9 @@ class Forwarder:
         if force or now - self._last_progress_s >= PROGRESS_EVERY_S:
             self._last_progress_s = now
             status = self._status
-            logger.info("%s (%d sent, %.0f events/s)", status.line(), status.forwarded,
-                        status.events_per_s)
+            logger.info(
+                "%s (%d sent, %.0f events/s)", status.line(), status.forwarded, status.events_per_s
+            )
 
     def run(self, stop: threading.Event) -> None:
         """Forward until ``stop`` is set: poll the log, back off while the server is away."""
@@ -242,6 +291,11 @@ class Forwarder:
             self._update_lag()
         except StoreError:
             pass
-        logger.warning("plant database unreachable (%s); retry %d in about %.1f s; %s",
-                       message, failures, self.backoff.delay_s(failures), self._status.line())
+        logger.warning(
+            "plant database unreachable (%s); retry %d in about %.1f s; %s",
+            message,
+            failures,
+            self.backoff.delay_s(failures),
+            self._status.line(),
+        )
         return failures

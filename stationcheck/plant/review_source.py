@@ -102,16 +102,26 @@ class PlantReader:
             self._conn.execute("SET search_path TO plant")
             if not scope.everything:
                 # the scope as a constant list: the planner then uses the station-led indexes
-                ids = [str(r[0]) for r in self._conn.execute(
-                    "SELECT station_id FROM plant.stations WHERE (%s OR station_id = ANY(%s)) "
-                    "AND (%s OR line = ANY(%s))",
-                    (not scope.stations, list(scope.stations), not scope.lines,
-                     list(scope.lines))).fetchall()]
+                ids = [
+                    str(r[0])
+                    for r in self._conn.execute(
+                        "SELECT station_id FROM plant.stations WHERE (%s OR station_id = ANY(%s)) "
+                        "AND (%s OR line = ANY(%s))",
+                        (
+                            not scope.stations,
+                            list(scope.stations),
+                            not scope.lines,
+                            list(scope.lines),
+                        ),
+                    ).fetchall()
+                ]
                 for table in _VIEWED:
-                    self._conn.execute(sql.SQL(
-                        "CREATE TEMPORARY VIEW {} AS SELECT * FROM plant.{} WHERE station_id = "
-                        "ANY({}::text[])").format(sql.Identifier(table), sql.Identifier(table),
-                                                  sql.Literal(ids)))
+                    self._conn.execute(
+                        sql.SQL(
+                            "CREATE TEMPORARY VIEW {} AS SELECT * FROM plant.{} WHERE station_id = "
+                            "ANY({}::text[])"
+                        ).format(sql.Identifier(table), sql.Identifier(table), sql.Literal(ids))
+                    )
             self._conn.execute("SET default_transaction_read_only = on")
         except Exception:
             self._conn.close()
@@ -129,8 +139,12 @@ class PlantReader:
     def __enter__(self) -> Self:
         return self
 
-    def __exit__(self, exc_type: type[BaseException] | None, exc: BaseException | None,
-                 tb: TracebackType | None) -> None:
+    def __exit__(
+        self,
+        exc_type: type[BaseException] | None,
+        exc: BaseException | None,
+        tb: TracebackType | None,
+    ) -> None:
         self.close()
 
     def unit(self, serial: str) -> UnitRow | None:
@@ -153,7 +167,9 @@ class PlantReader:
         """(serial, first-pass start) -> the station whose unit row it is, in start order."""
         rows = self._conn.execute(
             "SELECT serial, started_at_s, station_id FROM units WHERE serial = ANY(%s) "
-            "ORDER BY serial, started_at_s, station_id", (list(serials),)).fetchall()
+            "ORDER BY serial, started_at_s, station_id",
+            (list(serials),),
+        ).fetchall()
         return {(str(serial), float(start)): str(station) for serial, start, station in rows}
 
     def stations(self) -> list[dict[str, Any]]:
@@ -167,8 +183,15 @@ class PlantReader:
             "ORDER BY line, station_id",
             (not scope.stations, list(scope.stations), not scope.lines, list(scope.lines)),
         ).fetchall()
-        keys = ("station_id", "line", "plant", "forwarded_seq", "folded_seq",
-                "last_recorded_at_s", "last_forward_at_s")
+        keys = (
+            "station_id",
+            "line",
+            "plant",
+            "forwarded_seq",
+            "folded_seq",
+            "last_recorded_at_s",
+            "last_forward_at_s",
+        )
         return [dict(zip(keys, row, strict=True)) for row in rows]
 
 
@@ -195,8 +218,9 @@ class PlantReviewSource:
     def is_plant(self) -> bool:
         return True
 
-    def _cached(self, caches: dict[Scope, _Cache], scope: Scope,
-                make: Callable[[], _Cache]) -> _Cache:
+    def _cached(
+        self, caches: dict[Scope, _Cache], scope: Scope, make: Callable[[], _Cache]
+    ) -> _Cache:
         """The scope's cache, made on first use; the oldest goes past ``MAX_CACHED_SCOPES``."""
         with self._caches_lock:
             cache = caches.get(scope)
@@ -214,7 +238,6 @@ class PlantReviewSource:
         scope = cast(PostgresAdapter, conn).scope
         cache = self._cached(self._caches, scope, PlantFigureCache)
         return cache.figures(conn, period)
-
 
     def station_figures(self, reader: PlantReader, period: Period) -> dict[str, StationFigures]:
         """Each station's figures of the period, from the scope's (station, day) tallies."""
@@ -235,13 +258,18 @@ class PlantFigureCache(FigureCache):
 
     def _refresh(self, conn: sqlite3.Connection) -> None:
         raw = cast(PostgresAdapter, conn).raw
-        marks = {str(s): int(m) for s, m in raw.execute(
-            "SELECT station_id, folded_seq FROM plant.stations").fetchall()}
+        marks = {
+            str(s): int(m)
+            for s, m in raw.execute("SELECT station_id, folded_seq FROM plant.stations").fetchall()
+        }
         if self._marks is None:
             started = time.perf_counter()
             self._days = tally_range(conn, OPEN_START_S, OPEN_END_S, by_day=True)
-            logger.info("tallied %d days of plant figures in %.2f s", len(self._days),
-                        time.perf_counter() - started)
+            logger.info(
+                "tallied %d days of plant figures in %.2f s",
+                len(self._days),
+                time.perf_counter() - started,
+            )
         else:
             touched: set[int] = set()
             for station, mark in marks.items():
@@ -262,5 +290,6 @@ def touched_days(raw: Any, station: str, after_seq: int) -> set[int]:
         f"AND serial IS NOT NULL) UNION SELECT trunc(recorded_at_s / {DAY_S})::bigint FROM "
         "plant.steps WHERE station_id = %s AND seq > %s UNION SELECT trunc(recorded_at_s / "
         f"{DAY_S})::bigint FROM plant.alarms WHERE station_id = %s AND seq > %s",
-        (station, station, after_seq, station, after_seq, station, after_seq)).fetchall()
+        (station, station, after_seq, station, after_seq, station, after_seq),
+    ).fetchall()
     return {int(r[0]) for r in rows}

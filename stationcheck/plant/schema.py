@@ -244,7 +244,8 @@ def migrate(conn: Any) -> int:
         if start > SCHEMA_VERSION:
             raise PlantDatabaseError(
                 f"the plant database has schema version {start}, newer than this stationcheck "
-                f"knows ({SCHEMA_VERSION}); use a newer stationcheck")
+                f"knows ({SCHEMA_VERSION}); use a newer stationcheck"
+            )
         for version in range(start, SCHEMA_VERSION):
             conn.execute(MIGRATIONS[version])
             logger.info("plant schema: applied migration %d", version + 1)
@@ -256,11 +257,18 @@ def migrate(conn: Any) -> int:
             _ensure_group(conn, group)
         conn.execute(_GRANTS)
         database = conn.execute("SELECT current_database()").fetchone()[0]
-        conn.execute(sql.SQL("GRANT CONNECT ON DATABASE {} TO {}, {}").format(
-            sql.Identifier(database), sql.Identifier(STATION_GROUP),
-            sql.Identifier(REVIEW_GROUP)))
-        conn.execute(sql.SQL("GRANT TEMPORARY ON DATABASE {} TO {}").format(
-            sql.Identifier(database), sql.Identifier(REVIEW_GROUP)))
+        conn.execute(
+            sql.SQL("GRANT CONNECT ON DATABASE {} TO {}, {}").format(
+                sql.Identifier(database),
+                sql.Identifier(STATION_GROUP),
+                sql.Identifier(REVIEW_GROUP),
+            )
+        )
+        conn.execute(
+            sql.SQL("GRANT TEMPORARY ON DATABASE {} TO {}").format(
+                sql.Identifier(database), sql.Identifier(REVIEW_GROUP)
+            )
+        )
     return SCHEMA_VERSION
 
 
@@ -269,36 +277,50 @@ def require_current(conn: Any) -> None:
     if version != SCHEMA_VERSION:
         raise PlantDatabaseError(
             f"the plant database has schema version {version}, this stationcheck needs "
-            f"{SCHEMA_VERSION}; run 'stationcheck plant setup' with the database owner's URL")
+            f"{SCHEMA_VERSION}; run 'stationcheck plant setup' with the database owner's URL"
+        )
 
 
 def default_role(station_id: str) -> str:
     return f"station_{station_id}".lower()
 
 
-def add_station(conn: Any, station_id: str, line: str, plant: str, role: str | None = None,
-                role_password: str | None = None) -> str:
+def add_station(
+    conn: Any,
+    station_id: str,
+    line: str,
+    plant: str,
+    role: str | None = None,
+    role_password: str | None = None,
+) -> str:
     """Register a station and its own login role (made if missing); returns the role name."""
     from psycopg import sql
 
     role = role or default_role(station_id)
     if len(role) > MAX_ROLE_CHARS:
-        raise PlantDatabaseError(f"role name {role!r} is longer than {MAX_ROLE_CHARS} characters;"
-                                 " choose a shorter one with --role")
+        raise PlantDatabaseError(
+            f"role name {role!r} is longer than {MAX_ROLE_CHARS} characters;"
+            " choose a shorter one with --role"
+        )
     with conn.transaction():
         require_current(conn)
         if conn.execute("SELECT 1 FROM pg_roles WHERE rolname = %s", (role,)).fetchone() is None:
             conn.execute(sql.SQL("CREATE ROLE {} LOGIN").format(sql.Identifier(role)))
-        conn.execute(sql.SQL("GRANT {} TO {}").format(sql.Identifier(STATION_GROUP),
-                                                      sql.Identifier(role)))
+        conn.execute(
+            sql.SQL("GRANT {} TO {}").format(sql.Identifier(STATION_GROUP), sql.Identifier(role))
+        )
         if role_password is not None:
-            conn.execute(sql.SQL("ALTER ROLE {} PASSWORD {}").format(
-                sql.Identifier(role), sql.Literal(role_password)))
+            conn.execute(
+                sql.SQL("ALTER ROLE {} PASSWORD {}").format(
+                    sql.Identifier(role), sql.Literal(role_password)
+                )
+            )
         conn.execute(
             "INSERT INTO plant.stations (station_id, line, plant, role_name) "
             "VALUES (%s, %s, %s, %s) ON CONFLICT (station_id) DO UPDATE SET line = "
             "excluded.line, plant = excluded.plant, role_name = excluded.role_name",
-            (station_id, line, plant, role))
+            (station_id, line, plant, role),
+        )
     return role
 
 
@@ -310,9 +332,13 @@ def add_reviewer(conn: Any, role: str, role_password: str | None = None) -> str:
         require_current(conn)
         if conn.execute("SELECT 1 FROM pg_roles WHERE rolname = %s", (role,)).fetchone() is None:
             conn.execute(sql.SQL("CREATE ROLE {} LOGIN").format(sql.Identifier(role)))
-        conn.execute(sql.SQL("GRANT {} TO {}").format(sql.Identifier(REVIEW_GROUP),
-                                                      sql.Identifier(role)))
+        conn.execute(
+            sql.SQL("GRANT {} TO {}").format(sql.Identifier(REVIEW_GROUP), sql.Identifier(role))
+        )
         if role_password is not None:
-            conn.execute(sql.SQL("ALTER ROLE {} PASSWORD {}").format(
-                sql.Identifier(role), sql.Literal(role_password)))
+            conn.execute(
+                sql.SQL("ALTER ROLE {} PASSWORD {}").format(
+                    sql.Identifier(role), sql.Literal(role_password)
+                )
+            )
     return role

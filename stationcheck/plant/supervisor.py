@@ -22,10 +22,20 @@ LAG_WARNING_S = 60.0
 class ForwardChild:
     """The forwarder process of a running station; :meth:`stop` ends it."""
 
-    def __init__(self, config: Path, url: str, log: Path | None = None,
-                 password_file: Path | None = None) -> None:
-        command = [sys.executable, "-m", "stationcheck", "forward", "--config", str(config),
-                   "--to", url, "--status-json"]
+    def __init__(
+        self, config: Path, url: str, log: Path | None = None, password_file: Path | None = None
+    ) -> None:
+        command = [
+            sys.executable,
+            "-m",
+            "stationcheck",
+            "forward",
+            "--config",
+            str(config),
+            "--to",
+            url,
+            "--status-json",
+        ]
         if log is not None:
             command += ["--log", str(log)]
         if password_file is not None:
@@ -35,8 +45,9 @@ class ForwardChild:
         self._lock = threading.Lock()
         self._warned = False
         assert self._process.stdout is not None
-        self._reader = threading.Thread(target=self._read, args=(self._process.stdout,),
-                                        daemon=True, name="forward-status")
+        self._reader = threading.Thread(
+            target=self._read, args=(self._process.stdout,), daemon=True, name="forward-status"
+        )
         self._reader.start()
 
     @property

@@ -57,9 +57,19 @@ class Cluster:
         return f"postgresql://{user}@127.0.0.1:{self.port}/{database}?sslmode=disable"
 
     def start(self) -> None:
-        self.run("pg_ctl", "-D", str(self.data), "-l", str(self.folder / "server.log"), "-w",
-                  "-t", "30", "-o", f"-p {self.port} -k {self.folder} "
-                  "-c listen_addresses=127.0.0.1 -c fsync=off", "start")
+        self.run(
+            "pg_ctl",
+            "-D",
+            str(self.data),
+            "-l",
+            str(self.folder / "server.log"),
+            "-w",
+            "-t",
+            "30",
+            "-o",
+            f"-p {self.port} -k {self.folder} -c listen_addresses=127.0.0.1 -c fsync=off",
+            "start",
+        )
 
     def stop(self, mode: str = "fast") -> None:
         self.run("pg_ctl", "-D", str(self.data), "-m", mode, "-w", "stop")
@@ -70,8 +80,10 @@ def throwaway_cluster(parent: Path | None = None) -> Iterator[Cluster]:
     if not (PG_BIN / "initdb").exists():
         from stationcheck.errors import PlantDatabaseError
 
-        raise PlantDatabaseError(f"PostgreSQL server binaries not found in {PG_BIN}; install "
-                                 "them with: apt-get install postgresql")
+        raise PlantDatabaseError(
+            f"PostgreSQL server binaries not found in {PG_BIN}; install "
+            "them with: apt-get install postgresql"
+        )
     as_root = os.geteuid() == 0
     folder = Path(tempfile.mkdtemp(prefix="stationcheck-pg-", dir=parent))
     user = "postgres" if as_root else None
@@ -82,13 +94,23 @@ def throwaway_cluster(parent: Path | None = None) -> Iterator[Cluster]:
     pwfile.write_text(ADMIN_PASSWORD)
     if as_root:
         shutil.chown(pwfile, user="postgres")
-    cluster.run("initdb", "-D", str(cluster.data), "-U", ADMIN, f"--pwfile={pwfile}",
-                 "--auth-local=trust", "--auth-host=scram-sha-256", "-E", "UTF8",
-                 "--locale=C", "--no-sync")
+    cluster.run(
+        "initdb",
+        "-D",
+        str(cluster.data),
+        "-U",
+        ADMIN,
+        f"--pwfile={pwfile}",
+        "--auth-local=trust",
+        "--auth-host=scram-sha-256",
+        "-E",
+        "UTF8",
+        "--locale=C",
+        "--no-sync",
+    )
     cluster.start()
     try:
-        cluster.run("createdb", "-h", str(folder), "-p", str(cluster.port), "-U", ADMIN,
-                     DATABASE)
+        cluster.run("createdb", "-h", str(folder), "-p", str(cluster.port), "-U", ADMIN, DATABASE)
         yield cluster
     finally:
         try:

@@ -31,53 +31,152 @@ class SignalSpec:
 
 
 DEFAULT_SIGNALS: tuple[SignalSpec, ...] = (
-    SignalSpec("tool_enable", "out", "coil", 0, 1,
-               "1 = tool may run (energise-to-enable; 0 on any fault or link loss)"),
-    SignalSpec("heartbeat", "out", "holding_register", 0, 1,
-               "counts up by 1 per healthy loop cycle, wraps 65535 -> 0; stops when unhealthy"),
-    SignalSpec("step_number", "out", "holding_register", 1, 1,
-               "current step, 1-based in the unit's pass; 0 = no unit"),
-    SignalSpec("position_number", "out", "holding_register", 2, 1,
-               "target fastener, 1-based in the step's order; 0 = not fastening"),
-    SignalSpec("unit_status", "out", "holding_register", 3, 1,
-               "0 idle, 1 running, 2 OK, 3 NOK, 4 aborted"),
-    SignalSpec("alarm_code", "out", "holding_register", 4, 1,
-               "lowest active alarm number (stationcheck alarm list); 0 = none"),
-    SignalSpec("rework_mask", "out", "holding_register", 5, 1,
-               "bit n set = fastener position n+1 of the station (config order) failed"),
-    SignalSpec("unit_ack", "out", "holding_register", 6, 1,
-               "echo of the last unit_sequence taken in"),
-    SignalSpec("result_ack", "out", "holding_register", 7, 1,
-               "echo of the last result_sequence taken in"),
-    SignalSpec("result_status", "out", "holding_register", 8, 1,
-               "verdict on the result result_ack echoes: 0 none yet, 1 accepted, 2 rejected "
-               "(no position enabled), 3 rejected (run did not start enabled at the target), "
-               "4 rejected (same sequence again)"),
-    SignalSpec("event_code", "out", "holding_register", 9, 1,
-               "number of the latest one-off alarm or warning (latched; 0 = none since start)"),
-    SignalSpec("event_count", "out", "holding_register", 10, 1,
-               "adds 1 (wrapping) per one-off alarm or warning: a change means a new event_code"),
-    SignalSpec("unit_reason", "out", "holding_register", 11, 1,
-               "why the last unit is NOK or aborted: 0 none, 1 positions failed, 2 stopped on a "
-               "failed position, 3 check failed, 4 a new unit came, 5 aborted or reset"),
+    SignalSpec(
+        "tool_enable",
+        "out",
+        "coil",
+        0,
+        1,
+        "1 = tool may run (energise-to-enable; 0 on any fault or link loss)",
+    ),
+    SignalSpec(
+        "heartbeat",
+        "out",
+        "holding_register",
+        0,
+        1,
+        "counts up by 1 per healthy loop cycle, wraps 65535 -> 0; stops when unhealthy",
+    ),
+    SignalSpec(
+        "step_number",
+        "out",
+        "holding_register",
+        1,
+        1,
+        "current step, 1-based in the unit's pass; 0 = no unit",
+    ),
+    SignalSpec(
+        "position_number",
+        "out",
+        "holding_register",
+        2,
+        1,
+        "target fastener, 1-based in the step's order; 0 = not fastening",
+    ),
+    SignalSpec(
+        "unit_status", "out", "holding_register", 3, 1, "0 idle, 1 running, 2 OK, 3 NOK, 4 aborted"
+    ),
+    SignalSpec(
+        "alarm_code",
+        "out",
+        "holding_register",
+        4,
+        1,
+        "lowest active alarm number (stationcheck alarm list); 0 = none",
+    ),
+    SignalSpec(
+        "rework_mask",
+        "out",
+        "holding_register",
+        5,
+        1,
+        "bit n set = fastener position n+1 of the station (config order) failed",
+    ),
+    SignalSpec(
+        "unit_ack", "out", "holding_register", 6, 1, "echo of the last unit_sequence taken in"
+    ),
+    SignalSpec(
+        "result_ack", "out", "holding_register", 7, 1, "echo of the last result_sequence taken in"
+    ),
+    SignalSpec(
+        "result_status",
+        "out",
+        "holding_register",
+        8,
+        1,
+        "verdict on the result result_ack echoes: 0 none yet, 1 accepted, 2 rejected "
+        "(no position enabled), 3 rejected (run did not start enabled at the target), "
+        "4 rejected (same sequence again)",
+    ),
+    SignalSpec(
+        "event_code",
+        "out",
+        "holding_register",
+        9,
+        1,
+        "number of the latest one-off alarm or warning (latched; 0 = none since start)",
+    ),
+    SignalSpec(
+        "event_count",
+        "out",
+        "holding_register",
+        10,
+        1,
+        "adds 1 (wrapping) per one-off alarm or warning: a change means a new event_code",
+    ),
+    SignalSpec(
+        "unit_reason",
+        "out",
+        "holding_register",
+        11,
+        1,
+        "why the last unit is NOK or aborted: 0 none, 1 positions failed, 2 stopped on a "
+        "failed position, 3 check failed, 4 a new unit came, 5 aborted or reset",
+    ),
     SignalSpec("tool_running", "in", "discrete_input", 0, 1, "1 while the tool runs"),
-    SignalSpec("operator_ack", "in", "discrete_input", 1, 1,
-               "operator acknowledge; acts on the 0 -> 1 edge"),
+    SignalSpec(
+        "operator_ack",
+        "in",
+        "discrete_input",
+        1,
+        1,
+        "operator acknowledge; acts on the 0 -> 1 edge",
+    ),
     SignalSpec("reset", "in", "discrete_input", 2, 1, "station reset; acts on the 0 -> 1 edge"),
-    SignalSpec("unit_sequence", "in", "holding_register", 16, 1,
-               "PLC adds 1 (wrapping) after writing serial and unit_flags: starts the unit"),
+    SignalSpec(
+        "unit_sequence",
+        "in",
+        "holding_register",
+        16,
+        1,
+        "PLC adds 1 (wrapping) after writing serial and unit_flags: starts the unit",
+    ),
     SignalSpec("unit_flags", "in", "holding_register", 17, 1, "bit 0 = rework pass"),
-    SignalSpec("serial", "in", "holding_register", 18, SERIAL_REGISTERS,
-               "unit serial, ASCII, 2 characters per register, high byte first, NUL-padded"),
-    SignalSpec("result_sequence", "in", "holding_register", 28, 1,
-               "PLC adds 1 (wrapping) after writing result_ok, torque and angle: a new result"),
+    SignalSpec(
+        "serial",
+        "in",
+        "holding_register",
+        18,
+        SERIAL_REGISTERS,
+        "unit serial, ASCII, 2 characters per register, high byte first, NUL-padded",
+    ),
+    SignalSpec(
+        "result_sequence",
+        "in",
+        "holding_register",
+        28,
+        1,
+        "PLC adds 1 (wrapping) after writing result_ok, torque and angle: a new result",
+    ),
     SignalSpec("result_ok", "in", "holding_register", 29, 1, "1 = OK, 0 = NOK"),
     SignalSpec("torque", "in", "holding_register", 30, 1, "final torque, unsigned, 0.01 N*m"),
-    SignalSpec("angle", "in", "holding_register", 31, 1,
-               "final angle, signed 16-bit two's complement, 0.1 degree"),
-    SignalSpec("plc_liveness", "in", "holding_register", 32, 1,
-               "PLC adds 1 (wrapping) every scan or poll; the link is down when it stops "
-               "changing for plc.liveness_timeout_ms, and a restart (back to 0) is a new session"),
+    SignalSpec(
+        "angle",
+        "in",
+        "holding_register",
+        31,
+        1,
+        "final angle, signed 16-bit two's complement, 0.1 degree",
+    ),
+    SignalSpec(
+        "plc_liveness",
+        "in",
+        "holding_register",
+        32,
+        1,
+        "PLC adds 1 (wrapping) every scan or poll; the link is down when it stops "
+        "changing for plc.liveness_timeout_ms, and a restart (back to 0) is a new session",
+    ),
 )
 SIGNAL_NAMES: tuple[str, ...] = tuple(spec.name for spec in DEFAULT_SIGNALS)
 BIT_TABLES: tuple[Table, ...] = ("coil", "discrete_input")
@@ -125,8 +224,9 @@ def address_map_from(overrides: Mapping[str, object], server: bool = False) -> A
     return amap
 
 
-def address_map_findings(overrides: Mapping[str, object], server: bool = False
-                         ) -> tuple[AddressMap, list[tuple[Location, str]]]:
+def address_map_findings(
+    overrides: Mapping[str, object], server: bool = False
+) -> tuple[AddressMap, list[tuple[Location, str]]]:
     """The map and every problem with its config path: the one check ``check`` and ``run``
     share (unknown signals, wrong tables or counts, overlaps with any signal, moved or not)."""
     base = default_address_map(server).signals
@@ -153,8 +253,14 @@ def address_map_findings(overrides: Mapping[str, object], server: bool = False
             span = f"0..{65536 - default.count} ({default.count} addresses from there)"
             problems.append((path + ("address",), f"must be {span}, got {address}"))
         if len(problems) == found:
-            signals[name] = SignalSpec(name, default.direction, table, address,  # type: ignore[arg-type]
-                                       default.count, default.meaning)
+            signals[name] = SignalSpec(
+                name,
+                default.direction,
+                table,
+                address,  # type: ignore[arg-type]
+                default.count,
+                default.meaning,
+            )
     problems.extend(_overlaps(signals.values(), set(overrides)))
     return AddressMap(signals), problems
 
@@ -180,8 +286,10 @@ def _overlaps(specs: object, moved: set[str]) -> list[tuple[Location, str]]:
             other = taken.setdefault((spec.table, address), spec.name)
             if other != spec.name:
                 name = spec.name if spec.name in moved else other
-                message = (f"{spec.table} {address} is taken by both {spec.name} and {other}; "
-                           "each signal needs its own addresses")
+                message = (
+                    f"{spec.table} {address} is taken by both {spec.name} and {other}; "
+                    "each signal needs its own addresses"
+                )
                 problems.append((("plc", "address_map", name, "address"), message))
                 break
     return problems
@@ -190,12 +298,16 @@ def _overlaps(specs: object, moved: set[str]) -> list[tuple[Location, str]]:
 def markdown_table(address_map: AddressMap | None = None) -> str:
     """The map as a Markdown table (for the README and for the PLC programmer)."""
     amap = address_map or default_address_map()
-    rows = ["| signal | direction | table | PDU address | registers | meaning |",
-            "|---|---|---|---|---|---|"]
+    rows = [
+        "| signal | direction | table | PDU address | registers | meaning |",
+        "|---|---|---|---|---|---|",
+    ]
     for spec in amap.signals.values():
         direction = "station -> PLC" if spec.direction == "out" else "PLC -> station"
         last = spec.address + spec.count - 1
         where = str(spec.address) if spec.count == 1 else f"{spec.address}-{last}"
-        rows.append(f"| {spec.name} | {direction} | {spec.table} | {where} | {spec.count} | "
-                    f"{spec.meaning} |")
+        rows.append(
+            f"| {spec.name} | {direction} | {spec.table} | {where} | {spec.count} | "
+            f"{spec.meaning} |"
+        )
     return "\n".join(rows)

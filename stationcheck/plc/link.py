@@ -23,7 +23,10 @@ from stationcheck.plc.signals import InputSignals, OutputSignals
 logger = logging.getLogger(__name__)
 
 MAX_READ: dict[Table, int] = {  # quantity limits per request (Modbus spec V1.1b3, 6.1-6.4)
-    "coil": 2000, "discrete_input": 2000, "holding_register": 125, "input_register": 125,
+    "coil": 2000,
+    "discrete_input": 2000,
+    "holding_register": 125,
+    "input_register": 125,
 }
 
 
@@ -100,12 +103,11 @@ class TableLink(ABC):
             values = self.read_table(table, start, count)
             for spec in specs:
                 offset = spec.address - start
-                words[spec.name] = values[offset:offset + spec.count]
+                words[spec.name] = values[offset : offset + spec.count]
         return InputSignals.from_words(words)
 
 
-def _read_plan(specs: tuple[SignalSpec, ...]
-               ) -> list[tuple[Table, int, int, list[SignalSpec]]]:
+def _read_plan(specs: tuple[SignalSpec, ...]) -> list[tuple[Table, int, int, list[SignalSpec]]]:
     by_table: dict[Table, list[SignalSpec]] = defaultdict(list)
     for spec in specs:
         by_table[spec.table].append(spec)

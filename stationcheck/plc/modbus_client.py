@@ -24,8 +24,16 @@ logger = logging.getLogger(__name__)
 class ModbusClientLink(TableLink):
     name = "client"
 
-    def __init__(self, host: str, port: int, *, device_id: int = 1, timeout_ms: float = 50.0,
-                 retries: int = 0, address_map: AddressMap | None = None) -> None:
+    def __init__(
+        self,
+        host: str,
+        port: int,
+        *,
+        device_id: int = 1,
+        timeout_ms: float = 50.0,
+        retries: int = 0,
+        address_map: AddressMap | None = None,
+    ) -> None:
         super().__init__(address_map)
         self.host = host
         self.port = port
@@ -38,8 +46,9 @@ class ModbusClientLink(TableLink):
         from pymodbus.client import ModbusTcpClient
 
         self.close()
-        client = ModbusTcpClient(self.host, port=self.port, timeout=self.timeout_ms / 1000.0,
-                                 retries=self.retries)
+        client = ModbusTcpClient(
+            self.host, port=self.port, timeout=self.timeout_ms / 1000.0, retries=self.retries
+        )
         if not client.connect():  # type: ignore[no-untyped-call]
             client.close()  # type: ignore[no-untyped-call]
             raise SignalLinkError(f"no Modbus server answers on {self.host}:{self.port}")
@@ -60,21 +69,28 @@ class ModbusClientLink(TableLink):
             "holding_register": client.read_holding_registers,
             "input_register": client.read_input_registers,
         }[table]
-        response = self._call(f"read {table} {address}", method, address, count=count,
-                              device_id=self.device_id)
+        response = self._call(
+            f"read {table} {address}", method, address, count=count, device_id=self.device_id
+        )
         if table in ("coil", "discrete_input"):
             return [int(bit) for bit in response.bits[:count]]
         return list(response.registers[:count])
 
     def write_coil(self, address: int, on: bool) -> None:
         client = self._connected()
-        self._call(f"write coil {address}", client.write_coil, address, on,
-                   device_id=self.device_id)
+        self._call(
+            f"write coil {address}", client.write_coil, address, on, device_id=self.device_id
+        )
 
     def write_registers(self, address: int, values: list[int]) -> None:
         client = self._connected()
-        self._call(f"write holding registers {address}", client.write_registers, address, values,
-                   device_id=self.device_id)
+        self._call(
+            f"write holding registers {address}",
+            client.write_registers,
+            address,
+            values,
+            device_id=self.device_id,
+        )
 
     def _connected(self) -> Any:
         if self._client is None:

@@ -28,18 +28,27 @@ class ModbusServerLink(TableLink):
     name = "server"
     write_unchanged = True  # the image is local: every write puts all outputs back in place
 
-    def __init__(self, host: str, port: int, *, device_id: int = 1,
-                 address_map: AddressMap | None = None) -> None:
+    def __init__(
+        self, host: str, port: int, *, device_id: int = 1, address_map: AddressMap | None = None
+    ) -> None:
         super().__init__(address_map or default_address_map(server=True))
-        self.host = ServerHost(host, port, size=max(64, self.address_map.highest_address()),
-                               device_id=device_id,
-                               unit_ids=frozenset({device_id, *DIRECT_UNIT_IDS}))
+        self.host = ServerHost(
+            host,
+            port,
+            size=max(64, self.address_map.highest_address()),
+            device_id=device_id,
+            unit_ids=frozenset({device_id, *DIRECT_UNIT_IDS}),
+        )
 
     def connect(self) -> None:
         if not self.host.running:  # started once; it keeps serving across link losses
             self.host.start()
-            logger.info("Modbus server for the PLC on %s:%d (unit ids %s)", self.host.host,
-                        self.host.port, ", ".join(map(str, sorted(self.host.unit_ids))))
+            logger.info(
+                "Modbus server for the PLC on %s:%d (unit ids %s)",
+                self.host.host,
+                self.host.port,
+                ", ".join(map(str, sorted(self.host.unit_ids))),
+            )
 
     def close(self) -> None:
         """The server keeps running: the PLC may come back at any time."""

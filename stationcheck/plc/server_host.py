@@ -23,7 +23,10 @@ Table = Literal["coil", "discrete_input", "holding_register", "input_register"]
 TABLES: tuple[Table, ...] = ("coil", "discrete_input", "holding_register", "input_register")
 # Function codes whose datastore block each table is (Modbus Application Protocol V1.1b3, 6.1-6.4).
 READ_FUNCTION: dict[Table, int] = {
-    "coil": 1, "discrete_input": 2, "holding_register": 3, "input_register": 4,
+    "coil": 1,
+    "discrete_input": 2,
+    "holding_register": 3,
+    "input_register": 4,
 }
 PacketTrace = Callable[[bool, bytes], None]
 T = TypeVar("T")
@@ -32,9 +35,16 @@ T = TypeVar("T")
 class ServerHost:
     """Starts a pymodbus ``ModbusTcpServer`` on ``host:port`` in a daemon thread."""
 
-    def __init__(self, host: str, port: int, *, size: int = 64, device_id: int = 1,
-                 on_packet: PacketTrace | None = None,
-                 unit_ids: frozenset[int] | None = None) -> None:
+    def __init__(
+        self,
+        host: str,
+        port: int,
+        *,
+        size: int = 64,
+        device_id: int = 1,
+        on_packet: PacketTrace | None = None,
+        unit_ids: frozenset[int] | None = None,
+    ) -> None:
         self.host = host
         self.port = port
         self.size = size
@@ -81,18 +91,23 @@ class ServerHost:
 
     def get(self, table: Table, address: int, count: int = 1) -> list[int]:
         """Values as the server holds them (bits as 0/1)."""
-        values = self._call(self._context().async_getValues(
-            self.device_id, READ_FUNCTION[table], address, count))
+        values = self._call(
+            self._context().async_getValues(self.device_id, READ_FUNCTION[table], address, count)
+        )
         if not isinstance(values, list):
             raise SignalLinkError(f"server image has no {table} {address}..{address + count - 1}")
         return [int(v) for v in values]
 
     def set(self, table: Table, address: int, values: Sequence[int]) -> None:
         """Writes the server's own image (e.g. inputs a PLC would present)."""
-        data: list[Any] = [bool(v) for v in values] if table in ("coil", "discrete_input") \
+        data: list[Any] = (
+            [bool(v) for v in values]
+            if table in ("coil", "discrete_input")
             else [int(v) & 0xFFFF for v in values]
-        error = self._call(self._context().async_setValues(
-            self.device_id, READ_FUNCTION[table], address, data))
+        )
+        error = self._call(
+            self._context().async_setValues(self.device_id, READ_FUNCTION[table], address, data)
+        )
         if error:
             raise SignalLinkError(f"server image refused {table} {address}: {error}")
 
@@ -166,10 +181,10 @@ class _UnitIds:
     def device_ids(self) -> list[int]:
         return [self.device_id]
 
-    async def async_getValues(self, unit_id: int, func_code: int, address: int,
-                              count: int = 1) -> Any:
+    async def async_getValues(
+        self, unit_id: int, func_code: int, address: int, count: int = 1
+    ) -> Any:
         return await self.core.async_getValues(self._device(unit_id), func_code, address, count)
 
-    async def async_setValues(self, unit_id: int, func_code: int, address: int,
-                              values: Any) -> Any:
+    async def async_setValues(self, unit_id: int, func_code: int, address: int, values: Any) -> Any:
         return await self.core.async_setValues(self._device(unit_id), func_code, address, values)

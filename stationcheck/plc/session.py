@@ -89,20 +89,29 @@ class InputDecoder:
         if inputs.result_sequence != self.result_ack:
             self.result_ack = inputs.result_sequence
             self._result_data_changed = False
-            found.append(TighteningResult(t_s=t_s, ok=inputs.result_ok,
-                                          torque_nm=inputs.torque_nm,
-                                          angle_deg=inputs.angle_deg,
-                                          sequence=inputs.result_sequence))
+            found.append(
+                TighteningResult(
+                    t_s=t_s,
+                    ok=inputs.result_ok,
+                    torque_nm=inputs.torque_nm,
+                    angle_deg=inputs.angle_deg,
+                    sequence=inputs.result_sequence,
+                )
+            )
         else:
             self._result_without_sequence(last, inputs, t_s, found)
         if inputs.operator_ack and not last.operator_ack:
             found.append(OperatorAck(t_s=t_s))
         return found
 
-    def _restart(self, last: InputSignals, inputs: InputSignals, t_s: float,
-                 found: list[Observation]) -> bool:
-        moved = [f"{name} {getattr(last, name)} -> {getattr(inputs, name)}" for name in COUNTERS
-                 if restarted(getattr(last, name), getattr(inputs, name))]
+    def _restart(
+        self, last: InputSignals, inputs: InputSignals, t_s: float, found: list[Observation]
+    ) -> bool:
+        moved = [
+            f"{name} {getattr(last, name)} -> {getattr(inputs, name)}"
+            for name in COUNTERS
+            if restarted(getattr(last, name), getattr(inputs, name))
+        ]
         if not moved:
             return False
         detail = "PLC restart seen: " + ", ".join(moved) + "; echoes re-synchronised"
@@ -110,8 +119,9 @@ class InputDecoder:
         found.append(LinkEvent(t_s=t_s, code="plc_session_restart", detail=detail))
         return True
 
-    def _begin_session(self, inputs: InputSignals, t_s: float, found: list[Observation],
-                       last: InputSignals | None) -> None:
+    def _begin_session(
+        self, inputs: InputSignals, t_s: float, found: list[Observation], last: InputSignals | None
+    ) -> None:
         """Echoes follow the counters as they are; a result left in the PLC is not taken; a
         unit presented (counter not 0) that differs from the one taken last is started."""
         self.sessions += 1
@@ -126,13 +136,16 @@ class InputDecoder:
         elif last is not None and last.tool_running and not inputs.tool_running:
             found.append(ToolRunning(t_s=t_s, on=False))
 
-    def _unit(self, inputs: InputSignals, t_s: float, found: list[Observation],
-              waiting: bool) -> None:
+    def _unit(
+        self, inputs: InputSignals, t_s: float, found: list[Observation], waiting: bool
+    ) -> None:
         problem = self.serial_problem(inputs)
         if problem == "empty":
             if not waiting:
-                logger.warning("unit_sequence changed to %d without a serial; waiting for it",
-                               inputs.unit_sequence)
+                logger.warning(
+                    "unit_sequence changed to %d without a serial; waiting for it",
+                    inputs.unit_sequence,
+                )
             return
         self.unit_ack = inputs.unit_sequence
         if problem:
@@ -143,7 +156,7 @@ class InputDecoder:
         found.append(UnitStarted(t_s=t_s, serial=inputs.serial, rework=inputs.rework))
 
     def serial_problem(self, inputs: InputSignals) -> str:
-        """"" for a valid serial, "empty" when there is none yet, else the reason."""
+        """ "" for a valid serial, "empty" when there is none yet, else the reason."""
         if inputs.serial_problem:
             return inputs.serial_problem
         if not inputs.serial:
@@ -152,16 +165,22 @@ class InputDecoder:
             return f"does not match the pattern {self.settings.serial_pattern!r}"
         return ""
 
-    def _result_without_sequence(self, last: InputSignals, inputs: InputSignals, t_s: float,
-                                 found: list[Observation]) -> None:
+    def _result_without_sequence(
+        self, last: InputSignals, inputs: InputSignals, t_s: float, found: list[Observation]
+    ) -> None:
         """Result data that changed and still has no new sequence one reading later (the PLC
         writes data first and the sequence last, so one reading may fall in between)."""
-        changed = (last.result_ok, last.torque_nm, last.angle_deg) != \
-            (inputs.result_ok, inputs.torque_nm, inputs.angle_deg)
+        changed = (last.result_ok, last.torque_nm, last.angle_deg) != (
+            inputs.result_ok,
+            inputs.torque_nm,
+            inputs.angle_deg,
+        )
         if self._result_data_changed and not changed:
             self._result_data_changed = False
-            detail = (f"result data changed but result_sequence stayed {inputs.result_sequence}: "
-                      "not taken as a result")
+            detail = (
+                f"result data changed but result_sequence stayed {inputs.result_sequence}: "
+                "not taken as a result"
+            )
             logger.warning("%s", detail)
             found.append(LinkEvent(t_s=t_s, code="result_without_sequence", detail=detail))
         elif changed:

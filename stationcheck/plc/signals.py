@@ -22,12 +22,19 @@ logger = logging.getLogger(__name__)
 UNIT_STATUS_CODES: dict[str, int] = {"idle": 0, "running": 1, "ok": 2, "nok": 3, "aborted": 4}
 # result_status register: the core's verdict on the last result (see core.handlers)
 RESULT_STATUS_CODES: dict[str, int] = {
-    "none": 0, "accepted": 1, "rejected_not_enabled": 2, "rejected_not_credited": 3,
+    "none": 0,
+    "accepted": 1,
+    "rejected_not_enabled": 2,
+    "rejected_not_credited": 3,
     "rejected_duplicate": 4,
 }
 # unit_reason register: how a unit that is not OK ended (the core's ``ended_by``)
 UNIT_REASON_CODES: dict[str, int] = {
-    "completed": 1, "stopped_on_failure": 2, "check_failed": 3, "new_unit": 4, "abort": 5,
+    "completed": 1,
+    "stopped_on_failure": 2,
+    "check_failed": 3,
+    "new_unit": 4,
+    "abort": 5,
 }
 TORQUE_SCALE_NM = 0.01
 ANGLE_SCALE_DEG = 0.1
@@ -73,8 +80,18 @@ class OutputSignals:
 
 
 REGISTER_OUTPUTS: tuple[str, ...] = (
-    "heartbeat", "step_number", "position_number", "unit_status", "alarm_code", "rework_mask",
-    "unit_ack", "result_ack", "result_status", "event_code", "event_count", "unit_reason",
+    "heartbeat",
+    "step_number",
+    "position_number",
+    "unit_status",
+    "alarm_code",
+    "rework_mask",
+    "unit_ack",
+    "result_ack",
+    "result_status",
+    "event_code",
+    "event_count",
+    "unit_reason",
 )
 
 
@@ -138,8 +155,9 @@ def encode_ascii(text: str, registers: int) -> list[int]:
 
 
 def _raw(words: list[int]) -> bytes:
-    raw = b"".join(((w >> 8) & 0xFF).to_bytes(1, "big") + (w & 0xFF).to_bytes(1, "big")
-                   for w in words)
+    raw = b"".join(
+        ((w >> 8) & 0xFF).to_bytes(1, "big") + (w & 0xFF).to_bytes(1, "big") for w in words
+    )
     return raw.split(b"\0", 1)[0]
 
 
@@ -175,8 +193,12 @@ def scale_signed(value: float, scale: float) -> int:
 
 def fastener_positions(plan: StationPlan) -> tuple[PositionRef, ...]:
     """Every fastener position of the station in config order (the rework mask's bit order)."""
-    return tuple(PositionRef(step.id, zone) for step in plan.steps
-                 if isinstance(step, FastenStep) for zone in step.zones)
+    return tuple(
+        PositionRef(step.id, zone)
+        for step in plan.steps
+        if isinstance(step, FastenStep)
+        for zone in step.zones
+    )
 
 
 class OutputEncoder:
@@ -185,12 +207,21 @@ class OutputEncoder:
     def __init__(self, plan: StationPlan) -> None:
         positions = fastener_positions(plan)
         if len(positions) > 16:
-            logger.warning("rework_mask shows the first 16 of %d fastener positions",
-                           len(positions))
+            logger.warning(
+                "rework_mask shows the first 16 of %d fastener positions", len(positions)
+            )
         self.bit_of = {ref: i for i, ref in enumerate(positions[:16])}
 
-    def encode(self, output: Output, *, heartbeat: int, unit_ack: int, result_ack: int,
-               extra_alarms: tuple[str, ...] = (), force_inhibit: bool = False) -> OutputSignals:
+    def encode(
+        self,
+        output: Output,
+        *,
+        heartbeat: int,
+        unit_ack: int,
+        result_ack: int,
+        extra_alarms: tuple[str, ...] = (),
+        force_inhibit: bool = False,
+    ) -> OutputSignals:
         """``result_status`` is decided with the result, one cycle before ``result_ack`` echoes
         it, so it is valid whenever ``result_ack`` equals the PLC's ``result_sequence``."""
         mask = 0

@@ -71,26 +71,38 @@ class SimulatorSettings:
 
     def __post_init__(self) -> None:
         if self.heartbeat_timeout_s <= 0 or self.liveness_period_s <= 0:
-            raise ValueError("heartbeat_timeout_s and liveness_period_s must be > 0, got "
-                             f"{self.heartbeat_timeout_s} and {self.liveness_period_s}")
+            raise ValueError(
+                "heartbeat_timeout_s and liveness_period_s must be > 0, got "
+                f"{self.heartbeat_timeout_s} and {self.liveness_period_s}"
+            )
         if self.script_speed <= 0:
             raise ValueError(f"script_speed must be > 0, got {self.script_speed}")
         if not 0.0 <= self.ok_rate <= 1.0:
             raise ValueError(f"ok_rate must be within 0..1, got {self.ok_rate}")
         low, high = self.trigger_delay_s
         if not 0.0 <= low <= high:
-            raise ValueError(f"trigger_delay_s must be (low, high) with 0 <= low <= high, got "
-                             f"{self.trigger_delay_s}")
+            raise ValueError(
+                f"trigger_delay_s must be (low, high) with 0 <= low <= high, got "
+                f"{self.trigger_delay_s}"
+            )
 
 
 class StationSimulator:
-    def __init__(self, host: str, port: int, settings: SimulatorSettings | None = None, *,
-                 script: Sequence[Observation] = (), address_map: AddressMap | None = None,
-                 device_id: int = 1) -> None:
+    def __init__(
+        self,
+        host: str,
+        port: int,
+        settings: SimulatorSettings | None = None,
+        *,
+        script: Sequence[Observation] = (),
+        address_map: AddressMap | None = None,
+        device_id: int = 1,
+    ) -> None:
         self.settings = settings or SimulatorSettings()
         self.address_map = address_map or default_address_map()
-        self.server = ServerHost(host, port, size=max(64, self.address_map.highest_address()),
-                                 device_id=device_id)
+        self.server = ServerHost(
+            host, port, size=max(64, self.address_map.highest_address()), device_id=device_id
+        )
         self.script = tuple(script)
         self.random = random.Random(self.settings.seed)
         self.inputs = InputSignals()
@@ -119,12 +131,14 @@ class StationSimulator:
         return self
 
     def begin(self) -> Self:
-        self._scan = threading.Thread(target=self._guarded, args=(self._run_scan,),
-                                      name="simulator-scan", daemon=True)
+        self._scan = threading.Thread(
+            target=self._guarded, args=(self._run_scan,), name="simulator-scan", daemon=True
+        )
         self._scan.start()
         target = self._run_script if self.script else self._run_generated
-        self._thread = threading.Thread(target=self._guarded, args=(target,),
-                                        name="station-simulator", daemon=True)
+        self._thread = threading.Thread(
+            target=self._guarded, args=(target,), name="station-simulator", daemon=True
+        )
         self._thread.start()
         return self
 
@@ -199,8 +213,13 @@ class StationSimulator:
             elif self.tool_power.is_set() and now - changed_at > timeout_s:
                 self.tool_power.clear()
                 self.power_drops += 1
-                logger.warning("simulator: station heartbeat stopped at %d for %.0f ms; tool "
-                               "power off (drop %d)", beat, timeout_s * 1e3, self.power_drops)
+                logger.warning(
+                    "simulator: station heartbeat stopped at %d for %.0f ms; tool "
+                    "power off (drop %d)",
+                    beat,
+                    timeout_s * 1e3,
+                    self.power_drops,
+                )
                 if not self.script and self.inputs.tool_running:
                     self._set(tool_running=False)
 
@@ -222,8 +241,10 @@ class StationSimulator:
         self._new_unit()
         finished = {UNIT_STATUS_CODES["ok"], UNIT_STATUS_CODES["nok"]}
         while not self._stop.is_set():
-            if self.output("unit_status") in finished and self.output("unit_ack") == \
-                    self.inputs.unit_sequence:
+            if (
+                self.output("unit_status") in finished
+                and self.output("unit_ack") == self.inputs.unit_sequence
+            ):
                 if settings.units is not None and self.units_presented >= settings.units:
                     if not self._wait(settings.poll_s):
                         return
@@ -256,14 +277,23 @@ class StationSimulator:
         torque = max(0.0, self.random.gauss(target, settings.torque_noise_nm))
         angle = self.random.gauss(settings.angle_target_deg, settings.angle_noise_deg)
         self.results += 1
-        self._set(tool_running=False, result_ok=ok, torque_nm=round(torque, 2),
-                  angle_deg=round(angle, 1))
+        self._set(
+            tool_running=False, result_ok=ok, torque_nm=round(torque, 2), angle_deg=round(angle, 1)
+        )
         self._set(result_sequence=(self.inputs.result_sequence + 1) & 0xFFFF)
-        logger.info("simulator: result %d %s %.2f N*m %.1f deg", self.results,
-                    "OK" if ok else "NOK", torque, angle)
+        logger.info(
+            "simulator: result %d %s %.2f N*m %.1f deg",
+            self.results,
+            "OK" if ok else "NOK",
+            torque,
+            angle,
+        )
         # the operator pulls the trigger again only once the station took the result in
-        while self.output("result_ack") != self.inputs.result_sequence \
-                and self.output("tool_enable") and not self._stop.is_set():
+        while (
+            self.output("result_ack") != self.inputs.result_sequence
+            and self.output("tool_enable")
+            and not self._stop.is_set()
+        ):
             self._wait(self.settings.poll_s)
 
     # --- scripted mode ---
@@ -289,18 +319,23 @@ class StationSimulator:
                     return
             self._apply(observation, pulses, (time.monotonic() - started) * speed)
 
-    def _apply(self, observation: Observation, pulses: list[tuple[float, str]],
-               now: float) -> None:
+    def _apply(self, observation: Observation, pulses: list[tuple[float, str]], now: float) -> None:
         if isinstance(observation, UnitStarted):
             self.units_presented += 1
-            self._set(serial=observation.serial, rework=observation.rework,
-                      unit_sequence=(self.inputs.unit_sequence + 1) & 0xFFFF)
+            self._set(
+                serial=observation.serial,
+                rework=observation.rework,
+                unit_sequence=(self.inputs.unit_sequence + 1) & 0xFFFF,
+            )
         elif isinstance(observation, ToolRunning):
             self._set(tool_running=observation.on)
         elif isinstance(observation, TighteningResult):
             self.results += 1
-            self._set(result_ok=observation.ok, torque_nm=observation.torque_nm or 0.0,
-                      angle_deg=observation.angle_deg or 0.0)
+            self._set(
+                result_ok=observation.ok,
+                torque_nm=observation.torque_nm or 0.0,
+                angle_deg=observation.angle_deg or 0.0,
+            )
             self._set(result_sequence=(self.inputs.result_sequence + 1) & 0xFFFF)
         elif isinstance(observation, OperatorAck):
             self._set(operator_ack=True)

@@ -54,15 +54,21 @@ class WorkerSettings:
 
 
 class LinkWorker:
-    def __init__(self, link: SignalLink, clock: Clock = time.monotonic,
-                 settings: WorkerSettings | None = None, seed: int | None = None) -> None:
+    def __init__(
+        self,
+        link: SignalLink,
+        clock: Clock = time.monotonic,
+        settings: WorkerSettings | None = None,
+        seed: int | None = None,
+    ) -> None:
         self.link = link
         self.clock = clock
         self.settings = settings or WorkerSettings()
         self.decoder = InputDecoder(self.settings.session)
         self.random = random.Random(seed)
-        self.watch_liveness = self.settings.liveness_timeout_s is not None and \
-            getattr(link, "has_liveness", False)
+        self.watch_liveness = self.settings.liveness_timeout_s is not None and getattr(
+            link, "has_liveness", False
+        )
         self._liveness: int | None = None
         self._liveness_at: float | None = None  # perf_counter of its last change
         self._first_liveness_at = 0.0  # its first reading on this connection
@@ -180,8 +186,9 @@ class LinkWorker:
         with self._lock:
             outputs, version, published_at = self._outputs, self._version, self._published_at
             since_s = self._since_s
-        if outputs.tool_enable and (not self.up or time.perf_counter() - published_at
-                                    > self.settings.stale_outputs_s):
+        if outputs.tool_enable and (
+            not self.up or time.perf_counter() - published_at > self.settings.stale_outputs_s
+        ):
             outputs = outputs.inhibited()
         now = time.perf_counter()
         wrote = self._write(outputs, now)
@@ -213,11 +220,17 @@ class LinkWorker:
             found.insert(0, LinkStatus(t_s=now_s, ok=True))
         elif not alive and self.up:
             self._not_up(outputs)
-            detail = (f"the PLC's liveness counter stayed {inputs.plc_liveness} for more than "
-                      f"{self.settings.liveness_timeout_s} s")
+            detail = (
+                f"the PLC's liveness counter stayed {inputs.plc_liveness} for more than "
+                f"{self.settings.liveness_timeout_s} s"
+            )
             logger.warning("signal link %s: %s", self.link.name, detail)
-            found.extend([LinkStatus(t_s=now_s, ok=False),
-                          LinkEvent(t_s=now_s, code="plc_not_alive", detail=detail)])
+            found.extend(
+                [
+                    LinkStatus(t_s=now_s, ok=False),
+                    LinkEvent(t_s=now_s, code="plc_not_alive", detail=detail),
+                ]
+            )
         with self._lock:
             self._found.extend(found)
             self._acks = (self.decoder.unit_ack, self.decoder.result_ack)
@@ -228,9 +241,12 @@ class LinkWorker:
         refresh = now - self._refreshed_at >= self.settings.refresh_s
         if outputs == last and not refresh:
             return False
-        if not refresh and outputs.tool_enable == last.tool_enable \
-                and replace(outputs, heartbeat=last.heartbeat) == last \
-                and now - self._written_at < self.settings.cycle_s:
+        if (
+            not refresh
+            and outputs.tool_enable == last.tool_enable
+            and replace(outputs, heartbeat=last.heartbeat) == last
+            and now - self._written_at < self.settings.cycle_s
+        ):
             return False
         self.link.write_outputs(outputs, refresh)
         self._written_at = now
@@ -250,11 +266,16 @@ class LinkWorker:
             self._liveness = liveness
         timeout_s = self.settings.liveness_timeout_s
         assert timeout_s is not None
-        if self._liveness_at is None and now - self._first_liveness_at > timeout_s \
-                and not self._liveness_hint_given:
+        if (
+            self._liveness_at is None
+            and now - self._first_liveness_at > timeout_s
+            and not self._liveness_hint_given
+        ):
             self._liveness_hint_given = True
-            self.last_error = (f"the PLC's plc_liveness counter stays at {liveness}: the link "
-                               "stays down until the PLC program counts it up")
+            self.last_error = (
+                f"the PLC's plc_liveness counter stays at {liveness}: the link "
+                "stays down until the PLC program counts it up"
+            )
             logger.warning("signal link %s: %s", self.link.name, self.last_error)
         return self._liveness_at is not None and now - self._liveness_at <= timeout_s
 

@@ -53,10 +53,14 @@ def ensure_log(path: Path, units: int) -> float:
         for stale in partial.parent.glob(partial.name + "*"):
             stale.unlink()
         partial.parent.mkdir(parents=True, exist_ok=True)
-        logger.warning("generating %d synthetic units (demo data) into %s; once, this takes a "
-                       "while", units, path)
-        generate_log(partial, units, seed=0,
-                     progress=lambda done: logger.info("generated %d units", done))
+        logger.warning(
+            "generating %d synthetic units (demo data) into %s; once, this takes a while",
+            units,
+            path,
+        )
+        generate_log(
+            partial, units, seed=0, progress=lambda done: logger.info("generated %d units", done)
+        )
         partial.rename(path)
     SqliteStepLog(path, synchronous="NORMAL").close()  # migrates an older log once
     return time.perf_counter() - started
@@ -92,10 +96,19 @@ def measure(options: BenchOptions) -> list[BenchRow]:
 
     path, units = bench_log_path()
     prepare_s = ensure_log(path, units)
-    rows: list[BenchRow] = [BenchRow(SECTION_NAME, f"log ready ({units:,} units)", prepare_s,
-                                     None, "s", f"{path.stat().st_size / 1e9:.1f} GB, cached")]
-    server = WebServer(build_review_router(ReviewSource(path)), "127.0.0.1", 0,
-                       AccessRule(None)).start()
+    rows: list[BenchRow] = [
+        BenchRow(
+            SECTION_NAME,
+            f"log ready ({units:,} units)",
+            prepare_s,
+            None,
+            "s",
+            f"{path.stat().st_size / 1e9:.1f} GB, cached",
+        )
+    ]
+    server = WebServer(
+        build_review_router(ReviewSource(path)), "127.0.0.1", 0, AccessRule(None)
+    ).start()
     host, port = server.server_address[:2]
     client = _Client(str(host), int(port))
     try:
@@ -104,13 +117,22 @@ def measure(options: BenchOptions) -> list[BenchRow]:
         page = json.loads(client.get("/api/units?order=serial&limit=50"))
         deep_after = page["next_after"]
         for _ in range(20):  # 21 pages deep by keyset
-            deep_after = json.loads(client.get(
-                f"/api/units?order=serial&limit=50&after={deep_after}"))["next_after"]
+            deep_after = json.loads(
+                client.get(f"/api/units?order=serial&limit=50&after={deep_after}")
+            )["next_after"]
         serial = newest["serial"]
         t0 = time.perf_counter()
         client.get("/api/figures")  # the first answer tallies every day of the log once
-        rows.append(BenchRow(SECTION_NAME, "station figures, first request (tally all days)",
-                             (time.perf_counter() - t0) * 1000.0, None, "ms", "once per start"))
+        rows.append(
+            BenchRow(
+                SECTION_NAME,
+                "station figures, first request (tally all days)",
+                (time.perf_counter() - t0) * 1000.0,
+                None,
+                "ms",
+                "once per start",
+            )
+        )
 
         def units_page(**params: object) -> Callable[[], object]:
             return lambda: client.get(f"/api/units?{urlencode(params)}")
@@ -133,35 +155,63 @@ def measure(options: BenchOptions) -> list[BenchRow]:
             "exact count, all units": lambda: client.get("/api/units/count"),
             "exact count, result OK": lambda: client.get("/api/units/count?result=OK"),
             "station figures, 1 day": lambda: client.get(f"/api/figures?{urlencode(period(1))}"),
-            "station figures, 30 days": lambda: client.get(
-                f"/api/figures?{urlencode(period(30))}"),
+            "station figures, 30 days": lambda: client.get(f"/api/figures?{urlencode(period(30))}"),
             "station figures, 365 days": lambda: client.get(
-                f"/api/figures?{urlencode(period(365))}"),
+                f"/api/figures?{urlencode(period(365))}"
+            ),
             "station figures, all time": lambda: client.get("/api/figures"),
             "trend p3 torque, 500 units": lambda: client.get(
-                "/api/trend?position=p3&measure=torque&points=500"),
+                "/api/trend?position=p3&measure=torque&points=500"
+            ),
             "screen info (positions, alarm codes)": lambda: client.get("/api/info"),
         }
         for name, run in cases.items():
             repeats = 5 if "all time" in name or "365" in name or "exact" in name else REPEATS
             first, *warm = timed_ms(run, 1 + repeats)  # the first call, then warm ones
             p95 = percentile(warm, 0.95)
-            target = f"p95 {p95:.1f} ms; {TARGET}" if "page" in name or "figures" in name else \
-                f"p95 {p95:.1f} ms"
-            rows.append(BenchRow(SECTION_NAME, name, statistics.median(warm),
-                                 percentile(warm, 0.99), "ms", target,
-                                 extra={"p95_ms": p95, "first_ms": first,
-                                        "repeats": float(repeats)}))
+            target = (
+                f"p95 {p95:.1f} ms; {TARGET}"
+                if "page" in name or "figures" in name
+                else f"p95 {p95:.1f} ms"
+            )
+            rows.append(
+                BenchRow(
+                    SECTION_NAME,
+                    name,
+                    statistics.median(warm),
+                    percentile(warm, 0.99),
+                    "ms",
+                    target,
+                    extra={"p95_ms": p95, "first_ms": first, "repeats": float(repeats)},
+                )
+            )
     finally:
         server.close()
     with SqliteStepLog(path, readonly=True) as log:
         t0 = time.perf_counter()
-        exported = sum(chunk.count("\n") for chunk in islice(
-            export.units_csv(log.connection, UnitQuery(order="oldest")), 200)) - 1
+        exported = (
+            sum(
+                chunk.count("\n")
+                for chunk in islice(
+                    export.units_csv(log.connection, UnitQuery(order="oldest")), 200
+                )
+            )
+            - 1
+        )
         seconds = time.perf_counter() - t0
-    rows.append(BenchRow(SECTION_NAME, f"CSV export ({exported:,} units)", exported / seconds,
-                         None, "u/s"))
+    rows.append(
+        BenchRow(SECTION_NAME, f"CSV export ({exported:,} units)", exported / seconds, None, "u/s")
+    )
     peak_mb = resident_memory_mb()[1]
-    rows.append(BenchRow(SECTION_NAME, "peak resident memory (bench process)", peak_mb, None,
-                         "MB", "pages never load whole tables", headline={"review_rss_mb": peak_mb}))
+    rows.append(
+        BenchRow(
+            SECTION_NAME,
+            "peak resident memory (bench process)",
+            peak_mb,
+            None,
+            "MB",
+            "pages never load whole tables",
+            headline={"review_rss_mb": peak_mb},
+        )
+    )
     return rows

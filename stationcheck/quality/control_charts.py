@@ -51,8 +51,12 @@ class EwmaChart:
 
 
 def ewma_chart(
-    values: Sequence[float], target: float, sigma: float, weight: float = 0.2,
-    width: float = 3.0, limits: LimitMode = "exact",
+    values: Sequence[float],
+    target: float,
+    sigma: float,
+    weight: float = 0.2,
+    width: float = 3.0,
+    limits: LimitMode = "exact",
 ) -> EwmaChart:
     """z_t = weight * x_t + (1 - weight) * z_{t-1}, z_0 = target (Roberts 1959).
 
@@ -82,8 +86,9 @@ def ewma_chart(
         upper.append(target + half)
         if not target - half <= z <= target + half:
             signals.append(t - 1)
-    return EwmaChart(target, sigma, weight, width, tuple(statistics), tuple(lower), tuple(upper),
-                     tuple(signals))
+    return EwmaChart(
+        target, sigma, weight, width, tuple(statistics), tuple(lower), tuple(upper), tuple(signals)
+    )
 
 
 @dataclass(frozen=True)

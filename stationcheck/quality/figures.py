@@ -53,8 +53,9 @@ class Tally:
         self.unit_alarms.update(other.unit_alarms)
 
 
-def _pick(choose: Callable[[float, float], float], a: float | None,
-          b: float | None) -> float | None:
+def _pick(
+    choose: Callable[[float, float], float], a: float | None, b: float | None
+) -> float | None:
     return b if a is None else a if b is None else choose(a, b)
 
 
@@ -129,8 +130,9 @@ def _day(column: str, by_day: bool) -> str:
     return f"CAST({column} / {DAY_S} AS INTEGER)" if by_day else "0"
 
 
-def tally_range(conn: sqlite3.Connection, start: float, end: float,
-                by_day: bool = False) -> dict[int, Tally]:
+def tally_range(
+    conn: sqlite3.Connection, start: float, end: float, by_day: bool = False
+) -> dict[int, Tally]:
     """Aggregates of [start, end): one tally, or one per UTC day (day number -> tally)."""
     tallies: dict[int, Tally] = {}
 
@@ -143,7 +145,9 @@ def tally_range(conn: sqlite3.Connection, start: float, end: float,
         "total(status = 'NotOK'), total(status = 'NotDecidable'), total(status = 'open'), "
         "total(reworked), total(first_time_through), total(cycle_time_s), min(cycle_time_s), "
         "max(cycle_time_s) FROM units "
-        "INDEXED BY units_figures WHERE started_at_s >= ? AND started_at_s < ? GROUP BY d", span):
+        "INDEXED BY units_figures WHERE started_at_s >= ? AND started_at_s < ? GROUP BY d",
+        span,
+    ):
         tally = get(row[0])
         tally.counts.update(dict(zip(UNIT_COUNTS, (int(v) for v in row[1:8]), strict=True)))
         tally.cycle_sum_s += float(row[8])
@@ -153,19 +157,26 @@ def tally_range(conn: sqlite3.Connection, start: float, end: float,
         f"SELECT {_day('started_at_s', by_day)} AS d, CAST(cycle_time_s / ? AS INTEGER) AS b, "
         "count(*) FROM units INDEXED BY units_figures WHERE started_at_s >= ? AND "
         "started_at_s < ? AND cycle_time_s IS NOT NULL GROUP BY d, b",
-        (CYCLE_RESOLUTION_S, *span)):
+        (CYCLE_RESOLUTION_S, *span),
+    ):
         get(day).cycle_bins[int(cycle_bin)] += int(n)
-    for index, condition, attribute in (("steps_nok_at", "result = 'NotOK'", "nok_by_position"),
-                                        ("steps_retry_at", "attempt > 1", "retries_by_position")):
+    for index, condition, attribute in (
+        ("steps_nok_at", "result = 'NotOK'", "nok_by_position"),
+        ("steps_retry_at", "attempt > 1", "retries_by_position"),
+    ):
         for day, position, n in conn.execute(
             f"SELECT {_day('recorded_at_s', by_day)} AS d, position, count(*) FROM steps "
             f"INDEXED BY {index} WHERE kind = 'fasten' AND {condition} AND recorded_at_s >= ? "
-            "AND recorded_at_s < ? GROUP BY d, position", span):
+            "AND recorded_at_s < ? GROUP BY d, position",
+            span,
+        ):
             getattr(get(day), attribute)[str(position or "?")] += int(n)
     for day, code, n, of_units in conn.execute(
         f"SELECT {_day('recorded_at_s', by_day)} AS d, code, count(*), count(serial) FROM alarms "
         "INDEXED BY alarms_code_at WHERE recorded_at_s >= ? AND recorded_at_s < ? "
-        "GROUP BY d, code", span):
+        "GROUP BY d, code",
+        span,
+    ):
         tally = get(day)
         tally.alarms[str(code)] += int(n)
         tally.unit_alarms[str(code)] += int(of_units)
@@ -196,13 +207,21 @@ def figures_of(period: Period, tallies: Iterable[Tally], number_of: NumberOf) ->
     retry_bars = _pareto(total.retries_by_position, number_of)
     alarms = sorted(total.alarms.items(), key=lambda a: (-a[1], a[0]))
     return StationFigures(
-        period=period, units=counts["units"], ok=counts["ok"], nok=counts["nok"],
-        aborted=counts["aborted"], open=counts["open"], reworked=counts["reworked"],
+        period=period,
+        units=counts["units"],
+        ok=counts["ok"],
+        nok=counts["nok"],
+        aborted=counts["aborted"],
+        open=counts["open"],
+        reworked=counts["reworked"],
         first_time_through=counts["first_time_through"],
-        nok_results=sum(b.count for b in nok_bars), retries=sum(b.count for b in retry_bars),
-        nok_by_position=nok_bars, retries_by_position=retry_bars,
-        cycle_times=cycle_times(total.cycle_bins, total.cycle_sum_s,
-                                (total.cycle_min_s, total.cycle_max_s)),
+        nok_results=sum(b.count for b in nok_bars),
+        retries=sum(b.count for b in retry_bars),
+        nok_by_position=nok_bars,
+        retries_by_position=retry_bars,
+        cycle_times=cycle_times(
+            total.cycle_bins, total.cycle_sum_s, (total.cycle_min_s, total.cycle_max_s)
+        ),
         alarms=tuple(AlarmCount(code, n, total.unit_alarms[code]) for code, n in alarms if n),
     )
 
@@ -213,13 +232,15 @@ def _pareto(counts: Counter[str], number_of: NumberOf) -> tuple[PositionCount, .
     bars, running = [], 0
     for position, count in ordered:
         running += count
-        bars.append(PositionCount(position, number_of(position), count, count / total,
-                                  running / total))
+        bars.append(
+            PositionCount(position, number_of(position), count, count / total, running / total)
+        )
     return tuple(bars)
 
 
-def cycle_times(bins: Counter[int], sum_s: float,
-                extremes: tuple[float | None, float | None] = (None, None)) -> CycleTimes:
+def cycle_times(
+    bins: Counter[int], sum_s: float, extremes: tuple[float | None, float | None] = (None, None)
+) -> CycleTimes:
     """Cycle-time figures from fine bins: quantiles to one bin, display bins from the fastest
     up to the 99th percentile (slower ones counted in ``above``)."""
     fine = sorted((b, n) for b, n in bins.items() if n)
@@ -250,6 +271,15 @@ def cycle_times(bins: Counter[int], sum_s: float,
             above += n
     fastest = extremes[0] if extremes[0] is not None else low
     slowest = extremes[1] if extremes[1] is not None else high
-    return CycleTimes(count, sum_s / count, fastest, slowest,
-                      min(max(quantile(0.5), fastest), slowest),
-                      min(max(quantile(0.9), fastest), slowest), step, edges, tuple(shown), above)
+    return CycleTimes(
+        count,
+        sum_s / count,
+        fastest,
+        slowest,
+        min(max(quantile(0.5), fastest), slowest),
+        min(max(quantile(0.9), fastest), slowest),
+        step,
+        edges,
+        tuple(shown),
+        above,
+    )

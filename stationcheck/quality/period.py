@@ -24,14 +24,17 @@ class Period:
             if value is not None and not math.isfinite(value):
                 raise ValueError(f"Period.{name} must be a finite number, got {value!r}")
         if self.from_s is not None and self.to_s is not None and self.from_s >= self.to_s:
-            raise ValueError(f"Period: the start ({self.from_s}) must be before the end "
-                             f"({self.to_s})")
+            raise ValueError(
+                f"Period: the start ({self.from_s}) must be before the end ({self.to_s})"
+            )
 
     @property
     def bounds(self) -> tuple[float, float]:
         """(from, to) with open ends as huge numbers, for index range conditions."""
-        return (OPEN_START_S if self.from_s is None else self.from_s,
-                OPEN_END_S if self.to_s is None else self.to_s)
+        return (
+            OPEN_START_S if self.from_s is None else self.from_s,
+            OPEN_END_S if self.to_s is None else self.to_s,
+        )
 
     def describe(self) -> str:
         def show(value: float | None, open_word: str) -> str:
@@ -53,8 +56,9 @@ def parse_time(text: str, *, end: bool = False) -> float:
     try:
         return float(raw) if raw.replace(".", "", 1).isdigit() else _parse_iso(raw, end)
     except ValueError as exc:
-        raise ValueError(f"not a date/time: {text!r} (use e.g. 2026-03-01 or "
-                         "2026-03-01T14:30 or epoch seconds)") from exc
+        raise ValueError(
+            f"not a date/time: {text!r} (use e.g. 2026-03-01 or 2026-03-01T14:30 or epoch seconds)"
+        ) from exc
 
 
 def _parse_iso(raw: str, end: bool) -> float:

@@ -23,8 +23,9 @@ def wilson_interval(successes: int, trials: int, confidence: float = 0.95) -> In
     if trials < 1:
         raise ValueError(f"wilson_interval needs trials >= 1, got {trials!r}")
     if not 0 <= successes <= trials:
-        raise ValueError(f"wilson_interval needs 0 <= successes <= trials, got {successes!r} "
-                         f"of {trials!r}")
+        raise ValueError(
+            f"wilson_interval needs 0 <= successes <= trials, got {successes!r} of {trials!r}"
+        )
     if not 0.0 < confidence < 1.0:
         raise ValueError(f"confidence must be in (0, 1), got {confidence!r}")
     z = NormalDist().inv_cdf(0.5 + confidence / 2.0)

@@ -20,8 +20,10 @@ from stationcheck.quality.trends import DEFAULT_POINTS, fastener_positions, posi
 __all__ = ["build_report", "log_is_demo"]
 
 CAUTION_FILE = Path(__file__).resolve().parents[1] / "web" / "static" / "common" / "caution.html"
-FALLBACK_CAUTION = ("<strong>Safety:</strong> tool enable/inhibit is an error-proofing aid for "
-                    "quality, not a safety function.")
+FALLBACK_CAUTION = (
+    "<strong>Safety:</strong> tool enable/inhibit is an error-proofing aid for "
+    "quality, not a safety function."
+)
 STYLE = """
 body { font-family: "DejaVu Sans", "Liberation Sans", sans-serif; margin: 24px; color: #222;
   max-width: 1200px; }
@@ -59,15 +61,19 @@ def _figures_table(fig: StationFigures) -> str:
         ftt += f" (95 % Wilson interval {_percent(interval.low)} to {_percent(interval.high)})"
     times = fig.cycle_times
     rows = [
-        ("units started", f"{fig.units:,}"), ("OK (released)", f"{fig.ok:,}"),
-        ("NOK", f"{fig.nok:,}"), ("aborted", f"{fig.aborted:,}"),
+        ("units started", f"{fig.units:,}"),
+        ("OK (released)", f"{fig.ok:,}"),
+        ("NOK", f"{fig.nok:,}"),
+        ("aborted", f"{fig.aborted:,}"),
         ("open (not finished; not in first-time-through)", f"{fig.open:,}"),
         ("reworked", f"{fig.reworked:,}"),
-        ("first-time-through",
-         f"{fig.first_time_through:,} of {fig.ended:,} ended units = {ftt}"),
-        ("NOK tightening results", f"{fig.nok_results:,}"), ("retries", f"{fig.retries:,}"),
-        ("cycle time median / p90",
-         "-" if times.median_s is None else f"{times.median_s:.1f} s / {times.p90_s or 0:.1f} s"),
+        ("first-time-through", f"{fig.first_time_through:,} of {fig.ended:,} ended units = {ftt}"),
+        ("NOK tightening results", f"{fig.nok_results:,}"),
+        ("retries", f"{fig.retries:,}"),
+        (
+            "cycle time median / p90",
+            "-" if times.median_s is None else f"{times.median_s:.1f} s / {times.p90_s or 0:.1f} s",
+        ),
     ]
     cells = "".join(f"<tr><td>{escape(k)}</td><td>{escape(v)}</td></tr>" for k, v in rows)
     return f"<table>{cells}</table>"
@@ -76,27 +82,48 @@ def _figures_table(fig: StationFigures) -> str:
 def _alarms_table(fig: StationFigures) -> str:
     if not fig.alarms:
         return "<p>No alarms in this period.</p>"
-    rows = "".join(f"<tr><td>{escape(a.code)}</td><td>{a.count:,}</td><td>{a.of_units:,}</td></tr>"
-                   for a in fig.alarms)
+    rows = "".join(
+        f"<tr><td>{escape(a.code)}</td><td>{a.count:,}</td><td>{a.of_units:,}</td></tr>"
+        for a in fig.alarms
+    )
     return f"<table><tr><th>alarm</th><th>count</th><th>of units</th></tr>{rows}</table>"
 
 
-def build_report(conn: sqlite3.Connection, period: Period, log_name: str,
-                 figures: StationFigures | None = None, points: int = DEFAULT_POINTS) -> str:
+def build_report(
+    conn: sqlite3.Connection,
+    period: Period,
+    log_name: str,
+    figures: StationFigures | None = None,
+    points: int = DEFAULT_POINTS,
+) -> str:
     fig = figures if figures is not None else station_figures(conn, period)
     parts = [
-        "<!DOCTYPE html><html lang=\"en\"><head><meta charset=\"utf-8\">",
+        '<!DOCTYPE html><html lang="en"><head><meta charset="utf-8">',
         f"<title>stationcheck review report: {escape(log_name)}</title>",
         f"<style>{STYLE}</style></head><body>",
         "<h1>Station review report</h1>",
-        *([("<p class=\"demo\">\u26a0 DEMO DATA: the units in this step log come from the "
-           "demo, an invented station.</p>")] if log_is_demo(conn) else []),
-        (f"<p class=\"meta\">Step log {escape(log_name)}; period {escape(period.describe())}; "
-         f"made {escape(format_time(time.time()))} by stationcheck review.</p>"),
-        "<h2>Figures</h2>", _figures_table(fig),
-        "<div class=\"charts\">", *figure_charts(fig).values(), "</div>",
+        *(
+            [
+                (
+                    '<p class="demo">\u26a0 DEMO DATA: the units in this step log come from the '
+                    "demo, an invented station.</p>"
+                )
+            ]
+            if log_is_demo(conn)
+            else []
+        ),
+        (
+            f'<p class="meta">Step log {escape(log_name)}; period {escape(period.describe())}; '
+            f"made {escape(format_time(time.time()))} by stationcheck review.</p>"
+        ),
+        "<h2>Figures</h2>",
+        _figures_table(fig),
+        '<div class="charts">',
+        *figure_charts(fig).values(),
+        "</div>",
         *units_section(conn, period),
-        "<h2>Alarms by kind</h2>", _alarms_table(fig),
+        "<h2>Alarms by kind</h2>",
+        _alarms_table(fig),
         f"<h2>Trends per fastener position (latest {points} units each)</h2>",
     ]
     for info in fastener_positions(conn):
@@ -104,10 +131,11 @@ def build_report(conn: sqlite3.Connection, period: Period, log_name: str,
             trend = position_trend(conn, info.position, measure, period, points)
             findings = trend_findings(trend)
             parts.append(f"<h3>{escape(info.position)}: {measure}</h3>")
-            parts += [f"<p class=\"finding\">{escape(f)}</p>" for f in findings] or [
-                "<p class=\"calm\">no signal: within its control limits and run rules</p>"]
+            parts += [f'<p class="finding">{escape(f)}</p>' for f in findings] or [
+                '<p class="calm">no signal: within its control limits and run rules</p>'
+            ]
             if trend.points:
                 parts.append(trend_svg(trend))
-    parts.append(f"<p class=\"meta\">{escape(VOCABULARY_NOTE)}</p>")
-    parts.append(f"<p class=\"caution\">{_caution()}</p></body></html>")
+    parts.append(f'<p class="meta">{escape(VOCABULARY_NOTE)}</p>')
+    parts.append(f'<p class="caution">{_caution()}</p></body></html>')
     return "\n".join(parts)

@@ -52,8 +52,11 @@ class FigureCache:
         if self._last_seq is None:
             started = time.perf_counter()
             self._days = tally_range(conn, OPEN_START_S, OPEN_END_S, by_day=True)
-            logger.info("tallied %d days of figures in %.2f s", len(self._days),
-                        time.perf_counter() - started)
+            logger.info(
+                "tallied %d days of figures in %.2f s",
+                len(self._days),
+                time.perf_counter() - started,
+            )
         elif last > self._last_seq:
             for day in self._touched_days(conn, self._last_seq):
                 fresh = tally_range(conn, day * DAY_S, (day + 1) * DAY_S, by_day=True)
@@ -69,7 +72,8 @@ class FigureCache:
             "(SELECT serial FROM events WHERE seq > ? AND serial IS NOT NULL) "
             f"UNION SELECT {day.format('recorded_at_s')} FROM steps WHERE seq > ? "
             f"UNION SELECT {day.format('recorded_at_s')} FROM alarms WHERE seq > ?",
-            (after_seq, after_seq, after_seq)).fetchall()
+            (after_seq, after_seq, after_seq),
+        ).fetchall()
         return {int(r[0]) for r in rows}
 
     def _tallies(self, conn: sqlite3.Connection, period: Period) -> list[Tally]:
@@ -78,9 +82,12 @@ class FigureCache:
         after_full = math.floor(end / DAY_S) if end < OPEN_END_S else None
         if first_full is not None and after_full is not None and first_full >= after_full:
             return list(tally_range(conn, start, end).values())  # within one or two days
-        tallies = [t for day, t in self._days.items()
-                   if (first_full is None or day >= first_full)
-                   and (after_full is None or day < after_full)]
+        tallies = [
+            t
+            for day, t in self._days.items()
+            if (first_full is None or day >= first_full)
+            and (after_full is None or day < after_full)
+        ]
         if first_full is not None:
             tallies += tally_range(conn, start, first_full * DAY_S).values()
         if after_full is not None:

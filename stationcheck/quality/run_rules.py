@@ -54,7 +54,7 @@ def western_electric(values: Sequence[float], centre: float, sigma: float) -> tu
         for rule, window, needed, zone in _WINDOW_RULES:
             if side == 0 or abs(zi) <= zone or i + 1 < needed:
                 continue
-            recent = z[max(0, i - window + 1): i + 1]
+            recent = z[max(0, i - window + 1) : i + 1]
             if sum(1 for v in recent if v * side > zone) >= needed:
                 hits.append(RuleHit(i, rule, side))
         run_length = run_length + 1 if side != 0 and side == run_side else (1 if side else 0)

@@ -99,14 +99,18 @@ def fastener_positions(conn: sqlite3.Connection) -> tuple[PositionInfo, ...]:
         " FROM p WHERE p.position IS NOT NULL)"
         " SELECT position, (SELECT position_number FROM steps INDEXED BY steps_final_at"
         "  WHERE kind = 'fasten' AND position_result IS NOT NULL AND position = p.position"
-        "  LIMIT 1) FROM p WHERE position IS NOT NULL").fetchall()
+        "  LIMIT 1) FROM p WHERE position IS NOT NULL"
+    ).fetchall()
     found = [PositionInfo(str(p), int(n) if n is not None else None) for p, n in rows]
     return tuple(sorted(found, key=lambda i: (i.number is None, i.number or 0, i.position)))
 
 
 def position_trend(
-    conn: sqlite3.Connection, position: str, measure: str = "torque",
-    period: Period | None = None, points: int = DEFAULT_POINTS,
+    conn: sqlite3.Connection,
+    position: str,
+    measure: str = "torque",
+    period: Period | None = None,
+    points: int = DEFAULT_POINTS,
 ) -> Trend:
     """The latest ``points`` final values of ``position`` in the period, oldest first."""
     if measure not in MEASURES:
@@ -115,8 +119,10 @@ def position_trend(
         raise ValueError(f"points must be in 1..{MAX_POINTS}, got {points!r}")
     column, low_col, high_col, unit = MEASURES[measure]
     start, end = (period or Period()).bounds
-    final = ("FROM steps INDEXED BY steps_final_at WHERE kind = 'fasten' AND position_result = ? "
-             "AND position = ? AND recorded_at_s >= ? AND recorded_at_s < ?")
+    final = (
+        "FROM steps INDEXED BY steps_final_at WHERE kind = 'fasten' AND position_result = ? "
+        "AND position = ? AND recorded_at_s >= ? AND recorded_at_s < ?"
+    )
     rows = conn.execute(
         f"SELECT seq, serial, recorded_at_s, {column}, {low_col}, {high_col} {final} "
         f"AND {column} IS NOT NULL ORDER BY recorded_at_s DESC, seq DESC LIMIT ?",
@@ -126,22 +132,33 @@ def position_trend(
     series = tuple(TrendPoint(int(r[0]), str(r[1]), float(r[2]), float(r[3])) for r in rows)
     tolerance = (rows[-1][4], rows[-1][5]) if rows else (None, None)
     first_s = series[0].recorded_at_s if series else start
-    left_nok = conn.execute(f"SELECT count(*) {final}",
-                            ("NotOK", position, first_s, end)).fetchone()[0]
+    left_nok = conn.execute(
+        f"SELECT count(*) {final}", ("NotOK", position, first_s, end)
+    ).fetchone()[0]
     return analyse(Trend(position, measure, unit, series, tolerance, int(left_nok)))
 
 
 def short_window_note(count: int, baseline: int) -> str:
     """What a window of fewer than ``MIN_POINTS`` values can and cannot say."""
     if count < DRAW_POINTS:
-        return (f"only {count} value{'s' if count != 1 else ''}: dots only; the EWMA, CUSUM "
-                f"and run rules need at least {DRAW_POINTS} (and {MIN_POINTS} to be trusted)")
+        return (
+            f"only {count} value{'s' if count != 1 else ''}: dots only; the EWMA, CUSUM "
+            f"and run rules need at least {DRAW_POINTS} (and {MIN_POINTS} to be trusted)"
+        )
     waiting = [str(rule) for rule, needs in RULE_NEEDS.items() if count < needs]
-    rules = "" if not waiting else (
-        f"; run rule {waiting[0]} needs more values in a row" if len(waiting) == 1
-        else f"; run rules {', '.join(waiting)} need more values in a row")
-    return (f"only {count} values: EWMA and CUSUM limits from the first {baseline} are rough "
-            f"until at least {MIN_POINTS} values{rules}")
+    rules = (
+        ""
+        if not waiting
+        else (
+            f"; run rule {waiting[0]} needs more values in a row"
+            if len(waiting) == 1
+            else f"; run rules {', '.join(waiting)} need more values in a row"
+        )
+    )
+    return (
+        f"only {count} values: EWMA and CUSUM limits from the first {baseline} are rough "
+        f"until at least {MIN_POINTS} values{rules}"
+    )
 
 
 def analyse(trend: Trend) -> Trend:
@@ -155,10 +172,15 @@ def analyse(trend: Trend) -> Trend:
     centre = sum(reference) / baseline
     if sigma <= 0.0:
         flat = "the baseline values do not vary; no limits can be set"
-        return replace(trend, baseline=baseline, centre=centre,
-                       note=f"{note}; {flat}" if note else flat)
+        return replace(
+            trend, baseline=baseline, centre=centre, note=f"{note}; {flat}" if note else flat
+        )
     return replace(
-        trend, baseline=baseline, centre=centre, sigma=sigma, note=note,
+        trend,
+        baseline=baseline,
+        centre=centre,
+        sigma=sigma,
+        note=note,
         ewma=ewma_chart(values, centre, sigma, EWMA_WEIGHT, EWMA_WIDTH),
         cusum=cusum_chart(values, centre, CUSUM_K_SIGMA * sigma, CUSUM_H_SIGMA * sigma),
         rule_hits=western_electric(values, centre, sigma),

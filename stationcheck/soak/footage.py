@@ -41,8 +41,9 @@ class Footage:
     link_timeout_s: float
 
 
-def load_footage(config_path: Path, video: Path, inputs: Path, truth: Path,
-                 keypoints: KeypointChoice = "truth") -> Footage:
+def load_footage(
+    config_path: Path, video: Path, inputs: Path, truth: Path, keypoints: KeypointChoice = "truth"
+) -> Footage:
     from stationcheck.live.session import link_limits
 
     config = load_config(config_path)
@@ -50,10 +51,17 @@ def load_footage(config_path: Path, video: Path, inputs: Path, truth: Path,
     table = load_truth(truth)
     answers = truth_points(table) if keypoints == "truth" else _model_answers(video, config)
     frame_count = min(len(table.rows), len(answers))
-    return Footage(plan=plan, truth=table, inputs=read_station_inputs(inputs), answers=answers,
-                   fps=float(config.camera.fps), frame_count=frame_count, keypoints=keypoints,
-                   stale_frame_ms=plan.thresholds.stale_frame_ms,
-                   link_timeout_s=link_limits(config).link_timeout_s)
+    return Footage(
+        plan=plan,
+        truth=table,
+        inputs=read_station_inputs(inputs),
+        answers=answers,
+        fps=float(config.camera.fps),
+        frame_count=frame_count,
+        keypoints=keypoints,
+        stale_frame_ms=plan.thresholds.stale_frame_ms,
+        link_timeout_s=link_limits(config).link_timeout_s,
+    )
 
 
 def _model_answers(video: Path, config: object) -> PointTable:

@@ -69,8 +69,9 @@ class _Scripted:
     def detect(self, frame: Frame, tip_hint_px: tuple[float, float] | None = None) -> Keypoints:
         if self.unusable:
             raise ModelOutputError("soak: the model produced NaN or infinite output")
-        points = tuple(Keypoint(name, *self.answer.get(name, (0.0, 0.0, 0.0)))
-                       for name in self.keypoint_names)
+        points = tuple(
+            Keypoint(name, *self.answer.get(name, (0.0, 0.0, 0.0))) for name in self.keypoint_names
+        )
         return Keypoints(frame.index, frame.t_s, points)
 
 
@@ -90,8 +91,12 @@ class Soak:
         self.path = FramePath(self.plan, self.detector, self.decisions, [self.judge])
         noise = np.random.default_rng(seed)
         base = noise.integers(40, 215, (*IMAGE_SIZE, 3)).astype(np.float32)
-        self.bank = [np.clip(np.round(base + noise.normal(0, NOISE_SIGMA, base.shape)), 0, 255)
-                     .astype(np.uint8) for _ in range(61)]
+        self.bank = [
+            np.clip(np.round(base + noise.normal(0, NOISE_SIGMA, base.shape)), 0, 255).astype(
+                np.uint8
+            )
+            for _ in range(61)
+        ]
         self.black = np.zeros((*IMAGE_SIZE, 3), np.uint8)
         self.polygons = {zone.id: zone.polygon_px for zone in self.plan.zones}
         self.report = SoakReport(keypoints=footage.keypoints, bound_ms=bound_ms, seed=seed)
@@ -110,7 +115,9 @@ class Soak:
         self.last_image = self.bank[0]
         self.last_answer: dict[str, tuple[float, float, float]] = {}
         self.frozen: tuple[np.ndarray, dict[str, tuple[float, float, float]]] = (
-            self.last_image, {})
+            self.last_image,
+            {},
+        )
 
     # -- the decision sink: every sequencer step
     def on_step(self, step: DecisionStep) -> None:
@@ -121,11 +128,16 @@ class Soak:
         for event in step.events:
             if event.kind == "unit_ended":
                 refs = event.data.get("failed_positions", []) + event.data.get(
-                    "unfinished_positions", [])
+                    "unfinished_positions", []
+                )
                 self.failed[str(event.data.get("serial", ""))] = tuple(
-                    PositionRef.from_dict(r) for r in refs)
-            if (event.kind == "alarm_raised" and event.data.get("code") == "duplicate_result"
-                    and self.watching is not None):
+                    PositionRef.from_dict(r) for r in refs
+                )
+            if (
+                event.kind == "alarm_raised"
+                and event.data.get("code") == "duplicate_result"
+                and self.watching is not None
+            ):
                 self.watching.ignored = True
         self._check_inhibit(out.t_s)
 
@@ -152,8 +164,9 @@ class Soak:
             if self.stalled:  # the loop's watchdog cycles until this slot, before its inputs
                 self._cycles(t_s - period_s, t_s)
             while next_input < len(inputs) and inputs[next_input].t_s + loop * loop_s <= t_s + 1e-4:
-                self._station_input(replace(inputs[next_input],
-                                            t_s=inputs[next_input].t_s + loop * loop_s))
+                self._station_input(
+                    replace(inputs[next_input], t_s=inputs[next_input].t_s + loop * loop_s)
+                )
                 next_input += 1
             self._faults(t_s)
             self._apply_injected(t_s)
@@ -209,8 +222,11 @@ class Soak:
             self._end(active, t_s)
         if self.active is None and self.pending is not None and t_s >= self.armed_t_s:
             trigger = self.pending.trigger
-            ready = (trigger == "any" or (trigger == "enabled" and self.enabled)
-                     or (trigger == "running" and self.enabled and self.running_input))
+            ready = (
+                trigger == "any"
+                or (trigger == "enabled" and self.enabled)
+                or (trigger == "running" and self.enabled and self.running_input)
+            )
             if ready or t_s >= self.armed_t_s + TRIGGER_WAIT_S:
                 self._start(self.pending, t_s)
 
@@ -219,11 +235,18 @@ class Soak:
         stale_s = self.f.stale_frame_ms / 1000.0
         grace_s = self.plan.thresholds.lost_track_grace_ms / 1000.0
         detect: float | None = {
-            "frozen_image": self.last_frame_t_s + stale_s, "stall": self.last_frame_t_s + stale_s,
-            "black_frames": t_s + stale_s, "heavy_blur": t_s + grace_s,
-            "tip_occluded": t_s + grace_s, "camera_moved": t_s + self.camera_detect_s,
-            "nan_output": t_s, "link_drop": t_s, "plc_freeze": t_s + self.f.link_timeout_s,
-            "result_repeated": None, "result_jump": t_s, "reset_during_run": t_s,
+            "frozen_image": self.last_frame_t_s + stale_s,
+            "stall": self.last_frame_t_s + stale_s,
+            "black_frames": t_s + stale_s,
+            "heavy_blur": t_s + grace_s,
+            "tip_occluded": t_s + grace_s,
+            "camera_moved": t_s + self.camera_detect_s,
+            "nan_output": t_s,
+            "link_drop": t_s,
+            "plc_freeze": t_s + self.f.link_timeout_s,
+            "result_repeated": None,
+            "result_jump": t_s,
+            "reset_during_run": t_s,
         }.get(kind)
         if kind == "tool_running_stuck":
             limit_s = self.plan.thresholds.max_run_ms / 1000.0
@@ -256,8 +279,11 @@ class Soak:
 
     def _end(self, active: _Active, t_s: float) -> None:
         kind = active.planned.kind
-        if kind == "tool_running_stuck" and active.record.detect_t_s is not None \
-                and active.record.detect_t_s > active.end_t_s:
+        if (
+            kind == "tool_running_stuck"
+            and active.record.detect_t_s is not None
+            and active.record.detect_t_s > active.end_t_s
+        ):
             active.record.detect_t_s = None  # the run ended before its limit
         self.active = None
         if kind in LINK_KINDS:
@@ -323,12 +349,16 @@ class Soak:
             return
         out = self.decisions.last_output
         target = out.target.zone if out is not None and out.target is not None else None
-        if truly_at_target(self.f.truth.rows.get(source), self.polygons.get(target or ""),
-                           self.plan.thresholds.hysteresis_px):
+        if truly_at_target(
+            self.f.truth.rows.get(source),
+            self.polygons.get(target or ""),
+            self.plan.thresholds.hysteresis_px,
+        ):
             return
         record = self.active.record if self.active is not None else None
-        if record is not None and (record.detect_t_s is None
-                                   or t_s <= record.detect_t_s + self.bound_ms / 1000.0):
+        if record is not None and (
+            record.detect_t_s is None or t_s <= record.detect_t_s + self.bound_ms / 1000.0
+        ):
             self.report.enabled_in_fault_window += 1
             return
         self.report.false_enables += 1

@@ -72,8 +72,9 @@ def measure_append_rate(
             durations_ms.append((time.perf_counter() - t0) * 1000.0)
             events += len(batch)
         seconds = time.perf_counter() - started
-    return AppendRate(commits, events, seconds, statistics.median(durations_ms),
-                      percentile(durations_ms, 0.99))
+    return AppendRate(
+        commits, events, seconds, statistics.median(durations_ms), percentile(durations_ms, 0.99)
+    )
 
 
 def timed_ms(run: Callable[[], object], repeats: int) -> list[float]:
@@ -106,12 +107,14 @@ def measure_queries(path: Path, repeats: int = 20) -> dict[str, QueryTiming]:
         queries: dict[str, Callable[[], object]] = {
             "unit list page (newest 50 + total)": lambda: log.units(UnitQuery(limit=50)),
             "second page (keyset)": lambda: log.units(
-                UnitQuery(limit=50, after=first_page.next_after)),
+                UnitQuery(limit=50, after=first_page.next_after)
+            ),
             "page at offset 10000": lambda: log.units(UnitQuery(limit=50, offset=10_000)),
             "serial exact": lambda: log.unit(serial),
             "serial prefix page": lambda: log.units(UnitQuery(serial_prefix=serial[:-3])),
             "time range page (1 day)": lambda: log.units(
-                UnitQuery(from_s=middle_s, to_s=middle_s + 86_400.0)),
+                UnitQuery(from_s=middle_s, to_s=middle_s + 86_400.0)
+            ),
             "result NOK page": lambda: log.units(UnitQuery(result="NOK")),
             "result OK page": lambda: log.units(UnitQuery(result="OK")),
             "first-time-through page": lambda: log.units(UnitQuery(result="first_time_through")),
@@ -125,8 +128,9 @@ def measure_queries(path: Path, repeats: int = 20) -> dict[str, QueryTiming]:
         for name, run in queries.items():
             run()  # warm the page cache once, as a review page opened twice would
             times = timed_ms(run, repeats)
-            results[name] = QueryTiming(statistics.median(times), percentile(times, 0.95),
-                                        percentile(times, 0.99))
+            results[name] = QueryTiming(
+                statistics.median(times), percentile(times, 0.95), percentile(times, 0.99)
+            )
     return results
 
 
@@ -137,21 +141,42 @@ def measure(options: BenchOptions) -> list[BenchRow]:
     with tempfile.TemporaryDirectory(prefix="stationcheck-bench-") as folder:
         for mode in ("FULL", "NORMAL"):
             rate = measure_append_rate(Path(folder) / f"append-{mode}.sqlite", BENCH_APPENDS, mode)
-            rows.append(BenchRow(SECTION_NAME, f"append commit (synchronous={mode})",
-                                 rate.commit_ms_median, rate.commit_ms_p99, "ms",
-                                 extra={"commits_per_s": rate.commits_per_s,
-                                        "events_per_s": rate.events_per_s}))
+            rows.append(
+                BenchRow(
+                    SECTION_NAME,
+                    f"append commit (synchronous={mode})",
+                    rate.commit_ms_median,
+                    rate.commit_ms_p99,
+                    "ms",
+                    extra={"commits_per_s": rate.commits_per_s, "events_per_s": rate.events_per_s},
+                )
+            )
         log_path = Path(folder) / "review.sqlite"
         t0 = time.perf_counter()
         events = generate_log(log_path, BENCH_UNITS, seed=0)
         seconds = time.perf_counter() - t0
-        rows.append(BenchRow(SECTION_NAME, f"generate {BENCH_UNITS} units", BENCH_UNITS / seconds,
-                             None, "u/s", extra={"events": float(events)}))
+        rows.append(
+            BenchRow(
+                SECTION_NAME,
+                f"generate {BENCH_UNITS} units",
+                BENCH_UNITS / seconds,
+                None,
+                "u/s",
+                extra={"events": float(events)},
+            )
+        )
         for name, timing in measure_queries(log_path).items():
-            rows.append(BenchRow(SECTION_NAME, f"{name} ({BENCH_UNITS} units)", timing.median_ms,
-                                 timing.p99_ms, "ms",
-                                 "p95 < 200 ms at 1M units" if "page" in name else "",
-                                 extra={"p95_ms": timing.p95_ms}))
+            rows.append(
+                BenchRow(
+                    SECTION_NAME,
+                    f"{name} ({BENCH_UNITS} units)",
+                    timing.median_ms,
+                    timing.p99_ms,
+                    "ms",
+                    "p95 < 200 ms at 1M units" if "page" in name else "",
+                    extra={"p95_ms": timing.p95_ms},
+                )
+            )
     return rows
 
 

@@ -70,8 +70,9 @@ class StoryTemplate:
     tags: tuple[str, ...]
 
 
-def _compile_event(kind: str, data: dict[str, Any], tightening: int) -> tuple[tuple[str, ...],
-                                                                              tuple[tuple[str, float], ...]]:
+def _compile_event(
+    kind: str, data: dict[str, Any], tightening: int
+) -> tuple[tuple[str, ...], tuple[tuple[str, float], ...]]:
     slots: list[tuple[str, float]] = []
 
     def slot(what: str, value: float) -> str:
@@ -108,13 +109,18 @@ def compile_story(story: Story) -> StoryTemplate:
             tightening_of_seq[seq] = index
             count += 1
         parts, slots = _compile_event(event.kind, dict(event.data), index)
-        events.append(EventTemplate(event.t_s, event.kind, event.serial is not None, parts, slots,
-                                    index))
+        events.append(
+            EventTemplate(event.t_s, event.kind, event.serial is not None, parts, slots, index)
+        )
     (unit,) = tables.units.values()
     steps = tuple((step_to_sql(s), tightening_of_seq.get(s.seq, -1)) for s in tables.steps.values())
-    return StoryTemplate(tuple(events), unit_to_sql(unit), steps,
-                         tuple(alarm_to_sql(a) for a in tables.alarms.values()),
-                         tuple(tag for tag, _ in tables.tags))
+    return StoryTemplate(
+        tuple(events),
+        unit_to_sql(unit),
+        steps,
+        tuple(alarm_to_sql(a) for a in tables.alarms.values()),
+        tuple(tag for tag, _ in tables.tags),
+    )
 
 
 def _render(what: str, value: float, draw: UnitDraw, values: tuple[float, float, int]) -> str:
@@ -163,8 +169,16 @@ def _add_unit(rows: _Rows, template: StoryTemplate, draw: UnitDraw, base_seq: in
         for (what, value), tail in zip(e.slots, e.parts[1:], strict=True):
             pieces += (_render(what, value, draw, values), tail)
         t_s = shift_time(e.t_s, draw)
-        rows.events.append((base_seq + offset, t_s, e.kind, draw.serial if e.unit_serial else None,
-                            "".join(pieces), t_s))
+        rows.events.append(
+            (
+                base_seq + offset,
+                t_s,
+                e.kind,
+                draw.serial if e.unit_serial else None,
+                "".join(pieces),
+                t_s,
+            )
+        )
     unit = list(template.unit)
     unit[_U_SERIAL] = draw.serial
     for i in _U_TIMES:
@@ -200,8 +214,11 @@ def _add_unit(rows: _Rows, template: StoryTemplate, draw: UnitDraw, base_seq: in
 
 def _write(conn: sqlite3.Connection, rows: _Rows) -> None:
     with write_transaction(conn):
-        conn.executemany("INSERT INTO events (seq, t_s, kind, serial, data, recorded_at_s) "
-                         "VALUES (?, ?, ?, ?, ?, ?)", rows.events)
+        conn.executemany(
+            "INSERT INTO events (seq, t_s, kind, serial, data, recorded_at_s) "
+            "VALUES (?, ?, ?, ?, ?, ?)",
+            rows.events,
+        )
         conn.executemany(insert_sql("units", UNIT_COLUMNS), rows.units)
         conn.executemany(insert_sql("steps", STEP_COLUMNS), rows.steps)
         conn.executemany(insert_sql("alarms", ALARM_COLUMNS), rows.alarms)

@@ -51,7 +51,12 @@ class MemoryTables:
     ) -> None:
         for seq in sorted(self.steps, reverse=True):
             row = self.steps[seq]
-            if (row.serial, row.pass_no, row.step, row.position) == (serial, pass_no, step, position):
+            if (row.serial, row.pass_no, row.step, row.position) == (
+                serial,
+                pass_no,
+                step,
+                position,
+            ):
                 self.steps[seq] = replace(row, position_result=result)
                 return
 
@@ -89,9 +94,7 @@ class MemoryStepLog:
     def events(
         self, serial: str | None = None, after_seq: int = 0, limit: int | None = None
     ) -> tuple[StoredEvent, ...]:
-        found = [
-            s for s in self._events[after_seq:] if serial is None or s.event.serial == serial
-        ]
+        found = [s for s in self._events[after_seq:] if serial is None or s.event.serial == serial]
         return tuple(found if limit is None else found[:limit])
 
     def open_unit_events(self) -> tuple[Event, ...]:
@@ -119,11 +122,15 @@ class MemoryStepLog:
             query.from_s is None or key >= query.from_s,
             query.to_s is None or key < query.to_s,
             query.result is None or _RESULT_TESTS[query.result](unit),
-            query.failed_position is None or any(
-                s.serial == unit.serial and s.position == query.failed_position
-                and s.position_result == RESULT_NOK for s in self._tables.steps.values()
+            query.failed_position is None
+            or any(
+                s.serial == unit.serial
+                and s.position == query.failed_position
+                and s.position_result == RESULT_NOK
+                for s in self._tables.steps.values()
             ),
-            query.alarm_code is None or any(
+            query.alarm_code is None
+            or any(
                 a.serial == unit.serial and a.code == query.alarm_code
                 for a in self._tables.alarms.values()
             ),
@@ -144,12 +151,17 @@ class MemoryStepLog:
         total = len(found)
         if query.after is not None:
             after = decode_after(query.after, query)
-            found = [u for u in found if (sort_key(u) < after if descending else sort_key(u) > after)]
-        rows = found[query.offset: query.offset + query.limit + 1]
+            found = [
+                u for u in found if (sort_key(u) < after if descending else sort_key(u) > after)
+            ]
+        rows = found[query.offset : query.offset + query.limit + 1]
         page = tuple(rows[: query.limit])
         more = len(rows) > query.limit
-        return Page(page, total if query.count_total else None,
-                    encode_after(page[-1], query) if more else None)
+        return Page(
+            page,
+            total if query.count_total else None,
+            encode_after(page[-1], query) if more else None,
+        )
 
     def unit(self, serial: str) -> UnitRow | None:
         return self._tables.units.get(serial)

@@ -95,10 +95,17 @@ def _unit_for(tables: DerivedTables, stored: StoredEvent) -> UnitRow:
     assert serial is not None
     unit = tables.get_unit(serial)
     if unit is None:
-        logger.warning("event %d (%s) for unit %s before its start", stored.seq,
-                       stored.event.kind, serial)
-        unit = UnitRow(serial=serial, status=UNIT_OPEN, passes=1, started_t_s=stored.event.t_s,
-                       started_at_s=stored.recorded_at_s, open_seq=stored.seq)
+        logger.warning(
+            "event %d (%s) for unit %s before its start", stored.seq, stored.event.kind, serial
+        )
+        unit = UnitRow(
+            serial=serial,
+            status=UNIT_OPEN,
+            passes=1,
+            started_t_s=stored.event.t_s,
+            started_at_s=stored.recorded_at_s,
+            open_seq=stored.seq,
+        )
     return unit
 
 
@@ -108,12 +115,26 @@ def _unit_started(tables: DerivedTables, stored: StoredEvent) -> None:
     rework = bool(event.data.get("rework", False))
     unit = tables.get_unit(event.serial)
     if unit is None:
-        unit = UnitRow(serial=event.serial, status=UNIT_OPEN, passes=1, started_t_s=event.t_s,
-                       started_at_s=stored.recorded_at_s, open_seq=stored.seq, reworked=rework)
+        unit = UnitRow(
+            serial=event.serial,
+            status=UNIT_OPEN,
+            passes=1,
+            started_t_s=event.t_s,
+            started_at_s=stored.recorded_at_s,
+            open_seq=stored.seq,
+            reworked=rework,
+        )
     else:
-        unit = replace(unit, status=UNIT_OPEN, passes=unit.passes + 1, open_seq=stored.seq,
-                       reworked=True, first_time_through=False, current_step=None,
-                       unfinished_positions=())
+        unit = replace(
+            unit,
+            status=UNIT_OPEN,
+            passes=unit.passes + 1,
+            open_seq=stored.seq,
+            reworked=True,
+            first_time_through=False,
+            current_step=None,
+            unfinished_positions=(),
+        )
     tables.put_unit(unit)
 
 
@@ -130,20 +151,39 @@ def _tightening_result(tables: DerivedTables, stored: StoredEvent) -> None:
     torque, torque_low, torque_high = measured(data, "torque", TORQUE_UNIT)
     angle, angle_low, angle_high = measured(data, "angle", ANGLE_UNIT)
     within = data.get("within_limits")
-    tables.add_step(StepRow(
-        seq=stored.seq, serial=unit.serial, pass_no=unit.passes,
-        step=_text(data.get("step")) or "?", kind="fasten", result=result,
-        ended_t_s=_or(_float(data.get("ended_t_s")), event.t_s), recorded_at_s=stored.recorded_at_s,
-        position=_text(data.get("zone")), position_number=_int(data.get("position")),
-        attempt=attempt, max_attempts=_int(data.get("max_attempts")),
-        torque_nm=torque, torque_low_nm=torque_low, torque_high_nm=torque_high,
-        angle_deg=angle, angle_low_deg=angle_low, angle_high_deg=angle_high,
-        within_limits=within if isinstance(within, bool) else None,
-        sequence=_int(data.get("sequence")), started_t_s=_float(data.get("started_t_s")),
-        evidence_path=_text(data.get(EVIDENCE_KEY)),
-    ))
-    tables.put_unit(replace(unit, retries=unit.retries + (attempt > 1),
-                            nok_results=unit.nok_results + (result == RESULT_NOK)))
+    tables.add_step(
+        StepRow(
+            seq=stored.seq,
+            serial=unit.serial,
+            pass_no=unit.passes,
+            step=_text(data.get("step")) or "?",
+            kind="fasten",
+            result=result,
+            ended_t_s=_or(_float(data.get("ended_t_s")), event.t_s),
+            recorded_at_s=stored.recorded_at_s,
+            position=_text(data.get("zone")),
+            position_number=_int(data.get("position")),
+            attempt=attempt,
+            max_attempts=_int(data.get("max_attempts")),
+            torque_nm=torque,
+            torque_low_nm=torque_low,
+            torque_high_nm=torque_high,
+            angle_deg=angle,
+            angle_low_deg=angle_low,
+            angle_high_deg=angle_high,
+            within_limits=within if isinstance(within, bool) else None,
+            sequence=_int(data.get("sequence")),
+            started_t_s=_float(data.get("started_t_s")),
+            evidence_path=_text(data.get(EVIDENCE_KEY)),
+        )
+    )
+    tables.put_unit(
+        replace(
+            unit,
+            retries=unit.retries + (attempt > 1),
+            nok_results=unit.nok_results + (result == RESULT_NOK),
+        )
+    )
 
 
 def _position_decided(result: str) -> Callable[[DerivedTables, StoredEvent], None]:
@@ -170,16 +210,32 @@ def _step_completed(tables: DerivedTables, stored: StoredEvent) -> None:
     kind = _text(data.get("kind")) or "?"
     if kind == "fasten":
         return
-    known = {"step", "kind", "index", "result", "started_t_s", "zone", "failed_positions",
-             EVIDENCE_KEY}
-    tables.add_step(StepRow(
-        seq=stored.seq, serial=unit.serial, pass_no=unit.passes,
-        step=_text(data.get("step")) or "?", kind=kind, result=_result(data.get("result")),
-        ended_t_s=event.t_s, recorded_at_s=stored.recorded_at_s,
-        position=_text(data.get("zone")), started_t_s=_float(data.get("started_t_s")),
-        evidence_path=_text(data.get(EVIDENCE_KEY)),
-        detail={k: v for k, v in data.items() if k not in known},
-    ))
+    known = {
+        "step",
+        "kind",
+        "index",
+        "result",
+        "started_t_s",
+        "zone",
+        "failed_positions",
+        EVIDENCE_KEY,
+    }
+    tables.add_step(
+        StepRow(
+            seq=stored.seq,
+            serial=unit.serial,
+            pass_no=unit.passes,
+            step=_text(data.get("step")) or "?",
+            kind=kind,
+            result=_result(data.get("result")),
+            ended_t_s=event.t_s,
+            recorded_at_s=stored.recorded_at_s,
+            position=_text(data.get("zone")),
+            started_t_s=_float(data.get("started_t_s")),
+            evidence_path=_text(data.get(EVIDENCE_KEY)),
+            detail={k: v for k, v in data.items() if k not in known},
+        )
+    )
 
 
 def _unit_ended(tables: DerivedTables, stored: StoredEvent) -> None:
@@ -191,30 +247,51 @@ def _unit_ended(tables: DerivedTables, stored: StoredEvent) -> None:
         started = _float(data.get("started_t_s"))
         cycle_s = event.t_s - started if started is not None else 0.0
     first = unit.passes == 1
-    missed = tuple(z for z in _zones(data.get("failed_positions")) if z not in unit.failed_positions)
+    missed = tuple(
+        z for z in _zones(data.get("failed_positions")) if z not in unit.failed_positions
+    )
     for zone in missed:  # only when the log lacks the position_failed event
         tables.add_tag(unit, FAILED_POSITION_TAG + zone)
     failed = unit.failed_positions + missed
-    tables.put_unit(replace(
-        unit, status=result, open_seq=None, current_step=None, result=result,
-        first_result=result if first and unit.first_result is None else unit.first_result,
-        ended_by=_text(data.get("ended_by")), released=bool(data.get("released", result == RESULT_OK)),
-        first_time_through=first and result == RESULT_OK and unit.retries == 0 and not unit.reworked,
-        ended_t_s=event.t_s, ended_at_s=stored.recorded_at_s,
-        cycle_time_s=cycle_s if first else unit.cycle_time_s,
-        rework_time_s=unit.rework_time_s + (0.0 if first else cycle_s),
-        failed_positions=failed, unfinished_positions=_zones(data.get("unfinished_positions")),
-    ))
+    tables.put_unit(
+        replace(
+            unit,
+            status=result,
+            open_seq=None,
+            current_step=None,
+            result=result,
+            first_result=result if first and unit.first_result is None else unit.first_result,
+            ended_by=_text(data.get("ended_by")),
+            released=bool(data.get("released", result == RESULT_OK)),
+            first_time_through=first
+            and result == RESULT_OK
+            and unit.retries == 0
+            and not unit.reworked,
+            ended_t_s=event.t_s,
+            ended_at_s=stored.recorded_at_s,
+            cycle_time_s=cycle_s if first else unit.cycle_time_s,
+            rework_time_s=unit.rework_time_s + (0.0 if first else cycle_s),
+            failed_positions=failed,
+            unfinished_positions=_zones(data.get("unfinished_positions")),
+        )
+    )
 
 
 def _alarm_raised(tables: DerivedTables, stored: StoredEvent) -> None:
     event, data = stored.event, stored.event.data
-    tables.add_alarm(AlarmRow(
-        seq=stored.seq, serial=event.serial, t_s=event.t_s, recorded_at_s=stored.recorded_at_s,
-        code=_text(data.get("code")) or "unknown", severity=_text(data.get("severity")) or "alarm",
-        subject=str(data.get("subject") or ""), message=str(data.get("message") or ""),
-        detail={k: v for k, v in data.items() if k not in _KNOWN_ALARM_KEYS},
-    ))
+    tables.add_alarm(
+        AlarmRow(
+            seq=stored.seq,
+            serial=event.serial,
+            t_s=event.t_s,
+            recorded_at_s=stored.recorded_at_s,
+            code=_text(data.get("code")) or "unknown",
+            severity=_text(data.get("severity")) or "alarm",
+            subject=str(data.get("subject") or ""),
+            message=str(data.get("message") or ""),
+            detail={k: v for k, v in data.items() if k not in _KNOWN_ALARM_KEYS},
+        )
+    )
     if event.serial is not None:
         unit = _unit_for(tables, stored)
         unit = replace(unit, alarm_count=unit.alarm_count + 1)

@@ -50,7 +50,9 @@ def decode_after(token: str, query: UnitQuery) -> list[Any]:
         raise ValueError(f"UnitQuery.after is not a page token: {token!r}") from exc
     size = 1 if query.order == "serial" else 2
     if not isinstance(key, list) or len(key) != size:
-        raise ValueError(f"UnitQuery.after is not a page token for order {query.order!r}: {token!r}")
+        raise ValueError(
+            f"UnitQuery.after is not a page token for order {query.order!r}: {token!r}"
+        )
     return key
 
 
@@ -125,8 +127,9 @@ def count_units(conn: sqlite3.Connection, query: UnitQuery, cap: int | None = No
     return int(conn.execute(sql, tag_params + params).fetchone()[0])
 
 
-def prefix_is_broad(conn: sqlite3.Connection, query: UnitQuery,
-                    counted: tuple[int, int] | None = None) -> bool:
+def prefix_is_broad(
+    conn: sqlite3.Connection, query: UnitQuery, counted: tuple[int, int] | None = None
+) -> bool:
     """True when the query's serial prefix matches more than ``BROAD_PREFIX_UNITS`` units: a
     page in time order should then walk the time index (``find_units(time_index=True)``).
     ``counted`` is ``(count_units(conn, query, cap), cap)`` when the caller has it: for a
@@ -134,22 +137,28 @@ def prefix_is_broad(conn: sqlite3.Connection, query: UnitQuery,
     if query.serial_prefix is None:
         return False
     prefix_only = UnitQuery(serial_prefix=query.serial_prefix)
-    if (counted is not None and counted[1] > BROAD_PREFIX_UNITS
-            and _unit_filters(query) == _unit_filters(prefix_only)
-            and _source(query) == _source(prefix_only)):
+    if (
+        counted is not None
+        and counted[1] > BROAD_PREFIX_UNITS
+        and _unit_filters(query) == _unit_filters(prefix_only)
+        and _source(query) == _source(prefix_only)
+    ):
         return counted[0] > BROAD_PREFIX_UNITS
     matching = count_units(conn, prefix_only, cap=BROAD_PREFIX_UNITS + 1)
     return matching > BROAD_PREFIX_UNITS
 
 
-def find_units(conn: sqlite3.Connection, query: UnitQuery,
-               time_index: bool = False) -> Page[UnitRow]:
+def find_units(
+    conn: sqlite3.Connection, query: UnitQuery, time_index: bool = False
+) -> Page[UnitRow]:
     """One page of units. ``time_index`` walks the start-time index even with a serial
     prefix: right when the prefix matches most units (the planner would otherwise sort them
     all), wrong when it matches few (the walk would pass most units by)."""
     source, alias, tag_where, tag_params = _source(query)
     if time_index and source == "units u" and query.order != "serial":
-        source += f" INDEXED BY {'units_by_start' if query.time_basis == 't_s' else 'units_by_start_at'}"
+        source += (
+            f" INDEXED BY {'units_by_start' if query.time_basis == 't_s' else 'units_by_start_at'}"
+        )
     where, params = _unit_filters(query)
     order, keyset = _order(query, alias)
     total = count_units(conn, query) if query.count_total else None
@@ -157,8 +166,9 @@ def find_units(conn: sqlite3.Connection, query: UnitQuery,
     if query.after is not None:
         page_where = [*page_where, keyset]
         page_params = [*page_params, *decode_after(query.after, query)]
-    sql = (f"SELECT {_UNIT_SELECT} FROM {source}{_where(page_where)} ORDER BY {order} "
-           "LIMIT ? OFFSET ?")
+    sql = (
+        f"SELECT {_UNIT_SELECT} FROM {source}{_where(page_where)} ORDER BY {order} LIMIT ? OFFSET ?"
+    )
     rows = conn.execute(sql, [*page_params, query.limit + 1, query.offset]).fetchall()
     units = tuple(unit_from_sql(row) for row in rows[: query.limit])
     more = len(rows) > query.limit
@@ -188,7 +198,10 @@ def alarms_of(conn: sqlite3.Connection, serial: str) -> tuple[AlarmRow, ...]:
 
 
 def station_alarms(
-    conn: sqlite3.Connection, from_s: float, to_s: float, limit: int = 1000,
+    conn: sqlite3.Connection,
+    from_s: float,
+    to_s: float,
+    limit: int = 1000,
     time_basis: TimeBasis = "recorded_at",
 ) -> tuple[AlarmRow, ...]:
     """Alarms of every unit and of the station itself in a time range, oldest first."""

@@ -143,8 +143,13 @@ class StepRow:
         require_at_least("StepRow", "attempt", self.attempt, 1)
         require_finite("StepRow", "ended_t_s", self.ended_t_s)
         for name in (
-            "torque_nm", "torque_low_nm", "torque_high_nm",
-            "angle_deg", "angle_low_deg", "angle_high_deg", "started_t_s",
+            "torque_nm",
+            "torque_low_nm",
+            "torque_high_nm",
+            "angle_deg",
+            "angle_low_deg",
+            "angle_high_deg",
+            "started_t_s",
         ):
             require_optional_finite("StepRow", name, getattr(self, name))
         if self.position_result is not None:

@@ -43,14 +43,18 @@ class RetentionReport:
     events_removed: int = 0
 
 
-def _remove_evidence(log: SqliteStepLog, cutoff_s: float, basis: Basis,
-                     root: Path | None) -> tuple[int, int]:
+def _remove_evidence(
+    log: SqliteStepLog, cutoff_s: float, basis: Basis, root: Path | None
+) -> tuple[int, int]:
     column = "ended_t_s" if basis == "t_s" else "recorded_at_s"
     with store_errors(log.path, "finding old evidence images"):
-        paths = [str(row[0]) for row in log.connection.execute(
-            f"SELECT evidence_path FROM steps WHERE evidence_path IS NOT NULL AND {column} < ?",
-            (cutoff_s,),
-        )]
+        paths = [
+            str(row[0])
+            for row in log.connection.execute(
+                f"SELECT evidence_path FROM steps WHERE evidence_path IS NOT NULL AND {column} < ?",
+                (cutoff_s,),
+            )
+        ]
     removed = missing = 0
     for text in paths:
         path = Path(text)
@@ -66,17 +70,23 @@ def _remove_evidence(log: SqliteStepLog, cutoff_s: float, basis: Basis,
     return removed, missing
 
 
-def _remove_units(log: SqliteStepLog, cutoff_s: float, basis: Basis,
-                  keep_unreleased: bool) -> tuple[int, int]:
+def _remove_units(
+    log: SqliteStepLog, cutoff_s: float, basis: Basis, keep_unreleased: bool
+) -> tuple[int, int]:
     start, end = ("started_t_s", "ended_t_s") if basis == "t_s" else ("started_at_s", "ended_at_s")
     statuses = "('OK')" if keep_unreleased else "('OK', 'NotOK', 'NotDecidable')"
     conn = log.connection
     units = events = 0
     while True:
         with store_errors(log.path, "removing old units"), write_transaction(conn):
-            serials = [(row[0],) for row in conn.execute(
-                f"SELECT serial FROM units WHERE status IN {statuses} AND {start} < ? "
-                f"AND {end} < ? LIMIT ?", (cutoff_s, cutoff_s, DELETE_BATCH_UNITS))]
+            serials = [
+                (row[0],)
+                for row in conn.execute(
+                    f"SELECT serial FROM units WHERE status IN {statuses} AND {start} < ? "
+                    f"AND {end} < ? LIMIT ?",
+                    (cutoff_s, cutoff_s, DELETE_BATCH_UNITS),
+                )
+            ]
             for table in ("steps", "alarms", "unit_tags", "units"):
                 conn.executemany(f"DELETE FROM {table} WHERE serial = ?", serials)
             before = conn.total_changes

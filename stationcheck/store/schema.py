@@ -201,8 +201,11 @@ def has_tables(conn: sqlite3.Connection) -> bool:
     return int(row[0]) > 0
 
 
-def migrate(conn: sqlite3.Connection, refill: Callable[[sqlite3.Connection], object],
-            upto: int = SCHEMA_VERSION) -> None:
+def migrate(
+    conn: sqlite3.Connection,
+    refill: Callable[[sqlite3.Connection], object],
+    upto: int = SCHEMA_VERSION,
+) -> None:
     """Apply the missing migrations up to ``upto`` and, if one asks for it, refill the derived
     tables, all in one transaction with the version bump: a crash leaves the old version."""
     start = schema_version(conn)

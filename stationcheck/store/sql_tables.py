@@ -58,7 +58,9 @@ def _record_to_sql(record: StepRow | AlarmRow, columns: tuple[str, ...]) -> tupl
     )
 
 
-def _record_from_sql(row: sqlite3.Row | tuple[Any, ...], columns: tuple[str, ...]) -> dict[str, Any]:
+def _record_from_sql(
+    row: sqlite3.Row | tuple[Any, ...], columns: tuple[str, ...]
+) -> dict[str, Any]:
     raw = dict(zip(columns, row, strict=True))
     raw["detail"] = json.loads(raw["detail"])
     return raw
@@ -188,7 +190,13 @@ class BufferedSqlTables:
         self.discard()
 
     def discard(self) -> None:
-        for buffer in (self._units, self._steps, self._last_attempt, self._alarms, self._uncleared,
-                       self._tags):
+        for buffer in (
+            self._units,
+            self._steps,
+            self._last_attempt,
+            self._alarms,
+            self._uncleared,
+            self._tags,
+        ):
             buffer.clear()
         self._dirty.clear()

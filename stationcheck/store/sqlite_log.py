@@ -105,7 +105,8 @@ class SqliteStepLog:
         self.readonly = readonly
         self.station_id = station_id  # stored with every event this log appends
         self._conn = (
-            self._open_reader(busy_timeout_ms) if readonly
+            self._open_reader(busy_timeout_ms)
+            if readonly
             else self._open_writer(synchronous, busy_timeout_ms)
         )
 
@@ -114,8 +115,9 @@ class SqliteStepLog:
             raise StoreError(f"step log {self.path} does not exist")
         uri = f"file:{quote(str(self.path.resolve()))}?mode=ro"
         with store_errors(self.path, "opening for reading"):
-            conn = sqlite3.connect(uri, uri=True, isolation_level=None,
-                                   timeout=busy_timeout_ms / 1000.0)
+            conn = sqlite3.connect(
+                uri, uri=True, isolation_level=None, timeout=busy_timeout_ms / 1000.0
+            )
             try:
                 version = _check_identity(conn, self.path)
                 conn.execute("PRAGMA query_only = ON")
@@ -141,8 +143,9 @@ class SqliteStepLog:
         if path.exists() and not os.access(path, os.W_OK):
             raise StoreError(f"step log {path} is read-only; open it with readonly=True to read it")
         with store_errors(path, "opening for writing"):
-            conn = sqlite3.connect(str(path), isolation_level=None,
-                                   timeout=busy_timeout_ms / 1000.0)
+            conn = sqlite3.connect(
+                str(path), isolation_level=None, timeout=busy_timeout_ms / 1000.0
+            )
             try:
                 _check_identity(conn, path)
                 mode = str(conn.execute("PRAGMA journal_mode = WAL").fetchone()[0])
@@ -163,7 +166,9 @@ class SqliteStepLog:
         return self
 
     def __exit__(
-        self, exc_type: type[BaseException] | None, exc: BaseException | None,
+        self,
+        exc_type: type[BaseException] | None,
+        exc: BaseException | None,
         tb: TracebackType | None,
     ) -> None:
         self.close()
@@ -197,8 +202,18 @@ class SqliteStepLog:
                 conn.executemany(
                     f"INSERT INTO events ({_EVENT_COLUMNS}, station_id) "
                     "VALUES (?, ?, ?, ?, ?, ?, ?)",
-                    [(first + i, e.t_s, e.kind, e.serial, dump_json(dict(e.data)), recorded_at_s,
-                      self.station_id) for i, e in enumerate(batch)],
+                    [
+                        (
+                            first + i,
+                            e.t_s,
+                            e.kind,
+                            e.serial,
+                            dump_json(dict(e.data)),
+                            recorded_at_s,
+                            self.station_id,
+                        )
+                        for i, e in enumerate(batch)
+                    ],
                 )
                 tables = BufferedSqlTables(conn)
                 for i, event in enumerate(batch):
@@ -239,20 +254,24 @@ class SqliteStepLog:
         with store_errors(self.path, "reading events"):
             return self._conn.execute(
                 f"SELECT {_EVENT_COLUMNS}, station_id FROM events WHERE seq > ? ORDER BY seq "
-                "LIMIT ?", (after_seq, limit)).fetchall()
+                "LIMIT ?",
+                (after_seq, limit),
+            ).fetchall()
 
     def last_seq(self) -> tuple[int, float | None]:
         """The newest event's seq and wall-clock time ((0, None) when the log is empty)."""
         with store_errors(self.path, "reading events"):
             row = self._conn.execute(
-                "SELECT seq, recorded_at_s FROM events ORDER BY seq DESC LIMIT 1").fetchone()
+                "SELECT seq, recorded_at_s FROM events ORDER BY seq DESC LIMIT 1"
+            ).fetchone()
         return (0, None) if row is None else (int(row[0]), float(row[1]))
 
     def recorded_at(self, seq: int) -> float | None:
         """The wall-clock time of the event with this seq (None when there is none)."""
         with store_errors(self.path, "reading events"):
             row = self._conn.execute(
-                "SELECT recorded_at_s FROM events WHERE seq = ?", (seq,)).fetchone()
+                "SELECT recorded_at_s FROM events WHERE seq = ?", (seq,)
+            ).fetchone()
         return None if row is None else float(row[0])
 
     def open_unit_events(self) -> tuple[Event, ...]:

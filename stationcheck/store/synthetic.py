@@ -49,20 +49,30 @@ Batch = tuple[Event, ...]
 
 
 def _square(zone_id: str, kind: str, x0: float, y0: float) -> ZoneSpec:
-    return ZoneSpec(zone_id, kind, ((x0, y0), (x0 + 30, y0), (x0 + 30, y0 + 30), (x0, y0 + 30)),  # type: ignore[arg-type]
-                    label=zone_id)
+    return ZoneSpec(
+        zone_id,
+        kind,
+        ((x0, y0), (x0 + 30, y0), (x0 + 30, y0 + 30), (x0, y0 + 30)),  # type: ignore[arg-type]
+        label=zone_id,
+    )
 
 
 def demo_plan() -> StationPlan:
     """An invented pump end-cover station (demo data): two picks, six screws, a locking pin."""
-    zones = tuple(_square(z, "fastener", 100 + 60 * i, 100) for i, z in enumerate(sorted(POSITIONS)))
-    zones += (_square("bin_gasket", "bin", 20, 300), _square("bin_cover", "bin", 500, 300),
-              _square("pin", "check", 300, 400))
+    zones = tuple(
+        _square(z, "fastener", 100 + 60 * i, 100) for i, z in enumerate(sorted(POSITIONS))
+    )
+    zones += (
+        _square("bin_gasket", "bin", 20, 300),
+        _square("bin_cover", "bin", 500, 300),
+        _square("pin", "check", 300, 400),
+    )
     steps = (
         PickStep("take_gasket", "bin_gasket", min_time_ms=300.0),
         PickStep("take_cover", "bin_cover", min_time_ms=300.0),
-        FastenStep("cover_screws", POSITIONS, max_attempts=2, torque_nm=TORQUE_NM,
-                   angle_deg=ANGLE_DEG),
+        FastenStep(
+            "cover_screws", POSITIONS, max_attempts=2, torque_nm=TORQUE_NM, angle_deg=ANGLE_DEG
+        ),
         CheckStep("locking_pin", "pin", expect="present"),
     )
     return StationPlan(zones=zones, steps=steps)
@@ -85,10 +95,18 @@ class StationScript:
             if zone != self._zone:
                 self._zone, self._since = zone, (self.t_s if zone is not None else None)
             dwell_ms = (self.t_s - self._since) * 1000.0 if self._since is not None else 0.0
-            self.observations.append(ZoneObservation(
-                t_s=self.t_s, frame_index=self._frame, zone=zone,
-                arrived_zone=zone if dwell_ms >= 200.0 - 1e-6 else None,
-                since_t_s=self._since, dwell_ms=dwell_ms, visible=True, tip_px=(0.0, 0.0)))
+            self.observations.append(
+                ZoneObservation(
+                    t_s=self.t_s,
+                    frame_index=self._frame,
+                    zone=zone,
+                    arrived_zone=zone if dwell_ms >= 200.0 - 1e-6 else None,
+                    since_t_s=self._since,
+                    dwell_ms=dwell_ms,
+                    visible=True,
+                    tip_px=(0.0, 0.0),
+                )
+            )
         return self
 
     def add(self, observation: Observation) -> StationScript:
@@ -126,7 +144,9 @@ class StationScript:
     def abort(self, reason: str) -> StationScript:
         return self.add(Abort(self.t_s, reason))
 
-    def unit(self, serial: str, fails: Mapping[str, int], rework: tuple[str, ...] = ()) -> StationScript:
+    def unit(
+        self, serial: str, fails: Mapping[str, int], rework: tuple[str, ...] = ()
+    ) -> StationScript:
         self.start(serial, rework)
         if not rework:
             self.frames(None, 100).pick("bin_gasket").pick("bin_cover")
@@ -166,8 +186,12 @@ class Story:
 
     @property
     def tightening_ok(self) -> tuple[bool, ...]:
-        return tuple(e.data["result"] == RESULT_OK for b in self.batches for e in b
-                     if e.kind == "tightening_result")
+        return tuple(
+            e.data["result"] == RESULT_OK
+            for b in self.batches
+            for e in b
+            if e.kind == "tightening_result"
+        )
 
 
 def build_stories() -> tuple[Story, ...]:
@@ -262,9 +286,16 @@ class UnitStream:
             self._sequence += 1
             values.append((self._torque(ok), round(self._rng.gauss(40.0, 5.0), 2), self._sequence))
         self.count += 1
-        draw = UnitDraw(f"{SERIAL_PREFIX}{self.count:07d}", index, self._t_s,
-                        round(self._rng.uniform(2.5, 4.0), 3), tuple(values))
-        self._t_s = draw.t0_s + story.duration_s * draw.pace + self._rng.expovariate(1 / self._gap_s)
+        draw = UnitDraw(
+            f"{SERIAL_PREFIX}{self.count:07d}",
+            index,
+            self._t_s,
+            round(self._rng.uniform(2.5, 4.0), 3),
+            tuple(values),
+        )
+        self._t_s = (
+            draw.t0_s + story.duration_s * draw.pace + self._rng.expovariate(1 / self._gap_s)
+        )
         return draw
 
     def render(self, draw: UnitDraw) -> tuple[Batch, ...]:
@@ -273,9 +304,14 @@ class UnitStream:
         for batch in self.stories[draw.story].batches:
             events = []
             for e in batch:
-                events.append(Event(t_s=shift_time(e.t_s, draw), kind=e.kind,
-                                    serial=draw.serial if e.serial is not None else None,
-                                    data=event_data(e, draw, tightening)))
+                events.append(
+                    Event(
+                        t_s=shift_time(e.t_s, draw),
+                        kind=e.kind,
+                        serial=draw.serial if e.serial is not None else None,
+                        data=event_data(e, draw, tightening),
+                    )
+                )
                 tightening += e.kind == "tightening_result"
             batches.append(tuple(events))
         return tuple(batches)

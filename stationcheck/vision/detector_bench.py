@@ -97,8 +97,11 @@ def measure(options: BenchOptions) -> list[BenchRow]:
                     float(np.percentile(arr, 99)),
                     "ms",
                     TARGET_TOTAL_MS if stage == "total" and threads == 1 else "",
-                    headline=({"detector_ms_median": float(np.median(arr))}
-                              if stage == "total" and threads == options.threads[0] else {}),
+                    headline=(
+                        {"detector_ms_median": float(np.median(arr))}
+                        if stage == "total" and threads == options.threads[0]
+                        else {}
+                    ),
                 )
             )
         total = float(np.median(stages["total"]))

@@ -86,8 +86,11 @@ class FrozenImageWatch:
             self._learning.append(change)
         if len(self._learning) >= self.settings.learn_frames:
             self.noise_floor = float(np.percentile(self._learning, 10))
-            logger.info("camera noise floor %.3f grey levels per cell; no change below %.3f",
-                        self.noise_floor, self.threshold)
+            logger.info(
+                "camera noise floor %.3f grey levels per cell; no change below %.3f",
+                self.noise_floor,
+                self.threshold,
+            )
 
     def _shrink(self, image: npt.NDArray[np.uint8]) -> npt.NDArray[np.float32]:
         grey = cv2.cvtColor(image, cv2.COLOR_BGR2GRAY)

@@ -88,8 +88,7 @@ class AccessRule:
     host_names: tuple[str, ...] = ()
 
     @classmethod
-    def for_host(cls, host: str, token: str | None,
-                 host_names: tuple[str, ...] = ()) -> AccessRule:
+    def for_host(cls, host: str, token: str | None, host_names: tuple[str, ...] = ()) -> AccessRule:
         """Open on loopback unless a token is given; beyond loopback a token is mandatory."""
         if token is not None and len(token) < 12:
             raise StationcheckError("an access token needs at least 12 characters")
@@ -122,9 +121,12 @@ class AccessRule:
         if not host_name:
             raise WebError(400, "refused: the request names no valid Host")
         if not self.host_allowed(host_name, bound):
-            raise WebError(421, f"refused: this screen does not answer to the host name "
-                               f"{host_name!r} (start it with --allow-host {host_name} if "
-                               "that name is this PC)")
+            raise WebError(
+                421,
+                f"refused: this screen does not answer to the host name "
+                f"{host_name!r} (start it with --allow-host {host_name} if "
+                "that name is this PC)",
+            )
         cookie = self._check_token(head, cookie_name)
         if head.method not in SAFE_METHODS:
             _check_write(head, host)
@@ -138,8 +140,10 @@ class AccessRule:
         if offered is None:
             offered = _cookie(head.headers.get("cookie", ""), cookie_name)
         if offered is None or not hmac.compare_digest(offered.encode(), self.token.encode()):
-            raise WebError(401, "refused: this screen needs its access token "
-                               "(open the URL printed at start-up)")
+            raise WebError(
+                401,
+                "refused: this screen needs its access token (open the URL printed at start-up)",
+            )
         if from_query:
             return f"{cookie_name}={self.token}; Path=/; HttpOnly; SameSite=Strict"
         return None
@@ -158,8 +162,10 @@ def _check_write(head: Head, host: str) -> None:
             if f"{parts.scheme}://{parts.netloc}".lower() != own:
                 raise WebError(403, "refused: a write from another site")
     if not head.headers.get(WRITE_HEADER.lower()):
-        raise WebError(403, f"refused: a write needs the {WRITE_HEADER} header "
-                           "(the screen's own page sends it)")
+        raise WebError(
+            403,
+            f"refused: a write needs the {WRITE_HEADER} header (the screen's own page sends it)",
+        )
     kind = head.headers.get("content-type", "").split(";")[0].strip().lower()
     if kind != "application/json":
         raise WebError(415, f"refused: a write sends application/json, not {kind or 'nothing'}")

@@ -19,17 +19,32 @@ COMMON_ROOT = STATIC_ROOT / "common"
 
 def add_web_arguments(p: argparse.ArgumentParser, default_port: int) -> None:
     """--host, --port, --no-browser and --token, the same on every screen."""
-    p.add_argument("--host", default="127.0.0.1",
-                   help="address to listen on (default 127.0.0.1: this PC only; any other "
-                        "address needs an access token)")
-    p.add_argument("--port", type=int, default=default_port,
-                   help=f"port (default {default_port}; 0 picks a free one)")
+    p.add_argument(
+        "--host",
+        default="127.0.0.1",
+        help="address to listen on (default 127.0.0.1: this PC only; any other "
+        "address needs an access token)",
+    )
+    p.add_argument(
+        "--port",
+        type=int,
+        default=default_port,
+        help=f"port (default {default_port}; 0 picks a free one)",
+    )
     p.add_argument("--no-browser", action="store_true", help="do not open a browser")
-    p.add_argument("--token", help="access token to require (default: none on 127.0.0.1, "
-                                   "a random one printed at start-up elsewhere)")
-    p.add_argument("--allow-host", action="append", default=[], metavar="NAME",
-                   help="a host name of this PC that browsers may use in the address (repeat "
-                        "for more; localhost and IP addresses need none)")
+    p.add_argument(
+        "--token",
+        help="access token to require (default: none on 127.0.0.1, "
+        "a random one printed at start-up elsewhere)",
+    )
+    p.add_argument(
+        "--allow-host",
+        action="append",
+        default=[],
+        metavar="NAME",
+        help="a host name of this PC that browsers may use in the address (repeat "
+        "for more; localhost and IP addresses need none)",
+    )
 
 
 def add_common_files(router: Router) -> None:
@@ -38,14 +53,16 @@ def add_common_files(router: Router) -> None:
     def common(request: Request) -> Response:
         file = resolve_static(COMMON_ROOT, request.path.removeprefix("/common"))
         kind = "text/css" if file.suffix == ".css" else "text/html"
-        return Response(200, file.read_bytes(), f"{kind}; charset=utf-8",
-                        {"Cache-Control": "no-cache"})
+        return Response(
+            200, file.read_bytes(), f"{kind}; charset=utf-8", {"Cache-Control": "no-cache"}
+        )
 
     router.add("GET", "/common/*", common)
 
 
-def start_server(router: Router, host: str, port: int, token: str | None,
-                 host_names: tuple[str, ...] = ()) -> WebServer:
+def start_server(
+    router: Router, host: str, port: int, token: str | None, host_names: tuple[str, ...] = ()
+) -> WebServer:
     """Bind and serve in a background thread; raises a one-line error when the port is taken."""
     access = AccessRule.for_host(host, token, host_names)
     return WebServer(router, host, port, access).start()

@@ -71,8 +71,7 @@ def _run(options: BenchOptions, frames: int, flood: bool) -> tuple[_Probe, list[
     from stationcheck.web.operator.screen import OperatorScreen
 
     probe = _Probe()
-    screen = OperatorScreen.start(load_config(DEMO_CONFIG).to_plan(), mode="live",
-                                  port=free_port())
+    screen = OperatorScreen.start(load_config(DEMO_CONFIG).to_plan(), mode="live", port=free_port())
     loops: list[LiveLoop] = []
 
     def ready(loop: LiveLoop) -> None:
@@ -88,13 +87,27 @@ def _run(options: BenchOptions, frames: int, flood: bool) -> tuple[_Probe, list[
         try:
             if flood:
                 flooder = subprocess.Popen(
-                    [sys.executable, "-m", "stationcheck.web.flood_bench",
-                     str(screen.server.server_address[1])])
+                    [
+                        sys.executable,
+                        "-m",
+                        "stationcheck.web.flood_bench",
+                        str(screen.server.server_address[1]),
+                    ]
+                )
             asking.start()
-            stats = run_live(LiveSettings(
-                config_path=DEMO_CONFIG, log_path=Path(folder) / "bench.sqlite",
-                source=str(options.video or SAMPLE_VIDEO), link="client", host="127.0.0.1",
-                port=port, max_frames=frames, model_path=options.model), on_ready=ready)
+            stats = run_live(
+                LiveSettings(
+                    config_path=DEMO_CONFIG,
+                    log_path=Path(folder) / "bench.sqlite",
+                    source=str(options.video or SAMPLE_VIDEO),
+                    link="client",
+                    host="127.0.0.1",
+                    port=port,
+                    max_frames=frames,
+                    model_path=options.model,
+                ),
+                on_ready=ready,
+            )
         finally:
             probe.stop.set()
             if flooder is not None:
@@ -114,29 +127,52 @@ def measure(options: BenchOptions) -> list[BenchRow]:
         probe, latency_ms, fps = _run(options, frames, flood)
         latency = np.array(latency_ms, dtype=float)
         answers = np.array(probe.answers_ms or [float("nan")], dtype=float)
-        figures[label] = {"p50": float(np.percentile(latency, 50)),
-                          "p99": float(np.percentile(latency, 99)),
-                          "rss": probe.peak_mb, "fps": fps}
+        figures[label] = {
+            "p50": float(np.percentile(latency, 50)),
+            "p99": float(np.percentile(latency, 99)),
+            "rss": probe.peak_mb,
+            "fps": fps,
+        }
         rows += [
-            BenchRow(SECTION_NAME, f"{label}: decision latency, frame -> coil written",
-                     figures[label]["p50"], figures[label]["p99"], "ms"),
+            BenchRow(
+                SECTION_NAME,
+                f"{label}: decision latency, frame -> coil written",
+                figures[label]["p50"],
+                figures[label]["p99"],
+                "ms",
+            ),
             BenchRow(SECTION_NAME, f"{label}: loop frames/s", fps, None, "f/s"),
-            BenchRow(SECTION_NAME, f"{label}: resident memory (peak)", probe.peak_mb, None,
-                     "MB"),
-            BenchRow(SECTION_NAME, f"{label}: screen's GET /api/state", float(np.median(answers)),
-                     float(np.percentile(answers, 99)), "ms", "answers while flooded",
-                     extra={"answered": float(len(probe.answers_ms)),
-                            "failed": float(probe.failures)}),
+            BenchRow(SECTION_NAME, f"{label}: resident memory (peak)", probe.peak_mb, None, "MB"),
+            BenchRow(
+                SECTION_NAME,
+                f"{label}: screen's GET /api/state",
+                float(np.median(answers)),
+                float(np.percentile(answers, 99)),
+                "ms",
+                "answers while flooded",
+                extra={"answered": float(len(probe.answers_ms)), "failed": float(probe.failures)},
+            ),
         ]
     quiet, flooded = figures["quiet"], figures["flooded"]
-    rows.append(BenchRow(
-        SECTION_NAME, "flooded / quiet: decision latency p50", flooded["p50"] / quiet["p50"],
-        None, "x", "within 1.1x",
-        extra={"p99_ratio": flooded["p99"] / quiet["p99"],
-               "memory_ratio": flooded["rss"] / quiet["rss"],
-               "fps_ratio": flooded["fps"] / quiet["fps"]},
-        headline={"flood_latency_p50_ratio": flooded["p50"] / quiet["p50"],
-                  "flood_memory_ratio": flooded["rss"] / quiet["rss"]}))
+    rows.append(
+        BenchRow(
+            SECTION_NAME,
+            "flooded / quiet: decision latency p50",
+            flooded["p50"] / quiet["p50"],
+            None,
+            "x",
+            "within 1.1x",
+            extra={
+                "p99_ratio": flooded["p99"] / quiet["p99"],
+                "memory_ratio": flooded["rss"] / quiet["rss"],
+                "fps_ratio": flooded["fps"] / quiet["fps"],
+            },
+            headline={
+                "flood_latency_p50_ratio": flooded["p50"] / quiet["p50"],
+                "flood_memory_ratio": flooded["rss"] / quiet["rss"],
+            },
+        )
+    )
     return rows
 
 
@@ -168,8 +204,10 @@ def flood(port: int) -> None:
 
 def _post_forever(port: int) -> None:
     chunk = b"x" * (1024 * 1024)
-    head = (f"POST /api/ack HTTP/1.1\r\nHost: 127.0.0.1:{port}\r\n"
-            f"Content-Type: text/plain\r\nContent-Length: {POST_BYTES}\r\n\r\n").encode()
+    head = (
+        f"POST /api/ack HTTP/1.1\r\nHost: 127.0.0.1:{port}\r\n"
+        f"Content-Type: text/plain\r\nContent-Length: {POST_BYTES}\r\n\r\n"
+    ).encode()
     while True:
         time.sleep(1.0 / POSTS_PER_S)  # paced: the flood tests the screen, not this machine
         try:

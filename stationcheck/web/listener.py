@@ -48,8 +48,14 @@ class WebServer(HTTPServer):
 
     allow_reuse_address = True
 
-    def __init__(self, router: Router, host: str, port: int, access: AccessRule,
-                 limits: ServerLimits = ServerLimits()) -> None:
+    def __init__(
+        self,
+        router: Router,
+        host: str,
+        port: int,
+        access: AccessRule,
+        limits: ServerLimits = ServerLimits(),
+    ) -> None:
         self.router = router
         self.access = access
         self.limits = limits
@@ -68,7 +74,8 @@ class WebServer(HTTPServer):
             super().__init__((host, port), RequestHandler)
         except OSError as exc:
             raise StationcheckError(
-                f"cannot listen on {host}:{port}: {exc.strerror or exc}") from exc
+                f"cannot listen on {host}:{port}: {exc.strerror or exc}"
+            ) from exc
         self._idle_workers = 0
 
     @property
@@ -99,8 +106,9 @@ class WebServer(HTTPServer):
 
     def start(self) -> WebServer:
         """Serve in a background thread (for tests and for screens beside a live loop)."""
-        self._thread = threading.Thread(target=self.serve_forever, name=f"web-{self.router.name}",
-                                        daemon=True)
+        self._thread = threading.Thread(
+            target=self.serve_forever, name=f"web-{self.router.name}", daemon=True
+        )
         self._thread.start()
         return self
 
@@ -148,8 +156,11 @@ class WebServer(HTTPServer):
                 self._idle_workers -= 1
             elif len(self._workers) < self.limits.workers + self.limits.max_streams:
                 grow = True  # a worker only when all are busy: a quiet screen keeps few
-                worker = threading.Thread(target=self._work, daemon=True,
-                                          name=f"web-{self.router.name}-{len(self._workers)}")
+                worker = threading.Thread(
+                    target=self._work,
+                    daemon=True,
+                    name=f"web-{self.router.name}-{len(self._workers)}",
+                )
                 self._workers.append(worker)
         if grow:
             worker.start()
@@ -158,8 +169,11 @@ class WebServer(HTTPServer):
     def _sweep(self, selector: selectors.BaseSelector) -> None:
         now = time.monotonic()
         with self._lock:
-            idle = [s for s, (_, since) in self._waiting.items()
-                    if now - since > self.limits.idle_timeout_s]
+            idle = [
+                s
+                for s, (_, since) in self._waiting.items()
+                if now - since > self.limits.idle_timeout_s
+            ]
             for connection in idle:
                 selector.unregister(connection)
                 del self._waiting[connection]

@@ -80,8 +80,10 @@ def review_source(target: str, password_file: Path | None = None) -> Any:
 
 def scope_of(request: Request) -> Any:
     """The station and line filters (``station``, ``line``: comma-separated) of a request."""
-    stations, lines = (tuple(v for v in (request.query.get(k, "")).split(",") if v.strip())
-                       for k in ("station", "line"))
+    stations, lines = (
+        tuple(v for v in (request.query.get(k, "")).split(",") if v.strip())
+        for k in ("station", "line")
+    )
     if not stations and not lines:
         return None
     from stationcheck.plant.review_source import Scope
@@ -119,23 +121,34 @@ def unit_query(request: Request, limit: int = PAGE_UNITS) -> UnitQuery:
         raise WebError(400, f"order must be one of {list(UNIT_ORDERS)}, got {order!r}")
     try:
         return UnitQuery(
-            serial_prefix=_text_arg(request, "serial"), from_s=_float_arg(request, "from"),
-            to_s=_float_arg(request, "to"), result=result,
-            failed_position=_text_arg(request, "position"), alarm_code=_text_arg(request, "alarm"),
-            order=order, limit=limit, after=_text_arg(request, "after"), count_total=False,
+            serial_prefix=_text_arg(request, "serial"),
+            from_s=_float_arg(request, "from"),
+            to_s=_float_arg(request, "to"),
+            result=result,
+            failed_position=_text_arg(request, "position"),
+            alarm_code=_text_arg(request, "alarm"),
+            order=order,
+            limit=limit,
+            after=_text_arg(request, "after"),
+            count_total=False,
         )
     except ValueError as exc:
         raise WebError(400, str(exc)) from exc
 
 
 def _download(chunks: Iterator[str], filename: str, content_type: str) -> Response:
-    return Response(200, b"", content_type,
-                    {"Content-Disposition": f'attachment; filename="{filename}"'},
-                    stream=(chunk.encode("utf-8") for chunk in chunks))
+    return Response(
+        200,
+        b"",
+        content_type,
+        {"Content-Disposition": f'attachment; filename="{filename}"'},
+        stream=(chunk.encode("utf-8") for chunk in chunks),
+    )
 
 
-def one_unit(source: Any, request: Request) -> tuple[
-        UnitRow, tuple[StepRow, ...], tuple[AlarmRow, ...]]:
+def one_unit(
+    source: Any, request: Request
+) -> tuple[UnitRow, tuple[StepRow, ...], tuple[AlarmRow, ...]]:
     """The ``serial`` argument's unit with its steps and alarms; 400/404 when there is none."""
     serial = _text_arg(request, "serial")
     if serial is None:
@@ -152,7 +165,8 @@ def alarm_codes(conn: sqlite3.Connection) -> list[str]:
     rows = conn.execute(
         "WITH RECURSIVE c(code) AS (SELECT min(code) FROM alarms UNION ALL "
         "SELECT (SELECT min(code) FROM alarms WHERE code > c.code) FROM c "
-        "WHERE c.code IS NOT NULL) SELECT code FROM c WHERE code IS NOT NULL").fetchall()
+        "WHERE c.code IS NOT NULL) SELECT code FROM c WHERE code IS NOT NULL"
+    ).fetchall()
     return [str(r[0]) for r in rows]
 
 
@@ -166,13 +180,19 @@ def build_review_router(source: Any) -> Router:
             codes = alarm_codes(step_log.connection)
             stations = step_log.stations() if source.is_plant else None
             demo = log_is_demo(step_log.connection)
-        return Response.json({
-            "log": source.name, "path": str(getattr(source, "path", source.name)),
-            "positions": [p.position for p in positions], "alarm_codes": codes,
-            "results": list(RESULT_FILTERS), "orders": list(UNIT_ORDERS), "count_cap": COUNT_CAP,
-            "stations": stations,
-            "demo_data": demo,
-        })
+        return Response.json(
+            {
+                "log": source.name,
+                "path": str(getattr(source, "path", source.name)),
+                "positions": [p.position for p in positions],
+                "alarm_codes": codes,
+                "results": list(RESULT_FILTERS),
+                "orders": list(UNIT_ORDERS),
+                "count_cap": COUNT_CAP,
+                "stations": stations,
+                "demo_data": demo,
+            }
+        )
 
     def units(request: Request) -> Response:
         query = unit_query(request, request.int_arg("limit", PAGE_UNITS, 1, MAX_PAGE_UNITS))
@@ -189,12 +209,17 @@ def build_review_router(source: Any) -> Router:
                 owners = step_log.unit_stations([u.serial for u in page.rows])
                 for row in rows:
                     row["station"] = owners.get((row["serial"], row["started_at_s"]))
-                    row["stations"] = [s for (serial, _), s in owners.items()
-                                       if serial == row["serial"]]
-        return Response.json({
-            "units": rows, "next_after": page.next_after,
-            "count": min(count, COUNT_CAP), "count_is_exact": count <= COUNT_CAP,
-        })
+                    row["stations"] = [
+                        s for (serial, _), s in owners.items() if serial == row["serial"]
+                    ]
+        return Response.json(
+            {
+                "units": rows,
+                "next_after": page.next_after,
+                "count": min(count, COUNT_CAP),
+                "count_is_exact": count <= COUNT_CAP,
+            }
+        )
 
     def units_count(request: Request) -> Response:
         query = unit_query(request)
@@ -206,13 +231,16 @@ def build_review_router(source: Any) -> Router:
         if source.is_plant:  # traceability: every station of the plant that logged it
             with source.reader() as reader:
                 body["stations"] = reader.stations_of([body["unit"]["serial"]]).get(
-                    body["unit"]["serial"], [])
+                    body["unit"]["serial"], []
+                )
         return Response.json(body)
 
     def stations(request: Request) -> Response:
         if not source.is_plant:
-            raise WebError(404, "one step log is one station; review the plant database for "
-                                "stations side by side")
+            raise WebError(
+                404,
+                "one step log is one station; review the plant database for stations side by side",
+            )
         from stationcheck.plant.side_by_side import (
             station_figures_rows,
             station_trends,
@@ -222,20 +250,24 @@ def build_review_router(source: Any) -> Router:
         period = period_of(request)
         with source.reader(scope_of(request)) as reader:
             rows = station_figures_rows(source, reader, period)
-        body: dict[str, Any] = {"period": {"from_s": period.from_s, "to_s": period.to_s,
-                                           "text": period.describe()}, "stations": rows,
-                                "trends": []}
+        body: dict[str, Any] = {
+            "period": {"from_s": period.from_s, "to_s": period.to_s, "text": period.describe()},
+            "stations": rows,
+            "trends": [],
+        }
         position = _text_arg(request, "position")
         if position is not None:
             measure = _text_arg(request, "measure") or "torque"
             points = request.int_arg("points", DEFAULT_POINTS, 10, MAX_POINTS)
             try:
-                trends = station_trends(source, [r["station_id"] for r in rows], position,
-                                        measure, period, points)
+                trends = station_trends(
+                    source, [r["station_id"] for r in rows], position, measure, period, points
+                )
             except ValueError as exc:
                 raise WebError(400, str(exc)) from exc
-            body["trends"] = [{**trend_summary(sid, t), "chart": trend_svg(t, 900, 360)}
-                              for sid, t in trends]
+            body["trends"] = [
+                {**trend_summary(sid, t), "chart": trend_svg(t, 900, 360)} for sid, t in trends
+            ]
         return Response.json(body)
 
     def figures(request: Request) -> Response:
@@ -254,8 +286,9 @@ def build_review_router(source: Any) -> Router:
         points = request.int_arg("points", DEFAULT_POINTS, 10, MAX_POINTS)
         try:
             with source.reader(scope_of(request)) as step_log:
-                result = position_trend(step_log.connection, position, measure,
-                                        period_of(request), points)
+                result = position_trend(
+                    step_log.connection, position, measure, period_of(request), points
+                )
         except ValueError as exc:
             raise WebError(400, str(exc)) from exc
         body = trend_dict(result)
@@ -271,8 +304,11 @@ def build_review_router(source: Any) -> Router:
                 writer = export.units_csv if kind == "csv" else export.units_json
                 yield from writer(step_log.connection, query)
 
-        return _download(chunks(), f"units.{kind}",
-                         "text/csv; charset=utf-8" if kind == "csv" else "application/json")
+        return _download(
+            chunks(),
+            f"units.{kind}",
+            "text/csv; charset=utf-8" if kind == "csv" else "application/json",
+        )
 
     router.add("GET", "/api/export/units.csv", lambda r: units_export(r, "csv"))
     router.add("GET", "/api/export/units.json", lambda r: units_export(r, "json"))
@@ -281,8 +317,9 @@ def build_review_router(source: Any) -> Router:
         row, steps, alarms = one_unit(source, request)
         name = f"unit-{''.join(c if c.isalnum() or c in '-_' else '_' for c in row.serial)}"
         if kind == "csv":
-            return _download(iter([export.unit_steps_csv(steps)]), f"{name}.csv",
-                             "text/csv; charset=utf-8")
+            return _download(
+                iter([export.unit_steps_csv(steps)]), f"{name}.csv", "text/csv; charset=utf-8"
+            )
         text = Response.json(export.unit_detail(row, steps, alarms)).body.decode("utf-8")
         return _download(iter([text]), f"{name}.json", "application/json")
 
@@ -293,10 +330,13 @@ def build_review_router(source: Any) -> Router:
         period = period_of(request)
         with source.reader(scope_of(request)) as step_log:
             conn = step_log.connection
-            html = build_report(conn, period, source.name,
-                                source.figures(conn, period))
-        return Response(200, html.encode("utf-8"), "text/html; charset=utf-8",
-                        {"Content-Disposition": 'attachment; filename="review-report.html"'})
+            html = build_report(conn, period, source.name, source.figures(conn, period))
+        return Response(
+            200,
+            html.encode("utf-8"),
+            "text/html; charset=utf-8",
+            {"Content-Disposition": 'attachment; filename="review-report.html"'},
+        )
 
     def evidence(request: Request) -> Response:
         serial = _text_arg(request, "serial")
@@ -309,15 +349,15 @@ def build_review_router(source: Any) -> Router:
         return Response(200, file.read_bytes(), "image/png", {"Cache-Control": "no-cache"})
 
     for path, handler in (
-            ("/api/info", info),
-            ("/api/units", units),
-            ("/api/units/count", units_count),
-            ("/api/unit", unit),
-            ("/api/figures", figures),
-            ("/api/trend", trend),
-            ("/api/report.html", report),
-            ("/api/evidence", evidence),
-            ("/api/stations", stations),
+        ("/api/info", info),
+        ("/api/units", units),
+        ("/api/units/count", units_count),
+        ("/api/unit", unit),
+        ("/api/figures", figures),
+        ("/api/trend", trend),
+        ("/api/report.html", report),
+        ("/api/evidence", evidence),
+        ("/api/stations", stations),
     ):
         router.add("GET", path, handler)
     return router

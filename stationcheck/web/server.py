@@ -95,16 +95,18 @@ class Router:
     """Routes per method (exact paths, or a prefix for paths ending in ``/*``) plus one static
     folder served at ``/``; ``name`` names the screen (its cookie, its log lines)."""
 
-    def __init__(self, static_root: Path | None = None, index: str = "index.html",
-                 name: str = "screen") -> None:
+    def __init__(
+        self, static_root: Path | None = None, index: str = "index.html", name: str = "screen"
+    ) -> None:
         self.static_root = static_root.resolve() if static_root else None
         self.index = index
         self.name = name
         self._routes: dict[tuple[str, str], Route] = {}
         self._prefix_routes: list[tuple[str, str, Route]] = []
 
-    def add(self, method: str, path: str, handler: Handler, *,
-            max_body_bytes: int | None = None) -> None:
+    def add(
+        self, method: str, path: str, handler: Handler, *, max_body_bytes: int | None = None
+    ) -> None:
         """Route ``METHOD path``. Bodies: none on GET/HEAD, up to ``max_body_bytes``
         (default 64 KiB) otherwise."""
         method = method.upper()
@@ -146,8 +148,7 @@ class Router:
         content_type = mimetypes.guess_type(file.name)[0] or "application/octet-stream"
         if content_type.startswith("text/") or content_type in ("application/javascript",):
             content_type += "; charset=utf-8"
-        return Response(200, file.read_bytes(), content_type,
-                        {"Cache-Control": "no-cache"})
+        return Response(200, file.read_bytes(), content_type, {"Cache-Control": "no-cache"})
 
 
 def resolve_static(root: Path, url_path: str, index: str = "index.html") -> Path:
@@ -185,8 +186,9 @@ def body_length(headers: Any, limit: int) -> int:
         raise WebError(400, "Content-Length must be one whole number of bytes")
     length = int(values[0])
     if length > limit:
-        raise WebError(413, f"request body too large ({length} bytes; this address takes "
-                            f"at most {limit})")
+        raise WebError(
+            413, f"request body too large ({length} bytes; this address takes at most {limit})"
+        )
     return length
 
 
@@ -233,8 +235,9 @@ class RequestHandler(BaseHTTPRequestHandler):
                 raise WebError(400, "the request body ended early")
             self.server.read_done(self.connection)
             if cookie and method == "GET" and not split.path.startswith("/api/"):
-                response = Response(303, b"", "text/plain",
-                                    {"Location": _without_token(split.path, query)})
+                response = Response(
+                    303, b"", "text/plain", {"Location": _without_token(split.path, query)}
+                )
             else:
                 response = route.handler(Request(method, split.path, query, headers, body))
         except WebError as exc:
@@ -255,8 +258,10 @@ class RequestHandler(BaseHTTPRequestHandler):
         slot = stream is not None and self.server.stream_slot()
         if stream is not None and not slot:
             _close(stream)
-            stream, response = None, Response.json(
-                {"error": "too many open live views; close one and reload"}, 503)
+            stream, response = (
+                None,
+                Response.json({"error": "too many open live views; close one and reload"}, 503),
+            )
         try:
             self.send_response(response.status)
             self.send_header("Content-Type", response.content_type)
@@ -278,16 +283,16 @@ class RequestHandler(BaseHTTPRequestHandler):
             if method != "HEAD":
                 self.wfile.write(response.body)
         except OSError:  # the viewer went away, or stopped reading for the write timeout
-            log.debug("viewer went away during %s %s", method,
-                      hide_token(getattr(self, "path", "")))
+            log.debug(
+                "viewer went away during %s %s", method, hide_token(getattr(self, "path", ""))
+            )
         finally:
             if stream is not None:
                 _close(stream)
             if slot:
                 self.server.stream_done()
 
-    def send_error(self, code: int, message: str | None = None,
-                   explain: str | None = None) -> None:
+    def send_error(self, code: int, message: str | None = None, explain: str | None = None) -> None:
         """Errors found by the standard library's parsing (request line, headers) answer as
         the routes do: an HTTP/1.1 status line and a one-line JSON error."""
         self.request_version = "HTTP/1.1"

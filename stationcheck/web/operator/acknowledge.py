@@ -56,12 +56,17 @@ class AckInbox:
         applied = 0
         for press in self.take():
             out = decisions.last_output
-            waiting = (out is not None and out.guidance.kind == "acknowledge"
-                       and out.serial == press.serial and out.step_id == press.step)
+            waiting = (
+                out is not None
+                and out.guidance.kind == "acknowledge"
+                and out.serial == press.serial
+                and out.step_id == press.step
+            )
             if not waiting:
                 self.dropped += 1
-                logger.info("acknowledge for %s/%s dropped: the step moved on",
-                            press.serial, press.step)
+                logger.info(
+                    "acknowledge for %s/%s dropped: the step moved on", press.serial, press.step
+                )
                 continue
             decisions.apply(OperatorAck(t_s=t_s))
             self.applied += 1

@@ -58,8 +58,7 @@ class _Reader:
         self.thread.join(timeout=5)
 
 
-def _run_loop(frames: list[np.ndarray], feed: OperatorFeed | None,
-              paced: bool = False) -> float:
+def _run_loop(frames: list[np.ndarray], feed: OperatorFeed | None, paced: bool = False) -> float:
     """Loop frames/s, with ``feed`` as a step and frame sink if given; ``paced`` at 30 f/s."""
     from stationcheck.config import load_config
     from stationcheck.core.observations import UnitStarted
@@ -79,23 +78,31 @@ def _run_loop(frames: list[np.ndarray], feed: OperatorFeed | None,
     sinks: list[FrameSink] = [feed] if feed is not None else []
     if paced:
         sinks.append(RealTimePacer(1.0))
-    path = FramePath(plan, load_detector(config.model_path, threads=1), decisions,
-                     [StationImageJudge(StationJudgements.from_config(config))])
+    path = FramePath(
+        plan,
+        load_detector(config.model_path, threads=1),
+        decisions,
+        [StationImageJudge(StationJudgements.from_config(config))],
+    )
     schedule = InputSchedule([UnitStarted(t_s=0.0, serial="BENCH-000001")])
     stats = run_loop(MemoryFrameSource(frames, fps=CAMERA_FPS), path, schedule, sinks)
     return stats.wall_fps
 
 
-def _watched(plan: StationPlan, frames: list[np.ndarray],
-             paced: bool) -> tuple[float, float, np.ndarray]:
+def _watched(
+    plan: StationPlan, frames: list[np.ndarray], paced: bool
+) -> tuple[float, float, np.ndarray]:
     """Loop frames/s, pictures/s per screen and hand-over -> sent delays (ms) with
     :data:`SCREENS` screens connected."""
     from stationcheck.web.operator.screen import OperatorScreen
 
     screen = OperatorScreen.start(plan, mode="replay", port=0)
     host, port = screen.server.server_address[:2]
-    readers = [_Reader(str(host), int(port), path) for _ in range(SCREENS)
-               for path in ("/api/stream", "/api/video.mjpg")]
+    readers = [
+        _Reader(str(host), int(port), path)
+        for _ in range(SCREENS)
+        for path in ("/api/stream", "/api/video.mjpg")
+    ]
     try:
         started = time.perf_counter()
         fps = _run_loop(frames, screen.feed, paced)
@@ -123,14 +130,38 @@ def measure(options: BenchOptions) -> list[BenchRow]:
     p50 = float(np.percentile(sent, 50)) if sent.size else 0.0
     p99 = float(np.percentile(sent, 99)) if sent.size else 0.0
     return [
-        BenchRow(SECTION_NAME, "loop frames/s as fast as it can, no screen",
-                 float(np.median(alone)), None, "f/s", extra={"runs": float(ROUNDS)}),
-        BenchRow(SECTION_NAME, f"loop frames/s as fast as it can, {SCREENS} screens",
-                 float(np.median(watched)), None, "f/s", extra={"runs": float(ROUNDS)}),
-        BenchRow(SECTION_NAME, f"loop frames/s at {CAMERA_FPS:.0f} f/s, {SCREENS} screens",
-                 paced_fps, None, "f/s"),
-        BenchRow(SECTION_NAME, f"pictures/s of the slower screen at {CAMERA_FPS:.0f} f/s",
-                 per_screen, None, "p/s", PICTURES_TARGET),
-        BenchRow(SECTION_NAME, "hand-over -> picture written to a viewer", p50, p99, "ms",
-                 DELAY_TARGET),
+        BenchRow(
+            SECTION_NAME,
+            "loop frames/s as fast as it can, no screen",
+            float(np.median(alone)),
+            None,
+            "f/s",
+            extra={"runs": float(ROUNDS)},
+        ),
+        BenchRow(
+            SECTION_NAME,
+            f"loop frames/s as fast as it can, {SCREENS} screens",
+            float(np.median(watched)),
+            None,
+            "f/s",
+            extra={"runs": float(ROUNDS)},
+        ),
+        BenchRow(
+            SECTION_NAME,
+            f"loop frames/s at {CAMERA_FPS:.0f} f/s, {SCREENS} screens",
+            paced_fps,
+            None,
+            "f/s",
+        ),
+        BenchRow(
+            SECTION_NAME,
+            f"pictures/s of the slower screen at {CAMERA_FPS:.0f} f/s",
+            per_screen,
+            None,
+            "p/s",
+            PICTURES_TARGET,
+        ),
+        BenchRow(
+            SECTION_NAME, "hand-over -> picture written to a viewer", p50, p99, "ms", DELAY_TARGET
+        ),
     ]

@@ -74,10 +74,16 @@ class ScreenFrame:
 
 
 class OperatorFeed:
-    def __init__(self, plan: StationPlan, *, mode: ScreenMode = "live",
-                 decisions: DecisionCore | None = None, max_fps: float = DEFAULT_MAX_FPS,
-                 jpeg_quality: int = DEFAULT_JPEG_QUALITY,
-                 clock: Callable[[], float] = time.perf_counter) -> None:
+    def __init__(
+        self,
+        plan: StationPlan,
+        *,
+        mode: ScreenMode = "live",
+        decisions: DecisionCore | None = None,
+        max_fps: float = DEFAULT_MAX_FPS,
+        jpeg_quality: int = DEFAULT_JPEG_QUALITY,
+        clock: Callable[[], float] = time.perf_counter,
+    ) -> None:
         if max_fps <= 0:
             raise ValueError(f"OperatorFeed.max_fps must be > 0, got {max_fps}")
         if not 1 <= jpeg_quality <= 100:
@@ -121,16 +127,21 @@ class OperatorFeed:
 
     def on_frame(self, result: FrameResult) -> None:
         output = result.output
-        if self.decisions is not None and self.acks.apply_pending(self.decisions,
-                                                                  result.frame.t_s):
+        if self.decisions is not None and self.acks.apply_pending(self.decisions, result.frame.t_s):
             output = self.decisions.last_output or output
         try:
             pose = result.pose
-            view = self.views.view(output, frame_index=result.frame.index,
-                                   t_s=result.frame.t_s, tip_px=pose.tip_px,
-                                   rear_px=pose.rear_px, tip_seen=pose.seen)
-            handed = _Handed(result.frame.image, view, tuple(self.recent.active(view.t_s)),
-                             self.clock())
+            view = self.views.view(
+                output,
+                frame_index=result.frame.index,
+                t_s=result.frame.t_s,
+                tip_px=pose.tip_px,
+                rear_px=pose.rear_px,
+                tip_seen=pose.seen,
+            )
+            handed = _Handed(
+                result.frame.image, view, tuple(self.recent.active(view.t_s)), self.clock()
+            )
         except Exception:  # the screen must never stop the station
             if not self._warned:
                 logger.exception("operator screen: cannot build the view of a frame")
@@ -169,7 +180,8 @@ class OperatorFeed:
         with self._published:
             self._published.wait_for(
                 lambda: self.closed or (self._latest is not None and self._latest.seq > seq),
-                timeout_s)
+                timeout_s,
+            )
             latest = self._latest
         if self.closed or latest is None or latest.seq <= seq:
             return None
@@ -202,7 +214,8 @@ class OperatorFeed:
             with self._published:
                 self._published.wait_for(
                     lambda: self._latest is not None and "ended" in self._latest.steady,
-                    ended_draw_s)
+                    ended_draw_s,
+                )
         self._closed.set()
         self._wake.set()
         with self._published:
@@ -240,17 +253,29 @@ class OperatorFeed:
 
     def _render(self, handed: _Handed, pictures: bool) -> ScreenFrame:
         view = handed.view
-        steady = steady_state(view, self.wording, mode=self.mode,
-                              recent=list(handed.recent_alarms),
-                              acks_allowed=self.decisions is not None, ended=self.ended)
+        steady = steady_state(
+            view,
+            self.wording,
+            mode=self.mode,
+            recent=list(handed.recent_alarms),
+            acks_allowed=self.decisions is not None,
+            ended=self.ended,
+        )
         steady["picture"] = picture_state(self.picture)
         jpeg = self._picture(handed) if pictures else None
         self._seq += 1
         ready = self.clock()
         self.frames_rendered += 1
-        return ScreenFrame(self._seq, view.frame_index, steady,
-                           json.dumps(steady, separators=(",", ":")),
-                           tick_state(view, self._seq), jpeg, handed.handed_at_s, ready)
+        return ScreenFrame(
+            self._seq,
+            view.frame_index,
+            steady,
+            json.dumps(steady, separators=(",", ":")),
+            tick_state(view, self._seq),
+            jpeg,
+            handed.handed_at_s,
+            ready,
+        )
 
     def _picture(self, handed: _Handed) -> bytes:
         image = handed.image.copy()

@@ -14,8 +14,13 @@ from stationcheck.pipeline.frame_path import FrameResult
 
 
 class RealTimePacer:
-    def __init__(self, speed: float = 1.0, *, clock: Callable[[], float] = time.perf_counter,
-                 sleep: Callable[[float], None] = time.sleep) -> None:
+    def __init__(
+        self,
+        speed: float = 1.0,
+        *,
+        clock: Callable[[], float] = time.perf_counter,
+        sleep: Callable[[float], None] = time.sleep,
+    ) -> None:
         if not speed > 0:
             raise ValueError(f"RealTimePacer.speed must be > 0, got {speed}")
         self.speed = speed

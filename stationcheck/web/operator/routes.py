@@ -85,12 +85,16 @@ def add_operator_routes(router: Router, feed: OperatorFeed) -> None:
     add_common_files(router)
 
     def stream(request: Request) -> Response:
-        return Response(200, content_type="text/event-stream; charset=utf-8",
-                        stream=state_events(feed))
+        return Response(
+            200, content_type="text/event-stream; charset=utf-8", stream=state_events(feed)
+        )
 
     def video(request: Request) -> Response:
-        return Response(200, content_type=f"multipart/x-mixed-replace; boundary={BOUNDARY}",
-                        stream=picture_stream(feed))
+        return Response(
+            200,
+            content_type=f"multipart/x-mixed-replace; boundary={BOUNDARY}",
+            stream=picture_stream(feed),
+        )
 
     def frame(request: Request) -> Response:
         jpeg = feed.snapshot_jpeg()
@@ -106,8 +110,11 @@ def add_operator_routes(router: Router, feed: OperatorFeed) -> None:
 
     def ack(request: Request) -> Response:
         if feed.decisions is None:
-            raise WebError(403, "acknowledge is not possible here: "
-                                "a replay takes its acknowledges from the recording")
+            raise WebError(
+                403,
+                "acknowledge is not possible here: "
+                "a replay takes its acknowledges from the recording",
+            )
         body = request.json()
         if not isinstance(body, dict):
             raise WebError(400, "expected a JSON object with serial and step")
@@ -117,8 +124,12 @@ def add_operator_routes(router: Router, feed: OperatorFeed) -> None:
             raise WebError(400, str(exc)) from exc
         latest = feed.latest
         wanted = latest.steady["ack"] if latest is not None else None
-        if (not wanted or not wanted["needed"] or wanted["serial"] != press.serial
-                or wanted["step"] != press.step):
+        if (
+            not wanted
+            or not wanted["needed"]
+            or wanted["serial"] != press.serial
+            or wanted["step"] != press.step
+        ):
             raise WebError(409, "nothing to acknowledge now: the step has moved on")
         feed.acks.post(press)
         return Response.json({"accepted": True}, 202)

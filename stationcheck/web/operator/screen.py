@@ -33,9 +33,16 @@ class OperatorScreen:
         self.server = server
 
     @classmethod
-    def start(cls, plan: StationPlan, *, mode: ScreenMode, host: str = "127.0.0.1",
-              port: int = DEFAULT_SCREEN_PORT, token: str | None = None,
-              host_names: tuple[str, ...] = ()) -> OperatorScreen:
+    def start(
+        cls,
+        plan: StationPlan,
+        *,
+        mode: ScreenMode,
+        host: str = "127.0.0.1",
+        port: int = DEFAULT_SCREEN_PORT,
+        token: str | None = None,
+        host_names: tuple[str, ...] = (),
+    ) -> OperatorScreen:
         feed = OperatorFeed(plan, mode=mode)
         try:
             server = start_server(operator_router(feed), host, port, token, host_names)
@@ -82,8 +89,11 @@ class ScreenWiring:
             interactive = sys.stdin.isatty()
         if self.screen is None or not interactive:
             return
-        print(f"The operator screen stays at {self.screen.url} (Ctrl-C stops it)",
-              file=sys.stderr, flush=True)
+        print(
+            f"The operator screen stays at {self.screen.url} (Ctrl-C stops it)",
+            file=sys.stderr,
+            flush=True,
+        )
         try:
             self.screen.server.wait()
         except KeyboardInterrupt:
@@ -97,8 +107,9 @@ def _plan(config_path: Path) -> StationPlan:
 
 
 @contextmanager
-def command_screen(args: argparse.Namespace, config_path: Path,
-                   mode: ScreenMode) -> Iterator[ScreenWiring]:
+def command_screen(
+    args: argparse.Namespace, config_path: Path, mode: ScreenMode
+) -> Iterator[ScreenWiring]:
     """The screen asked for on the command line (``--screen``), closed at the end.
 
     A replay gets the feed and, with a pace, a :class:`RealTimePacer` as ``watchers`` (sinks
@@ -107,10 +118,14 @@ def command_screen(args: argparse.Namespace, config_path: Path,
     wiring = ScreenWiring()
     speed = pace_speed(args) if mode == "replay" else None
     if args.screen:
-        wiring.screen = OperatorScreen.start(_plan(config_path), mode=mode,
-                                             host=args.screen_host, port=args.screen_port,
-                                             token=args.screen_token,
-                                             host_names=tuple(getattr(args, "screen_allow_host", ())))
+        wiring.screen = OperatorScreen.start(
+            _plan(config_path),
+            mode=mode,
+            host=args.screen_host,
+            port=args.screen_port,
+            token=args.screen_token,
+            host_names=tuple(getattr(args, "screen_allow_host", ())),
+        )
         if mode == "replay":
             wiring.watchers.append(wiring.screen.feed)
     if speed is not None:

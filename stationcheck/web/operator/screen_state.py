@@ -25,8 +25,12 @@ EVENT_ALARM_SHOWN_S = 8.0
 # the screen's own words for an enable reason, where the station view's differ
 SCREEN_REASON_WORDS = {"no_unit": "no unit on the station"}
 # the tool once the station program has stopped: off, whatever the last frame said
-ENDED_TOOL = {"enabled": False, "meaning": "neutral", "words": "TOOL OFF",
-              "reason": "the station program is not running"}
+ENDED_TOOL = {
+    "enabled": False,
+    "meaning": "neutral",
+    "words": "TOOL OFF",
+    "reason": "the station program is not running",
+}
 POSITION_MEANING: dict[str, tuple[Meaning, str]] = {
     "enabled": ("normal", "ON"),
     "retry": ("abnormal", "AGAIN"),
@@ -79,8 +83,12 @@ def alarms_shown(view: StationView, recent: list[str]) -> list[dict[str, str]]:
 def _tool(view: StationView) -> dict[str, Any]:
     on = view.output.tool_enabled
     reason = SCREEN_REASON_WORDS.get(view.output.enable_reason, view.enable_reason_words)
-    return {"enabled": on, "meaning": view.enable_meaning,
-            "words": "TOOL ON" if on else "TOOL OFF", "reason": reason}
+    return {
+        "enabled": on,
+        "meaning": view.enable_meaning,
+        "words": "TOOL ON" if on else "TOOL OFF",
+        "reason": reason,
+    }
 
 
 def _positions(view: StationView, wording: Wording) -> tuple[list[dict[str, Any]], int, int]:
@@ -95,13 +103,24 @@ def _positions(view: StationView, wording: Wording) -> tuple[list[dict[str, Any]
     last = view.last_tightening
     for zone in current.zones:
         state = fastener_state(view, zone)
-        if state in ("enabled", "target") and last is not None and not last.ok \
-                and last.zone == zone:
+        if (
+            state in ("enabled", "target")
+            and last is not None
+            and not last.ok
+            and last.zone == zone
+        ):
             state = "retry"  # its last attempt was NOK: never a tick beside it
         meaning, word = POSITION_MEANING[state]
-        rows.append({"zone": zone, "name": wording.position_names.get(zone, zone),
-                     "label": wording.label(zone), "state": state, "meaning": meaning,
-                     "word": word})
+        rows.append(
+            {
+                "zone": zone,
+                "name": wording.position_names.get(zone, zone),
+                "label": wording.label(zone),
+                "state": state,
+                "meaning": meaning,
+                "word": word,
+            }
+        )
     done = sum(1 for zone in current.zones if zone in view.done_zones)
     return rows, done, len(current.zones)
 
@@ -110,11 +129,16 @@ def _last_result(view: StationView, wording: Wording) -> dict[str, Any] | None:
     result = view.last_tightening
     if result is None:
         return None
-    return {"position": wording.position_names.get(result.zone, result.zone),
-            "label": wording.label(result.zone), "ok": result.ok,
-            "word": "OK" if result.ok else "NOK", "meaning": "normal" if result.ok else "fault",
-            "torque_nm": result.torque_nm, "angle_deg": result.angle_deg,
-            "attempt": result.attempt}
+    return {
+        "position": wording.position_names.get(result.zone, result.zone),
+        "label": wording.label(result.zone),
+        "ok": result.ok,
+        "word": "OK" if result.ok else "NOK",
+        "meaning": "normal" if result.ok else "fault",
+        "torque_nm": result.torque_nm,
+        "angle_deg": result.angle_deg,
+        "attempt": result.attempt,
+    }
 
 
 def _unit(view: StationView, done: int, total: int) -> dict[str, Any] | None:
@@ -125,23 +149,42 @@ def _unit(view: StationView, done: int, total: int) -> dict[str, Any] | None:
     last = view.last_unit
     result = None
     if not running and last is not None and last.serial == out.serial:
-        result = {"word": last.result,  # OK, NOK or aborted (core.result_words)
-                  "meaning": "normal" if last.released else "fault"}
-    return {"serial": out.serial, "rework": out.rework, "running": running,
-            "step": f"Step {out.step_number} of {out.step_count}" if out.step_count else "",
-            "done": done, "total": total, "result": result}
+        result = {
+            "word": last.result,  # OK, NOK or aborted (core.result_words)
+            "meaning": "normal" if last.released else "fault",
+        }
+    return {
+        "serial": out.serial,
+        "rework": out.rework,
+        "running": running,
+        "step": f"Step {out.step_number} of {out.step_count}" if out.step_count else "",
+        "done": done,
+        "total": total,
+        "result": result,
+    }
 
 
 def _ack(view: StationView, wording: Wording, acks_allowed: bool) -> dict[str, Any]:
     step = wording.steps.get(view.output.step_id or "")
     needed = view.output.guidance.kind == "acknowledge" and isinstance(step, ConfirmStep)
-    return {"needed": needed, "allowed": needed and acks_allowed,
-            "serial": view.output.serial, "step": view.output.step_id,
-            "why_not": "" if acks_allowed else "replay: acknowledges come from the recording"}
+    return {
+        "needed": needed,
+        "allowed": needed and acks_allowed,
+        "serial": view.output.serial,
+        "step": view.output.step_id,
+        "why_not": "" if acks_allowed else "replay: acknowledges come from the recording",
+    }
 
 
-def steady_state(view: StationView, wording: Wording, *, mode: str, recent: list[str],
-                 acks_allowed: bool, ended: str | None = None) -> dict[str, Any]:
+def steady_state(
+    view: StationView,
+    wording: Wording,
+    *,
+    mode: str,
+    recent: list[str],
+    acks_allowed: bool,
+    ended: str | None = None,
+) -> dict[str, Any]:
     """``ended``: why the run ended (it did when given); the tool then shows off and no
     acknowledge can be pressed."""
     instruction = wording.instruction(view, mode)
@@ -149,8 +192,12 @@ def steady_state(view: StationView, wording: Wording, *, mode: str, recent: list
     state: dict[str, Any] = {
         "mode": mode,
         "station": wording.plan.station,
-        "instruction": {"kind": instruction.kind, "text": instruction.text,
-                        "detail": instruction.detail, "meaning": instruction.meaning},
+        "instruction": {
+            "kind": instruction.kind,
+            "text": instruction.text,
+            "detail": instruction.detail,
+            "meaning": instruction.meaning,
+        },
         "tool": _tool(view),
         "unit": _unit(view, done, total),
         "positions": positions,
@@ -176,14 +223,24 @@ def picture_state(obs: PictureState | None) -> dict[str, Any] | None:
         meaning, words = "fault", "Cannot judge bins and checks: picture too poor"
     else:
         meaning, words = "normal", "Picture good enough to judge"
-    return {"meaning": meaning, "words": words, "reason": obs.reason,
-            "figures": [["brightness", f"{obs.brightness:.0f}"],
-                        ["contrast", f"{obs.contrast:.0f}"],
-                        ["noise", f"{obs.noise_sigma:.1f}"],
-                        ["sharpness", f"{obs.sharpness:.0f}"],
-                        ["blockiness", f"{obs.blockiness:.2f}"]]}
+    return {
+        "meaning": meaning,
+        "words": words,
+        "reason": obs.reason,
+        "figures": [
+            ["brightness", f"{obs.brightness:.0f}"],
+            ["contrast", f"{obs.contrast:.0f}"],
+            ["noise", f"{obs.noise_sigma:.1f}"],
+            ["sharpness", f"{obs.sharpness:.0f}"],
+            ["blockiness", f"{obs.blockiness:.2f}"],
+        ],
+    }
 
 
 def tick_state(view: StationView, seq: int) -> dict[str, Any]:
-    return {"seq": seq, "frame": view.frame_index, "t_s": round(view.t_s, 3),
-            "tip_seen": view.tip_seen}
+    return {
+        "seq": seq,
+        "frame": view.frame_index,
+        "t_s": round(view.t_s, 3),
+        "tip_seen": view.tip_seen,
+    }

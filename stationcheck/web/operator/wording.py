@@ -25,46 +25,86 @@ from stationcheck.pipeline.station_view import (
 # is the station view's (ALARM_WORDS), the same as on the annotated video.
 CONDITION_WORDS: dict[str, tuple[str, str]] = {
     "camera_moved": ("Camera moved", "Call setup to put the camera back and check it."),
-    "camera_unchecked": ("Picture too dark or too noisy to check the camera",
-                         "Check the light and the lens. The tool stays off."),
-    "cannot_judge": ("Cannot judge the bins and checks: the picture is too poor",
-                     "Check the light, lens and picture settings. The tool stays off."),
+    "camera_unchecked": (
+        "Picture too dark or too noisy to check the camera",
+        "Check the light and the lens. The tool stays off.",
+    ),
+    "cannot_judge": (
+        "Cannot judge the bins and checks: the picture is too poor",
+        "Check the light, lens and picture settings. The tool stays off.",
+    ),
     "detector_fault": ("Tool detection failed", "Call setup. The tool stays off."),
-    "frame_stale": ("No fresh camera image",
-                    "Check the camera cable and light, then call maintenance."),
+    "frame_stale": (
+        "No fresh camera image",
+        "Check the camera cable and light, then call maintenance.",
+    ),
     "link_lost": ("PLC link lost", "Call maintenance. The tool stays off."),
     "tool_lost": ("Tool not seen", "Bring the tool back into view of the camera."),
     "wrong_position": ("Wrong position", "Move the tool to the marked position."),
     "wrong_bin": ("Wrong bin", "Put the part back; take it from the marked bin."),
-    "image_frozen": ("Camera picture frozen",
-                     "Check the camera and its cable, then call maintenance."),
-    "run_too_long": ("Tool ran too long",
-                     "Let go of the trigger. If the tool keeps running, call maintenance."),
+    "image_frozen": (
+        "Camera picture frozen",
+        "Check the camera and its cable, then call maintenance.",
+    ),
+    "run_too_long": (
+        "Tool ran too long",
+        "Let go of the trigger. If the tool keeps running, call maintenance.",
+    ),
 }
 # one-off alarms: shown for a while after they happened
 EVENT_ALARMS: dict[str, tuple[Meaning, str, str]] = {
-    "result_without_enable": ("fault", "Tightening result without enable",
-                              "It does not count. Call your team leader."),
-    "ran_while_inhibited": ("fault", "The tool ran while it was off",
-                            "Call your team leader to check the tool."),
-    "unit_interrupted": ("abnormal", "A new unit came before this one was finished",
-                         "The unfinished unit goes to rework."),
-    "rework_nothing_to_do": ("abnormal", "Rework asked, but nothing is left to do",
-                             "Check the serial with your team leader."),
-    "run_without_result": ("abnormal", "The tool ran but sent no result",
-                           "Fasten the position again."),
-    "result_outside_limits": ("abnormal", "OK result outside the torque or angle limits",
-                              "Tell quality if it happens again."),
-    "check_failed": ("fault", "Check acknowledged without passing",
-                     "The unit is not released; it goes to rework."),
-    "tip_left_during_run": ("fault", "The tool left the position while running",
-                            "Check that fastener; fasten it again if asked."),
-    "result_of_cut_run": ("abnormal", "Result of a tightening that was cut off",
-                          "Check that fastener; fasten it again if asked."),
+    "result_without_enable": (
+        "fault",
+        "Tightening result without enable",
+        "It does not count. Call your team leader.",
+    ),
+    "ran_while_inhibited": (
+        "fault",
+        "The tool ran while it was off",
+        "Call your team leader to check the tool.",
+    ),
+    "unit_interrupted": (
+        "abnormal",
+        "A new unit came before this one was finished",
+        "The unfinished unit goes to rework.",
+    ),
+    "rework_nothing_to_do": (
+        "abnormal",
+        "Rework asked, but nothing is left to do",
+        "Check the serial with your team leader.",
+    ),
+    "run_without_result": (
+        "abnormal",
+        "The tool ran but sent no result",
+        "Fasten the position again.",
+    ),
+    "result_outside_limits": (
+        "abnormal",
+        "OK result outside the torque or angle limits",
+        "Tell quality if it happens again.",
+    ),
+    "check_failed": (
+        "fault",
+        "Check acknowledged without passing",
+        "The unit is not released; it goes to rework.",
+    ),
+    "tip_left_during_run": (
+        "fault",
+        "The tool left the position while running",
+        "Check that fastener; fasten it again if asked.",
+    ),
+    "result_of_cut_run": (
+        "abnormal",
+        "Result of a tightening that was cut off",
+        "Check that fastener; fasten it again if asked.",
+    ),
 }
 # what a check zone was last judged, in the screen's words
-CHECK_SEEN = {"present": "in place", "absent": "not there",
-              "undecided": "not clear yet: keep it in view"}
+CHECK_SEEN = {
+    "present": "in place",
+    "absent": "not there",
+    "undecided": "not clear yet: keep it in view",
+}
 # A NOK with an attempt left is abnormal (IEC 60073 yellow: the operator puts it right here);
 # a position left for rework is a fault (red: the unit will not be released as it is).
 NOK_RETRY_MEANING: Meaning = "abnormal"
@@ -143,12 +183,19 @@ class Wording:
         next step's instruction waits ``NOK_SHOWN_S`` behind the NOK, named in the detail."""
         said = self._instruction(view, mode)
         last = view.last_tightening
-        if (said.kind in ("take_part", "check", "acknowledge") and last is not None
-                and not last.ok and last.zone in view.failed_zones
-                and 0.0 <= view.t_s - last.t_s <= NOK_SHOWN_S):
-            return Instruction("nok_left", f"NOK at {self.position(last.zone)}: left for rework",
-                               f"{_sentence(nok_reason(last))} · next: {said.text}",
-                               NOK_LEFT_MEANING)
+        if (
+            said.kind in ("take_part", "check", "acknowledge")
+            and last is not None
+            and not last.ok
+            and last.zone in view.failed_zones
+            and 0.0 <= view.t_s - last.t_s <= NOK_SHOWN_S
+        ):
+            return Instruction(
+                "nok_left",
+                f"NOK at {self.position(last.zone)}: left for rework",
+                f"{_sentence(nok_reason(last))} · next: {said.text}",
+                NOK_LEFT_MEANING,
+            )
         return said
 
     def _instruction(self, view: StationView, mode: str) -> Instruction:
@@ -171,36 +218,46 @@ class Wording:
             return Instruction(kind, f"{verb} {self.position(target)}", detail, meaning)
         if kind == "wrong_position" and target is not None:
             here = self.position(view.wrong_zone) if view.wrong_zone else "another position"
-            return Instruction(kind, f"Wrong position: go to {self.position(target)}",
-                               f"The tool is at {here}.", meaning)
+            return Instruction(
+                kind,
+                f"Wrong position: go to {self.position(target)}",
+                f"The tool is at {here}.",
+                meaning,
+            )
         if kind in ("take_part", "wrong_bin") and guidance.target is not None:
             text = self.take_from(guidance.target, out.step_id)
             if kind == "wrong_bin":
-                return Instruction(kind, f"Wrong bin. {text}",
-                                   f"Activity seen at the {self.label(view.wrong_bin)}.",
-                                   meaning)
-            return Instruction(kind, text, f"Step {out.step_number} of {out.step_count}",
-                               meaning)
+                return Instruction(
+                    kind,
+                    f"Wrong bin. {text}",
+                    f"Activity seen at the {self.label(view.wrong_bin)}.",
+                    meaning,
+                )
+            return Instruction(kind, text, f"Step {out.step_number} of {out.step_count}", meaning)
         if kind == "check" and isinstance(step, CheckStep):
             seen = CHECK_SEEN.get(view.check_verdict or "", "not judged yet")
-            return Instruction(kind, self.check_action(step),
-                               f"{self.label(step.zone)}: {seen}", meaning)
+            return Instruction(
+                kind, self.check_action(step), f"{self.label(step.zone)}: {seen}", meaning
+            )
         if kind == "acknowledge" and isinstance(step, ConfirmStep):
-            how = ("Then press ACKNOWLEDGE." if mode == "live"
-                   else "Replay: the acknowledge comes from the recording.")
+            how = (
+                "Then press ACKNOWLEDGE."
+                if mode == "live"
+                else "Replay: the acknowledge comes from the recording."
+            )
             return Instruction(kind, step.prompt.rstrip("."), how, meaning)
         if kind == "show_tool":
             where = f" at {self.position(target)}" if target else ""
-            return Instruction(kind, "Bring the tool back into view",
-                               f"Then continue{where}.", meaning)
+            return Instruction(
+                kind, "Bring the tool back into view", f"Then continue{where}.", meaning
+            )
         if kind == "inhibited":
             return Instruction(kind, "Tool off: station fault", self._fault_words(view), meaning)
         if kind == "unit_finished":
             return self._finished(view)
         return Instruction(kind, "Waiting for the next unit", "Load a unit to start.", meaning)
 
-    def _after_nok(self, view: StationView, target: str,
-                   attempt: str) -> Instruction | None:
+    def _after_nok(self, view: StationView, target: str, attempt: str) -> Instruction | None:
         """The headline while the unit's newest tightening is a NOK: what failed and what to
         do now (fasten it again, or go on and leave it for rework)."""
         last = view.last_tightening
@@ -210,10 +267,15 @@ class Wording:
         why = _sentence(nok_reason(last))
         if target == last.zone:
             detail = f"{why} · {attempt}" if attempt else why
-            return Instruction("nok_retry", f"NOK at {where}: fasten it again", detail,
-                               NOK_RETRY_MEANING)
-        return Instruction("nok_left", f"NOK at {where}: go on to {self.position(target)}",
-                           f"{why} · {where} is left for rework", NOK_LEFT_MEANING)
+            return Instruction(
+                "nok_retry", f"NOK at {where}: fasten it again", detail, NOK_RETRY_MEANING
+            )
+        return Instruction(
+            "nok_left",
+            f"NOK at {where}: go on to {self.position(target)}",
+            f"{why} · {where} is left for rework",
+            NOK_LEFT_MEANING,
+        )
 
     def _attempt_words(self, view: StationView) -> str:
         out = view.output
@@ -238,24 +300,42 @@ class Wording:
         if unit is None:
             return Instruction("unit_finished", "Waiting for the next unit", "", meaning)
         if unit.released:
-            return Instruction("unit_finished", f"Unit {unit.serial} OK",
-                               "Released. Waiting for the next unit.", meaning)
+            return Instruction(
+                "unit_finished",
+                f"Unit {unit.serial} OK",
+                "Released. Waiting for the next unit.",
+                meaning,
+            )
         if unit.result != "NOK":  # aborted, or replaced by the next unit before it ended
-            return Instruction("unit_finished", f"Unit {unit.serial} {unit.result}",
-                               view.output.guidance.words, meaning)
+            return Instruction(
+                "unit_finished",
+                f"Unit {unit.serial} {unit.result}",
+                view.output.guidance.words,
+                meaning,
+            )
         if unit.failed_zones:
             places = ", ".join(self.position(z) for z in unit.failed_zones)
-            return Instruction("unit_finished", f"Unit {unit.serial} NOK: to rework",
-                               f"Not released. Rework needed at {places}.", meaning)
+            return Instruction(
+                "unit_finished",
+                f"Unit {unit.serial} NOK: to rework",
+                f"Not released. Rework needed at {places}.",
+                meaning,
+            )
         said = view.output.guidance.words
         prefix = f"Unit {unit.serial} not released: "
         why = said.removeprefix(prefix)
-        return Instruction("unit_finished", f"Unit {unit.serial} NOK: to rework",
-                           f"Not released: {why}", meaning)
+        return Instruction(
+            "unit_finished", f"Unit {unit.serial} NOK: to rework", f"Not released: {why}", meaning
+        )
 
 
-def _limit_words(name: str, value: float | None, limits: tuple[float | None, float | None],
-                 unit: str, digits: int) -> str | None:
+def _limit_words(
+    name: str,
+    value: float | None,
+    limits: tuple[float | None, float | None],
+    unit: str,
+    digits: int,
+) -> str | None:
     low, high = limits
     if value is None:
         return None
@@ -269,10 +349,14 @@ def _limit_words(name: str, value: float | None, limits: tuple[float | None, flo
 def nok_reason(result: TighteningShown) -> str:
     """Why a tightening is NOK, from its values and the step's limits; the controller's word
     when the values are inside them (the controller's verdict stays authoritative)."""
-    found = [words for words in (
-        _limit_words("torque", result.torque_nm, result.torque_limits_nm, " Nm", 2),
-        _limit_words("angle", result.angle_deg, result.angle_limits_deg, "°", 1),
-    ) if words]
+    found = [
+        words
+        for words in (
+            _limit_words("torque", result.torque_nm, result.torque_limits_nm, " Nm", 2),
+            _limit_words("angle", result.angle_deg, result.angle_limits_deg, "°", 1),
+        )
+        if words
+    ]
     return ", ".join(found) if found else "the tightening controller reported NOK"
 
 

@@ -16,8 +16,9 @@ from stationcheck.config.parts import parts_of_data
 from stationcheck.core import bolt_pattern
 
 
-def check_for_page(data: dict[str, Any], base_dir: Path, source: str,
-                   extra: Sequence[dict[str, Any]] = ()) -> dict[str, Any]:
+def check_for_page(
+    data: dict[str, Any], base_dir: Path, source: str, extra: Sequence[dict[str, Any]] = ()
+) -> dict[str, Any]:
     """The page's check; ``extra`` adds findings only the screen makes (teaching quality)."""
     result = check_data(data, base_dir=base_dir, source=source)
     parts = result.parts if result.parts is not None else parts_of_data(data)
@@ -34,8 +35,9 @@ def check_for_page(data: dict[str, Any], base_dir: Path, source: str,
         }
         for zone in parts.zones
     ]
-    findings = [{**finding.to_json(), "where": list(finding.path)}
-                for finding in result.findings] + list(extra)
+    findings = [
+        {**finding.to_json(), "where": list(finding.path)} for finding in result.findings
+    ] + list(extra)
     warnings = len(result.warnings) + sum(1 for f in extra if f["severity"] == "warning")
     summary = result.summary()
     if extra and result.ok:
@@ -83,19 +85,29 @@ def bolt_circle_zones(request: dict[str, Any]) -> dict[str, Any]:
     polygons = bolt_pattern.bolt_circle_zones_px(centre, radius_px, count, start_deg, size)
     ids = [f"{prefix}{n}" for n in range(1, count + 1)]
     zones = [
-        {"id": zone_id, "kind": "fastener",
-         **({"label": f"{label_prefix} {n}"} if label_prefix else {}),
-         "polygon": [[round(x, 1), round(y, 1)] for x, y in polygon]}
+        {
+            "id": zone_id,
+            "kind": "fastener",
+            **({"label": f"{label_prefix} {n}"} if label_prefix else {}),
+            "polygon": [[round(x, 1), round(y, 1)] for x, y in polygon],
+        }
         for n, (zone_id, polygon) in enumerate(zip(ids, polygons, strict=True), start=1)
     ]
     cross = bolt_pattern.apply_order(ids, bolt_pattern.cross_order(count))
-    return {"zones": zones, "cross_order": cross, "radius_px": round(radius_px, 1),
-            "start_angle_deg": round(start_deg, 1)}
+    return {
+        "zones": zones,
+        "cross_order": cross,
+        "radius_px": round(radius_px, 1),
+        "start_angle_deg": round(start_deg, 1),
+    }
 
 
 def _point(value: Any, name: str) -> tuple[float, float]:
-    if (not isinstance(value, list) or len(value) != 2 or not all(
-            isinstance(v, int | float) and not isinstance(v, bool) for v in value)):
+    if (
+        not isinstance(value, list)
+        or len(value) != 2
+        or not all(isinstance(v, int | float) and not isinstance(v, bool) for v in value)
+    ):
         raise ValueError(f"{name} must be [x, y]")
     return float(value[0]), float(value[1])
 

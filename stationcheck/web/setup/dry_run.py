@@ -75,8 +75,9 @@ class DryRunRecorder:
         if step.output.tool_enabled != self._enabled:
             self._enabled = step.output.tool_enabled
             words = "on" if self._enabled else f"off ({step.output.enable_reason})"
-            self.timeline.append({"t_s": round(step.output.t_s, 3), "kind": "enable",
-                                  "text": f"tool enable {words}"})
+            self.timeline.append(
+                {"t_s": round(step.output.t_s, 3), "kind": "enable", "text": f"tool enable {words}"}
+            )
 
     def on_frame(self, result: FrameResult) -> None:
         if result.frame.t_s < self.draw_from_s - 1e-6:
@@ -86,9 +87,14 @@ class DryRunRecorder:
         if result.frame.index % self.every:
             return
         pose = result.pose
-        view = self.views.view(result.output, frame_index=result.frame.index,
-                               t_s=result.frame.t_s, tip_px=pose.tip_px, rear_px=pose.rear_px,
-                               tip_seen=pose.seen)
+        view = self.views.view(
+            result.output,
+            frame_index=result.frame.index,
+            t_s=result.frame.t_s,
+            tip_px=pose.tip_px,
+            rear_px=pose.rear_px,
+            tip_seen=pose.seen,
+        )
         canvas = self.annotator.annotate(result.frame.image, view)
         ok, encoded = cv2.imencode(".jpg", canvas, [cv2.IMWRITE_JPEG_QUALITY, JPEG_QUALITY])
         if not ok:
@@ -109,9 +115,11 @@ def describe_picture(obs: PictureState) -> dict[str, Any]:
         verdict = f"cannot judge bins and checks ({obs.reason})"
     else:
         verdict = "good enough to judge"
-    text = (f"picture {verdict}: brightness {obs.brightness:.0f}, contrast {obs.contrast:.0f}, "
-            f"noise {obs.noise_sigma:.1f}, sharpness {obs.sharpness:.0f}, "
-            f"blockiness {obs.blockiness:.2f}")
+    text = (
+        f"picture {verdict}: brightness {obs.brightness:.0f}, contrast {obs.contrast:.0f}, "
+        f"noise {obs.noise_sigma:.1f}, sharpness {obs.sharpness:.0f}, "
+        f"blockiness {obs.blockiness:.2f}"
+    )
     return {"t_s": round(obs.t_s, 3), "kind": "picture", "text": text}
 
 
@@ -143,8 +151,11 @@ def usable_config(data: dict[str, Any], base_dir: Path) -> StationConfig:
     result = check_data(data, base_dir=base_dir)
     if result.config is None:
         first = result.errors[0]
-        raise WebError(400, f"fix the config first ({len(result.errors)} error(s)); "
-                            f"{first.path_text}: {first.message}")
+        raise WebError(
+            400,
+            f"fix the config first ({len(result.errors)} error(s)); "
+            f"{first.path_text}: {first.message}",
+        )
     return result.config
 
 
@@ -172,16 +183,21 @@ def run_dry(config: StationConfig, request: DryRunRequest) -> DryRunRecorder:
     probe.close()
     from_s = lead_in_start_s(inputs, request.start_s)
     first_frame = round(from_s * fps)
-    source = VideoFileSource(request.video, first_frame=first_frame, max_frames=max(
-        1, round((request.start_s + request.seconds - from_s) * fps)))
+    source = VideoFileSource(
+        request.video,
+        first_frame=first_frame,
+        max_frames=max(1, round((request.start_s + request.seconds - from_s) * fps)),
+    )
     try:
         detector = load_detector(config.model_path, threads=config.model.threads)
         judges = [StationImageJudge(StationJudgements.from_config(config))]
         step_log = MemoryStepLog()
         recorder = DryRunRecorder(plan, request.every, draw_from_s=request.start_s)
         decisions = DecisionCore(
-            plan, rework_lookup=lambda serial: rework_positions_from_log(step_log, serial),
-            sinks=[StepLogSink(step_log), recorder])
+            plan,
+            rework_lookup=lambda serial: rework_positions_from_log(step_log, serial),
+            sinks=[StepLogSink(step_log), recorder],
+        )
         schedule = InputSchedule(inputs)
         schedule.skip_before(first_frame / fps)
         run_loop(source, FramePath(plan, detector, decisions, judges), schedule, [recorder])
@@ -219,7 +235,7 @@ class DryRunStore:
         with self._lock:
             run_id = next(self._ids)
             self.runs[run_id] = frames
-            for old in sorted(self.runs)[:-self.keep]:
+            for old in sorted(self.runs)[: -self.keep]:
                 del self.runs[old]
             return run_id
 

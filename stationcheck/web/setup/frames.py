@@ -48,8 +48,13 @@ class FrameRequest:
             raise WebError(400, f"count must be a whole number from 1 to {MAX_SAMPLES}")
         if kind == "video":
             video = session.existing_file(str(body.get("video") or ""), "video file")
-            return cls("video", video=video, at_s=_number(body.get("at_s", 0.0), "at_s"),
-                       count=int(count), every_s=every_s)
+            return cls(
+                "video",
+                video=video,
+                at_s=_number(body.get("at_s", 0.0), "at_s"),
+                count=int(count),
+                every_s=every_s,
+            )
         if kind == "camera":
             index = body.get("camera", 0)
             if not isinstance(index, int) or isinstance(index, bool) or not 0 <= index < 64:
@@ -62,8 +67,11 @@ class FrameRequest:
                 video = session.existing_file(unquote(urlsplit(url).path), "video file")
                 return cls("video", video=video, at_s=0.0, count=int(count), every_s=every_s)
             if scheme not in STREAM_SCHEMES or any(c in url for c in "\x00\r\n|"):
-                raise WebError(400, "a stream is a camera URL starting with "
-                                    f"{', '.join(s + '://' for s in STREAM_SCHEMES)}")
+                raise WebError(
+                    400,
+                    "a stream is a camera URL starting with "
+                    f"{', '.join(s + '://' for s in STREAM_SCHEMES)}",
+                )
             return cls("stream", url=url, count=int(count), every_s=every_s)
         raise WebError(400, "source must be 'video', 'camera' or 'stream'")
 
@@ -78,11 +86,13 @@ def grab(request: FrameRequest, size_px: tuple[int, int]) -> list[Grabbed]:
         assert request.video is not None
         if not request.video.is_file():
             raise InputFileError(f"no such video file: tried {request.video}")
-        return frame_grab.frames_from_video(request.video, request.at_s, request.count,
-                                            request.every_s)
+        return frame_grab.frames_from_video(
+            request.video, request.at_s, request.count, request.every_s
+        )
     if request.kind == "camera":
-        return [frame_grab.frame_from_camera(request.camera, *size_px)
-                for _ in range(request.count)]
+        return [
+            frame_grab.frame_from_camera(request.camera, *size_px) for _ in range(request.count)
+        ]
     return _from_stream(request.url, request.count, request.every_s)
 
 
@@ -121,8 +131,13 @@ def video_info(path: Path) -> dict[str, Any]:
     finally:
         capture.release()
     duration_s = frames / fps if fps > 0 and math.isfinite(fps) else 0.0
-    return {"fps": fps, "frames": frames, "duration_s": round(duration_s, 2),
-            "width_px": width, "height_px": height}
+    return {
+        "fps": fps,
+        "frames": frames,
+        "duration_s": round(duration_s, 2),
+        "width_px": width,
+        "height_px": height,
+    }
 
 
 def write_reference(image: Any, target: Path) -> None:

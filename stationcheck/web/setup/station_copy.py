@@ -44,8 +44,9 @@ class CarryPlan:
     notes: list[str] = field(default_factory=list)
 
 
-def plan_carry(data: dict[str, Any], old_base: Path, new_base: Path,
-               workspace: Workspace) -> CarryPlan:
+def plan_carry(
+    data: dict[str, Any], old_base: Path, new_base: Path, workspace: Workspace
+) -> CarryPlan:
     """The copies and path changes that keep ``data`` whole when saved in ``new_base``.
 
     Raises:
@@ -65,12 +66,18 @@ def plan_carry(data: dict[str, Any], old_base: Path, new_base: Path,
     for ref in refs:
         if ref.what == "taught references" and new_reference is not None:
             _carry_teaching(plan, ref, teaching_folder(new_reference, ref.written), workspace)
-    clashes = [target for source, target in plan.copies
-               if target.exists() and not filecmp.cmp(source, target, shallow=False)]
+    clashes = [
+        target
+        for source, target in plan.copies
+        if target.exists() and not filecmp.cmp(source, target, shallow=False)
+    ]
     if clashes:
         shown = ", ".join(workspace.shown(path) for path in clashes[:3])
-        raise WebError(409, f"not saved: the new folder already holds different files at "
-                            f"{shown}; save into an empty folder or remove them first")
+        raise WebError(
+            409,
+            f"not saved: the new folder already holds different files at "
+            f"{shown}; save into an empty folder or remove them first",
+        )
     return plan
 
 
@@ -87,8 +94,9 @@ def carry(plan: CarryPlan) -> None:
         log.info("copied %s to %s", source, target)
 
 
-def _carry_one(plan: CarryPlan, ref: ReferencedFile, old_base: Path, new_base: Path,
-               workspace: Workspace) -> Path:
+def _carry_one(
+    plan: CarryPlan, ref: ReferencedFile, old_base: Path, new_base: Path, workspace: Workspace
+) -> Path:
     """Copy or re-point one file; returns where it is for the new config."""
     written = Path(ref.written).expanduser()
     inside_old = ref.path.is_relative_to(old_base.resolve()) and not written.is_absolute()
@@ -100,16 +108,16 @@ def _carry_one(plan: CarryPlan, ref: ReferencedFile, old_base: Path, new_base: P
             plan.notes.append(f"copied {ref.what} to {workspace.shown(target)}")
             if ref.what == "model file":
                 for companion in _model_companions(ref.path):
-                    plan.copies.append((companion, workspace.inside(companion.name,
-                                                                    target.parent)))
+                    plan.copies.append((companion, workspace.inside(companion.name, target.parent)))
         return target
     if written.is_absolute():
         return ref.path
     rewritten = Path(os.path.relpath(ref.path, new_base)).as_posix()
     section, key = str(ref.where[0]), str(ref.where[1])
     plan.data[section][key] = rewritten
-    plan.notes.append(f"{ref.what} stays at {workspace.shown(ref.path)} ({section}.{key} is now "
-                      f"'{rewritten}')")
+    plan.notes.append(
+        f"{ref.what} stays at {workspace.shown(ref.path)} ({section}.{key} is now '{rewritten}')"
+    )
     return ref.path
 
 
@@ -125,8 +133,9 @@ def _model_companions(model: Path) -> list[Path]:
     return [companion] if companion is not None and companion.is_file() else []
 
 
-def _carry_teaching(plan: CarryPlan, ref: ReferencedFile, target: Path,
-                    workspace: Workspace) -> None:
+def _carry_teaching(
+    plan: CarryPlan, ref: ReferencedFile, target: Path, workspace: Workspace
+) -> None:
     if target == ref.path:
         return
     try:
@@ -139,5 +148,7 @@ def _carry_teaching(plan: CarryPlan, ref: ReferencedFile, target: Path,
     for name in [MANIFEST_NAME, *files]:
         if Path(name).name == name and (ref.path / name).is_file():
             plan.copies.append((ref.path / name, target / name))
-    plan.notes.append(f"copied taught references of '{ref.written}' ({len(files)} images) to "
-                      f"{workspace.shown(target)}")
+    plan.notes.append(
+        f"copied taught references of '{ref.written}' ({len(files)} images) to "
+        f"{workspace.shown(target)}"
+    )

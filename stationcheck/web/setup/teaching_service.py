@@ -46,22 +46,39 @@ def listing(session: SetupSession, data: dict[str, Any], zone_id: str) -> dict[s
 def _listing(zone: ZoneSpec, folder: Path) -> dict[str, Any]:
     manifest = teaching.read_manifest(folder)
     if manifest is None:
-        return {"zone": zone.id, "taught": False, "images": [], "present": 0, "absent": 0,
-                "folder": str(folder), "poor": None,
-                "note": "not taught: its check stays undecided"}
-    images = [{"file": image.file, "label": image.label, "source": image.source}
-              for image in manifest.images]
+        return {
+            "zone": zone.id,
+            "taught": False,
+            "images": [],
+            "present": 0,
+            "absent": 0,
+            "folder": str(folder),
+            "poor": None,
+            "note": "not taught: its check stays undecided",
+        }
+    images = [
+        {"file": image.file, "label": image.label, "source": image.source}
+        for image in manifest.images
+    ]
     note = "teach at least two images of each class to see how well they separate"
     found = separation_of(folder, zone)
     poor = teaching.poor_teaching(manifest, found) if found is not None else None
     misfits = set(teaching.misfit_files(manifest, found)) if found is not None else set()
     if found is not None:
-        note = (f"agreement within a class >= {found.own_min:.2f}; with the other class "
-                f"<= {found.other_max:.2f} (gap {found.gap:.2f})")
-    return {"zone": zone.id, "taught": True,
-            "images": [{**image, "misfit": image["file"] in misfits} for image in images],
-            "present": manifest.count("present"), "absent": manifest.count("absent"),
-            "folder": str(folder), "poor": poor, "note": note}
+        note = (
+            f"agreement within a class >= {found.own_min:.2f}; with the other class "
+            f"<= {found.other_max:.2f} (gap {found.gap:.2f})"
+        )
+    return {
+        "zone": zone.id,
+        "taught": True,
+        "images": [{**image, "misfit": image["file"] in misfits} for image in images],
+        "present": manifest.count("present"),
+        "absent": manifest.count("absent"),
+        "folder": str(folder),
+        "poor": poor,
+        "note": note,
+    }
 
 
 _SEPARATIONS: dict[tuple[str, int, str], teaching.Separation | None] = {}
@@ -99,8 +116,11 @@ def poor_teaching_of(folder: Path, zone: ZoneSpec) -> str | None:
         quality = separation_of(folder, zone)
         if len(_POOR) > 64:
             _POOR.clear()
-        _POOR[key] = (teaching.poor_teaching(manifest, quality)
-                      if manifest is not None and quality is not None else None)
+        _POOR[key] = (
+            teaching.poor_teaching(manifest, quality)
+            if manifest is not None and quality is not None
+            else None
+        )
     return _POOR[key]
 
 
@@ -116,20 +136,29 @@ def teaching_findings(session: SetupSession, data: dict[str, Any]) -> list[dict[
         if located.kind != "check" or located.polygon_px is None:
             continue
         try:
-            poor = poor_teaching_of(teaching_folder(reference, located.id), ZoneSpec(
-                id=located.id, kind="check", polygon_px=located.polygon_px))
+            poor = poor_teaching_of(
+                teaching_folder(reference, located.id),
+                ZoneSpec(id=located.id, kind="check", polygon_px=located.polygon_px),
+            )
         except StationcheckError:
             continue  # a broken teaching folder is the file check's error
         if poor is not None:
             where = list(located.path)
-            found.append({"severity": "warning", "path": format_path(located.path),
-                          "line": None, "where": where,
-                          "message": f"check zone '{located.id}': {poor}"})
+            found.append(
+                {
+                    "severity": "warning",
+                    "path": format_path(located.path),
+                    "line": None,
+                    "where": where,
+                    "message": f"check zone '{located.id}': {poor}",
+                }
+            )
     return found
 
 
-def teach_from_source(session: SetupSession, data: dict[str, Any],
-                      body: dict[str, Any]) -> dict[str, Any]:
+def teach_from_source(
+    session: SetupSession, data: dict[str, Any], body: dict[str, Any]
+) -> dict[str, Any]:
     zone = check_zone_of(data, str(body.get("zone") or ""))
     label = body.get("label")
     if label not in LABELS:

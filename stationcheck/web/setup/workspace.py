@@ -56,10 +56,13 @@ class Workspace:
         resolved = Path(os.path.normpath(candidate)).resolve()
         if not resolved.is_relative_to(self.root):
             common = os.path.commonpath([self.root, resolved])
-            raise WebError(403, f"refused: '{text}' is {resolved}, outside the setup folder "
-                                f"{self.root}; paths start at {base}. Name a file inside the "
-                                f"setup folder, or start setup again with --root {common} "
-                                "(a folder holding both)")
+            raise WebError(
+                403,
+                f"refused: '{text}' is {resolved}, outside the setup folder "
+                f"{self.root}; paths start at {base}. Name a file inside the "
+                f"setup folder, or start setup again with --root {common} "
+                "(a folder holding both)",
+            )
         return resolved
 
     def files(self, suffixes: tuple[str, ...], base: Path) -> list[str]:
@@ -120,8 +123,11 @@ class SetupSession:
         """``resolve`` for a file that must be there; 404 naming the path tried."""
         path = self.resolve(path_text)
         if not path.is_file():
-            raise WebError(404, f"no such {what} '{path_text}': tried {path} (paths start at "
-                                f"the config's folder {self.base_dir})")
+            raise WebError(
+                404,
+                f"no such {what} '{path_text}': tried {path} (paths start at "
+                f"the config's folder {self.base_dir})",
+            )
         return path
 
     def reference_path(self, data: dict[str, Any]) -> Path:

@@ -24,16 +24,25 @@ Key = str | int
 
 # mapping key -> the model giving the order of its keys (list items: see _item_model)
 _SECTION_MODELS: dict[str, type[BaseModel]] = {
-    "station": schema.StationSection, "camera": schema.CameraSection,
-    "model": schema.ModelSection, "thresholds": schema.ThresholdsSection,
-    "plc": schema.PlcSection, "log": schema.LogSection, "judgements": schema.JudgementsSection,
-    "bolt_circle": schema.BoltCircle, "torque_nm": schema.LimitsSection,
-    "angle_deg": schema.LimitsSection, "bin_activity": schema.BinActivitySection,
-    "presence": schema.PresenceSection, "camera_shift": schema.CameraShiftSection,
+    "station": schema.StationSection,
+    "camera": schema.CameraSection,
+    "model": schema.ModelSection,
+    "thresholds": schema.ThresholdsSection,
+    "plc": schema.PlcSection,
+    "log": schema.LogSection,
+    "judgements": schema.JudgementsSection,
+    "bolt_circle": schema.BoltCircle,
+    "torque_nm": schema.LimitsSection,
+    "angle_deg": schema.LimitsSection,
+    "bin_activity": schema.BinActivitySection,
+    "presence": schema.PresenceSection,
+    "camera_shift": schema.CameraShiftSection,
 }
 _STEP_MODELS: dict[str, type[BaseModel]] = {
-    "fasten": schema.FastenSection, "pick": schema.PickSection,
-    "check": schema.CheckSection, "confirm": schema.ConfirmSection,
+    "fasten": schema.FastenSection,
+    "pick": schema.PickSection,
+    "check": schema.CheckSection,
+    "confirm": schema.ConfirmSection,
 }
 _FLOW_MAPS = {"torque_nm", "angle_deg"}
 
@@ -93,19 +102,27 @@ def to_plain(value: Any) -> Any:
 def new_document(reference_frame: str) -> CommentedMap:
     """A starting point for a new station: one camera, no zones and no steps yet."""
     document = CommentedMap()
-    merge_into(document, {
-        "format_version": schema.FORMAT_VERSION,
-        "station": {"name": "New station", "reference_frame": reference_frame},
-        "camera": {"source": 0, "width_px": 640, "height_px": 480, "fps": 30},
-        "thresholds": {"dwell_ms": 200, "lost_track_grace_ms": 300, "hysteresis_px": 4,
-                       "stale_frame_ms": 100},
-        "zones": [],
-        "steps": [],
-    })
+    merge_into(
+        document,
+        {
+            "format_version": schema.FORMAT_VERSION,
+            "station": {"name": "New station", "reference_frame": reference_frame},
+            "camera": {"source": 0, "width_px": 640, "height_px": 480, "fps": 30},
+            "thresholds": {
+                "dwell_ms": 200,
+                "lost_track_grace_ms": 300,
+                "hysteresis_px": 4,
+                "stale_frame_ms": 100,
+            },
+            "zones": [],
+            "steps": [],
+        },
+    )
     document.yaml_set_start_comment(
         "stationcheck station config, written by 'stationcheck setup'.\n"
         "Zones are in the reference frame's pixels (x right, y down); paths are relative to "
-        "this file.")
+        "this file."
+    )
     return document
 
 
@@ -128,8 +145,11 @@ def _merged(old: Any, new: Any, path: tuple[Key, ...]) -> Any:
     if isinstance(old, CommentedSeq) and isinstance(new, list):
         if to_plain(old) == new:
             return old
-        if new and all(isinstance(item, dict) for item in new) and all(
-                isinstance(item, CommentedMap) for item in old):
+        if (
+            new
+            and all(isinstance(item, dict) for item in new)
+            and all(isinstance(item, CommentedMap) for item in old)
+        ):
             if old.fa.flow_style():
                 old.fa.set_block_style()
             _merge_items(old, new, path)
@@ -154,8 +174,9 @@ def _merge_items(old: CommentedSeq, new: list[dict[str, Any]], path: tuple[Key, 
         previous = available.pop(identity, None) if identity is not None else None
         if previous is None and index < len(old):
             candidate, old_identity = old[index], _identity(old[index])
-            if old_identity is None or (old_identity not in wanted
-                                        and available.get(old_identity) is candidate):
+            if old_identity is None or (
+                old_identity not in wanted and available.get(old_identity) is candidate
+            ):
                 previous = candidate
                 available.pop(old_identity, None)
         if previous is not None:
@@ -163,7 +184,7 @@ def _merge_items(old: CommentedSeq, new: list[dict[str, Any]], path: tuple[Key, 
             merged.append(previous)
         else:
             merged.append(_node(item, path + (index,)))
-    del old[len(merged):]
+    del old[len(merged) :]
     for index, item in enumerate(merged):
         if index < len(old):
             if old[index] is not item:
@@ -200,8 +221,11 @@ def _node(value: Any, path: tuple[Key, ...]) -> Any:
     if isinstance(value, dict):
         mapping = CommentedMap()
         merge_into(mapping, value, path)
-        if path and path[-1] in _FLOW_MAPS and not any(
-                isinstance(v, dict | list) for v in value.values()):
+        if (
+            path
+            and path[-1] in _FLOW_MAPS
+            and not any(isinstance(v, dict | list) for v in value.values())
+        ):
             mapping.fa.set_flow_style()
         return mapping
     if isinstance(value, list):
