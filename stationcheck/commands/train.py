@@ -47,6 +47,14 @@ def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[ty
         "--checkpoint", type=Path, default=None, help="checkpoint file (default: OUT/checkpoint.pt)"
     )
     p.add_argument("--resume", action="store_true", help="continue from the checkpoint")
+    p.add_argument(
+        "--from",
+        dest="start_from",
+        default=None,
+        metavar="MODEL",
+        help="start from this coarse model's weights ('bundled' for the shipped model) "
+        "instead of random ones",
+    )
     p.add_argument("--threads", type=int, default=1, help="torch threads (default: %(default)s)")
     p.add_argument(
         "--workers", type=int, default=1, help="data worker processes (default: %(default)s)"
@@ -83,6 +91,7 @@ def run(args: argparse.Namespace) -> int:
         threads=args.threads,
         workers=args.workers,
         model_name=args.name,
+        start_from=_start_from(args.start_from),
     )
     checkpoint = args.checkpoint or args.out / "checkpoint.pt"
 
@@ -107,3 +116,16 @@ def run(args: argparse.Namespace) -> int:
     )
     print(f"wrote {path} and {path.parent / config.coarse_info().refine_model}")
     return 0
+
+
+def _start_from(value: str | None) -> Path | None:
+    if value is None:
+        return None
+    if value == "bundled":
+        from stationcheck.vision.detector import bundled_model_path
+
+        return bundled_model_path()
+    path = Path(value)
+    if not path.is_file():
+        raise InputFileError(f"--from {value}: no such model file ({path.resolve()})")
+    return path

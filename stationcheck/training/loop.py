@@ -55,6 +55,9 @@ class TrainConfig:
     coarse_widths: tuple[int, int, int, int] = (16, 24, 40, 64)
     refine_widths: tuple[int, int, int, int] = (16, 24, 40, 64)
     model_name: str = "tool_tip"
+    # An exported coarse model (its refine partner beside it) whose weights training starts
+    # from instead of random ones; the networks are then the folded form of the file's.
+    start_from: Path | None = None
 
     def coarse_info(self) -> ModelInfo:
         return self._info(
@@ -122,8 +125,20 @@ def _worker_init(_: int) -> None:
 
 def build_networks(config: TrainConfig) -> tuple[HeatmapNet, HeatmapNet]:
     torch.manual_seed(config.seed)
+    if config.start_from is not None:
+        return _networks_from(config.start_from)
     coarse = HeatmapNet(len(KEYPOINT_NAMES), config.coarse_widths, config.output_stride)
     refine = HeatmapNet(1, config.refine_widths, config.output_stride)
+    return coarse, refine
+
+
+def _networks_from(coarse_path: Path) -> tuple[HeatmapNet, HeatmapNet]:
+    from stationcheck.training.weights import rebuild_network
+
+    coarse, info = rebuild_network(coarse_path)
+    if info.stage != "coarse" or not info.refine_model:
+        raise InputFileError(f"{coarse_path}: a coarse model naming its refine partner is needed")
+    refine, _ = rebuild_network(coarse_path.with_name(info.refine_model))
     return coarse, refine
 
 
@@ -300,4 +315,9 @@ def load_checkpoint(
 
 
 def _config_dict(config: TrainConfig) -> dict[str, Any]:
-    return {k: list(v) if isinstance(v, tuple) else v for k, v in asdict(config).items()}
+    def plain(value: Any) -> Any:
+        if isinstance(value, tuple):
+            return list(value)
+        return str(value) if isinstance(value, Path) else value
+
+    return {k: plain(v) for k, v in asdict(config).items()}
