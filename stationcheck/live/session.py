@@ -9,7 +9,6 @@ from collections.abc import Callable
 from contextlib import ExitStack
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Literal
 
 from stationcheck.config import StationConfig, load_config
 from stationcheck.core.observations import PositionRef
@@ -17,15 +16,15 @@ from stationcheck.errors import InputFileError, first_line
 from stationcheck.live.grabber import FrameGrabber, SourceOpener
 from stationcheck.live.loop import LiveLoop, LiveStats
 from stationcheck.live.watchdog import WatchdogLimits
-from stationcheck.plc.address_map import address_map_from
-from stationcheck.plc.link import ConsoleLink, SignalLink
+from stationcheck.plc.link import SignalLink
+from stationcheck.plc.links import LinkSettings, open_link
 from stationcheck.plc.session import SessionSettings
 from stationcheck.plc.worker import LinkWorker, WorkerSettings
 from stationcheck.sources.frame_source import FrameSource
 
 logger = logging.getLogger(__name__)
 
-LinkChoice = Literal["console", "client", "server"]
+LinkChoice = str  # a name in stationcheck.plc.links.LINKS
 
 
 @dataclass(frozen=True)
@@ -53,22 +52,10 @@ def parse_source(text: str) -> int | str | Path:
 
 def make_link(config: StationConfig, settings: LiveSettings) -> SignalLink:
     plc = config.plc
-    if settings.timeout_ms is not None:
-        plc = plc.model_copy(update={"timeout_ms": settings.timeout_ms})
-    mode = settings.link or plc.mode
-    if mode == "console":
-        return ConsoleLink()
-    if mode == "server":
-        from stationcheck.plc.modbus_server import ModbusServerLink
-
-        return ModbusServerLink(settings.host or plc.host, settings.port or plc.port,
-                                device_id=plc.device_id,
-                                address_map=address_map_from(plc.address_map, server=True))
-    from stationcheck.plc.modbus_client import ModbusClientLink
-
-    return ModbusClientLink(settings.host or plc.host, settings.port or plc.port,
-                            device_id=plc.device_id, timeout_ms=plc.timeout_ms,
-                            retries=plc.retries, address_map=address_map_from(plc.address_map))
+    return open_link(settings.link or plc.mode, LinkSettings(
+        host=settings.host or plc.host, port=settings.port or plc.port, device_id=plc.device_id,
+        timeout_ms=plc.timeout_ms if settings.timeout_ms is None else settings.timeout_ms,
+        retries=plc.retries, address_map=plc.address_map))
 
 
 def worker_settings(config: StationConfig) -> WorkerSettings:
