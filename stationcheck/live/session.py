@@ -21,6 +21,7 @@ from stationcheck.plc.links import LinkSettings, open_link
 from stationcheck.plc.session import SessionSettings
 from stationcheck.plc.worker import LinkWorker, WorkerSettings
 from stationcheck.sources.frame_source import FrameSource
+from stationcheck.sources.kinds import SourceOptions, parse_source, source_kind
 
 logger = logging.getLogger(__name__)
 
@@ -40,14 +41,6 @@ class LiveSettings:
     speed: float = 1.0  # ... or this many times faster (a quicker dry run)
     max_frames: int | None = None
     model_path: Path | None = None
-
-
-def parse_source(text: str) -> int | str | Path:
-    if text.isdigit():
-        return int(text)
-    if "://" in text:
-        return text
-    return Path(text)
 
 
 def make_link(config: StationConfig, settings: LiveSettings) -> SignalLink:
@@ -70,15 +63,9 @@ def source_opener(config: StationConfig, settings: LiveSettings,
     """How to (re)open the frame source, whether it is a file, and its name."""
     where = parse_source(settings.source) if settings.source is not None \
         else config.camera_source
-    if isinstance(where, Path):
-        from stationcheck.sources.video_file import VideoFileSource
-
-        path, frames = where, settings.max_frames
-        return (lambda: VideoFileSource(path, max_frames=frames)), True, str(path)
-    from stationcheck.live.capture import CaptureSource
-
-    camera = where
-    return (lambda: CaptureSource(camera, clock)), False, str(camera)
+    kind = source_kind(where)
+    options = SourceOptions(clock=clock, max_frames=settings.max_frames)
+    return (lambda: kind.open(where, options)), kind.is_file, str(where)
 
 
 def link_limits(config: StationConfig, timeout_ms: float | None = None) -> WatchdogLimits:
