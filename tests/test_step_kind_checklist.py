@@ -24,15 +24,7 @@ from stationcheck.config import schema
 from stationcheck.core import plan as core_plan
 from stationcheck.core.observations import UnitStarted
 from stationcheck.core.outputs import GUIDANCE_KINDS
-from stationcheck.core.plan import (
-    CheckStep,
-    ConfirmStep,
-    FastenStep,
-    PickStep,
-    StationPlan,
-    Step,
-    ZoneSpec,
-)
+from stationcheck.core.plan import StationPlan, Step, ZoneSpec
 from stationcheck.core.sequencer import Sequencer
 from stationcheck.core.state import Phase
 from stationcheck.core.step_kinds import STEP_KINDS, StepKind
@@ -50,10 +42,10 @@ ZONES = tuple(
                                  ("chk", "check", "locking pin"))
 )
 EXAMPLES: dict[str, Step] = {
-    "fasten": FastenStep("fasten", ("s1",)),
-    "pick": PickStep("take_gasket", "bin_a"),
-    "check": CheckStep("pin", "chk"),
-    "confirm": ConfirmStep("done", "Put the unit on the conveyor"),
+    "fasten": core_plan.FastenStep("fasten", ("s1",)),
+    "pick": core_plan.PickStep("take_gasket", "bin_a"),
+    "check": core_plan.CheckStep("pin", "chk"),
+    "confirm": core_plan.ConfirmStep("done", "Put the unit on the conveyor"),
 }
 WAITING = "Waiting for the next unit"
 
