@@ -14,7 +14,6 @@ from types import FrameType
 from typing import TYPE_CHECKING
 
 from stationcheck.core.result_words import SHOWN_RESULT, unit_word
-from stationcheck.plc.links import LINKS
 
 if TYPE_CHECKING:
     from stationcheck.live.loop import LiveLoop
@@ -38,7 +37,8 @@ def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[ty
     p.add_argument("--config", required=True, type=Path, help="station config (.yaml)")
     p.add_argument("--source", default=None,
                    help="camera index, stream URL or video file (default: the config's camera)")
-    p.add_argument("--link", choices=tuple(LINKS), default=None,
+    # the names in stationcheck.plc.links.LINKS (not imported here: --help stays quick)
+    p.add_argument("--link", choices=("console", "client", "server"), default=None,
                    help="signal link (default: the config's plc.mode)")
     p.add_argument("--host", default=None, help="PLC address (default: the config's)")
     p.add_argument("--port", type=int, default=None, help="PLC port (default: the config's)")

@@ -6,6 +6,7 @@ import typing
 
 import pytest
 
+from stationcheck.cli import build_parser
 from stationcheck.config.schema import PlcSection
 from stationcheck.errors import ConfigError
 from stationcheck.plc.link import ConsoleLink, SignalLink
@@ -14,9 +15,12 @@ from stationcheck.plc.modbus_client import ModbusClientLink
 from stationcheck.plc.modbus_server import ModbusServerLink
 
 
-def test_the_config_names_exactly_the_registered_links() -> None:
+def test_the_config_and_run_name_exactly_the_registered_links() -> None:
     modes = typing.get_args(PlcSection.model_fields["mode"].annotation)
     assert set(modes) == set(LINKS)
+    run = build_parser()._subparsers._group_actions[0].choices["run"]  # type: ignore[union-attr]
+    link = next(action for action in run._actions if action.dest == "link")
+    assert tuple(link.choices) == tuple(LINKS)
 
 
 @pytest.mark.parametrize(("name", "kind"), [("console", ConsoleLink),
