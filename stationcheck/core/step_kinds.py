@@ -53,7 +53,3 @@ STEP_KINDS: dict[str, StepKind] = {kind.name: kind for kind in (
     StepKind("confirm", ConfirmStep, None, "leave_out", fastens=False, timed=False,
              guidance=("acknowledge",)),
 )}
-
-
-def step_kind(step: Step) -> StepKind:
-    return STEP_KINDS[step.kind]
