@@ -41,6 +41,7 @@ COMMAND_MODULES = (
     "render",
     "teach",
     "alarms",
+    "states",
 )
 
 SAFETY_NOTE = (

@@ -40,6 +40,7 @@ def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[ty
         default=None,
         help="camera index, stream URL or video file (default: the config's camera)",
     )
+    # the names in stationcheck.plc.links.LINKS (not imported here: --help stays quick)
     p.add_argument(
         "--link",
         choices=("console", "client", "server"),

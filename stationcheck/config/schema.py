@@ -41,6 +41,7 @@ from stationcheck.core.plan import (
     Thresholds,
     ZoneSpec,
 )
+from stationcheck.core.step_kinds import STEP_KINDS
 from stationcheck.judgements import settings as judgement_defaults
 
 FORMAT_VERSION = 1
@@ -295,7 +296,14 @@ class ConfirmSection(_Section):
 StepEntry = Annotated[
     FastenSection | PickSection | CheckSection | ConfirmSection, Field(discriminator="kind")
 ]
-STEP_ZONE_KIND = {"fasten": "fastener", "pick": "bin", "check": "check"}
+# step kind (core.step_kinds.STEP_KINDS) -> its YAML section; the union above lists the same
+STEP_SECTIONS: dict[str, type[_Section]] = {
+    "fasten": FastenSection,
+    "pick": PickSection,
+    "check": CheckSection,
+    "confirm": ConfirmSection,
+}
+STEP_ZONE_KIND = {name: kind.zone_kind for name, kind in STEP_KINDS.items() if kind.zone_kind}
 
 
 class AddressEntry(_Section):

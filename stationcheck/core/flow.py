@@ -12,6 +12,7 @@ from typing import Any
 from stationcheck.core.events import RESULT_NOK, RESULT_OK, RESULT_UNDECIDED
 from stationcheck.core.observations import PositionRef, UnitStarted
 from stationcheck.core.plan import FastenStep
+from stationcheck.core.step_kinds import STEP_KINDS
 from stationcheck.core.transaction import PlanIndex, Transaction
 
 
@@ -39,7 +40,7 @@ def plan_pass(
             if kept:
                 steps.append({"id": step.id, "kind": step.kind})
                 positions.extend({**ref.to_dict(), "number": number} for number, ref in kept)
-        elif step.kind == "check" or not started.rework:
+        elif not started.rework or STEP_KINDS[step.kind].on_rework == "keep":
             steps.append({"id": step.id, "kind": step.kind})
     unknown = [ref for ref in started.rework_positions if ref not in known]
     return steps, positions, unknown

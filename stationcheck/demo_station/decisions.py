@@ -10,11 +10,18 @@ Inputs stamped with frame ``f`` are applied before frame ``f``'s observation.
 from __future__ import annotations
 
 import math
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
 from typing import Any
 
-from stationcheck.core.plan import CheckStep, FastenStep, PickStep, StationPlan, Step
+from stationcheck.core.plan import (
+    CheckStep,
+    ConfirmStep,
+    FastenStep,
+    PickStep,
+    StationPlan,
+    Step,
+)
 from stationcheck.demo_station import layout
 from stationcheck.demo_station.camera import CameraTransform
 from stationcheck.demo_station.choreography import StationInput
@@ -103,7 +110,7 @@ class ReferenceSequencer:
         steps: list[Step] = []
         positions: list[str] = []
         for step in self.plan.steps:
-            if rework and isinstance(step, PickStep):
+            if rework and not STEP_DECISIONS[step.kind].kept_on_rework:
                 continue
             if isinstance(step, FastenStep):
                 due = self.rework_due.pop(serial, []) if rework else list(step.zones)
@@ -155,10 +162,8 @@ class ReferenceSequencer:
 
     def _on_operator_ack(self, item: StationInput) -> None:
         unit = self.unit
-        if unit is not None and isinstance(unit.step, CheckStep):
-            self.emit("check_result", step=unit.step.id, zone=unit.step.zone, passed=False)
-            self.emit("alarm", alarm="check_failed", step=unit.step.id, zone=unit.step.zone)
-            self._close("not_released", f"check {unit.step.id} failed")
+        if unit is not None and unit.step is not None:
+            STEP_DECISIONS[unit.step.kind].on_ack(self, unit, unit.step)
 
     # --- observation ---------------------------------------------------------------------
     def observe(self, row: TruthRow) -> None:
@@ -179,14 +184,8 @@ class ReferenceSequencer:
         unit = self.unit
         if unit is None:
             return
-        step = unit.step
-        if isinstance(step, PickStep):
-            self._pick(unit, step, row)
-        elif isinstance(step, FastenStep):
-            self._fasten(unit, step)
-        elif isinstance(step, CheckStep) and row.pin_engaged and row.pin_zone_clear:
-            self.emit("check_result", step=step.id, zone=step.zone, passed=True)
-            self._advance()
+        if unit.step is not None:
+            STEP_DECISIONS[unit.step.kind].observe(self, unit, unit.step, row)
 
     def _track_zone(self, row: TruthRow) -> None:
         point = (row.tip_ref_x_px, row.tip_ref_y_px)
@@ -212,6 +211,7 @@ class ReferenceSequencer:
             or distance_to_polygon_edge(point, polygon) <= self.hysteresis_px
         )
 
+    # --- per step kind (STEP_DECISIONS) --------------------------------------------------
     def _pick(self, unit: _Unit, step: PickStep, row: TruthRow) -> None:
         need = self._frames(step.min_time_ms)
         for bin_zone, flag in BIN_FLAGS.items():
@@ -234,7 +234,24 @@ class ReferenceSequencer:
             self.emit("alarm", alarm="wrong_bin", zone=bin_zone, expected=step.zone)
             self.picked_bin = bin_zone  # one alarm per stay in that bin
 
-    def _fasten(self, unit: _Unit, step: FastenStep) -> None:
+    def _check(self, unit: _Unit, step: CheckStep, row: TruthRow) -> None:
+        if row.pin_engaged and row.pin_zone_clear:
+            self.emit("check_result", step=step.id, zone=step.zone, passed=True)
+            self._advance()
+
+    def _fail_check(self, unit: _Unit, step: CheckStep) -> None:
+        self.emit("check_result", step=step.id, zone=step.zone, passed=False)
+        self.emit("alarm", alarm="check_failed", step=step.id, zone=step.zone)
+        self._close("not_released", f"check {step.id} failed")
+
+    def _confirm(self, unit: _Unit, step: ConfirmStep) -> None:
+        self.emit("step_done", step=step.id)
+        self._advance()
+
+    def _nothing(self, unit: _Unit, step: Step, row: TruthRow | None = None) -> None:
+        return None
+
+    def _fasten(self, unit: _Unit, step: FastenStep, row: TruthRow | None = None) -> None:
         target = unit.positions[0]
         since = max(self.zone_entry, self.last_result)
         dwelled = self.frame - since >= self.dwell_frames
@@ -295,6 +312,24 @@ class ReferenceSequencer:
     def finish(self) -> None:
         if self.unit is not None:
             self._close("not_released", "camera moved" if self.camera_moved else "end of recording")
+
+
+@dataclass(frozen=True)
+class StepRule:
+    """How the reference decides a step of one kind (``sample_video/README.md``, the rules)."""
+
+    observe: Callable[..., None]  # (sequencer, unit, step, truth row) on every frame
+    on_ack: Callable[..., None]  # (sequencer, unit, step) on an operator acknowledge
+    kept_on_rework: bool  # a rework pass keeps the step (a fasten step: its marked positions)
+
+
+# step kind (core.step_kinds.STEP_KINDS) -> its reference rule
+STEP_DECISIONS: dict[str, StepRule] = {
+    "fasten": StepRule(ReferenceSequencer._fasten, ReferenceSequencer._nothing, True),
+    "pick": StepRule(ReferenceSequencer._pick, ReferenceSequencer._nothing, False),
+    "check": StepRule(ReferenceSequencer._check, ReferenceSequencer._fail_check, True),
+    "confirm": StepRule(ReferenceSequencer._nothing, ReferenceSequencer._confirm, False),
+}
 
 
 def _corner_shift_px(row: TruthRow) -> float:

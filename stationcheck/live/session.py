@@ -9,7 +9,6 @@ from collections.abc import Callable
 from contextlib import ExitStack
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Literal
 
 from stationcheck.config import StationConfig, load_config
 from stationcheck.core.observations import PositionRef
@@ -17,15 +16,16 @@ from stationcheck.errors import InputFileError, first_line
 from stationcheck.live.grabber import FrameGrabber, SourceOpener
 from stationcheck.live.loop import LiveLoop, LiveStats
 from stationcheck.live.watchdog import WatchdogLimits
-from stationcheck.plc.address_map import address_map_from
-from stationcheck.plc.link import ConsoleLink, SignalLink
+from stationcheck.plc.link import SignalLink
+from stationcheck.plc.links import LinkSettings, open_link
 from stationcheck.plc.session import SessionSettings
 from stationcheck.plc.worker import LinkWorker, WorkerSettings
 from stationcheck.sources.frame_source import FrameSource
+from stationcheck.sources.kinds import SourceOptions, parse_source, source_kind
 
 logger = logging.getLogger(__name__)
 
-LinkChoice = Literal["console", "client", "server"]
+LinkChoice = str  # a name in stationcheck.plc.links.LINKS
 
 
 @dataclass(frozen=True)
@@ -43,39 +43,18 @@ class LiveSettings:
     model_path: Path | None = None
 
 
-def parse_source(text: str) -> int | str | Path:
-    if text.isdigit():
-        return int(text)
-    if "://" in text:
-        return text
-    return Path(text)
-
-
 def make_link(config: StationConfig, settings: LiveSettings) -> SignalLink:
     plc = config.plc
-    if settings.timeout_ms is not None:
-        plc = plc.model_copy(update={"timeout_ms": settings.timeout_ms})
-    mode = settings.link or plc.mode
-    if mode == "console":
-        return ConsoleLink()
-    if mode == "server":
-        from stationcheck.plc.modbus_server import ModbusServerLink
-
-        return ModbusServerLink(
-            settings.host or plc.host,
-            settings.port or plc.port,
+    return open_link(
+        settings.link or plc.mode,
+        LinkSettings(
+            host=settings.host or plc.host,
+            port=settings.port or plc.port,
             device_id=plc.device_id,
-            address_map=address_map_from(plc.address_map, server=True),
-        )
-    from stationcheck.plc.modbus_client import ModbusClientLink
-
-    return ModbusClientLink(
-        settings.host or plc.host,
-        settings.port or plc.port,
-        device_id=plc.device_id,
-        timeout_ms=plc.timeout_ms,
-        retries=plc.retries,
-        address_map=address_map_from(plc.address_map),
+            timeout_ms=plc.timeout_ms if settings.timeout_ms is None else settings.timeout_ms,
+            retries=plc.retries,
+            address_map=plc.address_map,
+        ),
     )
 
 
@@ -93,15 +72,9 @@ def source_opener(
 ) -> tuple[SourceOpener, bool, str]:
     """How to (re)open the frame source, whether it is a file, and its name."""
     where = parse_source(settings.source) if settings.source is not None else config.camera_source
-    if isinstance(where, Path):
-        from stationcheck.sources.video_file import VideoFileSource
-
-        path, frames = where, settings.max_frames
-        return (lambda: VideoFileSource(path, max_frames=frames)), True, str(path)
-    from stationcheck.live.capture import CaptureSource
-
-    camera = where
-    return (lambda: CaptureSource(camera, clock)), False, str(camera)
+    kind = source_kind(where)
+    options = SourceOptions(clock=clock, max_frames=settings.max_frames)
+    return (lambda: kind.open(where, options)), kind.is_file, str(where)
 
 
 def link_limits(config: StationConfig, timeout_ms: float | None = None) -> WatchdogLimits:

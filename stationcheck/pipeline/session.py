@@ -126,7 +126,7 @@ def _replay_video(
     progress: Progress | None,
     watchers: Sequence[Watcher] = (),
 ) -> ReplayReport:
-    from stationcheck.sources.video_file import VideoFileSource
+    from stationcheck.sources.kinds import SourceOptions, open_source
 
     if settings.video is None:
         raise InputFileError("replay needs a video file (or --observations)")
@@ -135,8 +135,9 @@ def _replay_video(
     inputs = read_station_inputs(settings.inputs)
     plan, config = prepared.plan, prepared.config
     with ExitStack() as stack:
-        source = VideoFileSource(
-            settings.video, first_frame=settings.first_frame, max_frames=settings.max_frames
+        source = open_source(
+            settings.video,
+            SourceOptions(first_frame=settings.first_frame, max_frames=settings.max_frames),
         )
         stack.callback(source.close)
         detector = _detector(settings, config, prepared.truth)

@@ -1,4 +1,5 @@
-"""Where frames come from: a protocol, a video file read with OpenCV, and an in-memory fake.
+"""Where frames come from: a protocol, a video file and a camera or stream read with OpenCV,
+and an in-memory fake; :mod:`stationcheck.sources.kinds` picks the kind for a ``--source``.
 
 The frame loop takes any :class:`FrameSource`; it never knows whether frames come from a file,
 a camera or a test.

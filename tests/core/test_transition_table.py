@@ -49,13 +49,13 @@ def test_lookup_picks_the_row_for_the_phase(phase: str, kind: str, handler: obje
     [
         (
             (
-                Row(("idle",), "tick", handlers.ignore, ""),
-                Row(("idle",), "tick", handlers.ignore, ""),
+                Row(("idle",), "tick", handlers.ignore, ("same",)),
+                Row(("idle",), "tick", handlers.ignore, ("same",)),
             ),
             "two rows for ('idle', 'tick')",
         ),
         (
-            (Row(("idle",), "teleport", handlers.ignore, ""),),
+            (Row(("idle",), "teleport", handlers.ignore, ("same",)),),
             "must be an observation kind, got 'teleport'",
         ),
     ],

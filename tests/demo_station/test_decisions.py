@@ -7,7 +7,14 @@ from typing import Any
 
 import pytest
 
-from stationcheck.core.plan import CheckStep, FastenStep, StationPlan, Thresholds, ZoneSpec
+from stationcheck.core.plan import (
+    CheckStep,
+    ConfirmStep,
+    FastenStep,
+    StationPlan,
+    Thresholds,
+    ZoneSpec,
+)
 from stationcheck.demo_station.choreography import StationInput
 from stationcheck.demo_station.decisions import expected_decisions
 from stationcheck.demo_station.ground_truth import TruthRow
@@ -171,3 +178,19 @@ def test_check_waits_for_the_pin_and_ack_gives_up() -> None:
         ("check_result", None),
         ("unit_result", "OK"),
     ]
+
+
+def test_confirm_step_is_done_on_an_ack_and_left_out_of_a_rework_pass() -> None:
+    truth = rows(20, lambda f: (*AWAY, 2), pin=1)
+    confirm_plan = StationPlan(plan().zones, (ConfirmStep("done", "Put the unit away"),
+                                              CheckStep("pin", "locking_pin")), plan().thresholds)
+    waiting = expected_decisions(confirm_plan, truth, [started()], FPS)
+    assert waiting[-1]["reason"] == "end of recording"  # no ack: the unit stays at the confirm
+    out = expected_decisions(confirm_plan, truth, [started(), StationInput(5, "operator_ack")],
+                             FPS)
+    assert [(d["frame"], d["kind"], d.get("step")) for d in out[:2]] == [
+        (5, "step_done", "done"), (5, "check_result", "pin")]
+    assert out[-1]["result"] == "OK"
+    rework = StationInput(0, "unit_started", {"serial": "PC-1", "rework": True})
+    again = expected_decisions(confirm_plan, truth, [rework], FPS)
+    assert [d["kind"] for d in again] == ["check_result", "unit_result"]  # straight to the check

@@ -7,7 +7,8 @@ import pytest
 
 from stationcheck.cli import main
 from stationcheck.config import load_config
-from stationcheck.live.session import LiveSettings, link_limits, make_link, parse_source
+from stationcheck.live.session import LiveSettings, link_limits, make_link
+from stationcheck.sources.kinds import parse_source
 from stationcheck.plc.link import ConsoleLink
 from stationcheck.plc.modbus_client import ModbusClientLink
 from stationcheck.plc.modbus_server import ModbusServerLink

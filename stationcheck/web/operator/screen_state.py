@@ -11,12 +11,12 @@ from __future__ import annotations
 from collections import deque
 from collections.abc import Iterable
 from dataclasses import dataclass
-from typing import Any
+from typing import Any, Literal
 
 from stationcheck.core.alarms import ALARMS
 from stationcheck.core.events import Event
 from stationcheck.core.observations import PictureState
-from stationcheck.core.plan import ConfirmStep, FastenStep
+from stationcheck.core.plan import FastenStep
 from stationcheck.overlay.scene import fastener_state
 from stationcheck.pipeline.station_view import Meaning, StationView
 from stationcheck.web.operator.wording import Wording, condition_alarm, event_alarm
@@ -30,6 +30,15 @@ ENDED_TOOL = {
     "meaning": "neutral",
     "words": "TOOL OFF",
     "reason": "the station program is not running",
+}
+# step kind (core.step_kinds.STEP_KINDS) -> what the screen shows for it beside the instruction:
+# the step's fastener positions with their states, the ACKNOWLEDGE button, or nothing more
+StepPanel = Literal["positions", "acknowledge", "instruction_only"]
+STEP_PANEL: dict[str, StepPanel] = {
+    "fasten": "positions",
+    "pick": "instruction_only",
+    "check": "instruction_only",
+    "confirm": "acknowledge",
 }
 POSITION_MEANING: dict[str, tuple[Meaning, str]] = {
     "enabled": ("normal", "ON"),
@@ -95,7 +104,11 @@ def _positions(view: StationView, wording: Wording) -> tuple[list[dict[str, Any]
     """The positions of the current (or, between units, the first) fasten step, each with
     its state; and how many are done out of how many."""
     out = view.output
-    steps = [s for s in wording.plan.steps if isinstance(s, FastenStep)]
+    steps = [
+        s
+        for s in wording.plan.steps
+        if STEP_PANEL.get(s.kind) == "positions" and isinstance(s, FastenStep)
+    ]
     current = next((s for s in steps if s.id == out.step_id), steps[0] if steps else None)
     if current is None or out.serial is None:
         return [], 0, 0
@@ -166,7 +179,11 @@ def _unit(view: StationView, done: int, total: int) -> dict[str, Any] | None:
 
 def _ack(view: StationView, wording: Wording, acks_allowed: bool) -> dict[str, Any]:
     step = wording.steps.get(view.output.step_id or "")
-    needed = view.output.guidance.kind == "acknowledge" and isinstance(step, ConfirmStep)
+    needed = (
+        view.output.guidance.kind == "acknowledge"
+        and step is not None
+        and STEP_PANEL.get(step.kind) == "acknowledge"
+    )
     return {
         "needed": needed,
         "allowed": needed and acks_allowed,

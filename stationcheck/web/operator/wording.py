@@ -9,6 +9,7 @@ the detail (attempt, rework pass) goes on a smaller second line.
 from __future__ import annotations
 
 import re
+from collections.abc import Callable
 from dataclasses import dataclass
 
 from stationcheck.core.plan import CheckStep, ConfirmStep, StationPlan, Step
@@ -200,17 +201,40 @@ class Wording:
 
     def _instruction(self, view: StationView, mode: str) -> Instruction:
         out = view.output
-        guidance = out.guidance
-        kind = guidance.kind
-        meaning = view.guidance_meaning
+        kind = out.guidance.kind
         step = self.steps.get(out.step_id or "")
-        target = out.target.zone if out.target is not None else guidance.target
+        words = STEP_WORDING.get(step.kind) if step is not None else None
+        said = words(self, view, step, mode) if words is not None and step is not None else None
+        if said is not None:
+            return said
+        target = out.target.zone if out.target is not None else out.guidance.target
+        if kind == "show_tool":
+            where = f" at {self.position(target)}" if target else ""
+            return Instruction(
+                kind,
+                "Bring the tool back into view",
+                f"Then continue{where}.",
+                view.guidance_meaning,
+            )
+        if kind == "inhibited":
+            return Instruction(
+                kind, "Tool off: station fault", self._fault_words(view), view.guidance_meaning
+            )
+        if kind == "unit_finished":
+            return self._finished(view)
+        return Instruction(
+            kind, "Waiting for the next unit", "Load a unit to start.", view.guidance_meaning
+        )
+
+    def fasten_words(self, view: StationView, step: Step, mode: str) -> Instruction | None:
+        out = view.output
+        kind, meaning = out.guidance.kind, view.guidance_meaning
+        target = out.target.zone if out.target is not None else out.guidance.target
         attempt = self._attempt_words(view)
         if kind in ("fasten", "rework") and target is not None:
             nok = self._after_nok(view, target, attempt)
             if nok is not None:
                 return nok
-        if kind in ("fasten", "rework") and target is not None:
             verb = "Rework" if kind == "rework" else "Fasten"
             detail = f"{self.label(target)} · {attempt}" if attempt else self.label(target)
             if kind == "rework":
@@ -224,38 +248,43 @@ class Wording:
                 f"The tool is at {here}.",
                 meaning,
             )
-        if kind in ("take_part", "wrong_bin") and guidance.target is not None:
-            text = self.take_from(guidance.target, out.step_id)
-            if kind == "wrong_bin":
-                return Instruction(
-                    kind,
-                    f"Wrong bin. {text}",
-                    f"Activity seen at the {self.label(view.wrong_bin)}.",
-                    meaning,
-                )
-            return Instruction(kind, text, f"Step {out.step_number} of {out.step_count}", meaning)
-        if kind == "check" and isinstance(step, CheckStep):
-            seen = CHECK_SEEN.get(view.check_verdict or "", "not judged yet")
+        return None
+
+    def pick_words(self, view: StationView, step: Step, mode: str) -> Instruction | None:
+        out = view.output
+        kind, meaning = out.guidance.kind, view.guidance_meaning
+        if kind not in ("take_part", "wrong_bin") or out.guidance.target is None:
+            return None
+        text = self.take_from(out.guidance.target, out.step_id)
+        if kind == "wrong_bin":
             return Instruction(
-                kind, self.check_action(step), f"{self.label(step.zone)}: {seen}", meaning
+                kind,
+                f"Wrong bin. {text}",
+                f"Activity seen at the {self.label(view.wrong_bin)}.",
+                meaning,
             )
-        if kind == "acknowledge" and isinstance(step, ConfirmStep):
-            how = (
-                "Then press ACKNOWLEDGE."
-                if mode == "live"
-                else "Replay: the acknowledge comes from the recording."
-            )
-            return Instruction(kind, step.prompt.rstrip("."), how, meaning)
-        if kind == "show_tool":
-            where = f" at {self.position(target)}" if target else ""
-            return Instruction(
-                kind, "Bring the tool back into view", f"Then continue{where}.", meaning
-            )
-        if kind == "inhibited":
-            return Instruction(kind, "Tool off: station fault", self._fault_words(view), meaning)
-        if kind == "unit_finished":
-            return self._finished(view)
-        return Instruction(kind, "Waiting for the next unit", "Load a unit to start.", meaning)
+        return Instruction(kind, text, f"Step {out.step_number} of {out.step_count}", meaning)
+
+    def check_words(self, view: StationView, step: Step, mode: str) -> Instruction | None:
+        if view.output.guidance.kind != "check" or not isinstance(step, CheckStep):
+            return None
+        seen = CHECK_SEEN.get(view.check_verdict or "", "not judged yet")
+        return Instruction(
+            "check",
+            self.check_action(step),
+            f"{self.label(step.zone)}: {seen}",
+            view.guidance_meaning,
+        )
+
+    def confirm_words(self, view: StationView, step: Step, mode: str) -> Instruction | None:
+        if view.output.guidance.kind != "acknowledge" or not isinstance(step, ConfirmStep):
+            return None
+        how = (
+            "Then press ACKNOWLEDGE."
+            if mode == "live"
+            else "Replay: the acknowledge comes from the recording."
+        )
+        return Instruction("acknowledge", step.prompt.rstrip("."), how, view.guidance_meaning)
 
     def _after_nok(self, view: StationView, target: str, attempt: str) -> Instruction | None:
         """The headline while the unit's newest tightening is a NOK: what failed and what to
@@ -327,6 +356,17 @@ class Wording:
         return Instruction(
             "unit_finished", f"Unit {unit.serial} NOK: to rework", f"Not released: {why}", meaning
         )
+
+
+# step kind (core.step_kinds.STEP_KINDS) -> the instruction while a step of that kind is current
+# (None: the guidance is not the step's own, e.g. a station fault; the general words apply)
+StepWords = Callable[[Wording, StationView, Step, str], Instruction | None]
+STEP_WORDING: dict[str, StepWords] = {
+    "fasten": Wording.fasten_words,
+    "pick": Wording.pick_words,
+    "check": Wording.check_words,
+    "confirm": Wording.confirm_words,
+}
 
 
 def _limit_words(

@@ -97,7 +97,7 @@ def grab(request: FrameRequest, size_px: tuple[int, int]) -> list[Grabbed]:
 
 
 def _from_stream(url: str, count: int, every_s: float) -> list[Grabbed]:
-    from stationcheck.live.capture import CaptureSource
+    from stationcheck.sources.camera import CaptureSource
 
     source = CaptureSource(url)
     try:

@@ -38,12 +38,7 @@ _SECTION_MODELS: dict[str, type[BaseModel]] = {
     "presence": schema.PresenceSection,
     "camera_shift": schema.CameraShiftSection,
 }
-_STEP_MODELS: dict[str, type[BaseModel]] = {
-    "fasten": schema.FastenSection,
-    "pick": schema.PickSection,
-    "check": schema.CheckSection,
-    "confirm": schema.ConfirmSection,
-}
+_STEP_MODELS: dict[str, type[BaseModel]] = dict(schema.STEP_SECTIONS)
 _FLOW_MAPS = {"torque_nm", "angle_deg"}
 
 
