@@ -102,8 +102,12 @@ def as_dot(graph: tuple[Edge, ...] | None = None) -> str:
     """Graphviz DOT: one arrow per pair of states, labelled with the inputs that take it; the
     inputs that never change a state are left out (``as_text`` lists them)."""
     graph = edges() if graph is None else graph
-    lines = ["digraph stationcheck_states {", "  rankdir=LR;", "  node [shape=box];",
-             f"  {_quoted('idle')} [shape=doublecircle];"]
+    lines = [
+        "digraph stationcheck_states {",
+        "  rankdir=LR;",
+        "  node [shape=box];",
+        f"  {_quoted('idle')} [shape=doublecircle];",
+    ]
     lines.extend(f"  {_quoted(phase)};" for phase in PHASES if phase != "idle")
     arrows: dict[tuple[Phase, Phase], list[str]] = {}
     for edge in graph:

@@ -34,8 +34,10 @@ class StepKind:
 
     def __post_init__(self) -> None:
         if getattr(self.record, "kind", None) != self.name:
-            raise ValueError(f"StepKind {self.name!r}: its record's kind is "
-                             f"{getattr(self.record, 'kind', None)!r}")
+            raise ValueError(
+                f"StepKind {self.name!r}: its record's kind is "
+                f"{getattr(self.record, 'kind', None)!r}"
+            )
 
     @property
     def waiting_reason(self) -> str:
@@ -43,13 +45,38 @@ class StepKind:
         return f"{self.name}_step"
 
 
-STEP_KINDS: dict[str, StepKind] = {kind.name: kind for kind in (
-    StepKind("fasten", FastenStep, "fastener", "given_positions", fastens=True, timed=False,
-             guidance=("fasten", "rework", "wrong_position", "show_tool")),
-    StepKind("pick", PickStep, "bin", "leave_out", fastens=False, timed=True,
-             guidance=("take_part", "wrong_bin")),
-    StepKind("check", CheckStep, "check", "keep", fastens=False, timed=False,
-             guidance=("check",)),
-    StepKind("confirm", ConfirmStep, None, "leave_out", fastens=False, timed=False,
-             guidance=("acknowledge",)),
-)}
+STEP_KINDS: dict[str, StepKind] = {
+    kind.name: kind
+    for kind in (
+        StepKind(
+            "fasten",
+            FastenStep,
+            "fastener",
+            "given_positions",
+            fastens=True,
+            timed=False,
+            guidance=("fasten", "rework", "wrong_position", "show_tool"),
+        ),
+        StepKind(
+            "pick",
+            PickStep,
+            "bin",
+            "leave_out",
+            fastens=False,
+            timed=True,
+            guidance=("take_part", "wrong_bin"),
+        ),
+        StepKind(
+            "check", CheckStep, "check", "keep", fastens=False, timed=False, guidance=("check",)
+        ),
+        StepKind(
+            "confirm",
+            ConfirmStep,
+            None,
+            "leave_out",
+            fastens=False,
+            timed=False,
+            guidance=("acknowledge",),
+        ),
+    )
+}

@@ -89,8 +89,10 @@ def _index(rows: tuple[Row, ...]) -> dict[tuple[Phase, str], Handler]:
         if row.kind not in OBSERVATION_TYPES:
             raise ValueError(f"transition row kind must be an observation kind, got {row.kind!r}")
         if not row.leads_to or any(target not in TARGETS for target in row.leads_to):
-            raise ValueError(f"transition row ({row.kind!r}) must lead to some of {TARGETS}, "
-                             f"got {row.leads_to!r}")
+            raise ValueError(
+                f"transition row ({row.kind!r}) must lead to some of {TARGETS}, "
+                f"got {row.leads_to!r}"
+            )
         for phase in row.phases:
             if (phase, row.kind) in lookup:
                 raise ValueError(f"transition table has two rows for ({phase!r}, {row.kind!r})")

@@ -37,16 +37,25 @@ def _console(settings: LinkSettings) -> SignalLink:
 def _modbus_client(settings: LinkSettings) -> SignalLink:
     from stationcheck.plc.modbus_client import ModbusClientLink
 
-    return ModbusClientLink(settings.host, settings.port, device_id=settings.device_id,
-                            timeout_ms=settings.timeout_ms, retries=settings.retries,
-                            address_map=address_map_from(settings.address_map))
+    return ModbusClientLink(
+        settings.host,
+        settings.port,
+        device_id=settings.device_id,
+        timeout_ms=settings.timeout_ms,
+        retries=settings.retries,
+        address_map=address_map_from(settings.address_map),
+    )
 
 
 def _modbus_server(settings: LinkSettings) -> SignalLink:
     from stationcheck.plc.modbus_server import ModbusServerLink
 
-    return ModbusServerLink(settings.host, settings.port, device_id=settings.device_id,
-                            address_map=address_map_from(settings.address_map, server=True))
+    return ModbusServerLink(
+        settings.host,
+        settings.port,
+        device_id=settings.device_id,
+        address_map=address_map_from(settings.address_map, server=True),
+    )
 
 
 LINKS: dict[str, LinkFactory] = {

@@ -41,8 +41,9 @@ def _open_file(where: Where, options: SourceOptions) -> FrameSource:
 
     if isinstance(where, int):
         raise InputFileError(f"camera {where}: a file source needs a video file path")
-    return VideoFileSource(Path(where), first_frame=options.first_frame,
-                           max_frames=options.max_frames)
+    return VideoFileSource(
+        Path(where), first_frame=options.first_frame, max_frames=options.max_frames
+    )
 
 
 def _open_capture(where: Where, options: SourceOptions) -> FrameSource:
@@ -53,12 +54,19 @@ def _open_capture(where: Where, options: SourceOptions) -> FrameSource:
     return CaptureSource(where, options.clock)
 
 
-SOURCE_KINDS: dict[str, SourceKind] = {kind.name: kind for kind in (
-    SourceKind("camera", lambda where: isinstance(where, int), _open_capture, is_file=False),
-    SourceKind("stream", lambda where: isinstance(where, str) and "://" in where, _open_capture,
-               is_file=False),
-    SourceKind("file", lambda where: isinstance(where, Path), _open_file, is_file=True),
-)}
+SOURCE_KINDS: dict[str, SourceKind] = {
+    kind.name: kind
+    for kind in (
+        SourceKind("camera", lambda where: isinstance(where, int), _open_capture, is_file=False),
+        SourceKind(
+            "stream",
+            lambda where: isinstance(where, str) and "://" in where,
+            _open_capture,
+            is_file=False,
+        ),
+        SourceKind("file", lambda where: isinstance(where, Path), _open_file, is_file=True),
+    )
+}
 
 
 def parse_source(text: str) -> Where:
@@ -74,8 +82,9 @@ def source_kind(where: Where) -> SourceKind:
     for kind in SOURCE_KINDS.values():
         if kind.accepts(where):
             return kind
-    raise InputFileError(f"not a frame source: {where!r} (a camera index, a stream URL or a "
-                         "video file)")
+    raise InputFileError(
+        f"not a frame source: {where!r} (a camera index, a stream URL or a video file)"
+    )
 
 
 def open_source(where: Where, options: SourceOptions | None = None) -> FrameSource:
