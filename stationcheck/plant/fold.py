@@ -105,7 +105,7 @@ class PlantTables(BufferedSqlTables):
 def _stored(row: tuple[Any, ...]) -> StoredEvent:
     seq, t_s, kind, serial, data, recorded_at_s = row
     return StoredEvent(int(seq), float(recorded_at_s),
-                       Event(t_s=float(t_s), kind=kind, serial=serial, data=json.loads(data)))
+                       Event.from_data(float(t_s), kind, serial, json.loads(data)))
 
 
 def fold_station(conn: Any, station_id: str, chunk_events: int = FOLD_CHUNK_EVENTS) -> int:

@@ -107,7 +107,7 @@ def compile_story(story: Story) -> StoryTemplate:
         if index >= 0:
             tightening_of_seq[seq] = index
             count += 1
-        parts, slots = _compile_event(event.kind, dict(event.data), index)
+        parts, slots = _compile_event(event.kind, event.to_data(), index)
         events.append(EventTemplate(event.t_s, event.kind, event.serial is not None, parts, slots,
                                     index))
     (unit,) = tables.units.values()

@@ -15,6 +15,7 @@ from collections.abc import Iterator, Mapping
 from dataclasses import dataclass
 from typing import Any
 
+from stationcheck.core import event_kinds as ev
 from stationcheck.core.events import RESULT_OK, Event
 from stationcheck.core.observations import (
     Abort,
@@ -166,8 +167,8 @@ class Story:
 
     @property
     def tightening_ok(self) -> tuple[bool, ...]:
-        return tuple(e.data["result"] == RESULT_OK for b in self.batches for e in b
-                     if e.kind == "tightening_result")
+        return tuple(e.result == RESULT_OK for b in self.batches for e in b
+                     if isinstance(e, ev.TighteningResult))
 
 
 def build_stories() -> tuple[Story, ...]:
@@ -211,9 +212,10 @@ def is_time_key(key: str, value: Any) -> bool:
 
 
 def event_data(event: Event, draw: UnitDraw, tightening: int) -> dict[str, Any]:
-    """The story event's data for this unit (``tightening``: index of the result, if one)."""
+    """The story event's stored data for this unit (``tightening``: index of the result, if
+    one): its times shifted, its tightening values drawn."""
     data: dict[str, Any] = {}
-    for key, value in event.data.items():
+    for key, value in event.to_data().items():
         if is_time_key(key, value):
             value = shift_time(value, draw)
         elif key == "cycle_time_s" and isinstance(value, float):
@@ -273,9 +275,9 @@ class UnitStream:
         for batch in self.stories[draw.story].batches:
             events = []
             for e in batch:
-                events.append(Event(t_s=shift_time(e.t_s, draw), kind=e.kind,
-                                    serial=draw.serial if e.serial is not None else None,
-                                    data=event_data(e, draw, tightening)))
+                events.append(Event.from_data(shift_time(e.t_s, draw), e.kind,
+                                              draw.serial if e.serial is not None else None,
+                                              event_data(e, draw, tightening)))
                 tightening += e.kind == "tightening_result"
             batches.append(tuple(events))
         return tuple(batches)
