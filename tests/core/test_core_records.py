@@ -10,8 +10,8 @@ from typing import Any
 
 import pytest
 
-from stationcheck.core.alarms import ALARMS
 from stationcheck.core import event_kinds as ev
+from stationcheck.core.alarms import ALARMS
 from stationcheck.core.events import EVENT_CLASSES, Event
 from stationcheck.core.observations import (
     OBSERVATION_TYPES,
