@@ -65,14 +65,14 @@ def test_run_command_dry_run_with_console_link(tmp_path: Path,
 
 def test_run_counts_the_units_it_ended_in_shown_words() -> None:
     from stationcheck.commands.run import UnitCount
-    from stationcheck.core.events import Event
     from stationcheck.core.observations import Tick
     from stationcheck.pipeline.decisions import DecisionStep
+    from tests.event_examples import unit_ended
 
     count = UnitCount()
     assert count.words() == "no unit ended"
     for result in ("OK", "NotOK", "OK", "NotDecidable"):  # as the step log keeps them
-        event = Event(kind="unit_ended", t_s=1.0, serial="U-1", data={"result": result})
+        event = unit_ended(1.0, "U-1", result=result)
         count.on_step(DecisionStep(Tick(t_s=1.0), None, (event,)))  # type: ignore[arg-type]
     assert count.words() == "4 units ended (2 OK, 1 NOK, 1 aborted)"
 

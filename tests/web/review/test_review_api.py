@@ -179,7 +179,7 @@ def test_evidence_images_are_served_from_beside_the_log_only(tmp_path: Path) -> 
             if event.kind == "tightening_result" and event.serial == "QA-0001":
                 path = next(paths, None)
                 if path is not None:
-                    event = replace(event, data={**event.data, "evidence_path": path})
+                    event = replace(event, evidence_path=path)
             events.append(event)
         batches.append(tuple(events))
     log = write_log(tmp_path / "logs" / "log.sqlite", batches)
