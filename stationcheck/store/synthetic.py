@@ -12,7 +12,7 @@ from __future__ import annotations
 import functools
 import random
 from collections.abc import Iterator, Mapping
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import Any
 
 from stationcheck.core import event_kinds as ev
@@ -211,9 +211,9 @@ def is_time_key(key: str, value: Any) -> bool:
     return key.endswith("t_s") and isinstance(value, float)
 
 
-def event_data(event: Event, draw: UnitDraw, tightening: int) -> dict[str, Any]:
-    """The story event's stored data for this unit (``tightening``: index of the result, if
-    one): its times shifted, its tightening values drawn."""
+def unit_event(event: Event, draw: UnitDraw, tightening: int) -> Event:
+    """The story event for this unit (``tightening``: index of the result, if one): its times
+    shifted (in the stored data, so every time field moves), its tightening values drawn."""
     data: dict[str, Any] = {}
     for key, value in event.to_data().items():
         if is_time_key(key, value):
@@ -221,13 +221,14 @@ def event_data(event: Event, draw: UnitDraw, tightening: int) -> dict[str, Any]:
         elif key == "cycle_time_s" and isinstance(value, float):
             value = value * draw.pace
         data[key] = value
-    if event.kind == "tightening_result":
+    shifted = Event.from_data(shift_time(event.t_s, draw), event.kind,
+                              draw.serial if event.serial is not None else None, data)
+    if isinstance(shifted, ev.TighteningResult):
         torque, angle, sequence = draw.tightenings[tightening]
-        data["torque"] = {**data["torque"], "value": torque}
-        data["angle"] = {**data["angle"], "value": angle}
-        data["within_limits"] = TORQUE_NM.contains(torque) and ANGLE_DEG.contains(angle)
-        data["sequence"] = sequence
-    return data
+        shifted = replace(shifted, torque=replace(shifted.torque, value=torque),
+                          angle=replace(shifted.angle, value=angle), sequence=sequence,
+                          within_limits=TORQUE_NM.contains(torque) and ANGLE_DEG.contains(angle))
+    return shifted
 
 
 @functools.lru_cache(maxsize=1)
@@ -275,9 +276,7 @@ class UnitStream:
         for batch in self.stories[draw.story].batches:
             events = []
             for e in batch:
-                events.append(Event.from_data(shift_time(e.t_s, draw), e.kind,
-                                              draw.serial if e.serial is not None else None,
-                                              event_data(e, draw, tightening)))
+                events.append(unit_event(e, draw, tightening))
                 tightening += e.kind == "tightening_result"
             batches.append(tuple(events))
         return tuple(batches)
