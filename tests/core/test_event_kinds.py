@@ -13,6 +13,7 @@ from typing import Any
 import pytest
 
 from stationcheck.core import event_kinds as ev
+from stationcheck.core.event_reference import event_reference
 from stationcheck.core.events import EVENT_CLASSES, Event, EventDataError
 from stationcheck.errors import InputFileError
 from tests.event_examples import FULL, MINIMAL
@@ -113,3 +114,10 @@ def test_every_kind_is_registered_once_and_documented() -> None:
 def test_the_base_is_not_an_event_of_its_own() -> None:
     with pytest.raises(TypeError, match="base of the event kinds"):
         Event(1.0, None)
+
+
+def test_the_event_reference_in_docs_is_current() -> None:
+    """``docs/events.md`` is made by ``tools/event_reference``; run it after changing a kind."""
+    written = (Path(__file__).parents[2] / "docs" / "events.md").read_text(encoding="utf-8")
+    assert written == event_reference()
+    assert all(f"## `{kind}`" in written for kind in EVENT_CLASSES)

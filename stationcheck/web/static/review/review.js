@@ -172,6 +172,7 @@ async function showUnit(serial, params) {
     ["Failed positions", u.failed_positions.join(", ") || "none"],
     ["Unfinished positions", u.unfinished_positions.join(", ") || "none"],
     ["Alarms", u.alarm_count], ["Current step", u.current_step || "-"],
+    ["Keypoint model (SHA-256)", (data.models || []).map((m) => m ? m.slice(0, 12) + "\u2026" : "not recorded").join(", ") || "-"],
   ];
   if (u.nok_reason) facts.unshift([u.status === "NOK" ? "Why NOK" : "Why the first pass was NOK", u.nok_reason]);
   $("unit-facts").replaceChildren(...facts.flatMap(([k, v]) => [el("dt", {}, k),
