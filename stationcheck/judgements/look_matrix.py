@@ -249,7 +249,7 @@ def _pick_steps(events: Sequence[Event], end_s: float,
     steps: list[tuple[float, float, str]] = []
     open_step: tuple[float, str] | None = None
     for event in events:
-        if event.kind in ("step_completed", "unit_ended", "step_started") and open_step:
+        if isinstance(event, ev.StepCompleted | ev.UnitEnded | ev.StepStarted) and open_step:
             steps.append((open_step[0], event.t_s, open_step[1]))
             open_step = None
         if isinstance(event, ev.StepStarted) and event.step_kind == "pick":

@@ -277,7 +277,7 @@ class UnitStream:
             events = []
             for e in batch:
                 events.append(unit_event(e, draw, tightening))
-                tightening += e.kind == "tightening_result"
+                tightening += isinstance(e, ev.TighteningResult)
             batches.append(tuple(events))
         return tuple(batches)
 

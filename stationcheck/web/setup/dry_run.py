@@ -18,6 +18,7 @@ from typing import Any
 import cv2
 
 from stationcheck.config import StationConfig, check_data
+from stationcheck.core import event_kinds as ev
 from stationcheck.core.events import Event
 from stationcheck.core.observations import Observation, PictureState, UnitStarted
 from stationcheck.core.plan import StationPlan
@@ -70,7 +71,7 @@ class DryRunRecorder:
         if isinstance(step.observation, PictureState):
             self.timeline.append(describe_picture(step.observation))
         for event in step.events:
-            if event.kind != "picture_quality":  # said once above, with or without a unit
+            if not isinstance(event, ev.PictureQuality):  # said once above, with or without a unit
                 self.timeline.append(describe_event(event))
         if step.output.tool_enabled != self._enabled:
             self._enabled = step.output.tool_enabled
