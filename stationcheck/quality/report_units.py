@@ -12,6 +12,7 @@ from html import escape
 from stationcheck.core import event_kinds as ev
 from stationcheck.core.events import RESULT_NOK, Event
 from stationcheck.core.result_words import unit_word
+from stationcheck.errors import StoreError
 from stationcheck.quality.export import nok_reason
 from stationcheck.quality.period import Period, format_time
 from stationcheck.store import queries
@@ -35,8 +36,11 @@ def _unit_starts(conn: sqlite3.Connection, serial: str, order: str) -> list[ev.U
     rows = conn.execute("SELECT t_s, kind, serial, data FROM events INDEXED BY events_by_serial "
                         f"WHERE serial = ? AND kind = 'unit_started' ORDER BY seq {order}",
                         (serial,)).fetchall()
-    starts = [Event.from_data(t_s, kind, serial, json.loads(data))
-              for t_s, kind, serial, data in rows]
+    try:
+        starts = [Event.from_data(t_s, kind, serial, json.loads(data))
+                  for t_s, kind, serial, data in rows]
+    except ValueError as exc:  # also json.JSONDecodeError
+        raise StoreError(f"a stored unit_started event of {serial} is malformed: {exc}") from exc
     return [e for e in starts if isinstance(e, ev.UnitStarted)]
 
 
