@@ -97,34 +97,52 @@ def _converter(hint: Any) -> Convert:
     raise TypeError(f"no event field type {hint!r}")
 
 
-Layout = tuple[tuple[dataclasses.Field[Any], str, Convert], ...]
-_LAYOUTS: dict[type, Layout] = {}
+@dataclass(frozen=True)
+class _Field:
+    name: str
+    key: str  # its name in ``data``
+    label: str  # its name in messages: ``Class.field``
+    convert: Convert
+    default: Any
+    written_if_set: bool
 
 
-def _layout(cls: type) -> Layout:
-    """(field, key in data, converter) of each field of a record or event (not t_s, serial);
-    a class's ``data_keys`` names the fields stored under another key."""
-    layout = _LAYOUTS.get(cls)
-    if layout is None:
+@dataclass(frozen=True)
+class _Shape:
+    fields: tuple[_Field, ...]
+    keys: frozenset[str]
+    required: tuple[str, ...]
+
+
+_SHAPES: dict[type, _Shape] = {}
+
+
+def _shape(cls: type) -> _Shape:
+    """The fields of a record or event (not t_s, serial) as ``data`` holds them; a class's
+    ``data_keys`` names the fields stored under another key."""
+    shape = _SHAPES.get(cls)
+    if shape is None:
         hints, keys = get_type_hints(cls), getattr(cls, "data_keys", {})
-        layout = _LAYOUTS[cls] = tuple(
-            (f, keys.get(f.name, f.name), _converter(hints[f.name]))
-            for f in dataclasses.fields(cls)
-            if f.name not in _ENVELOPE
+        own = [f for f in dataclasses.fields(cls) if f.name not in _ENVELOPE]
+        fields = tuple(
+            _Field(f.name, keys.get(f.name, f.name), f"{cls.__name__}.{f.name}",
+                   _converter(hints[f.name]), f.default, bool(f.metadata.get(_WRITTEN_IF_SET)))
+            for f in own
         )
-    return layout
+        required = tuple(keys.get(f.name, f.name) for f in own if f.default is dataclasses.MISSING
+                         and f.default_factory is dataclasses.MISSING)
+        shape = _SHAPES[cls] = _Shape(fields, frozenset(f.key for f in fields), required)
+    return shape
 
 
 def _fields_from(cls: type, data: Mapping[str, Any], where: str) -> dict[str, Any]:
-    layout = _layout(cls)
-    unknown = sorted(set(data) - {key for _, key, _ in layout})
-    if unknown:
-        raise EventDataError(f"{where}: unknown keys {unknown}")
-    missing = [key for f, key, _ in layout if key not in data
-               and f.default is dataclasses.MISSING and f.default_factory is dataclasses.MISSING]
+    shape = _shape(cls)
+    if not shape.keys.issuperset(data):
+        raise EventDataError(f"{where}: unknown keys {sorted(set(data) - shape.keys)}")
+    missing = [key for key in shape.required if key not in data]
     if missing:
         raise EventDataError(f"{where}: missing keys {missing}")
-    return {f.name: data[key] for f, key, _ in layout if key in data}
+    return {f.name: data[f.key] for f in shape.fields if f.key in data}
 
 
 def _encode(value: Any) -> Any:
@@ -138,20 +156,19 @@ def _encode(value: Any) -> Any:
 def record_data(record: Any) -> dict[str, Any]:
     """The JSON object of a record or an event's fields (what ``data`` holds)."""
     out: dict[str, Any] = {}
-    for f, key, _ in _layout(type(record)):
+    for f in _shape(type(record)).fields:
         value = getattr(record, f.name)
-        if f.metadata.get(_WRITTEN_IF_SET) and value == f.default:
+        if f.written_if_set and value == f.default:
             continue
-        out[key] = _encode(value)
+        out[f.key] = _encode(value)
     return out
 
 
 def check_fields(record: Any) -> None:
     """Check (and turn lists and objects into tuples and records) every field of a record."""
-    name = type(record).__name__
-    for f, _, convert in _layout(type(record)):
+    for f in _shape(type(record)).fields:
         value = getattr(record, f.name)
-        checked = convert(value, f"{name}.{f.name}")
+        checked = f.convert(value, f.label)
         if checked is not value:
             object.__setattr__(record, f.name, checked)
 
