@@ -13,6 +13,7 @@ from pathlib import Path
 from types import FrameType
 from typing import TYPE_CHECKING
 
+from stationcheck.core import event_kinds as ev
 from stationcheck.core.result_words import SHOWN_RESULT, unit_word
 
 if TYPE_CHECKING:
@@ -97,8 +98,8 @@ class UnitCount:
 
     def on_step(self, step: DecisionStep) -> None:
         for event in step.events:
-            if event.kind == "unit_ended":
-                word = unit_word(str(event.data.get("result", "")))
+            if isinstance(event, ev.UnitEnded):
+                word = unit_word(event.result)
                 self.ended[word] = self.ended.get(word, 0) + 1
 
     def on_stop(self, error: BaseException | None) -> None:

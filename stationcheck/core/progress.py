@@ -10,6 +10,7 @@ from __future__ import annotations
 from collections.abc import Iterable
 from dataclasses import dataclass, replace
 
+from stationcheck.core import event_kinds as ev
 from stationcheck.core.events import RESULT_NOK, RESULT_OK, Event
 from stationcheck.core.observations import PositionRef
 
@@ -85,46 +86,38 @@ def _with_position(unit: UnitProgress, ref: PositionRef, **changes: object) -> U
     return replace(unit, positions=positions)
 
 
-def _ref(event: Event) -> PositionRef:
-    return PositionRef(step=event.data["step"], zone=event.data["zone"])
-
-
-def _start(event: Event) -> UnitProgress:
+def _start(event: ev.UnitStarted) -> UnitProgress:
     assert event.serial is not None
-    data = event.data
     return UnitProgress(
         serial=event.serial,
-        rework=bool(data["rework"]),
+        rework=event.rework,
         started_t_s=event.t_s,
-        steps=tuple(StepEntry(id=s["id"], kind=s["kind"]) for s in data["steps"]),
-        positions=tuple(
-            PositionProgress(ref=PositionRef(p["step"], p["zone"]), number=int(p["number"]))
-            for p in data["positions"]
-        ),
+        steps=tuple(StepEntry(id=s.id, kind=s.kind) for s in event.steps),
+        positions=tuple(PositionProgress(ref=p.ref, number=p.number) for p in event.positions),
     )
 
 
 def apply_event(unit: UnitProgress | None, event: Event) -> UnitProgress | None:
     """Fold one event into the unit it belongs to; events of other units change nothing."""
-    if event.kind == "unit_started":
+    if isinstance(event, ev.UnitStarted):
         return _start(event)
     if unit is None or event.serial != unit.serial or not unit.is_open:
         return unit
-    data = event.data
-    if event.kind == "step_started":
-        return replace(unit, step_index=int(data["index"]), step_started_t_s=event.t_s)
-    if event.kind == "tightening_result":
-        return _with_position(unit, _ref(event), attempts=int(data["attempt"]))
-    if event.kind == "position_completed":
-        return _with_position(unit, _ref(event), result=RESULT_OK)
-    if event.kind == "position_failed":
-        return _with_position(unit, _ref(event), result=RESULT_NOK)
-    if event.kind == "alarm_raised":
-        return replace(unit, alarms=unit.alarms + (str(data["code"]),))
-    if event.kind == "unit_ended":
-        return replace(
-            unit, result=str(data["result"]), ended_by=str(data["ended_by"]), ended_t_s=event.t_s
-        )
+    match event:
+        case ev.StepStarted():
+            return replace(unit, step_index=event.index, step_started_t_s=event.t_s)
+        case ev.TighteningResult():
+            ref = PositionRef(event.step, event.zone)
+            return _with_position(unit, ref, attempts=event.attempt)
+        case ev.PositionCompleted():
+            return _with_position(unit, PositionRef(event.step, event.zone), result=RESULT_OK)
+        case ev.PositionFailed():
+            return _with_position(unit, PositionRef(event.step, event.zone), result=RESULT_NOK)
+        case ev.AlarmRaised():
+            return replace(unit, alarms=unit.alarms + (event.code,))
+        case ev.UnitEnded():
+            return replace(unit, result=event.result, ended_by=event.ended_by,
+                           ended_t_s=event.t_s)
     return unit
 
 

@@ -11,6 +11,7 @@ from __future__ import annotations
 from collections.abc import Iterable
 from dataclasses import dataclass, replace
 
+from stationcheck.core import event_kinds as ev
 from stationcheck.core.conditions import settle
 from stationcheck.core.events import Event
 from stationcheck.core.guidance import render_output
@@ -69,7 +70,8 @@ class Sequencer:
         of the open unit). The unit is exactly as it was; everything about the tool and the
         station starts over inhibited and is re-learned from the next observations."""
         events = tuple(events)
-        sequences = [e.data["sequence"] for e in events if isinstance(e.data.get("sequence"), int)]
+        sequences = [e.sequence for e in events
+                     if isinstance(e, ev.TighteningResult | ev.AlarmRaised) and e.sequence is not None]
         control = ToolControl(last_sequence=sequences[-1] if sequences else None)
         return SequencerState(
             now_t_s=events[-1].t_s if events else None,

@@ -66,12 +66,13 @@ class Transaction:
         return unit.current_position if unit is not None else None
 
     def emit(self, kind: str, /, **data: Any) -> None:
-        """Record an event (on the open unit, if any) and fold it into the unit."""
+        """Record an event (on the open unit, if any) and fold it into the unit; ``data`` are
+        the fields of the kind's class in :mod:`stationcheck.core.event_kinds`, checked there."""
         unit = self.unit
         serial = unit.serial if unit is not None else None
         if kind == "unit_started":
             serial = str(data.pop("serial"))
-        event = Event(t_s=self.now_t_s, kind=kind, serial=serial, data=data)
+        event = Event.from_data(self.now_t_s, kind, serial, data)
         self.events.append(event)
         self.state = replace(self.state, unit=apply_event(self.state.unit, event))
 

@@ -28,6 +28,7 @@ from dataclasses import dataclass, replace
 from pathlib import Path
 
 from stationcheck.config import load_config
+from stationcheck.core import event_kinds as ev
 from stationcheck.core.events import Event
 from stationcheck.core.observations import Observation
 from stationcheck.core.plan import PickStep
@@ -222,13 +223,12 @@ def score(
     picks = [
         e
         for e in events
-        if e.kind == "step_completed"
-        and e.data.get("kind") == "pick"
-        and e.data.get("ended_by") == "completed"
+        if isinstance(e, ev.StepCompleted) and e.step_kind == "pick" and e.ended_by == "completed"
     ]  # not closed by a new unit
     early = 0
     for event in picks:
-        zone, started = str(event.data.get("zone")), float(event.data["started_t_s"])
+        zone = str(event.zone)
+        started = event.t_s if event.started_t_s is None else event.started_t_s
         if not any(a <= event.t_s + 1e-6 and b >= started for a, b in reaches.get(zone, [])):
             early += 1
     unjudged = _spans(events, UNJUDGED_ALARMS, frames / fps)
@@ -243,9 +243,9 @@ def score(
             if any(x < b and a < y for x, y in unjudged):
                 continue  # the station said it cannot judge; the step stays open
             if not any(
-                e.kind == "alarm_raised"
-                and e.data.get("code") == "wrong_bin"
-                and e.data.get("subject") == zone
+                isinstance(e, ev.AlarmRaised)
+                and e.code == "wrong_bin"
+                and e.subject == zone
                 and a - 0.05 <= e.t_s <= b + WRONG_BIN_GRACE_S
                 for e in events
             ):
@@ -255,10 +255,8 @@ def score(
     enabled_unjudged = sum(
         1 for s in states if s.enabled and any(x <= s.t_s < y for x, y in unjudged)
     )
-    expected = sum(1 for e in events if e.kind == "step_started" and e.data.get("kind") == "pick")
-    moved = sum(
-        1 for e in events if e.kind == "alarm_raised" and e.data.get("code") == "camera_moved"
-    )
+    expected = sum(1 for e in events if isinstance(e, ev.StepStarted) and e.step_kind == "pick")
+    moved = sum(1 for e in events if isinstance(e, ev.AlarmRaised) and e.code == "camera_moved")
     return CellResult(
         cell,
         scene,
@@ -281,14 +279,13 @@ def _spans(
     spans, since = [], None
     active: set[str] = set()
     for event in events:
-        code = event.data.get("code")
-        if code not in codes:
+        if not isinstance(event, ev.AlarmRaised | ev.AlarmCleared) or event.code not in codes:
             continue
-        if event.kind == "alarm_raised":
+        if isinstance(event, ev.AlarmRaised):
             since = event.t_s if not active else since
-            active.add(str(code))
-        elif event.kind == "alarm_cleared" and code in active:
-            active.discard(str(code))
+            active.add(event.code)
+        elif event.code in active:
+            active.discard(event.code)
             if not active and since is not None:
                 spans.append((since, event.t_s))
     if active and since is not None:
@@ -303,11 +300,11 @@ def _pick_steps(
     steps: list[tuple[float, float, str]] = []
     open_step: tuple[float, str] | None = None
     for event in events:
-        if event.kind in ("step_completed", "unit_ended", "step_started") and open_step:
+        if isinstance(event, ev.StepCompleted | ev.UnitEnded | ev.StepStarted) and open_step:
             steps.append((open_step[0], event.t_s, open_step[1]))
             open_step = None
-        if event.kind == "step_started" and event.data.get("kind") == "pick":
-            open_step = (event.t_s, pick_bins[str(event.data["step"])])
+        if isinstance(event, ev.StepStarted) and event.step_kind == "pick":
+            open_step = (event.t_s, pick_bins[event.step])
     if open_step is not None:
         steps.append((open_step[0], end_s, open_step[1]))
     return steps

@@ -21,6 +21,7 @@ import cv2
 import numpy as np
 import numpy.typing as npt
 
+from stationcheck.core import event_kinds as ev
 from stationcheck.core.events import Event
 from stationcheck.core.plan import StationPlan
 from stationcheck.core.records import Frame
@@ -85,15 +86,15 @@ class EvidenceWriter:
     def attach(self, events: Sequence[Event]) -> tuple[Event, ...]:
         out = []
         for event in events:
-            if event.kind == "unit_started" and event.serial is not None:
+            if isinstance(event, ev.UnitStarted) and event.serial is not None:
                 self._passes[event.serial] = self._passes.get(event.serial, 0) + 1
-            elif event.kind == "tightening_result":
+            elif isinstance(event, ev.TighteningResult):
                 event = self._with_image(event)
             out.append(event)
         return tuple(out)
 
-    def _with_image(self, event: Event) -> Event:
-        zone = str(event.data.get("zone", ""))
+    def _with_image(self, event: ev.TighteningResult) -> Event:
+        zone = event.zone
         if self._frame is None or zone not in self.polygons:
             logger.warning(
                 "no evidence image for the tightening result at %.3f s "
@@ -104,12 +105,7 @@ class EvidenceWriter:
             self.failures += 1
             return event
         serial = event.serial or "no-serial"
-        name = "{}_pass{}_{}_attempt{}.png".format(
-            safe_name(serial),
-            self._passes.get(serial, 1),
-            safe_name(zone),
-            int(event.data.get("attempt", 1)),
-        )
+        name = f"{safe_name(serial)}_pass{self._passes.get(serial, 1)}_{safe_name(zone)}_attempt{event.attempt}.png"
         relative = Path(EVIDENCE_FOLDER) / name
         try:
             self._write(self.log_folder / relative, self._crop(zone, self._frame.image))

@@ -25,8 +25,10 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
+from stationcheck.core import event_kinds as ev
 from stationcheck.core.alarms import ALARMS
 from stationcheck.core.events import RESULT_NOK, RESULT_OK
+from stationcheck.core.observations import PositionRef
 from stationcheck.errors import InputFileError
 from stationcheck.pipeline.json_lines import read_json_lines
 from stationcheck.pipeline.trace import FramedEvent
@@ -89,8 +91,8 @@ def number_passes(decisions: Iterable[Decision]) -> list[Decision]:
     return out
 
 
-def _zones(refs: Iterable[Mapping[str, Any]]) -> list[str]:
-    return [str(ref["zone"]) for ref in refs]
+def _zones(refs: Iterable[PositionRef]) -> list[str]:
+    return [ref.zone for ref in refs]
 
 
 def unit_result_word(result: str, failed_zones: list[str]) -> str:
@@ -115,77 +117,77 @@ def decisions_from_events(framed: Iterable[FramedEvent], end_frame: int) -> list
     open_units: dict[str, bool] = {}
     for item in framed:
         event, frame = item.event, item.frame_index
-        data, serial = event.data, event.serial
-        kind = event.kind
-        if kind == "tool_enabled":
-            enabled_zone = data.get("zone")
-            out.append(Decision(frame, "enable", serial, {"on": True, "zone": enabled_zone}))
-        elif kind == "tool_inhibited":
-            out.append(
-                Decision(
-                    frame,
-                    "enable",
-                    serial,
-                    {"on": False, "zone": enabled_zone, "reason": data.get("reason")},
+        serial = event.serial
+        match event:
+            case ev.ToolEnabled():
+                enabled_zone = event.zone
+                out.append(Decision(frame, "enable", serial, {"on": True, "zone": enabled_zone}))
+            case ev.ToolInhibited():
+                out.append(
+                    Decision(
+                        frame,
+                        "enable",
+                        serial,
+                        {"on": False, "zone": enabled_zone, "reason": event.reason},
+                    )
                 )
-            )
-            enabled_zone = None
-        elif kind == "tightening_result":
-            out.append(
-                Decision(
-                    frame,
-                    "position_result",
-                    serial,
-                    {
-                        "zone": data["zone"],
-                        "attempt": data["attempt"],
-                        "ok": data["result"] == RESULT_OK,
-                    },
+                enabled_zone = None
+            case ev.TighteningResult():
+                out.append(
+                    Decision(
+                        frame,
+                        "position_result",
+                        serial,
+                        {
+                            "zone": event.zone,
+                            "attempt": event.attempt,
+                            "ok": event.result == RESULT_OK,
+                        },
+                    )
                 )
-            )
-        elif kind == "position_failed":
-            out.append(Decision(frame, "rework_mark", serial, {"zone": data["zone"]}))
-        elif kind == "step_completed" and data["kind"] == "check":
-            out.append(
-                Decision(
-                    frame,
-                    "check_result",
-                    serial,
-                    {"step": data["step"], "passed": data["result"] == RESULT_OK},
+            case ev.PositionFailed():
+                out.append(Decision(frame, "rework_mark", serial, {"zone": event.zone}))
+            case ev.StepCompleted() if event.step_kind == "check":
+                out.append(
+                    Decision(
+                        frame,
+                        "check_result",
+                        serial,
+                        {"step": event.step, "passed": event.result == RESULT_OK},
+                    )
                 )
-            )
-        elif kind == "step_completed":
-            out.append(
-                Decision(
-                    frame,
-                    "step_done",
-                    serial,
-                    {"step": data["step"], "failed": _zones(data["failed_positions"])},
+            case ev.StepCompleted():
+                out.append(
+                    Decision(
+                        frame,
+                        "step_done",
+                        serial,
+                        {"step": event.step, "failed": _zones(event.failed_positions)},
+                    )
                 )
-            )
-        elif kind == "unit_started":
-            assert serial is not None
-            open_units[serial] = bool(data["rework"])
-        elif kind == "unit_ended":
-            if serial is not None:
-                open_units.pop(serial, None)
-            failed = _zones(data["failed_positions"])
-            out.append(
-                Decision(
-                    frame,
-                    "unit_result",
-                    serial,
-                    {
-                        "result": unit_result_word(str(data["result"]), failed),
-                        "failed": failed,
-                        "rework": bool(data["rework"]),
-                        "ended_by": data["ended_by"],
-                    },
+            case ev.UnitStarted():
+                assert serial is not None
+                open_units[serial] = event.rework
+            case ev.UnitEnded():
+                if serial is not None:
+                    open_units.pop(serial, None)
+                failed = _zones(event.failed_positions)
+                out.append(
+                    Decision(
+                        frame,
+                        "unit_result",
+                        serial,
+                        {
+                            "result": unit_result_word(event.result, failed),
+                            "failed": failed,
+                            "rework": event.rework,
+                            "ended_by": event.ended_by,
+                        },
+                    )
                 )
-            )
-        elif kind == "alarm_raised" and _is_alarm(str(data["code"])):
-            subject = data.get("subject") or None
-            out.append(Decision(frame, "alarm", serial, {"alarm": data["code"], "zone": subject}))
+            case ev.AlarmRaised() if _is_alarm(event.code):
+                subject = event.subject or None
+                out.append(Decision(frame, "alarm", serial, {"alarm": event.code, "zone": subject}))
     for serial, rework in open_units.items():
         out.append(
             Decision(

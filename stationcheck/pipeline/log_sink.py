@@ -6,7 +6,9 @@ from __future__ import annotations
 import logging
 import time
 from collections.abc import Callable
+from dataclasses import replace
 
+from stationcheck.core import event_kinds as ev
 from stationcheck.core.events import Event
 from stationcheck.core.observations import PositionRef
 from stationcheck.errors import StoreError, first_line, stop_requested
@@ -24,10 +26,8 @@ def rework_positions_from_log(log: StepLog, serial: str) -> tuple[PositionRef, .
     """Failed and unfinished positions of the unit's last closed pass (empty if none)."""
     for stored in reversed(log.events(serial=serial)):
         event = stored.event
-        if event.kind == "unit_ended":
-            refs = list(event.data.get("failed_positions", []))
-            refs += list(event.data.get("unfinished_positions", []))
-            return tuple(PositionRef(step=r["step"], zone=r["zone"]) for r in refs)
+        if isinstance(event, ev.UnitEnded):
+            return event.failed_positions + event.unfinished_positions
     return ()
 
 
@@ -84,12 +84,14 @@ class StepLogSink:
         self.flush()
         if error is None:
             return
-        data: dict[str, object] = {"reason": STOPPED_ON_REQUEST, "was_enabled": self._enabled}
-        if not stop_requested(error):
-            data.update(reason=STOPPED_ON_ERROR, error=first_line(error)[:300])
-        event = Event(
-            t_s=self._last_t_s, kind="tool_inhibited", serial=self._last_serial, data=data
+        event = ev.ToolInhibited(
+            t_s=self._last_t_s,
+            serial=self._last_serial,
+            reason=STOPPED_ON_REQUEST,
+            was_enabled=self._enabled,
         )
+        if not stop_requested(error):
+            event = replace(event, reason=STOPPED_ON_ERROR, error=first_line(error)[:300])
         self.log.append([event], recorded_at_s=self.clock())
         self.events_written += 1
-        logger.info("run stopped (%s); tool inhibited and recorded in the log", data["reason"])
+        logger.info("run stopped (%s); tool inhibited and recorded in the log", event.reason)

@@ -12,6 +12,7 @@ from collections.abc import Iterable
 from dataclasses import dataclass, field
 from typing import Literal
 
+from stationcheck.core import event_kinds as ev
 from stationcheck.core.events import RESULT_OK, Event
 from stationcheck.core.outputs import Output
 from stationcheck.core.plan import FastenStep, StationPlan
@@ -161,44 +162,43 @@ class StationViewBuilder:
 
     def fold(self, events: Iterable[Event]) -> None:
         for event in events:
-            data = event.data
-            if event.kind == "unit_started":
-                in_pass = {str(p["zone"]) for p in data["positions"]}
-                # a rework pass holds only the positions to redo; the others were done before
-                self.done = [z for z in self.position_order() if z not in in_pass]
-                self.check_verdict = None
-                self.last_tightening = None
-                self._wrong = {}
-            elif event.kind == "position_completed":
-                self.done.append(str(data["zone"]))
-            elif event.kind == "tightening_result":
-                self.last_tightening = TighteningShown(
-                    zone=str(data["zone"]),
-                    position=int(data["position"]),
-                    attempt=int(data["attempt"]),
-                    ok=data["result"] == RESULT_OK,
-                    torque_nm=data["torque"]["value"],
-                    angle_deg=data["angle"]["value"],
-                    t_s=event.t_s,
-                    torque_limits_nm=(data["torque"].get("low"), data["torque"].get("high")),
-                    angle_limits_deg=(data["angle"].get("low"), data["angle"].get("high")),
-                    max_attempts=data.get("max_attempts"),
-                )
-            elif event.kind == "check_verdict":
-                self.check_verdict = str(data["verdict"])
-            elif event.kind == "unit_ended" and event.serial is not None:
-                failed = tuple(str(r["zone"]) for r in data["failed_positions"])
-                result = unit_word(str(data["result"]))
-                self.last_unit = UnitShown(
-                    event.serial,
-                    bool(data["rework"]),
-                    result,
-                    bool(data["released"]),
-                    failed,
-                    event.t_s,
-                )
-            elif event.kind == "alarm_raised" and data["code"] in ("wrong_position", "wrong_bin"):
-                self._wrong[str(data["code"])] = str(data["subject"])
+            match event:
+                case ev.UnitStarted():
+                    in_pass = {p.zone for p in event.positions}
+                    # a rework pass holds only the positions to redo; the others were done before
+                    self.done = [z for z in self.position_order() if z not in in_pass]
+                    self.check_verdict = None
+                    self.last_tightening = None
+                    self._wrong = {}
+                case ev.PositionCompleted():
+                    self.done.append(event.zone)
+                case ev.TighteningResult():
+                    self.last_tightening = TighteningShown(
+                        zone=event.zone,
+                        position=event.position,
+                        attempt=event.attempt,
+                        ok=event.result == RESULT_OK,
+                        torque_nm=event.torque.value,
+                        angle_deg=event.angle.value,
+                        t_s=event.t_s,
+                        torque_limits_nm=(event.torque.low, event.torque.high),
+                        angle_limits_deg=(event.angle.low, event.angle.high),
+                        max_attempts=event.max_attempts,
+                    )
+                case ev.CheckVerdict():
+                    self.check_verdict = event.verdict
+                case ev.UnitEnded() if event.serial is not None:
+                    failed = tuple(r.zone for r in event.failed_positions)
+                    self.last_unit = UnitShown(
+                        event.serial,
+                        event.rework,
+                        unit_word(event.result),
+                        event.released,
+                        failed,
+                        event.t_s,
+                    )
+                case ev.AlarmRaised() if event.code in ("wrong_position", "wrong_bin"):
+                    self._wrong[event.code] = event.subject
 
     def view(
         self,

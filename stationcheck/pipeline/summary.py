@@ -6,6 +6,7 @@ from collections.abc import Iterable
 from dataclasses import dataclass
 from typing import Any
 
+from stationcheck.core import event_kinds as ev
 from stationcheck.core.events import RESULT_OK, Event
 from stationcheck.core.result_words import UNIT_OPEN, unit_word
 
@@ -63,29 +64,28 @@ def summarise_units(events: Iterable[Event], end_t_s: float | None = None) -> li
     last_t_s = 0.0
     for event in events:
         last_t_s = max(last_t_s, event.t_s)
-        data = event.data
-        if event.kind == "unit_started" and event.serial is not None:
-            current = _Open(event.serial, bool(data["rework"]), event.t_s)
+        if isinstance(event, ev.UnitStarted) and event.serial is not None:
+            current = _Open(event.serial, event.rework, event.t_s)
             alarms = []
         elif current is None or event.serial != current.serial:
             continue
-        elif event.kind == "tightening_result":
+        elif isinstance(event, ev.TighteningResult):
             current.tightenings += 1
-            current.nok_results += data["result"] != RESULT_OK
-        elif event.kind == "alarm_raised":
-            alarms.append(str(data["code"]))
-        elif event.kind == "unit_ended":
+            current.nok_results += event.result != RESULT_OK
+        elif isinstance(event, ev.AlarmRaised):
+            alarms.append(event.code)
+        elif isinstance(event, ev.UnitEnded):
             passes.append(
                 UnitPass(
                     serial=current.serial,
                     rework=current.rework,
                     started_t_s=current.started_t_s,
-                    result=unit_word(str(data["result"])),
-                    released=bool(data["released"]),
-                    ended_by=str(data["ended_by"]),
-                    failed_positions=tuple(r["zone"] for r in data["failed_positions"]),
-                    unfinished_positions=tuple(r["zone"] for r in data["unfinished_positions"]),
-                    cycle_time_s=float(data["cycle_time_s"]),
+                    result=unit_word(event.result),
+                    released=event.released,
+                    ended_by=event.ended_by,
+                    failed_positions=tuple(r.zone for r in event.failed_positions),
+                    unfinished_positions=tuple(r.zone for r in event.unfinished_positions),
+                    cycle_time_s=event.cycle_time_s,
                     tightenings=current.tightenings,
                     nok_results=current.nok_results,
                     alarms=tuple(alarms),

@@ -15,6 +15,7 @@ import logging
 from typing import Any
 
 from stationcheck.core.events import Event
+from stationcheck.errors import StoreError
 from stationcheck.store.projection import project
 from stationcheck.store.records import StoredEvent
 from stationcheck.store.sql_tables import (
@@ -117,13 +118,14 @@ class PlantTables(BufferedSqlTables):
         self.discard()
 
 
-def _stored(row: tuple[Any, ...]) -> StoredEvent:
+def stored_event_from_row(row: tuple[Any, ...]) -> StoredEvent:
+    """A row of ``plant.events`` as the typed event the station logged."""
     seq, t_s, kind, serial, data, recorded_at_s = row
-    return StoredEvent(
-        int(seq),
-        float(recorded_at_s),
-        Event(t_s=float(t_s), kind=kind, serial=serial, data=json.loads(data)),
-    )
+    try:
+        event = Event.from_data(float(t_s), kind, serial, json.loads(data))
+    except ValueError as exc:  # also json.JSONDecodeError
+        raise StoreError(f"plant event {seq} ({kind}) is malformed: {exc}") from exc
+    return StoredEvent(int(seq), float(recorded_at_s), event)
 
 
 def fold_station(conn: Any, station_id: str, chunk_events: int = FOLD_CHUNK_EVENTS) -> int:
@@ -147,7 +149,7 @@ def fold_station(conn: Any, station_id: str, chunk_events: int = FOLD_CHUNK_EVEN
                 return count
             tables = PlantTables(conn, station_id)
             for event_row in rows:
-                project(_stored(event_row), tables)
+                project(stored_event_from_row(event_row), tables)
             tables.flush()
             conn.execute(
                 "UPDATE plant.stations SET folded_seq = %s WHERE station_id = %s",

@@ -9,8 +9,10 @@ import sqlite3
 from collections.abc import Sequence
 from html import escape
 
-from stationcheck.core.events import RESULT_NOK
+from stationcheck.core import event_kinds as ev
+from stationcheck.core.events import RESULT_NOK, Event
 from stationcheck.core.result_words import unit_word
+from stationcheck.errors import StoreError
 from stationcheck.quality.export import nok_reason
 from stationcheck.quality.period import Period, format_time
 from stationcheck.store import queries
@@ -27,12 +29,29 @@ def log_is_demo(conn: sqlite3.Connection) -> bool:
     ).fetchone()
     if newest is None:
         return False
-    row = conn.execute(
-        "SELECT data FROM events INDEXED BY events_by_serial WHERE serial = ? "
-        "AND kind = 'unit_started' ORDER BY seq DESC LIMIT 1",
-        (newest[0],),
-    ).fetchone()
-    return row is not None and bool(json.loads(row[0]).get("demo_data"))
+    starts = _unit_starts(conn, newest[0], "DESC LIMIT 1")
+    return bool(starts) and starts[0].demo_data
+
+
+def _unit_starts(conn: sqlite3.Connection, serial: str, order: str) -> list[ev.UnitStarted]:
+    rows = conn.execute(
+        "SELECT t_s, kind, serial, data FROM events INDEXED BY events_by_serial "
+        f"WHERE serial = ? AND kind = 'unit_started' ORDER BY seq {order}",
+        (serial,),
+    ).fetchall()
+    try:
+        starts = [
+            Event.from_data(t_s, kind, serial, json.loads(data)) for t_s, kind, serial, data in rows
+        ]
+    except ValueError as exc:  # also json.JSONDecodeError
+        raise StoreError(f"a stored unit_started event of {serial} is malformed: {exc}") from exc
+    return [e for e in starts if isinstance(e, ev.UnitStarted)]
+
+
+def unit_models(conn: sqlite3.Connection, serial: str) -> list[str]:
+    """The SHA-256 of the keypoint model that decided each pass of the unit, in pass order
+    ("" where the log did not record it)."""
+    return [start.model_sha256 for start in _unit_starts(conn, serial, "ASC")]
 
 
 def units_to_look_at(

@@ -23,6 +23,7 @@ from typing import Any
 
 import numpy as np
 
+from stationcheck.core import event_kinds as ev
 from stationcheck.core.observations import (
     CameraMoved,
     LinkStatus,
@@ -126,16 +127,11 @@ class Soak:
             self.off_since_t_s = out.t_s
         self.enabled = out.tool_enabled
         for event in step.events:
-            if event.kind == "unit_ended":
-                refs = event.data.get("failed_positions", []) + event.data.get(
-                    "unfinished_positions", []
-                )
-                self.failed[str(event.data.get("serial", ""))] = tuple(
-                    PositionRef.from_dict(r) for r in refs
-                )
+            if isinstance(event, ev.UnitEnded) and event.serial is not None:
+                self.failed[event.serial] = event.failed_positions + event.unfinished_positions
             if (
-                event.kind == "alarm_raised"
-                and event.data.get("code") == "duplicate_result"
+                isinstance(event, ev.AlarmRaised)
+                and event.code == "duplicate_result"
                 and self.watching is not None
             ):
                 self.watching.ignored = True

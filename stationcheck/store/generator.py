@@ -16,6 +16,7 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
+from stationcheck.core import event_kinds as ev
 from stationcheck.store.memory_log import MemoryTables
 from stationcheck.store.projection import project
 from stationcheck.store.records import StoredEvent
@@ -104,11 +105,11 @@ def compile_story(story: Story) -> StoryTemplate:
     count = 0
     for seq, event in enumerate((e for b in story.batches for e in b), start=1):
         project(StoredEvent(seq, event.t_s, event), tables)
-        index = count if event.kind == "tightening_result" else -1
+        index = count if isinstance(event, ev.TighteningResult) else -1
         if index >= 0:
             tightening_of_seq[seq] = index
             count += 1
-        parts, slots = _compile_event(event.kind, dict(event.data), index)
+        parts, slots = _compile_event(event.kind, event.to_data(), index)
         events.append(
             EventTemplate(event.t_s, event.kind, event.serial is not None, parts, slots, index)
         )

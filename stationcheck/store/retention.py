@@ -17,8 +17,8 @@ from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Literal
 
+from stationcheck.core import event_kinds as ev
 from stationcheck.core.events import Event
-from stationcheck.store.projection import EVIDENCE_KEY
 from stationcheck.store.sqlite_errors import store_errors
 from stationcheck.store.sqlite_log import SqliteStepLog
 from stationcheck.store.transaction import write_transaction
@@ -32,7 +32,11 @@ Basis = Literal["t_s", "recorded_at"]
 
 def with_evidence(event: Event, path: str | os.PathLike[str]) -> Event:
     """The event with an evidence image path attached (for a tightening result or a step)."""
-    return replace(event, data={**event.data, EVIDENCE_KEY: str(path)})
+    if not isinstance(event, ev.TighteningResult | ev.StepCompleted):
+        raise TypeError(
+            f"an evidence image belongs to a tightening result or a step, not to {event.kind}"
+        )
+    return replace(event, evidence_path=str(path))
 
 
 @dataclass(frozen=True)

@@ -49,7 +49,7 @@ _EVENT_COLUMNS = "seq, t_s, kind, serial, data, recorded_at_s"
 def stored_event_from_sql(row: Sequence[Any]) -> StoredEvent:
     seq, t_s, kind, serial, data, recorded_at_s = row
     try:
-        event = Event(t_s=t_s, kind=kind, serial=serial, data=json.loads(data))
+        event = Event.from_data(t_s, kind, serial, json.loads(data))
     except ValueError as exc:  # also json.JSONDecodeError
         raise StoreError(f"stored event {seq} is malformed: {exc}") from exc
     return StoredEvent(seq=int(seq), recorded_at_s=float(recorded_at_s), event=event)
@@ -208,7 +208,7 @@ class SqliteStepLog:
                             e.t_s,
                             e.kind,
                             e.serial,
-                            dump_json(dict(e.data)),
+                            dump_json(e.to_data()),
                             recorded_at_s,
                             self.station_id,
                         )

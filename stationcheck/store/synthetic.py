@@ -12,9 +12,10 @@ from __future__ import annotations
 import functools
 import random
 from collections.abc import Iterator, Mapping
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import Any
 
+from stationcheck.core import event_kinds as ev
 from stationcheck.core.events import RESULT_OK, Event
 from stationcheck.core.observations import (
     Abort,
@@ -187,10 +188,10 @@ class Story:
     @property
     def tightening_ok(self) -> tuple[bool, ...]:
         return tuple(
-            e.data["result"] == RESULT_OK
+            e.result == RESULT_OK
             for b in self.batches
             for e in b
-            if e.kind == "tightening_result"
+            if isinstance(e, ev.TighteningResult)
         )
 
 
@@ -234,22 +235,32 @@ def is_time_key(key: str, value: Any) -> bool:
     return key.endswith("t_s") and isinstance(value, float)
 
 
-def event_data(event: Event, draw: UnitDraw, tightening: int) -> dict[str, Any]:
-    """The story event's data for this unit (``tightening``: index of the result, if one)."""
+def unit_event(event: Event, draw: UnitDraw, tightening: int) -> Event:
+    """The story event for this unit (``tightening``: index of the result, if one): its times
+    shifted (in the stored data, so every time field moves), its tightening values drawn."""
     data: dict[str, Any] = {}
-    for key, value in event.data.items():
+    for key, value in event.to_data().items():
         if is_time_key(key, value):
             value = shift_time(value, draw)
         elif key == "cycle_time_s" and isinstance(value, float):
             value = value * draw.pace
         data[key] = value
-    if event.kind == "tightening_result":
+    shifted = Event.from_data(
+        shift_time(event.t_s, draw),
+        event.kind,
+        draw.serial if event.serial is not None else None,
+        data,
+    )
+    if isinstance(shifted, ev.TighteningResult):
         torque, angle, sequence = draw.tightenings[tightening]
-        data["torque"] = {**data["torque"], "value": torque}
-        data["angle"] = {**data["angle"], "value": angle}
-        data["within_limits"] = TORQUE_NM.contains(torque) and ANGLE_DEG.contains(angle)
-        data["sequence"] = sequence
-    return data
+        shifted = replace(
+            shifted,
+            torque=replace(shifted.torque, value=torque),
+            angle=replace(shifted.angle, value=angle),
+            sequence=sequence,
+            within_limits=TORQUE_NM.contains(torque) and ANGLE_DEG.contains(angle),
+        )
+    return shifted
 
 
 @functools.lru_cache(maxsize=1)
@@ -304,15 +315,8 @@ class UnitStream:
         for batch in self.stories[draw.story].batches:
             events = []
             for e in batch:
-                events.append(
-                    Event(
-                        t_s=shift_time(e.t_s, draw),
-                        kind=e.kind,
-                        serial=draw.serial if e.serial is not None else None,
-                        data=event_data(e, draw, tightening),
-                    )
-                )
-                tightening += e.kind == "tightening_result"
+                events.append(unit_event(e, draw, tightening))
+                tightening += isinstance(e, ev.TighteningResult)
             batches.append(tuple(events))
         return tuple(batches)
 

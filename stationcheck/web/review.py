@@ -19,6 +19,7 @@ from stationcheck.quality.figures import StationFigures
 from stationcheck.quality.json_views import figures_dict, trend_dict, trend_findings
 from stationcheck.quality.period import Period
 from stationcheck.quality.report import build_report, log_is_demo
+from stationcheck.quality.report_units import unit_models
 from stationcheck.quality.rollup import FigureCache
 from stationcheck.quality.trends import (
     DEFAULT_POINTS,
@@ -228,6 +229,8 @@ def build_review_router(source: Any) -> Router:
 
     def unit(request: Request) -> Response:
         body = export.unit_detail(*one_unit(source, request))
+        with source.reader(scope_of(request)) as step_log:
+            body["models"] = unit_models(step_log.connection, body["unit"]["serial"])
         if source.is_plant:  # traceability: every station of the plant that logged it
             with source.reader() as reader:
                 body["stations"] = reader.stations_of([body["unit"]["serial"]]).get(

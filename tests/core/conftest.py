@@ -124,7 +124,7 @@ class Run:
         return [event for event in self.events if event.kind == kind]
 
     def raised(self) -> list[str]:
-        return [str(event.data["code"]) for event in self.of("alarm_raised")]
+        return [str(event.code) for event in self.of("alarm_raised")]
 
     def enabled(self) -> list[bool]:
         return [output.tool_enabled for output in self.outputs]

@@ -59,7 +59,7 @@ def test_a_nok_drops_enable_until_a_new_dwell(
 def test_each_attempt_has_its_own_enable_edges(fasten_only: Any) -> None:
     run = after_nok(fasten_only).redwell().run_tightening(ok=True).run()
     edges = [
-        (e.kind, e.data.get("zone"), e.data.get("attempt"), e.data.get("reason"))
+        (e.kind, e.to_data().get("zone"), e.to_data().get("attempt"), e.to_data().get("reason"))
         for e in run.events
         if e.kind in ("tool_enabled", "tool_inhibited")
     ]
@@ -72,14 +72,14 @@ def test_each_attempt_has_its_own_enable_edges(fasten_only: Any) -> None:
     result_t_s = run.of("tightening_result")[0].t_s
     second_enable_t_s = run.of("tool_enabled")[1].t_s
     assert (second_enable_t_s - result_t_s) * 1000.0 >= DWELL_MS - 1e-6
-    assert [e.data["result"] for e in run.of("tightening_result")] == ["NotOK", "OK"]
+    assert [e.result for e in run.of("tightening_result")] == ["NotOK", "OK"]
 
 
 def test_a_run_during_the_new_dwell_grants_nothing(fasten_only: Any) -> None:
     """Pulling the trigger at once after a NOK: the tool was off, the result does not count."""
     run = after_nok(fasten_only).running(True).wait(34).result(ok=True).running(False).run()
     assert run.raised() == ["ran_while_inhibited", "result_without_enable"]
-    assert [e.data["attempt"] for e in run.of("tightening_result")] == [1]
+    assert [e.attempt for e in run.of("tightening_result")] == [1]
     assert run.last.target is not None and run.last.target.zone == "s1"
 
 
@@ -87,7 +87,7 @@ def test_the_last_nok_moves_on_without_a_hold_at_the_next_position(fasten_only: 
     """After the attempts are used up the next position is granted after its own dwell."""
     sc = after_nok(fasten_only).redwell().run_tightening(ok=False).tip(None, 50).arrive("s2")
     run = sc.run()
-    assert [e.data["zone"] for e in run.of("position_failed")] == ["s1"]
+    assert [e.zone for e in run.of("position_failed")] == ["s1"]
     assert (run.last.tool_enabled, run.last.target.zone) == (True, "s2")  # type: ignore[union-attr]
 
 
@@ -132,13 +132,13 @@ def test_acknowledging_a_check_that_has_not_passed_fails_the_unit(
         sc.verdict("chk", verdict).wait(34)
     run = sc.ack().run()
     end = run.unit_end()
-    assert (end.data["result"], end.data["released"]) == (
+    assert (end.result, end.released) == (
         ("NotOK", False) if fails else ("OK", True)
     )
     assert ("check_failed" in run.raised()) is fails
-    assert end.data["failed_checks"] == ([{"step": "pin", "zone": "chk"}] if fails else [])
+    assert end.to_data()["failed_checks"] == ([{"step": "pin", "zone": "chk"}] if fails else [])
     assert run.last.unit_status == ("nok" if fails else "ok")
-    step = run.of("step_completed")[0].data
+    step = run.of("step_completed")[0].to_data()
     assert (step["step"], step["zone"], step["expect"]) == ("pin", "chk", expect)
     assert step["result"] == ("NotOK" if fails else "OK")
 
@@ -146,15 +146,15 @@ def test_acknowledging_a_check_that_has_not_passed_fails_the_unit(
 def test_a_failed_check_ends_the_unit_before_its_later_steps(scenario: Any) -> None:
     run = scenario(CHECK_THEN_CONFIRM).unit("U-1").verdict("chk", "absent").ack().run()
     step = run.of("step_completed")
-    assert [(e.data["step"], e.data["result"], e.data["ended_by"]) for e in step] == [
+    assert [(e.step, e.result, e.ended_by) for e in step] == [
         ("pin", "NotOK", "check_failed")
     ]
-    assert step[0].data["verdict"] == "absent"
+    assert step[0].verdict == "absent"
     end = run.unit_end()
-    assert (end.data["ended_by"], end.data["reason"]) == ("check_failed", "check pin failed")
-    raised = run.of("alarm_raised")[0].data
+    assert (end.ended_by, end.reason) == ("check_failed", "check pin failed")
+    raised = run.of("alarm_raised")[0].to_data()
     assert (raised["code"], raised["number"], raised["subject"]) == ("check_failed", 17, "chk")
-    assert end.data["alarms"] == ["check_failed"]
+    assert end.to_data()["alarms"] == ["check_failed"]
     assert not any(o.tool_enabled for o in run.outputs)
     assert run.last.guidance.words == "Unit U-1 not released: the check at chk label failed."
 
@@ -219,4 +219,4 @@ def test_unit_started_names_the_station(scenario: Any, station: str) -> None:
     sc = scenario(CHECK_ONLY).unit("U-1")
     sc.plan = named
     run = sc.run()
-    assert run.of("unit_started")[0].data["station"] == station
+    assert run.of("unit_started")[0].station == station

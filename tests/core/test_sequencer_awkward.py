@@ -17,7 +17,7 @@ def test_a_result_with_no_run_started_while_enabled_is_rejected(fasten_only: Any
     run = fasten_only().unit("U-1").arrive("s1").result(ok=True).run()
     assert run.of("position_completed") == []
     assert run.raised() == ["result_without_enable"]
-    assert run.of("alarm_raised")[0].data["reason"] == "not_credited"
+    assert run.of("alarm_raised")[0].reason == "not_credited"
     assert run.last.result_status == "rejected_not_credited"
     assert run.last.last_event == "result_without_enable" and run.last.event_count == 1
     assert run.last.target is not None and run.last.target.zone == "s1"
@@ -54,7 +54,7 @@ def test_a_repeated_result_with_the_same_sequence_is_ignored(fasten_only: Any) -
         .result(ok=False, sequence=7)
         .run()
     )
-    assert [e.data["attempt"] for e in run.of("tightening_result")] == [1]
+    assert [e.attempt for e in run.of("tightening_result")] == [1]
     assert run.raised() == ["duplicate_result"]
     assert run.of("position_failed") == []
 
@@ -64,7 +64,7 @@ def test_nok_then_tip_leaves_then_returns_for_the_retry(fasten_only: Any) -> Non
     run = sc.arrive("s1").mark("back").run_tightening(ok=True).run()
     assert not run.at("away").tool_enabled and run.at("away").attempt == 2
     assert run.at("back").tool_enabled
-    completed = run.of("position_completed")[0].data
+    completed = run.of("position_completed")[0].to_data()
     assert (completed["zone"], completed["attempts"]) == ("s1", 2)
 
 
@@ -80,8 +80,8 @@ def test_running_stops_without_a_result_then_the_result_comes_late(fasten_only: 
     )
     run = sc.wait(100).result(ok=True).run()
     assert not run.at("stopped").tool_enabled
-    assert run.of("run_stopped")[0].data["awaiting_result"] is True
-    assert [e.data["zone"] for e in run.of("position_completed")] == ["s1"]
+    assert run.of("run_stopped")[0].awaiting_result is True
+    assert [e.zone for e in run.of("position_completed")] == ["s1"]
 
 
 def test_a_second_run_without_a_result_for_the_first_warns(fasten_only: Any) -> None:
@@ -99,7 +99,7 @@ def test_stale_frame_while_running_cuts_the_tightening_and_flags_its_result(
     assert run.at("stale").enable_reason == "frame_stale"
     assert "frame_stale" in run.at("stale").alarms
     (result,) = run.of("tightening_result")
-    assert result.data["run_cut"] == "frame_stale"
+    assert result.run_cut == "frame_stale"
     assert "result_of_cut_run" in run.raised()
     assert not run.last.tool_enabled
 

@@ -88,7 +88,7 @@ def test_a_fault_during_a_running_tightening_drops_the_enable_at_once(
     run = during_run(sc).run()
     assert run.last.tool_enabled is enabled
     assert run.last.enable_reason == reason
-    drops = [e.data["reason"] for batch in run.events_per_step[before:] for e in batch
+    drops = [e.reason for batch in run.events_per_step[before:] for e in batch
              if e.kind == "tool_inhibited"]
     assert drops[:1] == ([cut_by] if cut_by is not None else [])
 
@@ -112,10 +112,10 @@ def test_a_run_past_its_limit_drops_the_enable_and_flags_the_result(fasten_only:
     assert run.at("too long").enable_reason == "run_too_long"
     assert "run_too_long" in run.at("too long").alarms
     (alarm,) = [e for e in run.events if e.kind == "alarm_raised"
-                and e.data["code"] == "run_too_long"]
-    assert alarm.data["subject"] == "s1" and "s1 label" in alarm.data["message"]
+                and e.code == "run_too_long"]
+    assert alarm.subject == "s1" and "s1 label" in alarm.message
     (result,) = run.of("tightening_result")
-    assert result.data["run_cut"] == "run_too_long"
+    assert result.run_cut == "run_too_long"
     assert "result_of_cut_run" in run.raised()
     assert "run_too_long" not in run.last.alarms  # cleared once the tool stopped
 
@@ -149,11 +149,11 @@ def test_running_while_inhibited_is_an_alarm_and_grants_nothing(fasten_only: Any
 
 def test_every_enable_edge_is_an_event_with_its_reason(fasten_only: Any) -> None:
     run = fasten_only().unit("U-1").arrive("s1").tip(None, 100).arrive("s1").run()
-    edges = [(e.kind, e.data.get("reason")) for e in run.events if e.kind.startswith("tool_")]
+    edges = [(e.kind, e.to_data().get("reason")) for e in run.events if e.kind.startswith("tool_")]
     assert edges == [
         ("tool_enabled", "tip_at_target"),
         ("tool_inhibited", "tip_not_at_target"),
         ("tool_enabled", "tip_at_target"),
     ]
-    enabled = run.of("tool_enabled")[0].data
+    enabled = run.of("tool_enabled")[0].to_data()
     assert (enabled["zone"], enabled["position"], enabled["attempt"]) == ("s1", 1, 1)

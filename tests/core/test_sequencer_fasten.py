@@ -10,11 +10,11 @@ import pytest
 def test_ok_results_complete_the_positions_in_order(fasten_only: Any) -> None:
     run = fasten_only().unit("U-1").fasten_all().run()
     done = [
-        (e.data["zone"], e.data["position"], e.data["attempts"])
+        (e.zone, e.position, e.attempts)
         for e in run.of("position_completed")
     ]
     assert done == [("s1", 1, 1), ("s2", 2, 1), ("s3", 3, 1)]
-    end = run.unit_end().data
+    end = run.unit_end().to_data()
     assert (end["result"], end["released"], end["failed_positions"]) == ("OK", True, [])
     assert run.last.unit_status == "ok"
 
@@ -29,16 +29,16 @@ def test_a_tightening_result_carries_everything_the_log_needs(fasten_only: Any) 
     )
     (result,) = run.of("tightening_result")
     assert result.serial == "U-1"
-    assert result.data["torque"] == {"value": 5.1, "low": 4.5, "high": 5.5, "unit": "N·m"}
-    assert result.data["angle"] == {"value": 31.0, "low": 15.0, "high": 45.0, "unit": "deg"}
+    assert result.to_data()["torque"] == {"value": 5.1, "low": 4.5, "high": 5.5, "unit": "N·m"}
+    assert result.to_data()["angle"] == {"value": 31.0, "low": 15.0, "high": 45.0, "unit": "deg"}
     expected = {"step": "fasten", "zone": "s1", "position": 1, "attempt": 1, "max_attempts": 2}
-    assert {key: result.data[key] for key in expected} == expected
-    assert (result.data["result"], result.data["rework"], result.data["within_limits"]) == (
+    assert {key: getattr(result, key) for key in expected} == expected
+    assert (result.result, result.rework, result.within_limits) == (
         "OK",
         False,
         True,
     )
-    assert result.data["started_t_s"] < result.data["ended_t_s"] == result.t_s
+    assert result.started_t_s < result.ended_t_s == result.t_s
 
 
 @pytest.mark.parametrize(
@@ -56,9 +56,9 @@ def test_nok_counts_an_attempt_and_the_last_one_marks_rework(
     for ok in results:
         sc.run_tightening(ok=ok)
     run = sc.run()
-    assert [e.data["attempt"] for e in run.of("tightening_result")] == list(range(1, attempts + 1))
+    assert [e.attempt for e in run.of("tightening_result")] == list(range(1, attempts + 1))
     decided = run.of("position_failed" if failed else "position_completed")
-    assert [(e.data["zone"], e.data["attempts"]) for e in decided] == [("s1", attempts)]
+    assert [(e.zone, e.attempts) for e in decided] == [("s1", attempts)]
     assert run.last.target is not None and run.last.target.zone == "s2"
     assert [ref.zone for ref in run.last.failed_positions] == (["s1"] if failed else [])
 
@@ -67,7 +67,7 @@ def test_continue_policy_finishes_the_unit_and_lists_failed_positions(fasten_onl
     sc = fasten_only().unit("U-1").arrive("s1").run_tightening(ok=True)
     sc.arrive("s2").run_tightening(ok=False).run_tightening(ok=False)
     run = sc.arrive("s3").run_tightening(ok=True).run()
-    end = run.unit_end().data
+    end = run.unit_end().to_data()
     assert (end["result"], end["released"], end["ended_by"]) == ("NotOK", False, "completed")
     assert end["failed_positions"] == [{"step": "fasten", "zone": "s2"}]
     assert run.last.unit_status == "nok"
@@ -77,11 +77,11 @@ def test_continue_policy_finishes_the_unit_and_lists_failed_positions(fasten_onl
 def test_stop_unit_policy_ends_the_unit_at_the_failed_position(fasten_only: Any) -> None:
     sc = fasten_only(on_failure="stop_unit").unit("U-1").arrive("s1").run_tightening(ok=True)
     run = sc.arrive("s2").run_tightening(ok=False).run_tightening(ok=False).run()
-    end = run.unit_end().data
+    end = run.unit_end().to_data()
     assert (end["result"], end["ended_by"]) == ("NotOK", "stopped_on_failure")
     assert end["failed_positions"] == [{"step": "fasten", "zone": "s2"}]
     assert end["unfinished_positions"] == [{"step": "fasten", "zone": "s3"}]
-    assert run.of("step_completed")[-1].data["result"] == "NotOK"
+    assert run.of("step_completed")[-1].result == "NotOK"
     assert not run.last.tool_enabled
 
 
@@ -113,7 +113,7 @@ def test_controller_verdict_decides_and_limits_only_warn(
         .run()
     )
     (event,) = run.of("tightening_result")
-    assert event.data["result"] == result
+    assert event.result == result
     assert ("result_outside_limits" in run.raised()) is warned
 
 
@@ -121,7 +121,7 @@ def test_result_without_enable_is_an_alarm_and_completes_nothing(fasten_only: An
     run = fasten_only().unit("U-1").tip(None, 300).result(ok=True).run()
     assert run.raised() == ["result_without_enable"]
     alarm = run.of("alarm_raised")[0]
-    assert alarm.serial == "U-1" and alarm.data["result"] == "OK"
+    assert alarm.serial == "U-1" and alarm.result == "OK"
     assert run.of("tightening_result") == [] and run.of("position_completed") == []
     assert run.last.target is not None and run.last.target.zone == "s1"
 
@@ -139,7 +139,7 @@ def test_results_outside_a_fasten_step_are_rejected(scenario: Any, phase_steps: 
 def test_wrong_position_alarms_once_per_visit_and_guides_to_the_target(fasten_only: Any) -> None:
     sc = fasten_only().unit("U-1").arrive("s2").wait(1000).mark("at_s2")
     run = sc.tip(None, 100).arrive("s3").tip(None, 100).arrive("s2").run()
-    wrong = [(e.data["subject"], e.data["expected"]) for e in run.of("alarm_raised")]
+    wrong = [(e.subject, e.expected) for e in run.of("alarm_raised")]
     assert wrong == [("s2", "s1"), ("s3", "s1"), ("s2", "s1")]
     assert len(run.of("alarm_cleared")) == 2
     guidance = run.at("at_s2").guidance

@@ -206,10 +206,10 @@ def test_an_open_unit_continues_after_a_restart(scenario: Any) -> None:
     assert not run.at("restarted").tool_enabled
     assert run.at("restarted").target == PositionRef("fasten", "s2")
     assert run.at("restarted").attempt == 2
-    s2 = [e.data for e in run.of("tightening_result") if e.data["zone"] == "s2"]
+    s2 = [e.to_data() for e in run.of("tightening_result") if e.zone == "s2"]
     assert [(d["attempt"], d["result"]) for d in s2] == [(2, "OK")]
     end = run.unit_end()
-    assert (end.serial, end.data["result"], end.data["started_t_s"]) == (
+    assert (end.serial, end.result, end.started_t_s) == (
         "U-1",
         "OK",
         first.events[0].t_s,

@@ -31,7 +31,7 @@ def test_pick_needs_activity_in_its_bin_for_the_minimum_time(
     scenario: Any, activity: Any, done: bool
 ) -> None:
     run = activity(scenario(PICKS).unit("U-1")).run()
-    completed = [e.data["step"] for e in run.of("step_completed")]
+    completed = [e.step for e in run.of("step_completed")]
     assert completed == (["take_a"] if done else [])
 
 
@@ -40,19 +40,19 @@ def test_activity_before_the_step_counts_from_the_step_start(scenario: Any) -> N
     run = sc.wait(134).run()
     assert run.at("early").step_id == "take_a"
     assert run.last.step_id == "take_b"
-    assert run.of("step_completed")[0].data["active_ms"] >= 300.0
+    assert run.of("step_completed")[0].active_ms >= 300.0
 
 
 def test_activity_in_another_bin_is_a_wrong_bin_alarm_once(scenario: Any) -> None:
     sc = scenario(PICKS).unit("U-1").bin("bin_b", True).wait(1000).mark("wrong")
     run = sc.bin("bin_b", False).wait(34).pick("bin_a").run()
     raised = run.of("alarm_raised")
-    assert [(e.data["code"], e.data["subject"], e.data["expected"]) for e in raised] == [
+    assert [(e.code, e.subject, e.expected) for e in raised] == [
         ("wrong_bin", "bin_b", "bin_a")
     ]
     guidance = run.at("wrong").guidance
     assert (guidance.kind, guidance.target) == ("wrong_bin", "bin_a")
-    assert [e.data["step"] for e in run.of("step_completed")] == ["take_a"]
+    assert [e.step for e in run.of("step_completed")] == ["take_a"]
 
 
 @pytest.mark.parametrize(
@@ -74,7 +74,7 @@ def test_check_releases_only_on_the_expected_verdict(
     run = sc.run()
     assert bool(run.of("unit_ended")) is released
     assert run.last.unit_status == ("ok" if released else "running")
-    changes = [e.data["verdict"] for e in run.of("check_verdict")]
+    changes = [e.verdict for e in run.of("check_verdict")]
     assert changes == [v for i, v in enumerate(verdicts) if i == 0 or verdicts[i - 1] != v]
 
 
@@ -122,26 +122,26 @@ def test_confirm_step_completes_on_acknowledge_only(scenario: Any) -> None:
     run = sc.tip(None, 100).ack().run()
     assert run.at("open").guidance.words == "Stick the label on the cover. Then acknowledge."
     assert run.at("open").guidance.kind == "acknowledge"
-    assert run.unit_end().data["result"] == "OK"
+    assert run.unit_end().result == "OK"
 
 
 def test_acknowledge_outside_a_confirm_step_changes_nothing(scenario: Any) -> None:
     run = scenario().unit("U-1").ack().pick().ack().run()
     assert run.last.step_id == "fasten"
-    assert [e.data["step"] for e in run.of("step_completed")] == ["take_a"]
+    assert [e.step for e in run.of("step_completed")] == ["take_a"]
 
 
 def test_a_full_unit_walks_every_step_and_is_released(scenario: Any) -> None:
     run = scenario().full_unit("U-7").run()
-    steps = [(e.data["step"], e.data["result"]) for e in run.of("step_completed")]
+    steps = [(e.step, e.result) for e in run.of("step_completed")]
     assert steps == [("take_a", "OK"), ("fasten", "OK"), ("pin", "OK"), ("done", "OK")]
     end = run.unit_end()
     assert end.serial == "U-7"
-    assert (end.data["result"], end.data["released"], end.data["rework"]) == ("OK", True, False)
-    assert end.data["cycle_time_s"] == pytest.approx(end.t_s - end.data["started_t_s"])
+    assert (end.result, end.released, end.rework) == ("OK", True, False)
+    assert end.cycle_time_s == pytest.approx(end.t_s - end.started_t_s)
     assert run.last.guidance.words == "Unit U-7 done: OK. Waiting for the next unit."
     for event in run.of("step_completed"):
-        assert event.data["started_t_s"] <= event.t_s
+        assert event.started_t_s <= event.t_s
 
 
 def test_a_hand_still_in_the_previous_bin_is_not_a_wrong_bin(scenario: Any) -> None:

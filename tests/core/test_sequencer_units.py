@@ -25,8 +25,8 @@ def test_rework_pass_enables_only_the_failed_positions(scenario: Any) -> None:
     assert (opened.rework, opened.step_id, opened.guidance.kind) == (True, "fasten", "rework")
     assert opened.guidance.words == "Rework s2 label (order 2 of 3, attempt 1 of 2)."
     first, second = run.of("unit_ended")
-    assert first.data["failed_positions"] == [{"step": "fasten", "zone": "s2"}]
-    assert (second.data["result"], second.data["rework"], second.data["released"]) == (
+    assert first.to_data()["failed_positions"] == [{"step": "fasten", "zone": "s2"}]
+    assert (second.result, second.rework, second.released) == (
         "OK",
         True,
         True,
@@ -36,7 +36,7 @@ def test_rework_pass_enables_only_the_failed_positions(scenario: Any) -> None:
 def test_rework_attempts_are_recorded_against_the_original_position(scenario: Any) -> None:
     sc = failed_s2_then_rework(scenario)
     run = sc.arrive("s2").run_tightening(ok=False).run_tightening(ok=True).run()
-    rework_results = [e.data for e in run.of("tightening_result") if e.data["rework"]]
+    rework_results = [e.to_data() for e in run.of("tightening_result") if e.rework]
     assert [
         (d["step"], d["zone"], d["position"], d["attempt"], d["result"]) for d in rework_results
     ] == [
@@ -48,9 +48,9 @@ def test_rework_attempts_are_recorded_against_the_original_position(scenario: An
 def test_rework_pass_keeps_checks_and_drops_picks_and_confirms(scenario: Any) -> None:
     run = failed_s2_then_rework(scenario).run()
     starts = run.of("unit_started")
-    assert [s["id"] for s in starts[1].data["steps"]] == ["fasten", "pin"]
-    assert starts[1].data["positions"] == [{"step": "fasten", "zone": "s2", "number": 2}]
-    assert starts[1].data["rework_positions"] == [{"step": "fasten", "zone": "s2"}]
+    assert [s["id"] for s in starts[1].to_data()["steps"]] == ["fasten", "pin"]
+    assert starts[1].to_data()["positions"] == [{"step": "fasten", "zone": "s2", "number": 2}]
+    assert starts[1].to_data()["rework_positions"] == [{"step": "fasten", "zone": "s2"}]
 
 
 @pytest.mark.parametrize(
@@ -76,12 +76,12 @@ def test_a_new_serial_while_a_unit_is_open_ends_it_unreleased(fasten_only: Any) 
     assert run.raised() == ["unit_interrupted"]
     ended = run.unit_end()
     assert ended.serial == "U-1"
-    assert (ended.data["result"], ended.data["ended_by"], ended.data["released"]) == (
+    assert (ended.result, ended.ended_by, ended.released) == (
         "NotDecidable",
         "new_unit",
         False,
     )
-    assert ended.data["unfinished_positions"] == [
+    assert ended.to_data()["unfinished_positions"] == [
         {"step": "fasten", "zone": "s2"},
         {"step": "fasten", "zone": "s3"},
     ]
@@ -99,13 +99,13 @@ def test_the_same_serial_again_is_a_repeat_not_a_new_unit(fasten_only: Any) -> N
 
 def test_abort_ends_the_unit_with_its_reason(fasten_only: Any) -> None:
     run = fasten_only().unit("U-1").arrive("s1").abort("part dropped").run()
-    ended = run.unit_end().data
+    ended = run.unit_end().to_data()
     assert (ended["result"], ended["ended_by"], ended["reason"]) == (
         "NotDecidable",
         "abort",
         "part dropped",
     )
-    assert run.of("step_completed")[-1].data["result"] == "NotDecidable"
+    assert run.of("step_completed")[-1].result == "NotDecidable"
     assert run.last.unit_status == "aborted" and not run.last.tool_enabled
 
 
@@ -117,7 +117,7 @@ def test_abort_without_a_unit_does_nothing(fasten_only: Any) -> None:
 def test_reset_is_logged_and_keeps_the_unit_where_it_was(fasten_only: Any) -> None:
     run = fasten_only().unit("U-1").arrive("s1").run_tightening(ok=True).reset("jammed tool").run()
     (reset,) = run.of("station_reset")
-    assert (reset.serial, reset.data["reason"]) == ("U-1", "jammed tool")
+    assert (reset.serial, reset.reason) == ("U-1", "jammed tool")
     assert run.last.target is not None and run.last.target.zone == "s2"
 
 
@@ -151,8 +151,8 @@ def test_camera_move_alarm_clears_when_the_camera_is_back(fasten_only: Any) -> N
         .run()
     )
     assert run.raised() == ["camera_moved"]
-    assert "14.2 px" in run.of("alarm_raised")[0].data["message"]
-    assert [e.data["code"] for e in run.of("alarm_cleared")] == ["camera_moved"]
+    assert "14.2 px" in run.of("alarm_raised")[0].message
+    assert [e.code for e in run.of("alarm_cleared")] == ["camera_moved"]
     assert run.last.tool_enabled
 
 

@@ -20,9 +20,14 @@ VIDEO = REPO / "sample_video" / "demo_station.mp4"
 
 @pytest.mark.parametrize(
     ("text", "expected"),
-    [("0", 0), ("12", 12), ("rtsp://cam.local/stream", "rtsp://cam.local/stream"),
-     ("http://10.0.0.5/video", "http://10.0.0.5/video"), ("clip.mp4", Path("clip.mp4")),
-     ("-1", Path("-1"))],
+    [
+        ("0", 0),
+        ("12", 12),
+        ("rtsp://cam.local/stream", "rtsp://cam.local/stream"),
+        ("http://10.0.0.5/video", "http://10.0.0.5/video"),
+        ("clip.mp4", Path("clip.mp4")),
+        ("-1", Path("-1")),
+    ],
 )
 def test_parse_source(text: str, expected: object) -> None:
     assert parse_source(text) == expected
@@ -49,10 +54,25 @@ def test_link_timeout_covers_a_blocked_request() -> None:
 
 
 @pytest.mark.skipif(not VIDEO.is_file(), reason="no sample video")
-def test_run_command_dry_run_with_console_link(tmp_path: Path,
-                                               capsys: pytest.CaptureFixture[str]) -> None:
-    code = main(["run", "--config", str(CONFIG), "--source", str(VIDEO), "--link", "console",
-                 "--log", str(tmp_path / "log.sqlite"), "--frames", "20", "--no-pace"])
+def test_run_command_dry_run_with_console_link(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    code = main(
+        [
+            "run",
+            "--config",
+            str(CONFIG),
+            "--source",
+            str(VIDEO),
+            "--link",
+            "console",
+            "--log",
+            str(tmp_path / "log.sqlite"),
+            "--frames",
+            "20",
+            "--no-pace",
+        ]
+    )
     out = capsys.readouterr().out
     assert code == 0
     assert out.startswith("Safety: ")
@@ -66,20 +86,21 @@ def test_run_command_dry_run_with_console_link(tmp_path: Path,
 
 def test_run_counts_the_units_it_ended_in_shown_words() -> None:
     from stationcheck.commands.run import UnitCount
-    from stationcheck.core.events import Event
     from stationcheck.core.observations import Tick
     from stationcheck.pipeline.decisions import DecisionStep
+    from tests.event_examples import unit_ended
 
     count = UnitCount()
     assert count.words() == "no unit ended"
     for result in ("OK", "NotOK", "OK", "NotDecidable"):  # as the step log keeps them
-        event = Event(kind="unit_ended", t_s=1.0, serial="U-1", data={"result": result})
+        event = unit_ended(1.0, "U-1", result=result)
         count.on_step(DecisionStep(Tick(t_s=1.0), None, (event,)))  # type: ignore[arg-type]
     assert count.words() == "4 units ended (2 OK, 1 NOK, 1 aborted)"
 
 
-def test_run_command_bad_config_is_one_line(tmp_path: Path,
-                                            capsys: pytest.CaptureFixture[str]) -> None:
+def test_run_command_bad_config_is_one_line(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
     code = main(["run", "--config", str(tmp_path / "missing.yaml"), "--link", "console"])
     err = capsys.readouterr().err
     assert code != 0
@@ -88,19 +109,28 @@ def test_run_command_bad_config_is_one_line(tmp_path: Path,
 
 
 def test_check_and_run_refuse_the_same_overlapping_address(
-        tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
     from stationcheck.errors import ConfigError
 
     text = CONFIG.read_text(encoding="utf-8")
     assert "\nplc:\n" in text
     (tmp_path / "demo_station").symlink_to(CONFIG.parent / "demo_station")  # its reference
     bad = tmp_path / "station.yaml"
-    bad.write_text(text.replace("\nplc:\n", "\nplc:\n  address_map:\n    step_number: "
-                                "{table: holding_register, address: 0}\n", 1), encoding="utf-8")
+    bad.write_text(
+        text.replace(
+            "\nplc:\n",
+            "\nplc:\n  address_map:\n    step_number: {table: holding_register, address: 0}\n",
+            1,
+        ),
+        encoding="utf-8",
+    )
     assert main(["check", str(bad)]) == 1
     printed = capsys.readouterr()
-    assert "plc.address_map.step_number.address: holding_register 0 is taken by both " \
+    assert (
+        "plc.address_map.step_number.address: holding_register 0 is taken by both "
         "step_number and heartbeat" in printed.out + printed.err
+    )
     with pytest.raises(ConfigError, match="taken by both step_number and heartbeat"):
         make_link(load_config(bad), LiveSettings(bad, link="client"))
 
@@ -115,21 +145,37 @@ def test_worker_settings_watch_the_plc_liveness_and_check_serials() -> None:
 
 @pytest.mark.parametrize("source", ["missing.mp4", "not_a_video.mp4"])
 def test_run_on_a_source_that_cannot_be_opened_exits_3_with_one_line(
-    tmp_path: Path, capsys: pytest.CaptureFixture[str], source: str,
+    tmp_path: Path,
+    capsys: pytest.CaptureFixture[str],
+    source: str,
 ) -> None:
     (tmp_path / "not_a_video.mp4").write_text("this is not a video\n")
-    code = main(["run", "--config", str(CONFIG), "--source", str(tmp_path / source),
-                 "--link", "console", "--log", str(tmp_path / "log.sqlite")])
+    code = main(
+        [
+            "run",
+            "--config",
+            str(CONFIG),
+            "--source",
+            str(tmp_path / source),
+            "--link",
+            "console",
+            "--log",
+            str(tmp_path / "log.sqlite"),
+        ]
+    )
     err = capsys.readouterr().err
     assert code == 3
     assert err.count("\n") == 1 and "Traceback" not in err
     assert "cannot open the frame source" in err and source in err
 
 
-@pytest.mark.parametrize(("host", "said"), [
-    ("127.0.0.1", "seen on this PC only"),
-    ("0.0.0.0", "listens on 0.0.0.0: anyone on that network"),
-])
+@pytest.mark.parametrize(
+    ("host", "said"),
+    [
+        ("127.0.0.1", "seen on this PC only"),
+        ("0.0.0.0", "listens on 0.0.0.0: anyone on that network"),
+    ],
+)
 def test_run_says_who_sees_the_operator_screens_picture(host: str, said: str) -> None:
     import argparse
 

@@ -9,13 +9,15 @@ import cv2
 import numpy as np
 import pytest
 
-from stationcheck.core.events import Event
+from stationcheck.core import event_kinds as ev
+from stationcheck.core.observations import PositionRef
 from stationcheck.core.plan import StationPlan
 from stationcheck.overlay.annotator import Annotator
 from stationcheck.overlay.palette import COLOURS
 from stationcheck.overlay.panel import PANEL_WIDTH_PX
 from stationcheck.overlay.symbols import draw_symbol
 from stationcheck.pipeline.station_view import StationViewBuilder
+from tests.event_examples import tightening, unit_ended, unit_started
 from tests.overlay.conftest import fastening
 
 MEANINGS = ("normal", "abnormal", "fault", "action", "neutral")
@@ -95,22 +97,21 @@ def test_annotated_frame_is_the_image_plus_a_panel_and_leaves_the_image_alone(
 
 def test_the_view_follows_positions_through_a_unit_and_its_rework(plan: StationPlan) -> None:
     builder = StationViewBuilder(plan)
-    started = {"rework": False, "steps": [], "rework_positions": [],
-               "positions": [{"step": "fasten_cover", "zone": z, "number": i}
-                             for i, z in enumerate(plan.steps[2].zones, 1)]}  # type: ignore[union-attr]
+    zones = plan.steps[2].zones  # type: ignore[union-attr]
+    positions = tuple(ev.PlannedPosition("fasten_cover", z, i) for i, z in enumerate(zones, 1))
     builder.fold([
-        Event(0.0, "unit_started", "PC-1", started),
-        Event(1.0, "position_completed", "PC-1", {"zone": "screw_1"}),
-        Event(2.0, "tightening_result", "PC-1", {
-            "zone": "screw_4", "position": 2, "attempt": 2, "result": "NotOK",
-            "torque": {"value": 3.9}, "angle": {"value": 52.4}}),
+        unit_started(0.0, "PC-1", positions=positions),
+        ev.PositionCompleted(1.0, "PC-1", step="fasten_cover", zone="screw_1", position=1,
+                             attempts=1, rework=False),
+        tightening(2.0, "PC-1", zone="screw_4", position=2, attempt=2, result="NotOK",
+                   torque=ev.Measured(3.9, None, None, "N·m"),
+                   angle=ev.Measured(52.4, None, None, "deg")),
     ])
     assert builder.done == ["screw_1"]
     assert builder.last_tightening is not None and not builder.last_tightening.ok
     assert builder.last_tightening.torque_nm == 3.9
-    rework = dict(started, rework=True,
-                  positions=[{"step": "fasten_cover", "zone": "screw_4", "number": 2}])
-    builder.fold([Event(3.0, "unit_started", "PC-1", rework)])
+    again = (ev.PlannedPosition("fasten_cover", "screw_4", 2),)
+    builder.fold([unit_started(3.0, "PC-1", rework=True, positions=again)])
     assert sorted(builder.done) == ["screw_1", "screw_2", "screw_3", "screw_5", "screw_6"]
     assert builder.last_tightening is None
 
@@ -147,9 +148,9 @@ def test_a_finished_unit_is_shown_with_the_meaning_of_its_result(
     from stationcheck.core.outputs import Guidance
 
     builder = StationViewBuilder(plan)
-    failed = [] if released else [{"step": "fasten_cover", "zone": "screw_3"}]
-    builder.fold([Event(9.0, "unit_ended", "PC-1", {
-        "result": result, "released": released, "rework": False, "failed_positions": failed})])
+    failed = () if released else (PositionRef("fasten_cover", "screw_3"),)
+    builder.fold([unit_ended(9.0, "PC-1", result=result, released=released,
+                             failed_positions=failed)])
     output = fastening(False, guidance=Guidance("unit_finished", None, "Unit PC-1 done."),
                        unit_status="ok" if released else "nok", target=None,
                        position_number=0, attempt=0)

@@ -8,7 +8,8 @@ from typing import Any
 
 import pytest
 
-from stationcheck.core.events import Event
+from stationcheck.core import event_kinds as ev
+from stationcheck.core.observations import PositionRef
 from stationcheck.core.plan import FastenStep, StationPlan, Thresholds, ZoneSpec
 from stationcheck.demo_station.ground_truth import TruthRow
 from stationcheck.errors import InputFileError
@@ -21,6 +22,7 @@ from stationcheck.pipeline.expected import (
 )
 from stationcheck.pipeline.trace import FramedEvent, FrameState
 from stationcheck.pipeline.truth_sidecar import TruthTable
+from tests.event_examples import alarm, tightening, unit_ended, unit_started
 
 
 def d(frame: int, kind: str, serial: str | None = "U-1", **data: Any) -> Decision:
@@ -71,23 +73,21 @@ def test_a_serial_seen_again_after_its_result_is_a_second_pass() -> None:
 
 
 def test_events_become_decisions_in_the_same_vocabulary() -> None:
-    def ev(event_kind: str, serial: str | None = "U-1", **data: Any) -> Event:
-        return Event(t_s=0.0, kind=event_kind, serial=serial, data=data)
-
+    failed = (PositionRef("f", "A"),)
     framed = [FramedEvent(f, e) for f, e in [
-        (1, ev("unit_started", rework=False, steps=[], positions=[], rework_positions=[])),
-        (2, ev("tool_enabled", step="f", zone="A", position=1, attempt=1, reason="tip_at_target")),
-        (3, ev("tightening_result", step="f", zone="A", position=1, attempt=1, result="NotOK")),
-        (3, ev("tool_inhibited", step="f", zone="B", reason="tip_not_at_target")),
-        (4, ev("alarm_raised", code="duplicate_result", severity="warning", subject="7")),
-        (5, ev("alarm_raised", code="wrong_position", severity="alarm", subject="B")),
-        (6, ev("position_failed", step="f", zone="A", position=1, attempts=2)),
-        (7, ev("step_completed", step="f", kind="fasten", result="NotOK",
-               failed_positions=[{"step": "f", "zone": "A"}])),
-        (7, ev("unit_ended", result="NotOK", released=False, ended_by="completed", rework=False,
-               failed_positions=[{"step": "f", "zone": "A"}], unfinished_positions=[])),
-        (8, ev("unit_started", serial="U-2", rework=False, steps=[], positions=[],
-               rework_positions=[])),
+        (1, unit_started(0.0, "U-1")),
+        (2, ev.ToolEnabled(0.0, "U-1", step="f", zone="A", position=1, attempt=1,
+                           reason="tip_at_target")),
+        (3, tightening(0.0, "U-1", zone="A", result="NotOK")),
+        (3, ev.ToolInhibited(0.0, "U-1", step="f", zone="B", reason="tip_not_at_target")),
+        (4, alarm(0.0, "U-1", code="duplicate_result", severity="warning", subject="7")),
+        (5, alarm(0.0, "U-1", code="wrong_position", severity="alarm", subject="B")),
+        (6, ev.PositionFailed(0.0, "U-1", step="f", zone="A", position=1, attempts=2,
+                              rework=False)),
+        (7, ev.StepCompleted(0.0, "U-1", step="f", step_kind="fasten", index=0, result="NotOK",
+                             ended_by="completed", started_t_s=None, failed_positions=failed)),
+        (7, unit_ended(0.0, "U-1", result="NotOK", failed_positions=failed)),
+        (8, unit_started(0.0, "U-2")),
     ]]
     out = [(x.frame, x.kind, x.serial, dict(x.data), x.pass_no)
            for x in decisions_from_events(framed, end_frame=20)]

@@ -4,6 +4,7 @@ failed write costing neither the event nor the run, old images removed by retent
 from __future__ import annotations
 
 import logging
+from dataclasses import replace
 from pathlib import Path
 
 import cv2
@@ -11,7 +12,7 @@ import numpy as np
 import pytest
 
 from stationcheck.config import load_config
-from stationcheck.core.events import Event
+from stationcheck.core import event_kinds as ev
 from stationcheck.core.plan import StationPlan
 from stationcheck.core.records import Frame
 from stationcheck.pipeline.evidence import (
@@ -23,6 +24,7 @@ from stationcheck.pipeline.evidence import (
 )
 from stationcheck.store import SqliteStepLog
 from stationcheck.store.retention import SECONDS_PER_DAY
+from tests.event_examples import tightening, unit_started
 from tests.pipeline.conftest import (
     CONFIG,
     FIRST_UNIT_FRAMES,
@@ -121,9 +123,8 @@ def _plan() -> StationPlan:
     return load_config(CONFIG).to_plan()
 
 
-def _result(serial: str, zone: str, attempt: int = 1) -> Event:
-    return Event(t_s=1.0, kind="tightening_result", serial=serial,
-                 data={"step": "s", "zone": zone, "attempt": attempt, "result": "OK"})
+def _result(serial: str, zone: str, attempt: int = 1) -> ev.TighteningResult:
+    return tightening(1.0, serial, zone=zone, attempt=attempt)
 
 
 def test_failed_write_keeps_the_event_without_a_path(
@@ -145,11 +146,13 @@ def test_writer_counts_passes_and_leaves_other_events_alone(tmp_path: Path) -> N
     zone = plan.zones[0].id
     writer = EvidenceWriter(plan, tmp_path)
     writer.see(Frame(0, 0.0, np.full((480, 640, 3), 7, np.uint8)))
-    started = Event(t_s=0.0, kind="unit_started", serial="PC 1", data={"rework": True})
+    started = unit_started(0.0, "PC 1", rework=True)
     out = writer.attach([started, started, _result("PC 1", zone, attempt=2)])
     assert out[:2] == (started, started)
-    assert out[2].data["evidence_path"] == f"evidence/PC_1_pass2_{zone}_attempt2.png"
-    assert (tmp_path / out[2].data["evidence_path"]).is_file()
+    result = out[2]
+    assert isinstance(result, ev.TighteningResult) and result.evidence_path is not None
+    assert result.evidence_path == f"evidence/PC_1_pass2_{zone}_attempt2.png"
+    assert (tmp_path / result.evidence_path).is_file()
 
 
 def test_retention_removes_old_evidence_and_keeps_new(tmp_path: Path) -> None:
@@ -162,8 +165,7 @@ def test_retention_removes_old_evidence_and_keeps_new(tmp_path: Path) -> None:
     try:
         for serial, path, age_days in (("A", old, 91), ("B", new, 89)):
             event = _result(serial, "z")
-            event = Event(event.t_s, event.kind, serial,
-                          {**event.data, "evidence_path": f"evidence/{path.name}"})
+            event = replace(event, evidence_path=f"evidence/{path.name}")
             log.append([event], recorded_at_s=now_s - age_days * SECONDS_PER_DAY)
         report = prune_evidence(log, 90, now_s=now_s)
     finally:

@@ -10,6 +10,7 @@ from pathlib import Path
 import numpy as np
 import pytest
 
+from stationcheck.core import event_kinds as ev
 from stationcheck.core.observations import (
     CameraMoved,
     Observation,
@@ -108,7 +109,7 @@ def entered(collect: Collect, zone: str, after: int = 0) -> int:
 
 
 def edges(trace: RunTrace) -> list[tuple[int, str, str | None]]:
-    return [(f.frame_index, f.event.kind, f.event.data.get("zone"))
+    return [(f.frame_index, f.event.kind, getattr(f.event, "zone", None))
             for f in trace.framed_events() if f.event.kind in ("tool_enabled", "tool_inhibited")]
 
 
@@ -173,7 +174,7 @@ def test_a_detector_failure_inhibits_until_the_next_good_frame() -> None:
     assert by_frame[19].tool_enabled
     assert not by_frame[20].tool_enabled and by_frame[20].enable_reason == "detector_fault"
     assert "detector_fault" in by_frame[21].alarms
-    assert any(f.event.kind == "alarm_raised" and f.event.data["code"] == "detector_fault"
+    assert any(isinstance(f.event, ev.AlarmRaised) and f.event.code == "detector_fault"
                for f in trace.framed_events())
     assert by_frame[30].tool_enabled  # the tip dwelled again after the fault cleared
 
@@ -184,7 +185,7 @@ def test_a_detector_that_keeps_failing_stops_the_run_inhibited() -> None:
     with pytest.raises(ModelError, match="failed on 30 frames in a row"):
         run([UnitStarted(t(1), "U-1")], detector, 60, log=log)
     last = log.events()[-1].event
-    assert last.kind == "tool_inhibited" and last.data["reason"] == STOPPED_ON_ERROR
+    assert isinstance(last, ev.ToolInhibited) and last.reason == STOPPED_ON_ERROR
 
 
 def test_a_source_that_breaks_mid_run_leaves_the_log_with_everything_before_it(
@@ -204,7 +205,7 @@ def test_a_source_that_breaks_mid_run_leaves_the_log_with_everything_before_it(
     assert kinds[:3] == ["unit_started", "step_started", "tool_enabled"]
     assert last.kind == "tool_inhibited"
     assert last.serial == "U-1"
-    assert last.data == {"reason": STOPPED_ON_ERROR, "was_enabled": True,
+    assert last.to_data() == {"reason": STOPPED_ON_ERROR, "was_enabled": True,
                          "error": "video x is damaged: decoding stopped"}
 
 
@@ -227,7 +228,7 @@ def test_a_run_stopped_on_request_is_logged_as_a_stop_not_an_error(tmp_path: Pat
                  InputSchedule([UnitStarted(t(1), "U-1")]), [StopAt()])
     last = log.events()[-1].event
     assert last.kind == "tool_inhibited"
-    assert last.data == {"reason": STOPPED_ON_REQUEST, "was_enabled": True}
+    assert last.to_data() == {"reason": STOPPED_ON_REQUEST, "was_enabled": True}
 
 
 def test_inputs_just_after_the_last_frame_count_and_later_ones_are_left_out() -> None:

@@ -23,6 +23,7 @@ from plant_helpers import (
 
 from stationcheck.plant.forwarder import Backoff, Forwarder
 from stationcheck.plant.throwaway import Cluster
+from tests.event_examples import alarm
 
 
 def test_demo_log_forwarded_twice_arrives_once(demo_log: Path, station: Station, admin: Any,
@@ -49,14 +50,12 @@ def test_demo_log_forwarded_twice_arrives_once(demo_log: Path, station: Station,
 def test_server_down_mid_forward(pg: Cluster, station: Station, tmp_path: Path) -> None:
     """The station keeps logging while the server is stopped; after the restart every event is
     there once, in order."""
-    from stationcheck.core.events import Event
     from stationcheck.store.sqlite_log import SqliteStepLog
 
     log_path = tmp_path / "station.sqlite"
     writer = SqliteStepLog(log_path, synchronous="OFF", station_id=station.station_id)
     def log_event(i: int) -> None:
-        writer.append([Event(t_s=float(i), kind="alarm_raised", serial=None,
-                             data={"code": "demo", "n": i})], 1.7e9 + i)
+        writer.append([alarm(float(i), None, code="demo", subject=str(i))], 1.7e9 + i)
 
     for i in range(2000):
         log_event(i)
@@ -119,13 +118,12 @@ def test_two_stations_forward_at_once(pg: Cluster, admin: Any, tmp_path: Path,
 def test_log_of_another_station_is_refused(station: Station, tmp_path: Path) -> None:
     import pytest
 
-    from stationcheck.core.events import Event
     from stationcheck.errors import StoreError
     from stationcheck.store.sqlite_log import SqliteStepLog
 
     log_path = tmp_path / "other.sqlite"
     with SqliteStepLog(log_path, station_id="someone-else") as log:
-        log.append([Event(t_s=0.0, kind="alarm_raised", serial=None, data={"code": "x"})], 1.7e9)
+        log.append([alarm(0.0, None, code="x")], 1.7e9)
     fwd = forwarder(log_path, station)
     with pytest.raises(StoreError, match="someone-else"):
         fwd.forward_once()

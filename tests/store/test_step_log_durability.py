@@ -128,7 +128,7 @@ def test_sigkill_mid_unit_loses_no_committed_event(tmp_path: Path, child_stops: 
         append_all(log, more)
 
         nok_before_kill = sum(e.kind == "tightening_result" and e.serial == "PC-101"
-                              and e.data["result"] == "NotOK" for e in flat[: len(stored)])
+                              and e.result == "NotOK" for e in flat[: len(stored)])
         finished = log.unit("PC-101")
         assert finished is not None
         assert (finished.status, finished.passes) == ("OK", 1)

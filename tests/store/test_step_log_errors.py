@@ -15,10 +15,11 @@ from stationcheck.core.events import Event
 from stationcheck.errors import StoreError
 from stationcheck.store import SqliteStepLog, sqlite_errors
 from stationcheck.store.schema import APPLICATION_ID, SCHEMA_VERSION
+from tests.event_examples import alarm, unit_started
 
 
 def started(serial: str, t_s: float = 1.0) -> list[Event]:
-    return [Event(t_s, "unit_started", serial, {"rework": False, "steps": [], "positions": []})]
+    return [unit_started(t_s, serial)]
 
 
 def good_log(path: Path) -> None:
@@ -109,7 +110,7 @@ def test_full_disk_loses_only_the_failing_batch(tmp_path: Path) -> None:
         log.append(started("PC-1"), 100.0)
         pages = log.connection.execute("PRAGMA page_count").fetchone()[0]
         log.connection.execute(f"PRAGMA max_page_count = {pages + 12}")
-        big = [Event(2.0, "alarm_raised", "PC-1", {"code": "note", "message": "x" * 5000})] * 3
+        big = [alarm(2.0, "PC-1", message="x" * 5000)] * 3
         with pytest.raises(StoreError) as caught:
             for attempt in range(20):
                 log.append(big, 101.0 + attempt)

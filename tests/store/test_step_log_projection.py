@@ -7,10 +7,12 @@ from typing import Any
 
 import pytest
 
+from stationcheck.core import event_kinds as ev
 from stationcheck.core.events import Event
 from stationcheck.core.progress import rebuild_unit
 from stationcheck.store import StepLog
 from stationcheck.store.synthetic import POSITIONS, StationScript
+from tests.event_examples import tightening, unit_ended, unit_started
 
 Logged = Callable[[StationScript], StepLog]
 
@@ -136,36 +138,31 @@ def test_closed_log_has_no_open_unit(logged: Logged) -> None:
     assert log.open_unit() is None and log.open_unit_events() == ()
 
 
-# hand-made events: extra keys are ignored, missing keys leave columns empty
+# hand-made events: odd values still give a row that says what is known
 ODD_EVENTS: list[tuple[str, list[Event], dict[str, Any]]] = [
-    ("extra keys", [
-        Event(1.0, "unit_started", "X-1", {"rework": False, "steps": [], "positions": [],
-                                             "operator_station": "demo"}),
-        Event(2.0, "tightening_result", "X-1", {
-            "step": "s", "zone": "z1", "position": 1, "attempt": 1, "result": "OK",
-            "torque": {"value": 5.0, "low": 4.0, "high": 6.0, "unit": "N·m"},
-            "angle": {"value": 30.0, "low": 10.0, "high": 50.0, "unit": "deg"},
-            "program": 7, "batch_counter": [1, 2]}),
+    ("values and limits", [
+        unit_started(1.0, "X-1"),
+        tightening(2.0, "X-1", torque=ev.Measured(5.0, 4.0, 6.0, "N·m"),
+                   angle=ev.Measured(30.0, 10.0, 50.0, "deg")),
     ], {"torque_nm": 5.0, "torque_high_nm": 6.0, "angle_low_deg": 10.0, "result": "OK"}),
-    ("flat values, no limits", [
-        Event(1.0, "unit_started", "X-1", {}),
-        Event(2.0, "tightening_result", "X-1", {"zone": "z1", "result": "NotOK",
-                                                  "torque_nm": 3.5, "angle_deg": 12.0}),
-    ], {"torque_nm": 3.5, "torque_low_nm": None, "angle_deg": 12.0, "result": "NotOK",
-        "step": "?", "attempt": 1}),
+    ("no values, no limits", [
+        unit_started(1.0, "X-1"),
+        tightening(2.0, "X-1", result="NotOK", torque=ev.Measured(None, None, None, "N·m"),
+                   angle=ev.Measured(12.0, None, None, "deg")),
+    ], {"torque_nm": None, "torque_low_nm": None, "angle_deg": 12.0, "result": "NotOK",
+        "attempt": 1}),
     ("times at zero are times", [
-        Event(2.0, "tightening_result", "X-1", {"zone": "z1", "result": "OK",
-                                                  "started_t_s": 0.0, "ended_t_s": 0.0}),
+        tightening(2.0, "X-1", started_t_s=0.0, ended_t_s=0.0),
     ], {"started_t_s": 0.0, "ended_t_s": 0.0}),
     ("unknown result word", [
-        Event(2.0, "tightening_result", "X-1", {"zone": "z1", "result": "maybe"}),
-    ], {"result": "NotDecidable", "torque_nm": None, "pass_no": 1}),
+        tightening(2.0, "X-1", result="maybe"),
+    ], {"result": "NotDecidable", "torque_nm": 5.1, "pass_no": 1}),
 ]
 
 
 @pytest.mark.parametrize(("events", "expected"), [(e, x) for _, e, x in ODD_EVENTS],
                          ids=[name for name, _, _ in ODD_EVENTS])
-def test_projection_tolerates_unknown_and_missing_keys(
+def test_projection_of_odd_values(
     any_log: StepLog, events: list[Event], expected: dict[str, Any]
 ) -> None:
     any_log.append(events, 100.0)
@@ -183,15 +180,14 @@ def test_append_refuses_what_is_not_an_event(any_log: StepLog, bad: tuple[object
 
 def test_append_refuses_a_non_finite_wall_clock(any_log: StepLog) -> None:
     with pytest.raises(ValueError, match="recorded_at_s"):
-        any_log.append([Event(1.0, "unit_started", "X-1", {})], float("nan"))
+        any_log.append([unit_started(1.0, "X-1")], float("nan"))
 
 
 def test_rework_pass_of_a_unit_the_log_never_saw(any_log: StepLog) -> None:
     """E.g. its first pass was on another station's log: reworked, never first-time-through."""
     any_log.append([
-        Event(1.0, "unit_started", "X-9", {"rework": True, "steps": [], "positions": []}),
-        Event(5.0, "unit_ended", "X-9", {"result": "OK", "released": True, "ended_by": "completed",
-                                          "cycle_time_s": 4.0}),
+        unit_started(1.0, "X-9", rework=True),
+        unit_ended(5.0, "X-9", started_t_s=1.0),
     ], 100.0)
     unit = any_log.unit("X-9")
     assert unit is not None

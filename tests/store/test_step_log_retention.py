@@ -12,6 +12,7 @@ from stationcheck.core.events import Event
 from stationcheck.store import SqliteStepLog
 from stationcheck.store.retention import SECONDS_PER_DAY, apply_retention, with_evidence
 from stationcheck.store.synthetic import POSITIONS, StationScript
+from tests.event_examples import alarm
 
 NOW_S = 1_760_000_000.0
 OLD_S = NOW_S - 40 * SECONDS_PER_DAY
@@ -45,7 +46,7 @@ def add_unit(log: SqliteStepLog, batches: list[tuple[Event, ...]], recorded_at_s
         events = []
         for event in batch:
             if event.kind == "tightening_result":
-                image = evidence / f"{event.serial}-{event.data['zone']}-{len(images)}.png"
+                image = evidence / f"{event.serial}-{event.zone}-{len(images)}.png"
                 image.write_bytes(b"demo evidence crop")
                 images.append(image)
                 event = with_evidence(event, image)
@@ -65,9 +66,7 @@ def station(
     for serial, (_, recorded_at_s) in UNITS.items():
         images[serial] = add_unit(log, unit_batches[serial], recorded_at_s, evidence)
         if serial == "OLD-NOK":
-            log.append([Event(150.0, "alarm_raised", None, {
-                "code": "link_lost", "severity": "alarm", "subject": "", "message": "demo"})],
-                OLD_S)
+            log.append([alarm(150.0, None, code="link_lost", message="demo")], OLD_S)
     yield log, images
     log.close()
 

@@ -19,7 +19,7 @@ def stream_events(units: int) -> list[tuple[float, str, str | None, str, float]]
     rows = []
     for index, (_, batches) in enumerate(UnitStream(7).units(units)):
         for batch in batches:
-            rows += [(e.t_s, e.kind, e.serial, dump_json(dict(e.data)), RECORDED_AT_S + index)
+            rows += [(e.t_s, e.kind, e.serial, dump_json(e.to_data()), RECORDED_AT_S + index)
                      for e in batch]
     return rows
 

@@ -13,6 +13,7 @@ from collections.abc import Iterable
 from dataclasses import dataclass
 from typing import Any, Literal
 
+from stationcheck.core import event_kinds as ev
 from stationcheck.core.alarms import ALARMS
 from stationcheck.core.events import Event
 from stationcheck.core.observations import PictureState
@@ -66,12 +67,11 @@ class RecentAlarms:
 
     def fold(self, events: Iterable[Event]) -> None:
         for event in events:
-            if event.kind != "alarm_raised":
+            if not isinstance(event, ev.AlarmRaised):
                 continue
-            code = str(event.data.get("code", ""))
-            info = ALARMS.get(code)
+            info = ALARMS.get(event.code)
             if info is not None and not info.condition:
-                self.items.append(RecentAlarm(code, event.t_s))
+                self.items.append(RecentAlarm(event.code, event.t_s))
 
     def active(self, now_t_s: float) -> list[str]:
         return [a.code for a in self.items if 0.0 <= now_t_s - a.t_s <= self.shown_s]

@@ -18,6 +18,7 @@ from typing import Any
 import cv2
 
 from stationcheck.config import StationConfig, check_data
+from stationcheck.core import event_kinds as ev
 from stationcheck.core.events import Event
 from stationcheck.core.observations import Observation, PictureState, UnitStarted
 from stationcheck.core.plan import StationPlan
@@ -70,7 +71,7 @@ class DryRunRecorder:
         if isinstance(step.observation, PictureState):
             self.timeline.append(describe_picture(step.observation))
         for event in step.events:
-            if event.kind != "picture_quality":  # said once above, with or without a unit
+            if not isinstance(event, ev.PictureQuality):  # said once above, with or without a unit
                 self.timeline.append(describe_event(event))
         if step.output.tool_enabled != self._enabled:
             self._enabled = step.output.tool_enabled
@@ -126,16 +127,19 @@ def describe_picture(obs: PictureState) -> dict[str, Any]:
 def describe_event(event: Event) -> dict[str, Any]:
     """One timeline line: the fastener by its zone, its place in the step as "order N", and
     only the details that have a value."""
-    data = event.data
+
+    def value_of(name: str) -> Any:
+        return getattr(event, name, None)
+
     details: list[str] = []
-    if _has_value(data.get("zone")):
-        details.append(str(data["zone"]))
-    if _has_value(data.get("position")):
-        of_step = f" of step {data['step']}" if _has_value(data.get("step")) else ""
-        details.append(f"order {data['position']}{of_step}")
-    elif _has_value(data.get("step")):
-        details.append(f"step {data['step']}")
-    details += [f"{key} {data[key]}" for key in _EVENT_KEYS if _has_value(data.get(key))]
+    if _has_value(value_of("zone")):
+        details.append(str(value_of("zone")))
+    if _has_value(value_of("position")):
+        of_step = f" of step {value_of('step')}" if _has_value(value_of("step")) else ""
+        details.append(f"order {value_of('position')}{of_step}")
+    elif _has_value(value_of("step")):
+        details.append(f"step {value_of('step')}")
+    details += [f"{key} {value_of(key)}" for key in _EVENT_KEYS if _has_value(value_of(key))]
     serial = f"{event.serial}: " if event.serial else ""
     text = f"{serial}{event.kind.replace('_', ' ')}"
     if details:
@@ -144,7 +148,7 @@ def describe_event(event: Event) -> dict[str, Any]:
 
 
 def _has_value(value: Any) -> bool:
-    return value is not None and value != "" and value != [] and value != {}
+    return value is not None and value != "" and value != () and value != []
 
 
 def usable_config(data: dict[str, Any], base_dir: Path) -> StationConfig:

@@ -13,6 +13,7 @@ import cv2
 import numpy as np
 import pytest
 
+from stationcheck.core import event_kinds as ev
 from stationcheck.core.observations import OperatorAck, UnitStarted
 from stationcheck.core.plan import StationPlan
 from stationcheck.web.operator.feed import OperatorFeed
@@ -274,7 +275,7 @@ def test_a_unit_continued_after_a_restart_shows_the_positions_done_before(
         open_unit = log.open_unit_events()
     finally:
         log.close()
-    done_before = [e.data["zone"] for e in open_unit if e.kind == "position_completed"]
+    done_before = [e.zone for e in open_unit if isinstance(e, ev.PositionCompleted)]
     assert 2 <= len(done_before) < 6  # mid-unit: some of its six positions fastened
 
     station = Station(demo_plan)

@@ -4,6 +4,7 @@ trends, exports, the report; read-only and safe beside a station that writes."""
 from __future__ import annotations
 
 import csv
+import hashlib
 import io
 import json
 import sqlite3
@@ -88,6 +89,31 @@ def test_one_unit_with_its_failed_position_and_rework(review: Client) -> None:
           for s in body["steps"] if s["position"] == "p5"]
     assert p5 == [(1, 1, "NOK", None), (1, 2, "NOK", "NOK"), (2, 1, "OK", "OK")]
     assert [s["seq"] for s in body["steps"]] == sorted(s["seq"] for s in body["steps"])
+    assert body["models"] == ["", ""]  # one per pass; this log recorded no model
+
+
+def test_the_unit_view_names_the_model_of_each_pass(tmp_path: Path) -> None:
+    from dataclasses import replace
+
+    from review_logs import scripted_units, sequencer_events, write_log
+
+    from stationcheck.core import event_kinds as ev
+
+    model = hashlib.sha256(b"demo keypoint model").hexdigest()
+    batches, passes = [], 0
+    for batch in sequencer_events(scripted_units(StationScript())):
+        events = []
+        for event in batch:
+            if isinstance(event, ev.UnitStarted) and event.serial == "QA-0003":
+                passes += 1
+                event = replace(event, model_sha256=model if passes == 2 else "")
+            events.append(event)
+        batches.append(tuple(events))
+    clients = serve(write_log(tmp_path / "log.sqlite", batches))
+    try:
+        assert next(clients).json("/api/unit?serial=QA-0003")["models"] == ["", model]
+    finally:
+        clients.close()
 
 
 def test_figures_and_trend_carry_their_charts(review: Client) -> None:
@@ -179,7 +205,7 @@ def test_evidence_images_are_served_from_beside_the_log_only(tmp_path: Path) -> 
             if event.kind == "tightening_result" and event.serial == "QA-0001":
                 path = next(paths, None)
                 if path is not None:
-                    event = replace(event, data={**event.data, "evidence_path": path})
+                    event = replace(event, evidence_path=path)
             events.append(event)
         batches.append(tuple(events))
     log = write_log(tmp_path / "logs" / "log.sqlite", batches)

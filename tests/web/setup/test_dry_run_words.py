@@ -3,25 +3,24 @@ and no empty details."""
 
 from __future__ import annotations
 
-from typing import Any
-
 import pytest
 
+from stationcheck.core import event_kinds as ev
 from stationcheck.core.events import Event
 from stationcheck.web.setup.dry_run import describe_event
+from tests.event_examples import alarm, tightening, unit_ended
 
 
-@pytest.mark.parametrize(("kind", "serial", "data", "text"), [
-    ("position_completed", "PC-1", {"zone": "screw_4", "step": "cover", "position": 2,
-                               "attempt": 1, "result": "OK"},
-     "PC-1: position completed (screw_4, order 2 of step cover, attempt 1, result OK)"),
-    ("alarm_raised", None, {"code": "tool_lost", "subject": ""},
-     "alarm raised (code tool_lost)"),
-    ("alarm_raised", None, {"code": "wrong_bin", "subject": None, "step": "pick_gasket"},
+@pytest.mark.parametrize(("event", "text"), [
+    (ev.PositionCompleted(1.0, "PC-1", step="cover", zone="screw_4", position=2, attempts=1,
+                          rework=False),
+     "PC-1: position completed (screw_4, order 2 of step cover)"),
+    (tightening(1.0, "PC-1", zone="screw_4", result="NotOK"),
+     "PC-1: tightening result (screw_4, order 1 of step fasten, attempt 1, result NotOK)"),
+    (alarm(1.0, None, code="tool_lost"), "alarm raised (code tool_lost)"),
+    (alarm(1.0, None, code="wrong_bin", step="pick_gasket"),
      "alarm raised (step pick_gasket, code wrong_bin)"),
-    ("unit_ended", "PC-2", {}, "PC-2: unit ended"),
+    (unit_ended(1.0, "PC-2", result="NotOK"), "PC-2: unit ended (result NotOK, released False)"),
 ])
-def test_timeline_lines_read_cleanly(kind: str, serial: str | None, data: dict[str, Any],
-                                     text: str) -> None:
-    event = Event(t_s=1.0, kind=kind, serial=serial, data=data)
+def test_timeline_lines_read_cleanly(event: Event, text: str) -> None:
     assert describe_event(event)["text"] == text

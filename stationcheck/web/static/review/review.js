@@ -144,6 +144,12 @@ function measured(value, low, high, digits) {
     `${value.toFixed(digits)}${limits}`);
 }
 
+function modelsText(models) {
+  // the hash of the model that decided each pass, shortened; older logs did not record it
+  if (models.every((m) => !m)) return "not recorded";
+  return models.map((m, i) => `${i ? `rework ${i}` : "first"} ${m ? m.slice(0, 12) + "\u2026" : "not recorded"}`).join(", ");
+}
+
 async function showUnit(serial, params) {
   const scope = new URLSearchParams();
   for (const key of ["station", "line"]) if (params.get(key)) scope.set(key, params.get(key));
@@ -172,6 +178,7 @@ async function showUnit(serial, params) {
     ["Failed positions", u.failed_positions.join(", ") || "none"],
     ["Unfinished positions", u.unfinished_positions.join(", ") || "none"],
     ["Alarms", u.alarm_count], ["Current step", u.current_step || "-"],
+    ["Keypoint model (SHA-256)", modelsText(data.models || [])],
   ];
   if (u.nok_reason) facts.unshift([u.status === "NOK" ? "Why NOK" : "Why the first pass was NOK", u.nok_reason]);
   $("unit-facts").replaceChildren(...facts.flatMap(([k, v]) => [el("dt", {}, k),
