@@ -24,8 +24,12 @@ byte (`tests/core/test_event_kinds.py`).
 
 def _type_name(hint: Any) -> str:
     text = str(hint) if not isinstance(hint, type) else hint.__name__
-    return text.replace("stationcheck.core.event_kinds.", "").replace(
-        "stationcheck.core.observations.", "").replace("typing.", "").replace("|", "\\|")
+    return (
+        text.replace("stationcheck.core.event_kinds.", "")
+        .replace("stationcheck.core.observations.", "")
+        .replace("typing.", "")
+        .replace("|", "\\|")
+    )
 
 
 def _doc(cls: type) -> str:
@@ -55,8 +59,11 @@ def event_reference() -> str:
     out = [_HEADER]
     for kind, cls in EVENT_CLASSES.items():
         out += [f"## `{kind}` ({cls.__name__})", "", _doc(cls), "", *_fields_table(cls), ""]
-    records = [c for c in vars(event_kinds).values() if isinstance(c, type)
-               and dataclasses.is_dataclass(c) and not issubclass(c, Event)]
+    records = [
+        c
+        for c in vars(event_kinds).values()
+        if isinstance(c, type) and dataclasses.is_dataclass(c) and not issubclass(c, Event)
+    ]
     out += ["## Records inside events", ""]
     for record in sorted(records, key=lambda c: c.__name__):
         out += [f"### {record.__name__}", "", _doc(record), "", *_fields_table(record), ""]

@@ -48,8 +48,11 @@ def written_if_set(default: Any = None) -> Any:
 def _scalar(kinds: type | tuple[type, ...], word: str, finite: bool = False) -> Convert:
     def convert(value: Any, where: str) -> Any:
         given: Any = value
-        if (not isinstance(value, kinds) or (kinds is not bool and isinstance(value, bool))
-                or (finite and not math.isfinite(given))):
+        if (
+            not isinstance(value, kinds)
+            or (kinds is not bool and isinstance(value, bool))
+            or (finite and not math.isfinite(given))
+        ):
             raise EventDataError(f"{where} must be {word}, got {value!r}")
         return value
 
@@ -125,12 +128,21 @@ def _shape(cls: type) -> _Shape:
         hints, keys = get_type_hints(cls), getattr(cls, "data_keys", {})
         own = [f for f in dataclasses.fields(cls) if f.name not in _ENVELOPE]
         fields = tuple(
-            _Field(f.name, keys.get(f.name, f.name), f"{cls.__name__}.{f.name}",
-                   _converter(hints[f.name]), f.default, bool(f.metadata.get(_WRITTEN_IF_SET)))
+            _Field(
+                f.name,
+                keys.get(f.name, f.name),
+                f"{cls.__name__}.{f.name}",
+                _converter(hints[f.name]),
+                f.default,
+                bool(f.metadata.get(_WRITTEN_IF_SET)),
+            )
             for f in own
         )
-        required = tuple(keys.get(f.name, f.name) for f in own if f.default is dataclasses.MISSING
-                         and f.default_factory is dataclasses.MISSING)
+        required = tuple(
+            keys.get(f.name, f.name)
+            for f in own
+            if f.default is dataclasses.MISSING and f.default_factory is dataclasses.MISSING
+        )
         shape = _SHAPES[cls] = _Shape(fields, frozenset(f.key for f in fields), required)
     return shape
 
@@ -200,8 +212,9 @@ class Event:
             raise TypeError("Event is the base of the event kinds; make one of those")
         _SCALARS[float](self.t_s, f"{name}.t_s")
         if self.serial is not None and (not isinstance(self.serial, str) or not self.serial):
-            raise ValueError(f"{name}.serial must be a non-empty string or None, "
-                             f"got {self.serial!r}")
+            raise ValueError(
+                f"{name}.serial must be a non-empty string or None, got {self.serial!r}"
+            )
         check_fields(self)
 
     def to_data(self) -> dict[str, Any]:

@@ -116,8 +116,7 @@ def apply_event(unit: UnitProgress | None, event: Event) -> UnitProgress | None:
         case ev.AlarmRaised():
             return replace(unit, alarms=unit.alarms + (event.code,))
         case ev.UnitEnded():
-            return replace(unit, result=event.result, ended_by=event.ended_by,
-                           ended_t_s=event.t_s)
+            return replace(unit, result=event.result, ended_by=event.ended_by, ended_t_s=event.t_s)
     return unit
 
 

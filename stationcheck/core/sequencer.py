@@ -70,8 +70,11 @@ class Sequencer:
         of the open unit). The unit is exactly as it was; everything about the tool and the
         station starts over inhibited and is re-learned from the next observations."""
         events = tuple(events)
-        sequences = [e.sequence for e in events
-                     if isinstance(e, ev.TighteningResult | ev.AlarmRaised) and e.sequence is not None]
+        sequences = [
+            e.sequence
+            for e in events
+            if isinstance(e, ev.TighteningResult | ev.AlarmRaised) and e.sequence is not None
+        ]
         control = ToolControl(last_sequence=sequences[-1] if sequences else None)
         return SequencerState(
             now_t_s=events[-1].t_s if events else None,
