@@ -256,7 +256,7 @@ def address_map_findings(
             signals[name] = SignalSpec(
                 name,
                 default.direction,
-                table,
+                table,  # type: ignore[arg-type]
                 address,  # type: ignore[arg-type]
                 default.count,
                 default.meaning,

@@ -52,8 +52,8 @@ Batch = tuple[Event, ...]
 def _square(zone_id: str, kind: str, x0: float, y0: float) -> ZoneSpec:
     return ZoneSpec(
         zone_id,
-        kind,
-        ((x0, y0), (x0 + 30, y0), (x0 + 30, y0 + 30), (x0, y0 + 30)),  # type: ignore[arg-type]
+        kind,  # type: ignore[arg-type]
+        ((x0, y0), (x0 + 30, y0), (x0 + 30, y0 + 30), (x0, y0 + 30)),
         label=zone_id,
     )
 
