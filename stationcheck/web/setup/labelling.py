@@ -83,7 +83,8 @@ class LabelService:
         return self.session.config_path.parent
 
     def open(self, request: Request) -> Response:
-        video = self._video(request.query.get("video", ""))
+        named = request.query.get("video", "")
+        video = self._video(named)
         count = request.int_arg("count", DEFAULT_PROPOSALS, 1, MAX_PROPOSALS)
         key = (video.path, count)
         if key not in self._proposals:
@@ -101,7 +102,7 @@ class LabelService:
             folder = self.session.workspace.shown(labels_dir)
         return Response.json(
             {
-                "video": self.session.workspace.shown(video.path),
+                "video": named,  # as the page names paths: from the config's folder
                 "fps": video.fps,
                 "frames": video.frame_count,
                 "width_px": video.width_px,

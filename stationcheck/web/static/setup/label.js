@@ -101,6 +101,7 @@ function drawPoints(layer, label, scale) {
 function drawFrame() {
   if (!L.info) return;
   const index = current();
+  box.dataset.frame = String(index);
   const v = L.view;
   svg.setAttribute("viewBox", `${v.x} ${v.y} ${v.w} ${v.h}`);
   picture.setAttribute("width", L.info.width_px);
@@ -165,6 +166,7 @@ async function loadGuess(index) {
 }
 
 function goTo(index) {
+  if (index === current()) return;
   let pos = L.order.indexOf(index);
   if (pos < 0) { L.order.push(index); L.order.sort((a, b) => a - b); pos = L.order.indexOf(index); }
   L.pos = pos;
@@ -339,6 +341,13 @@ export function labelPanel() {
   const note = L.note && (L.note.ok
     ? el("p", { class: "note done-note", id: "label-note", role: "status" }, L.note.text)
     : el("div", { class: "finding error", id: "label-note", role: "alert" }, `\u2716 ${L.note.text}`));
+  const jump = el("input", { name: "label-goto", inputmode: "numeric", size: 6,
+                            placeholder: "frame" });
+  jump.addEventListener("change", () => {
+    const index = Number(jump.value);
+    if (L.info && Number.isInteger(index) && index >= 0 && index < L.info.frames) goTo(index);
+    jump.blur();  // the keys act on the frame again
+  });
   const visible = [...L.clicked.values()].filter((l) => l.tip).length;
   return [
     el("h2", {}, "Label the station's tool"),
@@ -350,6 +359,7 @@ export function labelPanel() {
     el("div", { class: "fields" }, el("label", {}, "video (from the config's folder)"),
        el("span", { class: "path-field" }, input, filePicker("video", input, api))),
     el("div", { class: "line" }, open, hidden, prop, saveButton),
+    L.info ? el("div", { class: "fields" }, el("label", {}, "go to frame"), jump) : null,
     note,
     L.info ? el("p", { class: "note", id: "label-counts" }, `${L.clicked.size} clicked (${visible} `
       + `with the tool, ${L.clicked.size - visible} not visible), ${L.propagated.size} propagated. `
