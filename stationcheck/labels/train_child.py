@@ -49,8 +49,11 @@ class TrainingChild:
             self._process = None
             self._result = {"error": f"cannot start the training: {exc}"}
             return
+        self._errors = threading.Thread(
+            target=self._read_errors, name="training-errors", daemon=True
+        )
+        self._errors.start()
         threading.Thread(target=self._read, name="training-output", daemon=True).start()
-        threading.Thread(target=self._read_errors, name="training-errors", daemon=True).start()
 
     def _read(self) -> None:
         assert self._process is not None and self._process.stdout is not None
@@ -63,7 +66,9 @@ class TrainingChild:
                     self._result = message
                 else:
                     self._progress = message
+        self._process.stdout.close()
         code = self._process.wait()
+        self._errors.join(timeout=5)  # its last words explain a failure
         with self._lock:
             if self._cancelled:
                 self._result = {"error": "cancelled"}
@@ -78,6 +83,7 @@ class TrainingChild:
             if line.strip():
                 with self._lock:
                     self._tail.append(line.rstrip())
+        self._process.stderr.close()
 
     @property
     def running(self) -> bool:
