@@ -68,12 +68,18 @@ def run(args: argparse.Namespace) -> int:
     from stationcheck.cli import PRIVACY_NOTE
     from stationcheck.errors import InputFileError
     from stationcheck.live.session import parse_source
+    from stationcheck.sources.frame_source import FrameSource
     from stationcheck.sources.recorder import VIDEO_SUFFIX, record
 
     root = (args.root or Path.cwd()).resolve()
     if not root.is_dir():
         raise InputFileError(f"--root {args.root}: no such folder")
-    if args.frames is not None and args.frames < 1 or args.seconds is not None and args.seconds <= 0:
+    if (
+        args.frames is not None
+        and args.frames < 1
+        or args.seconds is not None
+        and args.seconds <= 0
+    ):
         print("stationcheck record: error: --frames and --seconds must be > 0", file=sys.stderr)
         return 64
     target = _inside(args.out, root, "--out")
@@ -83,6 +89,7 @@ def run(args: argparse.Namespace) -> int:
     if target.exists() and not args.overwrite:
         raise InputFileError(f"{args.out} exists already (add --overwrite to replace it)")
     where = parse_source(args.source)
+    source: FrameSource
     if isinstance(where, Path):
         from stationcheck.sources.video_file import VideoFileSource
 
@@ -94,7 +101,9 @@ def run(args: argparse.Namespace) -> int:
     seconds = args.seconds if args.seconds is not None else DEFAULT_SECONDS
     max_frames = args.frames if args.frames is not None else max(1, round(seconds * source.fps))
     print(f"Privacy: {PRIVACY_NOTE}", flush=True)
-    print(f"Recording {max_frames} frames from {source.name} to {target} (Ctrl-C stops)", flush=True)
+    print(
+        f"Recording {max_frames} frames from {source.name} to {target} (Ctrl-C stops)", flush=True
+    )
 
     def progress(count: int) -> None:
         if count % max(1, round(source.fps * 10)) == 0:

@@ -145,7 +145,8 @@ def save(station_folder: Path, video: VideoFrames, labels: Iterable[FrameLabel])
         kept.append((image, annotation(label, width, height) if label.visible else None))
     kept.sort(key=lambda pair: (str(pair[0].get("video")), int(pair[0].get("frame_index", 0))))
     written = _write_frames(video, images_dir, sorted(new))
-    images, annotations = [], []
+    images: list[dict[str, Any]] = []
+    annotations: list[dict[str, Any]] = []
     for image_id, (image, note) in enumerate(kept, start=1):
         images.append({**image, "id": image_id})
         if note is not None:

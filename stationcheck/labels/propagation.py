@@ -17,6 +17,7 @@ from __future__ import annotations
 import logging
 from collections.abc import Callable, Iterable, Sequence
 from dataclasses import dataclass
+from itertools import pairwise
 
 import cv2
 import numpy as np
@@ -57,21 +58,31 @@ class Propagation:
         return tuple((first + last) // 2 for first, last in self.gaps)
 
 
+def _lucas_kanade(
+    before: Gray, after: Gray, points: Points, settings: FlowSettings
+) -> tuple[Points, npt.NDArray[np.uint8]]:
+    criteria = (cv2.TERM_CRITERIA_EPS | cv2.TERM_CRITERIA_COUNT, 30, 0.01)
+    moved, status, _ = cv2.calcOpticalFlowPyrLK(
+        before,
+        after,
+        points,
+        points.copy(),
+        winSize=(settings.window_px, settings.window_px),
+        maxLevel=settings.pyramid_levels,
+        criteria=criteria,
+    )
+    return np.asarray(moved, np.float32), np.asarray(status, np.uint8)
+
+
 def _flow(before: Gray, after: Gray, points: Points, settings: FlowSettings) -> Points:
     """``points`` of ``before`` found in ``after``; NaN rows where the round trip fails."""
-    criteria = (cv2.TERM_CRITERIA_EPS | cv2.TERM_CRITERIA_COUNT, 30, 0.01)
-    window = (settings.window_px, settings.window_px)
-    moved, status, _ = cv2.calcOpticalFlowPyrLK(
-        before, after, points, None, winSize=window, maxLevel=settings.pyramid_levels,
-        criteria=criteria,
-    )
-    back, status_back, _ = cv2.calcOpticalFlowPyrLK(
-        after, before, moved, None, winSize=window, maxLevel=settings.pyramid_levels,
-        criteria=criteria,
-    )
+    moved, status = _lucas_kanade(before, after, points, settings)
+    back, status_back = _lucas_kanade(after, before, moved, settings)
     round_trip = np.linalg.norm(back - points, axis=1)
-    good = (status[:, 0] == 1) & (status_back[:, 0] == 1) & (round_trip <= settings.max_round_trip_px)
-    out = moved.copy()
+    good = (
+        (status[:, 0] == 1) & (status_back[:, 0] == 1) & (round_trip <= settings.max_round_trip_px)
+    )
+    out: Points = moved.copy()
     out[~good] = np.nan
     return out
 
@@ -94,8 +105,10 @@ def body_points(pose: Points, size: tuple[int, int], settings: FlowSettings) -> 
     width, height = size
     margin = settings.edge_margin_px
     inside = (
-        (points[:, 0] >= margin) & (points[:, 0] <= width - 1 - margin)
-        & (points[:, 1] >= margin) & (points[:, 1] <= height - 1 - margin)
+        (points[:, 0] >= margin)
+        & (points[:, 0] <= width - 1 - margin)
+        & (points[:, 1] >= margin)
+        & (points[:, 1] <= height - 1 - margin)
     )
     return points[inside]
 
@@ -133,7 +146,7 @@ def track(frames: Sequence[Gray], start: Points, settings: FlowSettings) -> list
     """The pose (tip, rear) in each of ``frames`` (``frames[0]`` holds ``start``) until lost."""
     out: list[Points | None] = [start]
     pose: Points | None = start
-    for before, after in zip(frames, frames[1:], strict=False):
+    for before, after in pairwise(frames):
         pose = None if pose is None else _step(before, after, pose, settings)
         out.append(pose)
     return out
@@ -161,9 +174,7 @@ def propagate_span(
     first's frame to the last's, both included). A click needs tip and rear to be followed
     (the rear gives the tool's axis, whose body points carry the motion)."""
     forward = track(frames, _as_points(first), settings) if _trackable(first) else None
-    backward = (
-        track(frames[::-1], _as_points(last), settings)[::-1] if _trackable(last) else None
-    )
+    backward = track(frames[::-1], _as_points(last), settings)[::-1] if _trackable(last) else None
     if (forward is None) != (backward is None) and first.visible and last.visible:
         return []  # a visible click without its rear: the two directions cannot be checked
     count = len(frames) - 1
@@ -204,11 +215,13 @@ def propagate(
     of its two clicks changed).
     """
     settings = settings or FlowSettings()
-    anchors = sorted({label.frame_index: label for label in clicked}.values(),
-                     key=lambda label: label.frame_index)
+    anchors = sorted(
+        {label.frame_index: label for label in clicked}.values(),
+        key=lambda label: label.frame_index,
+    )
     labels: list[FrameLabel] = []
     gaps: list[tuple[int, int]] = []
-    for first, last in zip(anchors, anchors[1:], strict=False):
+    for first, last in pairwise(anchors):
         inner = last.frame_index - first.frame_index - 1
         if inner <= 0:
             continue

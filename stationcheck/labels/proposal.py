@@ -24,9 +24,7 @@ def thumbnail(image: npt.NDArray[np.uint8]) -> npt.NDArray[np.float32]:
     return small.reshape(-1) / 255.0
 
 
-def propose(
-    frames: Iterable[tuple[int, npt.NDArray[np.uint8]]], count: int
-) -> list[int]:
+def propose(frames: Iterable[tuple[int, npt.NDArray[np.uint8]]], count: int) -> list[int]:
     """``count`` frame indices (sorted) out of ``frames`` (index, image), spread over time and
     appearance; fewer when there are fewer frames."""
     indices: list[int] = []
@@ -40,7 +38,7 @@ def propose(
         return sorted(indices)
     features = np.stack(thumbs)
     even = max(1, count // 2)
-    chosen = {int(round(k)) for k in np.linspace(0, len(indices) - 1, even)}
+    chosen = {round(k) for k in np.linspace(0, len(indices) - 1, even)}
     nearest = np.full(len(indices), np.inf, dtype=np.float64)
     for position in chosen:
         nearest = np.minimum(nearest, _distances(features, position))
@@ -54,4 +52,7 @@ def propose(
 
 
 def _distances(features: npt.NDArray[np.float32], position: int) -> npt.NDArray[np.float64]:
-    return np.linalg.norm(features - features[position], axis=1).astype(np.float64)
+    distances: npt.NDArray[np.float64] = np.linalg.norm(
+        features - features[position], axis=1
+    ).astype(np.float64)
+    return distances

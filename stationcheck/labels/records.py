@@ -49,14 +49,18 @@ class FrameLabel:
 
     @classmethod
     def from_json(cls, doc: Any) -> FrameLabel:
-        """Raises ValueError naming what is wrong."""
+        """Raises ValueError or TypeError naming what is wrong."""
         if not isinstance(doc, dict):
-            raise ValueError("a label is an object with frame_index, tip, rear, source")
+            raise TypeError("a label is an object with frame_index, tip, rear, source")
         index = doc.get("frame_index")
         if not isinstance(index, int) or isinstance(index, bool):
-            raise ValueError(f"frame_index must be a whole number, got {index!r}")
-        return cls(index, _point(doc.get("tip"), "tip"), _point(doc.get("rear"), "rear"),
-                   doc.get("source", "clicked"))
+            raise TypeError(f"frame_index must be a whole number, got {index!r}")
+        return cls(
+            index,
+            _point(doc.get("tip"), "tip"),
+            _point(doc.get("rear"), "rear"),
+            doc.get("source", "clicked"),
+        )
 
 
 def _point(value: Any, name: str) -> Point | None:

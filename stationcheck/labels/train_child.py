@@ -40,13 +40,13 @@ class TrainingChild:
         self._result: dict[str, Any] | None = None
         self._cancelled = False
         self._tail: deque[str] = deque(maxlen=TAIL_LINES)
+        self._process: subprocess.Popen[str] | None = None
         try:
             self._process = subprocess.Popen(
                 command, cwd=cwd, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True,
                 bufsize=1,
             )  # fmt: skip
         except OSError as exc:
-            self._process = None
             self._result = {"error": f"cannot start the training: {exc}"}
             return
         self._errors = threading.Thread(

@@ -49,11 +49,12 @@ def test_dataset_loads_and_scores_with_pycocotools(clip: Path, tmp_path: Path) -
     assert (result.images, result.annotations, result.written) == (4, 3, 4)
     coco = COCO(str(result.path))
     (category,) = coco.loadCats(coco.getCatIds())
-    assert category == {"id": 1, "name": "tool", "keypoints": ["tip", "rear"],
-                        "skeleton": [[1, 2]]}
+    assert category == {"id": 1, "name": "tool", "keypoints": ["tip", "rear"], "skeleton": [[1, 2]]}
     images = {image["frame_index"]: image for image in coco.dataset["images"]}
     assert images[5]["tool_visible"] is False and coco.getAnnIds(imgIds=[images[5]["id"]]) == []
-    assert images[2]["video"] == "bench_a.mp4" and images[2]["t_s"] == pytest.approx(2 / 30, abs=1e-4)
+    assert images[2]["video"] == "bench_a.mp4" and images[2]["t_s"] == pytest.approx(
+        2 / 30, abs=1e-4
+    )
     assert images[2]["file_name"] == "bench_a_000002.png"
     for index in (0, 1, 2, 5):
         assert (tmp_path / "labels" / "images" / images[index]["file_name"]).is_file()
@@ -81,13 +82,17 @@ def test_saving_again_replaces_per_frame_and_keeps_the_rest(clip: Path, tmp_path
     again = coco_store.save(
         tmp_path,
         video,
-        [FrameLabel(1, (100.0, 100.0), (150.0, 250.0), "clicked"), FrameLabel(7, None, None,
-                                                                              "clicked")],
+        [
+            FrameLabel(1, (100.0, 100.0), (150.0, 250.0), "clicked"),
+            FrameLabel(7, None, None, "clicked"),
+        ],
     )
     video.close()
     assert (again.images, again.annotations, again.written) == (5, 3, 1)
-    stored = {label.frame_index: label for label in coco_store.labels_of(tmp_path / "labels",
-                                                                          "bench_a.mp4")}
+    stored = {
+        label.frame_index: label
+        for label in coco_store.labels_of(tmp_path / "labels", "bench_a.mp4")
+    }
     assert sorted(stored) == [0, 1, 2, 5, 7]
     assert stored[1] == FrameLabel(1, (100.0, 100.0), (150.0, 250.0), "clicked")
     assert stored[2].rear is None and not stored[7].visible

@@ -26,10 +26,7 @@ HIDDEN_FIRST, HIDDEN_LAST = 2899, 2970  # the tool is out of view here
 def grey() -> dict[int, npt.NDArray[np.uint8]]:
     video = VideoFrames(VIDEO)
     try:
-        return {
-            i: cv2.cvtColor(image, cv2.COLOR_BGR2GRAY)
-            for i, image in video.span(FIRST, LAST)
-        }
+        return {i: cv2.cvtColor(image, cv2.COLOR_BGR2GRAY) for i, image in video.span(FIRST, LAST)}
     finally:
         video.close()
 
@@ -55,13 +52,18 @@ def test_propagated_labels_follow_the_rendered_tip(
             clicked[index] = truth.click(index, rng)
     result = propagate(_reader(grey), clicked.values(), cache=cache)
     errors = np.array(
-        [np.hypot(l.tip[0] - truth.tip[l.frame_index][0], l.tip[1] - truth.tip[l.frame_index][1])
-         for l in result.labels if l.tip is not None]
+        [
+            np.hypot(l.tip[0] - truth.tip[l.frame_index][0], l.tip[1] - truth.tip[l.frame_index][1])
+            for l in result.labels
+            if l.tip is not None
+        ]
     )
     clicks = len(clicked)
     labelled = clicks + len(result.labels)
-    print(f"{clicks} clicks -> {labelled} labelled frames of {LAST - FIRST + 1}; propagated tip "
-          f"error median {np.median(errors):.2f} px, p95 {np.percentile(errors, 95):.2f} px")
+    print(
+        f"{clicks} clicks -> {labelled} labelled frames of {LAST - FIRST + 1}; propagated tip "
+        f"error median {np.median(errors):.2f} px, p95 {np.percentile(errors, 95):.2f} px"
+    )
     assert labelled >= 12 * clicks  # about 60 clicks for 1,000 frames, with room to spare
     assert not {l.frame_index for l in result.labels} & set(clicked)  # clicks stay clicks
     assert np.median(errors) <= 1.5  # the renderer's truth is the reference
@@ -92,8 +94,9 @@ def test_a_not_visible_click_stops_propagation(truth: Truth) -> None:
     assert indices and max(indices) <= visible.frame_index + settings.max_one_way_frames
     assert all(truth.visible[i] for i in indices)
     assert (HIDDEN_FIRST + 11, HIDDEN_LAST - 6) not in result.gaps  # nothing to ask in there
-    assert result.queued() and all(visible.frame_index < i < hidden_a.frame_index
-                                   for i in result.queued())
+    assert result.queued() and all(
+        visible.frame_index < i < hidden_a.frame_index for i in result.queued()
+    )
 
 
 def test_two_directions_that_disagree_are_queued(

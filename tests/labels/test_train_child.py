@@ -50,5 +50,11 @@ def test_a_command_that_cannot_start(tmp_path: Path) -> None:
 
 def test_the_product_runs_the_station_fine_tune() -> None:
     command = train_command(Path("station/station.yaml"))
-    assert command[1:] == ["-m", "stationcheck", "train", "--station", "station/station.yaml",
-                           "--progress-json"]
+    assert command[1:] == [
+        "-m",
+        "stationcheck",
+        "train",
+        "--station",
+        "station/station.yaml",
+        "--progress-json",
+    ]

@@ -25,7 +25,9 @@ def root(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> Path:
 
 
 def test_records_the_asked_frames(root: Path, capsys: pytest.CaptureFixture[str]) -> None:
-    assert main(["record", "--source", "source.mp4", "--out", "rec/clip.mp4", "--frames", "25"]) == 0
+    assert (
+        main(["record", "--source", "source.mp4", "--out", "rec/clip.mp4", "--frames", "25"]) == 0
+    )
     out = capsys.readouterr().out
     assert "Privacy:" in out and "recorded 25 frames" in out
     recorded = VideoFileSource(root / "rec" / "clip.mp4")

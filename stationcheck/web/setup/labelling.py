@@ -237,5 +237,5 @@ def _labels(value: Any) -> list[FrameLabel]:
         raise WebError(400, f"send the labels as a list (at most {MAX_LABELS})")
     try:
         return [FrameLabel.from_json(item) for item in value]
-    except ValueError as exc:
+    except (ValueError, TypeError) as exc:
         raise WebError(400, f"bad label: {exc}") from exc

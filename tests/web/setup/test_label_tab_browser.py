@@ -23,7 +23,6 @@ from stationcheck.web.listener import WebServer
 from stationcheck.web.setup import SetupSession, Workspace
 from stationcheck.web.setup.labelling import LabelService, TrainCommand
 from stationcheck.web.setup.routes import SetupApp
-
 from tests.web.setup.conftest import DEMO_VIDEO, REPO
 
 CLIP_FIRST = 2840  # the tool is in view until sample frame 2898, then out of view
@@ -172,7 +171,9 @@ def test_label_five_frames_propagate_hide_one_and_save(
         if index in CLICKED:
             assert tip_error <= 2.0, (index, note["keypoints"], tip)
             if note["keypoints"][5] == 2:
-                rear_error = np.hypot(note["keypoints"][3] - rear[0], note["keypoints"][4] - rear[1])
+                rear_error = np.hypot(
+                    note["keypoints"][3] - rear[0], note["keypoints"][4] - rear[1]
+                )
                 assert rear_error <= 2.0, (index, note["keypoints"], rear)
             else:  # only a rear outside the picture is left unlabelled
                 assert not (0 <= rear[0] <= 639 and 0 <= rear[1] <= 479)
