@@ -224,8 +224,8 @@ async function runPropagate() {
     L.note = { text: `${out.labels.length} frames propagated from ${L.clicked.size} clicked `
       + `(${visible} with the tool); ${queued.length} frame(s) where the flow check failed are `
       + "queued for a click", ok: true };
-    const next = L.order.findIndex((i) => !L.clicked.has(i) && !L.propagated.has(i));
-    if (next >= 0) { L.pos = next; L.draft = []; loadGuess(current()); }
+    // next: the middle of the longest unlabelled run (the server lists those first)
+    if (queued.length) { L.pos = L.order.indexOf(queued[0]); L.draft = []; loadGuess(current()); }
   } catch (err) {
     L.note = { text: `not propagated: ${err.message}`, ok: false };
   }
