@@ -327,6 +327,10 @@ function trainingView() {
 
 // ---- the panel and the keys ----
 export function labelPanel() {
+  if (L.training === null) {  // a fine-tune started before the page was (re)loaded
+    L.training = { running: false, progress: {}, result: null };
+    pollTraining();
+  }
   const input = el("input", { name: "label-video", value: L.video, size: 22 });
   input.addEventListener("change", () => { L.video = input.value; });
   const open = el("button", { class: "primary", id: "label-open" }, "Open");
