@@ -42,6 +42,7 @@ class VideoFrames:
         self.width_px = int(self._capture.get(cv2.CAP_PROP_FRAME_WIDTH))
         self.height_px = int(self._capture.get(cv2.CAP_PROP_FRAME_HEIGHT))
         self._next = 0  # index of the frame the capture reads next
+        self._last: Image | None = None  # frame _next - 1 (spans share their end frames)
 
     def _open(self) -> cv2.VideoCapture:
         if not self.path.is_file():
@@ -53,6 +54,7 @@ class VideoFrames:
         return capture
 
     def _seek(self, index: int) -> None:
+        self._last = None
         if index < self._next or index - self._next > MAX_SKIP_FRAMES and index > MAX_SKIP_FRAMES:
             self._capture.release()
             self._capture = self._open()
@@ -69,21 +71,27 @@ class VideoFrames:
         self._next += 1
         if image.ndim == 2:
             image = cv2.cvtColor(image, cv2.COLOR_GRAY2BGR)
-        return np.ascontiguousarray(image)
+        self._last = np.ascontiguousarray(image)
+        return self._last
+
+    def _at(self, index: int) -> Image:
+        if index == self._next - 1 and self._last is not None:
+            return self._last
+        self._seek(index)
+        return self._read()
 
     def frame(self, index: int) -> Image:
         """Frame ``index`` (BGR). Raises InputFileError when the file has no such frame."""
         if index < 0 or (self.frame_count and index >= self.frame_count):
             raise InputFileError(f"video {self.path.name} has frames 0 to {self.frame_count - 1}")
         with self._lock:
-            self._seek(index)
-            return self._read()
+            return self._at(index).copy()
 
     def span(self, first: int, last: int) -> Iterator[tuple[int, Image]]:
         """Frames ``first`` to ``last`` (inclusive) in order; holds the lock while iterating."""
         with self._lock:
-            self._seek(first)
-            for index in range(first, last + 1):
+            yield first, self._at(first)
+            for index in range(first + 1, last + 1):
                 yield index, self._read()
 
     def close(self) -> None:
