@@ -39,6 +39,7 @@ COMMAND_MODULES = (
     "bench",
     "soak",
     "render",
+    "record",
     "teach",
     "alarms",
     "states",

@@ -11,6 +11,7 @@ from typing import Any
 from stationcheck.web.app import STATIC_ROOT, add_common_files
 from stationcheck.web.server import Request, Response, Router, WebError
 from stationcheck.web.setup import checking, dry_run, frames, station_copy, teaching_service
+from stationcheck.web.setup.labelling import LabelService
 from stationcheck.web.setup.workspace import SetupSession
 
 SETUP_STATIC = STATIC_ROOT / "setup"
@@ -20,9 +21,10 @@ FILE_KINDS = {"video": (".mp4", ".avi", ".mkv", ".mov", ".webm"), "inputs": (".j
 
 
 class SetupApp:
-    def __init__(self, session: SetupSession) -> None:
+    def __init__(self, session: SetupSession, labels: LabelService | None = None) -> None:
         self.session = session
         self.dry_runs = dry_run.DryRunStore()
+        self.labels = labels or LabelService(session)
 
     def router(self) -> Router:
         router = Router(SETUP_STATIC, name="setup")
@@ -50,6 +52,7 @@ class SetupApp:
                 handler,
                 max_body_bytes=None if method == "GET" else DOCUMENT_BODY_BYTES,
             )
+        self.labels.add_routes(router)
         return router
 
     def _source(self) -> str:

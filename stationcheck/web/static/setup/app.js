@@ -9,9 +9,10 @@ import { stepsPanel } from "./steps_panel.js";
 import { picturePanel, teachPanel, dryRunPanel, isTeachFinding, forgetPaths }
   from "./source_panels.js";
 import { installPlayer, setPlayerVisible } from "./player.js";
+import { installLabeller, labelKey, labelPanel, setLabelVisible } from "./label.js";
 
 const PANELS = { picture: picturePanel, zones: zonesPanel, steps: stepsPanel, teach: teachPanel,
-                 dryrun: dryRunPanel };
+                 dryrun: dryRunPanel, label: labelPanel };
 // Which tab shows the findings under each top-level key (the rest go below the panel).
 const TAB_OF = { zones: "zones", steps: "steps", thresholds: "steps", station: "picture",
                  camera: "picture" };
@@ -44,7 +45,8 @@ function renderTabs() {
       count ? el("span", { class: "count" }, `(${count})`) : "");
   }
   setPlayerVisible(S.tab === "dryrun");
-  document.getElementById("stage").classList.toggle("playing", S.tab === "dryrun");
+  setLabelVisible(S.tab === "label");
+  document.getElementById("stage").classList.toggle("playing", ["dryrun", "label"].includes(S.tab));
 }
 
 function renderPanel() {
@@ -114,6 +116,7 @@ function onKey(evt) {
   const ctrl = evt.ctrlKey || evt.metaKey;
   if (ctrl && evt.key.toLowerCase() === "s") { evt.preventDefault(); save(false); return; }
   if (typing(evt)) return;
+  if (S.tab === "label" && labelKey(evt)) return;
   if (ctrl && evt.key.toLowerCase() === "z") { evt.preventDefault(); undo(); return; }
   const actions = {
     Enter: finishDraft, Escape: cancelDraft, Delete: deleteSelection, Backspace: deleteSelection,
@@ -150,6 +153,7 @@ async function start() {
   onRender(renderPanel);
   installStage();
   installPlayer();
+  installLabeller();
   const caution = await fetch("/common/caution.html");
   document.getElementById("caution").innerHTML = await caution.text();
   render();

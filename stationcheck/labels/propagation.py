@@ -1,0 +1,272 @@
+"""Carrying clicked points to the frames between clicks with optical flow.
+
+Between two clicked frames where the tool is visible, each clicked point is tracked forward
+from the earlier click and backward from the later click with pyramidal Lucas-Kanade optical
+flow (OpenCV ``calcOpticalFlowPyrLK``). Every step is checked forward-backward (track the
+point on, track it back; the two must land within ``max_round_trip_px``); a direction stops at
+the first step that fails the check or leaves the picture. A frame gets a propagated label
+when at least one direction reached it and, where both did, they agree within
+``max_disagreement_px`` (the label is then their mix, weighted towards the nearer click).
+Between a visible click and a "not visible" click only the visible side tracks, so a
+"not visible" click stops propagation across it. Frames left without a label are returned as
+gaps: the screen asks for a click in the middle of the longest ones first.
+"""
+
+from __future__ import annotations
+
+import logging
+from collections.abc import Callable, Iterable, Sequence
+from dataclasses import dataclass
+from itertools import pairwise
+
+import cv2
+import numpy as np
+import numpy.typing as npt
+
+from stationcheck.labels.records import FrameLabel, Point
+
+log = logging.getLogger(__name__)
+
+Gray = npt.NDArray[np.uint8]
+Points = npt.NDArray[np.float32]  # shape (k, 2)
+Frames = Callable[[int, int], Iterable[tuple[int, Gray]]]
+
+
+@dataclass(frozen=True)
+class FlowSettings:
+    window_px: int = 21
+    pyramid_levels: int = 3
+    max_round_trip_px: float = 0.7
+    max_disagreement_px: float = 2.5
+    edge_margin_px: float = 3.0
+    max_span_frames: int = 900  # longer spans between clicks are not tracked (too much drift)
+    max_one_way_frames: int = 15  # towards a "not visible" click only one direction tracks
+    min_body_points: int = 8
+    min_inlier_share: float = 0.5
+    max_scale_change: float = 0.08
+
+
+@dataclass(frozen=True)
+class Propagation:
+    """Propagated labels (never the clicked ones) and the unlabelled runs between clicks."""
+
+    labels: tuple[FrameLabel, ...]
+    gaps: tuple[tuple[int, int], ...]  # (first, last) frame index, inclusive, longest first
+
+    def queued(self) -> tuple[int, ...]:
+        """The frame in the middle of each gap: where a click helps most, most useful first."""
+        return tuple((first + last) // 2 for first, last in self.gaps)
+
+
+def _lucas_kanade(
+    before: Gray, after: Gray, points: Points, settings: FlowSettings
+) -> tuple[Points, npt.NDArray[np.uint8]]:
+    criteria = (cv2.TERM_CRITERIA_EPS | cv2.TERM_CRITERIA_COUNT, 30, 0.01)
+    moved, status, _ = cv2.calcOpticalFlowPyrLK(
+        before,
+        after,
+        points,
+        points.copy(),
+        winSize=(settings.window_px, settings.window_px),
+        maxLevel=settings.pyramid_levels,
+        criteria=criteria,
+    )
+    return np.asarray(moved, np.float32), np.asarray(status, np.uint8)
+
+
+def _flow(before: Gray, after: Gray, points: Points, settings: FlowSettings) -> Points:
+    """``points`` of ``before`` found in ``after``; NaN rows where the round trip fails."""
+    moved, status = _lucas_kanade(before, after, points, settings)
+    back, status_back = _lucas_kanade(after, before, moved, settings)
+    round_trip = np.linalg.norm(back - points, axis=1)
+    good = (
+        (status[:, 0] == 1) & (status_back[:, 0] == 1) & (round_trip <= settings.max_round_trip_px)
+    )
+    out: Points = moved.copy()
+    out[~good] = np.nan
+    return out
+
+
+def body_points(pose: Points, size: tuple[int, int], settings: FlowSettings) -> Points:
+    """Points on the tool's body: along the tip-rear axis (away from both ends, where the
+    window would see mostly background) and beside it, inside the picture."""
+    tip, rear = pose[0], pose[1]
+    axis = rear - tip
+    length = float(np.linalg.norm(axis))
+    if length < 1.0:
+        return np.empty((0, 2), np.float32)
+    across = np.array([-axis[1], axis[0]], np.float32) / length
+    rows = [
+        tip + fraction * axis + side * across
+        for fraction in np.linspace(0.12, 0.88, 12)
+        for side in (-3.0, 0.0, 3.0)
+    ]
+    points = np.array(rows, dtype=np.float32)
+    width, height = size
+    margin = settings.edge_margin_px
+    inside = (
+        (points[:, 0] >= margin)
+        & (points[:, 0] <= width - 1 - margin)
+        & (points[:, 1] >= margin)
+        & (points[:, 1] <= height - 1 - margin)
+    )
+    return points[inside]
+
+
+def _step(before: Gray, after: Gray, pose: Points, settings: FlowSettings) -> Points | None:
+    """The tool's pose (tip, rear) of ``before`` moved into ``after`` by the motion of its body
+    points (a rotation, scale and shift fitted with RANSAC); None when too few points agree."""
+    height, width = before.shape[:2]
+    body = body_points(pose, (width, height), settings)
+    if len(body) < settings.min_body_points:
+        return None
+    moved = _flow(before, after, body, settings)
+    good = ~np.isnan(moved[:, 0])
+    if int(good.sum()) < settings.min_body_points:
+        return None
+    matrix, inliers = cv2.estimateAffinePartial2D(
+        body[good], moved[good], method=cv2.RANSAC, ransacReprojThreshold=1.0
+    )
+    if matrix is None or inliers is None or int(inliers.sum()) < settings.min_body_points:
+        return None
+    if int(inliers.sum()) < settings.min_inlier_share * len(body):
+        return None
+    scale = float(np.hypot(matrix[0, 0], matrix[1, 0]))
+    if abs(scale - 1.0) > settings.max_scale_change:
+        return None
+    out = (pose @ matrix[:, :2].T + matrix[:, 2]).astype(np.float32)
+    tip = out[0]
+    margin = settings.edge_margin_px
+    if not (margin <= tip[0] <= width - 1 - margin and margin <= tip[1] <= height - 1 - margin):
+        return None
+    return out
+
+
+def track(frames: Sequence[Gray], start: Points, settings: FlowSettings) -> list[Points | None]:
+    """The pose (tip, rear) in each of ``frames`` (``frames[0]`` holds ``start``) until lost."""
+    out: list[Points | None] = [start]
+    pose: Points | None = start
+    for before, after in pairwise(frames):
+        pose = None if pose is None else _step(before, after, pose, settings)
+        out.append(pose)
+    return out
+
+
+def _as_points(label: FrameLabel) -> Points:
+    assert label.tip is not None and label.rear is not None
+    return np.array([label.tip, label.rear], dtype=np.float32)
+
+
+def _label(index: int, points: Points) -> FrameLabel:
+    tip = (float(points[0, 0]), float(points[0, 1]))
+    rear = (float(points[1, 0]), float(points[1, 1]))
+    return FrameLabel(index, tip, rear, "propagated")
+
+
+def _trackable(label: FrameLabel) -> bool:
+    return label.tip is not None and label.rear is not None
+
+
+def propagate_span(
+    frames: Sequence[Gray], first: FrameLabel, last: FrameLabel, settings: FlowSettings
+) -> list[FrameLabel]:
+    """Labels for the frames strictly between ``first`` and ``last`` (``frames`` runs from the
+    first's frame to the last's, both included). A click needs tip and rear to be followed
+    (the rear gives the tool's axis, whose body points carry the motion)."""
+    forward = track(frames, _as_points(first), settings) if _trackable(first) else None
+    backward = track(frames[::-1], _as_points(last), settings)[::-1] if _trackable(last) else None
+    if (forward is None) != (backward is None) and first.visible and last.visible:
+        return []  # a visible click without its rear: the two directions cannot be checked
+    count = len(frames) - 1
+    both_ends = forward is not None and backward is not None
+    labels: list[FrameLabel] = []
+    for offset in range(1, count):
+        ahead = forward[offset] if forward is not None else None
+        behind = backward[offset] if backward is not None else None
+        if ahead is not None and behind is not None:
+            gap = np.linalg.norm(ahead - behind, axis=1)
+            if gap[0] > settings.max_disagreement_px or gap[1] > 2 * settings.max_disagreement_px:
+                continue
+            weight = 1.0 - offset / count  # the forward track is better near the first click
+            points = (weight * ahead + (1.0 - weight) * behind).astype(np.float32)
+        elif both_ends or (ahead is None and behind is None):
+            continue  # one direction lost the tool where the other still has it: ask
+        elif offset > settings.max_one_way_frames and count - offset > settings.max_one_way_frames:
+            continue
+        else:
+            points = ahead if ahead is not None else behind  # type: ignore[assignment]
+        labels.append(_label(first.frame_index + offset, points))
+    return labels
+
+
+SpanCache = dict[tuple[FrameLabel, FrameLabel], list[FrameLabel]]
+
+
+def propagate(
+    read_span: Frames,
+    clicked: Iterable[FrameLabel],
+    settings: FlowSettings | None = None,
+    cache: SpanCache | None = None,
+) -> Propagation:
+    """Propagated labels for every span between consecutive clicked frames.
+
+    ``read_span(first, last)`` gives the frames ``first..last`` (BGR or grey) in order.
+    ``cache`` keeps each span's result between calls (a span is worked out again only when one
+    of its two clicks changed).
+    """
+    settings = settings or FlowSettings()
+    anchors = sorted(
+        {label.frame_index: label for label in clicked}.values(),
+        key=lambda label: label.frame_index,
+    )
+    labels: list[FrameLabel] = []
+    gaps: list[tuple[int, int]] = []
+    for first, last in pairwise(anchors):
+        inner = last.frame_index - first.frame_index - 1
+        if inner <= 0:
+            continue
+        found: list[FrameLabel] = []
+        if cache is not None and (first, last) in cache:
+            found = cache[(first, last)]
+        elif (first.visible or last.visible) and inner < settings.max_span_frames:
+            grey = [_grey(image) for _, image in read_span(first.frame_index, last.frame_index)]
+            found = propagate_span(grey, first, last, settings)
+        if cache is not None:
+            cache[(first, last)] = found
+        labels.extend(found)
+        if first.visible or last.visible:
+            gaps.extend(_unlabelled_runs(first.frame_index, last.frame_index, found))
+    gaps.sort(key=lambda gap: (-(gap[1] - gap[0]), gap[0]))
+    log.info("propagated %d labels from %d clicks; %d gaps", len(labels), len(anchors), len(gaps))
+    return Propagation(tuple(labels), tuple(gaps))
+
+
+def _grey(image: npt.NDArray[np.uint8]) -> Gray:
+    if image.ndim == 2:
+        return image
+    return cv2.cvtColor(image, cv2.COLOR_BGR2GRAY)  # type: ignore[return-value]
+
+
+def _unlabelled_runs(first: int, last: int, found: Sequence[FrameLabel]) -> list[tuple[int, int]]:
+    done = {label.frame_index for label in found}
+    runs: list[tuple[int, int]] = []
+    start: int | None = None
+    for index in range(first + 1, last):
+        if index in done:
+            if start is not None:
+                runs.append((start, index - 1))
+                start = None
+        elif start is None:
+            start = index
+    if start is not None:
+        runs.append((start, last - 1))
+    return runs
+
+
+def point_error_px(label: FrameLabel, tip: Point, rear: Point | None) -> tuple[float, ...]:
+    """Distances of a label's points from given ones (the tip's, then the rear's if both)."""
+    assert label.tip is not None
+    errors = [float(np.hypot(label.tip[0] - tip[0], label.tip[1] - tip[1]))]
+    if label.rear is not None and rear is not None:
+        errors.append(float(np.hypot(label.rear[0] - rear[0], label.rear[1] - rear[1])))
+    return tuple(errors)

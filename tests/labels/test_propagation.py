@@ -1,0 +1,110 @@
+"""Propagation against the demo renderer's truth (the renderer draws every frame from a known
+tool pose, so each propagated point can be compared with where the tip really is).
+
+Clicks are simulated as the truth plus 1 px of noise, in the order the Label tab asks for them
+(proposals, then the middle of the longest unlabelled run)."""
+
+from __future__ import annotations
+
+from collections.abc import Iterator
+
+import cv2
+import numpy as np
+import numpy.typing as npt
+import pytest
+
+from stationcheck.labels.propagation import FlowSettings, propagate, propagate_span
+from stationcheck.labels.records import FrameLabel
+from stationcheck.labels.video_frames import VideoFrames
+from tests.labels.conftest import VIDEO, Truth
+
+FIRST, LAST = 600, 1049  # 15 s of the sample video: four fastener visits with fast moves
+HIDDEN_FIRST, HIDDEN_LAST = 2899, 2970  # the tool is out of view here
+
+
+@pytest.fixture(scope="module")
+def grey() -> dict[int, npt.NDArray[np.uint8]]:
+    video = VideoFrames(VIDEO)
+    try:
+        return {i: cv2.cvtColor(image, cv2.COLOR_BGR2GRAY) for i, image in video.span(FIRST, LAST)}
+    finally:
+        video.close()
+
+
+def _reader(frames: dict[int, npt.NDArray[np.uint8]]):  # type: ignore[no-untyped-def]
+    def read_span(first: int, last: int) -> Iterator[tuple[int, npt.NDArray[np.uint8]]]:
+        for index in range(first, last + 1):
+            yield index, frames[index]
+
+    return read_span
+
+
+def test_propagated_labels_follow_the_rendered_tip(
+    grey: dict[int, npt.NDArray[np.uint8]], truth: Truth
+) -> None:
+    rng = np.random.default_rng(7)
+    clicked = {i: truth.click(i, rng) for i in range(FIRST, LAST + 1, 45)}
+    clicked[LAST] = truth.click(LAST, rng)
+    cache: dict = {}  # type: ignore[type-arg]
+    for _ in range(4):  # the engineer clicks what the screen queues, a few rounds
+        result = propagate(_reader(grey), clicked.values(), cache=cache)
+        for index in result.queued()[:4]:
+            clicked[index] = truth.click(index, rng)
+    result = propagate(_reader(grey), clicked.values(), cache=cache)
+    errors = np.array(
+        [
+            np.hypot(l.tip[0] - truth.tip[l.frame_index][0], l.tip[1] - truth.tip[l.frame_index][1])
+            for l in result.labels
+            if l.tip is not None
+        ]
+    )
+    clicks = len(clicked)
+    labelled = clicks + len(result.labels)
+    print(
+        f"{clicks} clicks -> {labelled} labelled frames of {LAST - FIRST + 1}; propagated tip "
+        f"error median {np.median(errors):.2f} px, p95 {np.percentile(errors, 95):.2f} px"
+    )
+    assert labelled >= 12 * clicks  # about 60 clicks for 1,000 frames, with room to spare
+    assert not {l.frame_index for l in result.labels} & set(clicked)  # clicks stay clicks
+    assert np.median(errors) <= 1.5  # the renderer's truth is the reference
+    assert np.percentile(errors, 95) <= 5.0
+    unlabelled = {i for first, last in result.gaps for i in range(first, last + 1)}
+    labelled_frames = set(clicked) | {l.frame_index for l in result.labels}
+    assert unlabelled | labelled_frames == set(range(FIRST, LAST + 1))  # every frame accounted
+    assert all(l.source == "propagated" for l in result.labels)
+
+
+def test_a_not_visible_click_stops_propagation(truth: Truth) -> None:
+    video = VideoFrames(VIDEO)
+    try:
+        frames = {
+            i: cv2.cvtColor(image, cv2.COLOR_BGR2GRAY)
+            for i, image in video.span(HIDDEN_FIRST - 40, HIDDEN_LAST + 5)
+        }
+    finally:
+        video.close()
+    rng = np.random.default_rng(3)
+    visible = truth.click(HIDDEN_FIRST - 40, rng)
+    hidden_a = FrameLabel(HIDDEN_FIRST + 10, None, None, "clicked")
+    hidden_b = FrameLabel(HIDDEN_LAST - 5, None, None, "clicked")
+    result = propagate(_reader(frames), [visible, hidden_a, hidden_b])
+    indices = {l.frame_index for l in result.labels}
+    settings = FlowSettings()
+    # only one way from the visible click, and never across or between "not visible" clicks
+    assert indices and max(indices) <= visible.frame_index + settings.max_one_way_frames
+    assert all(truth.visible[i] for i in indices)
+    assert (HIDDEN_FIRST + 11, HIDDEN_LAST - 6) not in result.gaps  # nothing to ask in there
+    assert result.queued() and all(
+        visible.frame_index < i < hidden_a.frame_index for i in result.queued()
+    )
+
+
+def test_two_directions_that_disagree_are_queued(
+    grey: dict[int, npt.NDArray[np.uint8]], truth: Truth
+) -> None:
+    rng = np.random.default_rng(5)
+    first = truth.click(FIRST, rng)
+    wrong_tip = (truth.tip[FIRST + 30][0] + 25.0, truth.tip[FIRST + 30][1])
+    last = FrameLabel(FIRST + 30, wrong_tip, truth.rear[FIRST + 30], "clicked")
+    frames = [grey[i] for i in range(FIRST, FIRST + 31)]
+    assert propagate_span(frames, first, last, FlowSettings()) == []
