@@ -94,16 +94,16 @@ def measure(video_path: Path, truth_path: Path, clicks: int, first: int, seed: i
             f"{np.percentile(errors, 95):.2f} px, max {errors.max():.2f} px, "
             f"> 5 px: {int((errors > 5).sum())}; labels on frames without the tool: {wrong_visible}"
         )
-    print(f"left for a click: {len(result.gaps)} runs, {sum(b - a + 1 for a, b in result.gaps)} "
-          "frames")
+    print(
+        f"left for a click: {len(result.gaps)} runs, {sum(b - a + 1 for a, b in result.gaps)} "
+        "frames"
+    )
 
 
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0] if __doc__ else None)
     parser.add_argument("--video", type=Path, default=REPO / "sample_video/demo_station.mp4")
-    parser.add_argument(
-        "--truth", type=Path, default=REPO / "sample_video/demo_station_truth.csv"
-    )
+    parser.add_argument("--truth", type=Path, default=REPO / "sample_video/demo_station_truth.csv")
     parser.add_argument("--clicks", type=int, default=60)
     parser.add_argument("--proposals", type=int, default=20)
     parser.add_argument("--seed", type=int, default=1)
