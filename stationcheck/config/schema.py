@@ -27,6 +27,7 @@ from pydantic import (
 )
 from pydantic_core import PydanticCustomError
 
+from stationcheck.config import judgement_settings as judgement_defaults
 from stationcheck.config.bounds import hard
 from stationcheck.config.wording import describe_value
 from stationcheck.core import bolt_pattern
@@ -41,7 +42,6 @@ from stationcheck.core.plan import (
     Thresholds,
     ZoneSpec,
 )
-from stationcheck.judgements import settings as judgement_defaults
 
 FORMAT_VERSION = 1
 BUNDLED_MODEL = "bundled"

@@ -140,7 +140,7 @@ def _replay_video(settings: ReplaySettings, prepared: _Prepared,
         frame_sinks: list[FrameSink] = []
         writer = None
         if settings.annotate is not None:
-            from stationcheck.overlay.annotated_video import AnnotatedVideoWriter
+            from stationcheck.pipeline.annotated_video import AnnotatedVideoWriter
 
             writer = AnnotatedVideoWriter(settings.annotate, plan, source.fps,
                                           every=settings.annotate_every)

@@ -23,6 +23,7 @@ from typing import Any
 
 import numpy as np
 
+from stationcheck.config.judgement_settings import CameraShiftSettings
 from stationcheck.core.observations import (
     CameraMoved,
     LinkStatus,
@@ -35,7 +36,6 @@ from stationcheck.core.observations import (
 )
 from stationcheck.core.records import Frame, Keypoint, Keypoints
 from stationcheck.errors import ModelOutputError
-from stationcheck.judgements.settings import CameraShiftSettings
 from stationcheck.pipeline.comparison import truly_at_target
 from stationcheck.pipeline.decisions import DecisionCore, DecisionStep
 from stationcheck.pipeline.frame_path import FramePath

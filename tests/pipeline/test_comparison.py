@@ -10,7 +10,6 @@ import pytest
 
 from stationcheck.core.events import Event
 from stationcheck.core.plan import FastenStep, StationPlan, Thresholds, ZoneSpec
-from stationcheck.demo_station.ground_truth import TruthRow
 from stationcheck.errors import InputFileError
 from stationcheck.pipeline.comparison import compare_decisions, count_false_enables
 from stationcheck.pipeline.expected import (
@@ -20,6 +19,7 @@ from stationcheck.pipeline.expected import (
     read_expected,
 )
 from stationcheck.pipeline.trace import FramedEvent, FrameState
+from stationcheck.pipeline.truth_rows import TruthRow
 from stationcheck.pipeline.truth_sidecar import TruthTable
 
 

@@ -30,10 +30,10 @@ from stationcheck.core.observations import PictureState
 from stationcheck.core.plan import StationPlan
 from stationcheck.errors import first_line, stop_requested
 from stationcheck.overlay.scene import draw_scene
+from stationcheck.overlay.station_view import StationView, StationViewBuilder
 from stationcheck.overlay.symbols import Image
 from stationcheck.pipeline.decisions import DecisionCore, DecisionStep
 from stationcheck.pipeline.frame_path import FrameResult
-from stationcheck.pipeline.station_view import StationView, StationViewBuilder
 from stationcheck.web.operator.acknowledge import AckInbox
 from stationcheck.web.operator.screen_state import (
     RecentAlarms,

@@ -27,10 +27,10 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from stationcheck.store.bench import percentile, timed_ms
+from stationcheck.benches.bench_store import percentile, timed_ms
 
 if TYPE_CHECKING:
-    from stationcheck.commands.bench import BenchOptions, BenchRow
+    from stationcheck.benches.measuring import BenchOptions, BenchRow
     from stationcheck.plant.throwaway import Cluster
 
 logger = logging.getLogger(__name__)
@@ -137,7 +137,7 @@ def _fill(cluster: Cluster, stations: int, units: int, forwarded: int) -> dict[s
 
 
 def _review_rows(cluster: Cluster, stations: int) -> list[BenchRow]:
-    from stationcheck.commands.bench import BenchRow
+    from stationcheck.benches.measuring import BenchRow
     from stationcheck.web.access import AccessRule
     from stationcheck.web.listener import WebServer
     from stationcheck.web.review import build_review_router, review_source
@@ -191,8 +191,8 @@ def _review_rows(cluster: Cluster, stations: int) -> list[BenchRow]:
 
 
 def _live_rows(options: BenchOptions, cluster: Cluster) -> list[BenchRow]:
-    from stationcheck.commands.bench import BenchRow
-    from stationcheck.live.bench import DEFAULT_FRAMES, run_on_loopback
+    from stationcheck.benches.bench_live import DEFAULT_FRAMES, run_on_loopback
+    from stationcheck.benches.measuring import BenchRow
 
     frames = options.frames_or(DEFAULT_FRAMES)
     results: dict[str, np.ndarray[Any, Any]] = {}
@@ -245,7 +245,7 @@ def _bounce(cluster: Cluster, run_s: float) -> None:
 
 
 def measure(options: BenchOptions) -> list[BenchRow]:
-    from stationcheck.commands.bench import BenchRow
+    from stationcheck.benches.measuring import BenchRow
     from stationcheck.plant.throwaway import throwaway_cluster
 
     stations = _setting("STATIONS", 100)

@@ -17,7 +17,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from stationcheck.commands.bench import BenchOptions, BenchRow
+from stationcheck.benches.measuring import BenchOptions, BenchRow
 from stationcheck.demo_station.files import DEMO_CONFIG
 
 if TYPE_CHECKING:
@@ -110,8 +110,8 @@ def _watched(plan: StationPlan, frames: list[np.ndarray],
 
 
 def measure(options: BenchOptions) -> list[BenchRow]:
+    from stationcheck.benches.bench_detector import load_frames
     from stationcheck.config import load_config
-    from stationcheck.vision.detector_bench import load_frames
 
     frames = load_frames(options.video, options.frames_or(300))
     plan = load_config(DEMO_CONFIG).to_plan()

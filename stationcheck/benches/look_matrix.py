@@ -15,7 +15,7 @@ against the ground truth:
 
 A cell passes when all four are 0. It "runs" when the station judged it throughout, and
 "cannot judge" when it said so instead (then it must stay inhibited). Run the whole grid with
-``python -m stationcheck.judgements.look_matrix`` (several minutes).
+``python -m stationcheck.benches.look_matrix`` (several minutes).
 """
 
 from __future__ import annotations

@@ -21,7 +21,7 @@ from stationcheck.store.sqlite_log import SqliteStepLog, Synchronous
 from stationcheck.store.synthetic import UnitStream
 
 if TYPE_CHECKING:
-    from stationcheck.commands.bench import BenchOptions, BenchRow
+    from stationcheck.benches.measuring import BenchOptions, BenchRow
 
 logger = logging.getLogger(__name__)
 
@@ -131,7 +131,7 @@ def measure_queries(path: Path, repeats: int = 20) -> dict[str, QueryTiming]:
 
 
 def measure(options: BenchOptions) -> list[BenchRow]:
-    from stationcheck.commands.bench import BenchRow
+    from stationcheck.benches.measuring import BenchRow
 
     rows: list[BenchRow] = []
     with tempfile.TemporaryDirectory(prefix="stationcheck-bench-") as folder:

@@ -20,10 +20,10 @@ from pathlib import Path
 from typing import TYPE_CHECKING
 from urllib.parse import urlencode
 
-from stationcheck.store.bench import percentile, timed_ms
+from stationcheck.benches.bench_store import percentile, timed_ms
 
 if TYPE_CHECKING:
-    from stationcheck.commands.bench import BenchOptions, BenchRow
+    from stationcheck.benches.measuring import BenchOptions, BenchRow
 
 logger = logging.getLogger(__name__)
 
@@ -82,7 +82,7 @@ class _Client:
 def measure(options: BenchOptions) -> list[BenchRow]:
     import json
 
-    from stationcheck.commands.bench import BenchRow, resident_memory_mb
+    from stationcheck.benches.measuring import BenchRow, resident_memory_mb
     from stationcheck.quality import export
     from stationcheck.store.records import UnitQuery
     from stationcheck.store.sqlite_log import SqliteStepLog

@@ -24,7 +24,7 @@ from stationcheck.judgements.station import COST_NAMES, StationJudgements
 from stationcheck.judgements.trace import JudgementTrace, run_judgements, video_frames
 
 if TYPE_CHECKING:
-    from stationcheck.commands.bench import BenchOptions, BenchRow
+    from stationcheck.benches.measuring import BenchOptions, BenchRow
 
 logger = logging.getLogger(__name__)
 
@@ -82,7 +82,7 @@ def costs_of(trace: JudgementTrace) -> JudgementCosts:
 
 
 def measure(options: BenchOptions) -> list[BenchRow]:
-    from stationcheck.commands.bench import BenchRow
+    from stationcheck.benches.measuring import BenchRow
     from stationcheck.errors import InputFileError
 
     video = options.video or SAMPLE_VIDEO
