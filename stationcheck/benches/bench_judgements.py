@@ -20,8 +20,8 @@ import numpy as np
 from stationcheck.config import load_config
 from stationcheck.config.schema import StationConfig
 from stationcheck.demo_station.files import DEMO_CONFIG, SAMPLE_VIDEO
+from stationcheck.judgements.judgement_trace import JudgementTrace, run_judgements, video_frames
 from stationcheck.judgements.station import COST_NAMES, StationJudgements
-from stationcheck.judgements.trace import JudgementTrace, run_judgements, video_frames
 
 if TYPE_CHECKING:
     from stationcheck.benches.measuring import BenchOptions, BenchRow

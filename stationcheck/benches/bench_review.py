@@ -83,12 +83,12 @@ def measure(options: BenchOptions) -> list[BenchRow]:
     import json
 
     from stationcheck.benches.measuring import BenchRow, resident_memory_mb
-    from stationcheck.quality import export
-    from stationcheck.store.records import UnitQuery
+    from stationcheck.quality import unit_export
+    from stationcheck.store.log_records import UnitQuery
     from stationcheck.store.sqlite_log import SqliteStepLog
     from stationcheck.web.access import AccessRule
     from stationcheck.web.listener import WebServer
-    from stationcheck.web.review import ReviewSource, build_review_router
+    from stationcheck.web.review_screen import ReviewSource, build_review_router
 
     path, units = bench_log_path()
     prepare_s = ensure_log(path, units)
@@ -157,7 +157,7 @@ def measure(options: BenchOptions) -> list[BenchRow]:
     with SqliteStepLog(path, readonly=True) as log:
         t0 = time.perf_counter()
         exported = sum(chunk.count("\n") for chunk in islice(
-            export.units_csv(log.connection, UnitQuery(order="oldest")), 200)) - 1
+            unit_export.units_csv(log.connection, UnitQuery(order="oldest")), 200)) - 1
         seconds = time.perf_counter() - t0
     rows.append(BenchRow(SECTION_NAME, f"CSV export ({exported:,} units)", exported / seconds,
                          None, "u/s"))

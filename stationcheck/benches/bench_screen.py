@@ -64,7 +64,7 @@ def _run_loop(frames: list[np.ndarray], feed: OperatorFeed | None,
     from stationcheck.config import load_config
     from stationcheck.core.observations import UnitStarted
     from stationcheck.judgements.station import StationJudgements
-    from stationcheck.pipeline.decisions import DecisionCore
+    from stationcheck.pipeline.decision_core import DecisionCore
     from stationcheck.pipeline.frame_path import FramePath
     from stationcheck.pipeline.judging import StationImageJudge
     from stationcheck.pipeline.loop import FrameSink, run_loop

@@ -16,7 +16,7 @@ from typing import TYPE_CHECKING
 
 from stationcheck.core.events import Event
 from stationcheck.store.generator import generate_log
-from stationcheck.store.records import UnitQuery
+from stationcheck.store.log_records import UnitQuery
 from stationcheck.store.sqlite_log import SqliteStepLog, Synchronous
 from stationcheck.store.synthetic import UnitStream
 

@@ -17,7 +17,7 @@ import numpy as np
 import numpy.typing as npt
 
 from stationcheck.core.plan import ZoneSpec
-from stationcheck.judgements.trace import JudgementTrace
+from stationcheck.judgements.judgement_trace import JudgementTrace
 from stationcheck.pipeline.truth_rows import TruthRow, read_truth_csv
 
 BoolArray = npt.NDArray[np.bool_]
@@ -219,8 +219,8 @@ def main(argv: Sequence[str] | None = None) -> int:
     """``python -m stationcheck.benches.truth_comparison``: the demo station's judgements on
     the sample video against its ground truth, event by event."""
     from stationcheck.config import load_config
+    from stationcheck.judgements.judgement_trace import run_judgements, video_frames
     from stationcheck.judgements.station import StationJudgements
-    from stationcheck.judgements.trace import run_judgements, video_frames
 
     root = Path(__file__).resolve().parents[2]
     parser = argparse.ArgumentParser(description=main.__doc__)

@@ -29,7 +29,7 @@ from pydantic_core import PydanticCustomError
 
 from stationcheck.config import judgement_settings as judgement_defaults
 from stationcheck.config.bounds import hard
-from stationcheck.config.wording import describe_value
+from stationcheck.config.error_wording import describe_value
 from stationcheck.core import bolt_pattern
 from stationcheck.core.plan import (
     CheckStep,
@@ -307,7 +307,7 @@ class PlcSection(_Section):
     timeout_ms: Annotated[Number, hard("plc.timeout_ms")] = 50.0
     retries: Whole = Field(default=0, ge=0, le=10)
     address_map: dict[Ident, AddressEntry] = Field(default_factory=dict)
-    # PLC link session (stationcheck.plc.session): the PLC's liveness counter must change
+    # PLC link session (stationcheck.plc.link_session): the PLC's liveness counter must change
     # within liveness_timeout_ms; a unit serial must match serial_pattern (Python regex)
     liveness_timeout_ms: Number = Field(default=500.0, ge=20, le=10_000)
     serial_pattern: Text = r"[\x20-\x7e]+"

@@ -19,7 +19,7 @@ from stationcheck.live.loop import LiveLoop, LiveStats
 from stationcheck.live.watchdog import WatchdogLimits
 from stationcheck.plc.address_map import address_map_from
 from stationcheck.plc.link import ConsoleLink, SignalLink
-from stationcheck.plc.session import SessionSettings
+from stationcheck.plc.link_session import SessionSettings
 from stationcheck.plc.worker import LinkWorker, WorkerSettings
 from stationcheck.sources.frame_source import FrameSource
 
@@ -109,7 +109,7 @@ def link_limits(config: StationConfig, timeout_ms: float | None = None) -> Watch
 def run_live(settings: LiveSettings, should_stop: Callable[[], bool] = lambda: False,
              on_ready: Callable[[LiveLoop], None] | None = None) -> LiveStats:
     from stationcheck.judgements.station import StationJudgements
-    from stationcheck.pipeline.decisions import DecisionCore
+    from stationcheck.pipeline.decision_core import DecisionCore
     from stationcheck.pipeline.evidence import EvidenceWriter, prune_evidence
     from stationcheck.pipeline.frame_path import FramePath
     from stationcheck.pipeline.judging import StationImageJudge

@@ -24,7 +24,7 @@ from stationcheck.errors import InputFileError
 from stationcheck.overlay.annotator import Annotator
 from stationcheck.overlay.station_view import StationView, StationViewBuilder
 from stationcheck.overlay.symbols import Image
-from stationcheck.pipeline.decisions import DecisionStep
+from stationcheck.pipeline.decision_core import DecisionStep
 from stationcheck.pipeline.frame_path import FrameResult
 
 logger = logging.getLogger(__name__)

@@ -28,8 +28,8 @@ from typing import Any
 from stationcheck.core.alarms import ALARMS
 from stationcheck.core.events import RESULT_NOK, RESULT_OK
 from stationcheck.errors import InputFileError
+from stationcheck.pipeline.decision_trace import FramedEvent
 from stationcheck.pipeline.json_lines import read_json_lines
-from stationcheck.pipeline.trace import FramedEvent
 
 DECISION_KINDS = (
     "enable",

@@ -26,9 +26,9 @@ from stationcheck.benches.truth_comparison import (
 )
 from stationcheck.config.schema import StationConfig
 from stationcheck.core.records import Frame
+from stationcheck.judgements.judgement_trace import JudgementTrace, run_judgements, video_frames
 from stationcheck.judgements.station import StationJudgements
 from stationcheck.judgements.teaching import read_manifest, teaching_dir
-from stationcheck.judgements.trace import JudgementTrace, run_judgements, video_frames
 from tests.judgements.conftest import REPO_ROOT
 
 VIDEO = REPO_ROOT / "sample_video" / "demo_station.mp4"

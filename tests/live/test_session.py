@@ -67,7 +67,7 @@ def test_run_counts_the_units_it_ended_in_shown_words() -> None:
     from stationcheck.commands.run import UnitCount
     from stationcheck.core.events import Event
     from stationcheck.core.observations import Tick
-    from stationcheck.pipeline.decisions import DecisionStep
+    from stationcheck.pipeline.decision_core import DecisionStep
 
     count = UnitCount()
     assert count.words() == "no unit ended"

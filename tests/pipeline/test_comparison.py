@@ -12,13 +12,13 @@ from stationcheck.core.events import Event
 from stationcheck.core.plan import FastenStep, StationPlan, Thresholds, ZoneSpec
 from stationcheck.errors import InputFileError
 from stationcheck.pipeline.comparison import compare_decisions, count_false_enables
+from stationcheck.pipeline.decision_trace import FramedEvent, FrameState
 from stationcheck.pipeline.expected import (
     Decision,
     decisions_from_events,
     number_passes,
     read_expected,
 )
-from stationcheck.pipeline.trace import FramedEvent, FrameState
 from stationcheck.pipeline.truth_rows import TruthRow
 from stationcheck.pipeline.truth_sidecar import TruthTable
 

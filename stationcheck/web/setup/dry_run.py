@@ -24,7 +24,7 @@ from stationcheck.core.plan import StationPlan
 from stationcheck.errors import InputFileError
 from stationcheck.overlay.annotator import Annotator
 from stationcheck.overlay.station_view import StationViewBuilder
-from stationcheck.pipeline.decisions import DecisionCore, DecisionStep
+from stationcheck.pipeline.decision_core import DecisionCore, DecisionStep
 from stationcheck.pipeline.frame_path import FrameResult
 from stationcheck.web.server import WebError
 
