@@ -14,7 +14,7 @@ import io
 
 import pytest
 
-from stationcheck.quality.export import csv_chunks
+from stationcheck.quality.unit_export import csv_chunks
 from stationcheck.shown_text import csv_cell, terminal_text
 
 BIDI = ["\u202a", "\u202b", "\u202c", "\u202d", "\u202e", "\u2066", "\u2067", "\u2068",

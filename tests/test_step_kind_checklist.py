@@ -30,7 +30,7 @@ from stationcheck.core.state import Phase
 from stationcheck.core.step_kinds import STEP_KINDS, StepKind
 from stationcheck.core.transitions import OPEN
 from stationcheck.demo_station.decisions import STEP_DECISIONS
-from stationcheck.pipeline.station_view import GUIDANCE_MEANING, REASON_WORDS, StationViewBuilder
+from stationcheck.overlay.station_view import GUIDANCE_MEANING, REASON_WORDS, StationViewBuilder
 from stationcheck.web.operator.screen_state import STEP_PANEL
 from stationcheck.web.operator.wording import STEP_WORDING, Wording
 
@@ -105,8 +105,8 @@ def missing_places(kind: StepKind) -> list[str]:
     if section is None or section not in entries:
         missing.append("config/schema.py: a YAML section in STEP_SECTIONS and StepEntry")
     if not kind.fastens and kind.waiting_reason not in REASON_WORDS:
-        missing.append(f"pipeline/station_view.py REASON_WORDS: {kind.waiting_reason}")
-    missing += [f"pipeline/station_view.py GUIDANCE_MEANING: {g}" for g in kind.guidance
+        missing.append(f"overlay/station_view.py REASON_WORDS: {kind.waiting_reason}")
+    missing += [f"overlay/station_view.py GUIDANCE_MEANING: {g}" for g in kind.guidance
                 if g not in GUIDANCE_MEANING]
     if name not in STEP_WORDING:
         missing.append("web/operator/wording.py: STEP_WORDING")

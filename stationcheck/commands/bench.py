@@ -1,86 +1,19 @@
 """``stationcheck bench``: per-stage timings and memory, one section per part of the pipeline.
 
-Sections are modules listed in :data:`SECTION_MODULES`; each defines ``SECTION_NAME`` (str),
-``SECTION_HELP`` (str) and ``measure(options: BenchOptions) -> list[BenchRow]``. A row's
-``headline`` figures become top-level keys of ``--json`` (e.g. ``full_path_fps``,
-``detector_ms_median``, ``decision_latency_p99_ms``, ``rss_mb``). To add one,
-write the module and append its dotted name here. Benchmarks measure; they never assert (timed
-tests are flaky on a shared machine), so targets are printed beside the figures instead.
+The sections live in :mod:`stationcheck.benches` (see :mod:`stationcheck.benches.measuring`);
+this command parses the options, runs the chosen sections and prints their rows.
 """
 
 from __future__ import annotations
 
 import argparse
-import importlib
 import json
-import resource
 import sys
-from dataclasses import asdict, dataclass, field
+from dataclasses import asdict
 from pathlib import Path
-from types import ModuleType
 
+from stationcheck.benches.measuring import BenchOptions, BenchRow, load_sections
 from stationcheck.errors import InputFileError
-
-SECTION_MODULES: tuple[str, ...] = (
-    "stationcheck.vision.detector_bench",
-    "stationcheck.pipeline.bench",
-    "stationcheck.store.bench",
-    "stationcheck.quality.bench",
-    "stationcheck.judgements.bench",
-    "stationcheck.live.bench",
-    "stationcheck.web.operator.bench",
-    "stationcheck.web.flood_bench",
-    "stationcheck.plant.bench",
-)
-
-
-@dataclass(frozen=True)
-class BenchOptions:
-    frames: int | None = None  # None: each section's own default
-
-    def frames_or(self, default: int) -> int:
-        return self.frames if self.frames is not None else default
-
-    threads: tuple[int, ...] = (1, 2)
-    model: Path | None = None
-    video: Path | None = None
-
-
-@dataclass(frozen=True)
-class BenchRow:
-    """One measured figure: ``median``/``p99`` in ``unit`` (p99 None for a single value)."""
-
-    section: str
-    name: str
-    median: float
-    p99: float | None
-    unit: str
-    target: str = ""
-    extra: dict[str, float] = field(default_factory=dict)
-    headline: dict[str, float] = field(default_factory=dict)  # top-level keys of --json
-
-
-def resident_memory_mb() -> tuple[float, float]:
-    """(current, peak) resident set size of this process in MB (Linux /proc; peak from
-    getrusage, which Linux reports in kB)."""
-    current = float("nan")
-    try:
-        with open("/proc/self/status") as status:
-            for line in status:
-                if line.startswith("VmRSS:"):
-                    current = float(line.split()[1]) / 1024.0
-    except OSError:
-        pass
-    peak = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0
-    return current, peak
-
-
-def load_sections() -> dict[str, ModuleType]:
-    sections = {}
-    for dotted in SECTION_MODULES:
-        module = importlib.import_module(dotted)
-        sections[str(module.SECTION_NAME)] = module
-    return sections
 
 
 def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]

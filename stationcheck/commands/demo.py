@@ -22,7 +22,7 @@ from stationcheck.demo_station.files import (
 )
 
 if TYPE_CHECKING:
-    from stationcheck.pipeline.report import ReplayReport
+    from stationcheck.pipeline.replay_report import ReplayReport
 
 ANNOTATE_EVERY = 2  # a 15 fps annotated video keeps the demo well under a minute
 DEMO_NOTE = (

@@ -50,8 +50,8 @@ def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[ty
 
 
 def run(args: argparse.Namespace) -> int:
+    from stationcheck.evaluation.accuracy_report import evaluate
     from stationcheck.evaluation.coco_ap import require_pycocotools
-    from stationcheck.evaluation.report import evaluate
     from stationcheck.evaluation.truth import read_coco_frames, read_video_frames
     from stationcheck.vision.detector import load_detector
 

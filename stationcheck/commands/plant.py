@@ -73,20 +73,20 @@ def _secret(path: Path | None) -> str | None:
 
 
 def run(args: argparse.Namespace) -> int:
-    from stationcheck.plant import schema
+    from stationcheck.plant import plant_schema
     from stationcheck.plant.connect import connect
     from stationcheck.plant.fold import fold_all
 
     conn = connect(args.plant_url, args.password_file, application="stationcheck plant")
     with conn:
         if args.action == "setup":
-            version = schema.migrate(conn)
+            version = plant_schema.migrate(conn)
             print(
                 f"plant database at schema version {version}; group roles "
-                f"{schema.STATION_GROUP} (forward only) and {schema.REVIEW_GROUP} (read only)"
+                f"{plant_schema.STATION_GROUP} (forward only) and {plant_schema.REVIEW_GROUP} (read only)"
             )
         elif args.action == "add-station":
-            role = schema.add_station(
+            role = plant_schema.add_station(
                 conn,
                 args.station_id,
                 args.line,
@@ -99,10 +99,10 @@ def run(args: argparse.Namespace) -> int:
                 f"{role}"
             )
         elif args.action == "add-reviewer":
-            role = schema.add_reviewer(conn, args.role, _secret(args.role_password_file))
+            role = plant_schema.add_reviewer(conn, args.role, _secret(args.role_password_file))
             print(f"role {role} may read the plant database")
         else:
-            schema.require_current(conn)
+            plant_schema.require_current(conn)
             if not args.follow:
                 print(f"folded {fold_all(conn)} events")
                 return 0

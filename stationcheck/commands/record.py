@@ -67,8 +67,8 @@ def _inside(path: Path, root: Path, what: str) -> Path:
 def run(args: argparse.Namespace) -> int:
     from stationcheck.cli import PRIVACY_NOTE
     from stationcheck.errors import InputFileError
-    from stationcheck.live.session import parse_source
     from stationcheck.sources.frame_source import FrameSource
+    from stationcheck.sources.kinds import parse_source
     from stationcheck.sources.recorder import VIDEO_SUFFIX, record
 
     root = (args.root or Path.cwd()).resolve()
@@ -95,7 +95,7 @@ def run(args: argparse.Namespace) -> int:
 
         source = VideoFileSource(_inside(where, root, "--source"))
     else:
-        from stationcheck.live.capture import CaptureSource
+        from stationcheck.sources.camera import CaptureSource
 
         source = CaptureSource(where)
     seconds = args.seconds if args.seconds is not None else DEFAULT_SECONDS

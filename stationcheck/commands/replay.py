@@ -19,7 +19,7 @@ from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
 if TYPE_CHECKING:
-    from stationcheck.pipeline.report import ReplayReport
+    from stationcheck.pipeline.replay_report import ReplayReport
     from stationcheck.pipeline.session import ReplaySettings
 
 EXIT_DIFFERS = 1

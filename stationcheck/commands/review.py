@@ -172,7 +172,7 @@ def _usage(message: str) -> int:
 
 
 def _source(args: argparse.Namespace) -> Any:
-    from stationcheck.web.review import review_source
+    from stationcheck.web.review_screen import review_source
 
     return review_source(args.log, args.password_file)
 
@@ -189,7 +189,7 @@ def _scope(args: argparse.Namespace) -> Any:
 
 def _serve(args: argparse.Namespace, source: Any) -> int:
     from stationcheck.web.app import serve_until_interrupted, start_server
-    from stationcheck.web.review import build_review_router
+    from stationcheck.web.review_screen import build_review_router
 
     server = start_server(
         build_review_router(source), args.host, args.port, args.token, tuple(args.allow_host)
@@ -264,9 +264,9 @@ def _print_stations(source: Any, args: argparse.Namespace, period: Period) -> in
 
 
 def _print_units(step_log: SqliteStepLog, args: argparse.Namespace, period: Period) -> int:
-    from stationcheck.quality import export
+    from stationcheck.quality import unit_export
     from stationcheck.store import queries
-    from stationcheck.store.records import UnitQuery
+    from stationcheck.store.log_records import UnitQuery
 
     try:
         query = UnitQuery(
@@ -285,12 +285,12 @@ def _print_units(step_log: SqliteStepLog, args: argparse.Namespace, period: Peri
     limit = (
         args.limit if args.limit is not None else (None if args.csv or args.json else TEXT_LIMIT)
     )
-    rows = (export.unit_dict(u) for u in islice(export.iter_units(conn, query), limit))
+    rows = (unit_export.unit_dict(u) for u in islice(unit_export.iter_units(conn, query), limit))
     if args.csv:
-        sys.stdout.writelines(export.csv_chunks(rows, export.UNIT_FIELDS))
+        sys.stdout.writelines(unit_export.csv_chunks(rows, unit_export.UNIT_FIELDS))
         return 0
     if args.json:
-        sys.stdout.writelines(export.json_array_chunks(rows))
+        sys.stdout.writelines(unit_export.json_array_chunks(rows))
         return 0
     _say(
         f"{'serial':<14} {'started':<19} {'result':<8} {'passes':>6} {'retries':>7} "
@@ -315,16 +315,16 @@ def _print_unit(step_log: SqliteStepLog, args: argparse.Namespace) -> int:
     from stationcheck.core.events import RESULT_NOK
     from stationcheck.core.result_words import unit_word
     from stationcheck.errors import StationcheckError
-    from stationcheck.quality import export
+    from stationcheck.quality import unit_export
 
     unit = step_log.unit(args.unit)
     if unit is None:
         raise StationcheckError(f"no unit with serial {args.unit!r} in {args.log}")
     steps, alarms = step_log.steps(args.unit), step_log.alarms(args.unit)
     if args.csv:
-        sys.stdout.write(export.unit_steps_csv(steps))
+        sys.stdout.write(unit_export.unit_steps_csv(steps))
         return 0
-    detail = export.unit_detail(unit, steps, alarms)
+    detail = unit_export.unit_detail(unit, steps, alarms)
     if args.json:
         print(json.dumps(detail, ensure_ascii=False))
         return 0
@@ -395,7 +395,7 @@ def _print_figures(step_log: SqliteStepLog, args: argparse.Namespace, period: Pe
 
 
 def _print_trend(step_log: SqliteStepLog, args: argparse.Namespace, period: Period) -> int:
-    from stationcheck.quality import export
+    from stationcheck.quality import unit_export
     from stationcheck.quality.json_views import trend_dict, trend_findings
     from stationcheck.quality.trends import position_trend
 
@@ -406,7 +406,7 @@ def _print_trend(step_log: SqliteStepLog, args: argparse.Namespace, period: Peri
         print(json.dumps(body, ensure_ascii=False))
         return 0
     if args.csv:
-        sys.stdout.writelines(export.trend_csv(body))
+        sys.stdout.writelines(unit_export.trend_csv(body))
         return 0
     _say(f"{args.trend} final {args.measure}: {body['count']} units")
     if body["sigma"] is not None:
@@ -423,7 +423,7 @@ def _write_report(
     step_log: SqliteStepLog, args: argparse.Namespace, period: Period, name: str
 ) -> int:
     from stationcheck.errors import InputFileError
-    from stationcheck.quality.report import build_report
+    from stationcheck.quality.review_report import build_report
 
     html = build_report(step_log.connection, period, name)
     try:

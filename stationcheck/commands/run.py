@@ -18,7 +18,7 @@ from stationcheck.core.result_words import SHOWN_RESULT, unit_word
 
 if TYPE_CHECKING:
     from stationcheck.live.loop import LiveLoop
-    from stationcheck.pipeline.decisions import DecisionStep
+    from stationcheck.pipeline.decision_core import DecisionStep
 
 
 def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[type-arg]

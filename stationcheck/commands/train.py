@@ -81,8 +81,10 @@ def run(args: argparse.Namespace) -> int:
     if args.coco is not None:
         source, holdout = coco_sources(args.coco, args.images, args.seed)
     else:
-        source, holdout = demo_sources()
-        moving_sample = demo_moving_sample()
+        from stationcheck.demo_station import training as demo_training
+
+        source, holdout = demo_sources(demo_training)
+        moving_sample = demo_moving_sample(demo_training)
     config = TrainConfig(
         seed=args.seed,
         max_steps=args.steps,

@@ -7,9 +7,9 @@ usable :class:`StationConfig` (``to_plan()`` gives the core's records) or raises
 
 from __future__ import annotations
 
+from stationcheck.config.config_check import check_data, check_file, load_config
 from stationcheck.config.findings import CheckResult, Finding, Severity
 from stationcheck.config.schema import FORMAT_VERSION, StationConfig
-from stationcheck.config.validation import check_data, check_file, load_config
 
 __all__ = [
     "FORMAT_VERSION",

@@ -20,8 +20,8 @@ from typing import Any
 from pydantic import AfterValidator
 from pydantic_core import PydanticCustomError
 
+from stationcheck.config.error_wording import Location
 from stationcheck.config.findings import Finding, warning
-from stationcheck.config.wording import Location
 
 
 @dataclass(frozen=True)

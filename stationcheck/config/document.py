@@ -15,8 +15,8 @@ from typing import Any
 from ruamel.yaml.nodes import MappingNode, Node, ScalarNode, SequenceNode
 
 from stationcheck.config import yaml_text
+from stationcheck.config.error_wording import Location, describe_value
 from stationcheck.config.findings import Finding
-from stationcheck.config.wording import Location, describe_value
 from stationcheck.errors import ConfigError
 
 

@@ -10,7 +10,7 @@ from collections.abc import Callable, Iterable
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any, Literal
 
-from stationcheck.config.wording import Location, format_path
+from stationcheck.config.error_wording import Location, format_path
 
 if TYPE_CHECKING:
     from stationcheck.config.parts import ConfigParts

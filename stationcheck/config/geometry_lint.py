@@ -21,9 +21,9 @@ import shapely
 from shapely import STRtree
 from shapely.geometry import MultiPoint, Polygon, box
 
+from stationcheck.config.error_wording import Location
 from stationcheck.config.findings import Finding, error, warning
 from stationcheck.config.parts import ConfigParts, LocatedZone
-from stationcheck.config.wording import Location
 
 _AREA_EPS_PX2 = 1e-6
 _MAX_COORD_PX = 1e6

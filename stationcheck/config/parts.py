@@ -13,6 +13,7 @@ from typing import Any, TypeVar
 
 from pydantic import BaseModel, TypeAdapter, ValidationError
 
+from stationcheck.config.error_wording import Location
 from stationcheck.config.schema import (
     STEP_ZONE_KIND,
     AddressEntry,
@@ -22,7 +23,6 @@ from stationcheck.config.schema import (
     ThresholdsSection,
     ZoneEntry,
 )
-from stationcheck.config.wording import Location
 
 _ZONE_ADAPTER: TypeAdapter[Any] = TypeAdapter(ZoneEntry)
 _POLYGON_ADAPTER: TypeAdapter[list[tuple[float, float]]] = TypeAdapter(list[PointPx])

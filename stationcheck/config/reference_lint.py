@@ -20,10 +20,10 @@ from __future__ import annotations
 import difflib
 from collections.abc import Iterable
 
+from stationcheck.config.error_wording import Location, format_path
 from stationcheck.config.findings import Finding, error, warning
 from stationcheck.config.parts import ConfigParts, LocatedZone
 from stationcheck.config.schema import STEP_ZONE_KIND
-from stationcheck.config.wording import Location, format_path
 
 
 def lint_references(parts: ConfigParts) -> list[Finding]:

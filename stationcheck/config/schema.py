@@ -27,8 +27,9 @@ from pydantic import (
 )
 from pydantic_core import PydanticCustomError
 
+from stationcheck.config import judgement_settings as judgement_defaults
 from stationcheck.config.bounds import hard
-from stationcheck.config.wording import describe_value
+from stationcheck.config.error_wording import describe_value
 from stationcheck.core import bolt_pattern
 from stationcheck.core.plan import (
     CheckStep,
@@ -42,7 +43,6 @@ from stationcheck.core.plan import (
     ZoneSpec,
 )
 from stationcheck.core.step_kinds import STEP_KINDS
-from stationcheck.judgements import settings as judgement_defaults
 
 FORMAT_VERSION = 1
 BUNDLED_MODEL = "bundled"
@@ -320,7 +320,7 @@ class PlcSection(_Section):
     timeout_ms: Annotated[Number, hard("plc.timeout_ms")] = 50.0
     retries: Whole = Field(default=0, ge=0, le=10)
     address_map: dict[Ident, AddressEntry] = Field(default_factory=dict)
-    # PLC link session (stationcheck.plc.session): the PLC's liveness counter must change
+    # PLC link session (stationcheck.plc.link_session): the PLC's liveness counter must change
     # within liveness_timeout_ms; a unit serial must match serial_pattern (Python regex)
     liveness_timeout_ms: Number = Field(default=500.0, ge=20, le=10_000)
     serial_pattern: Text = r"[\x20-\x7e]+"

@@ -25,10 +25,10 @@ from pathlib import Path
 from typing import Any
 
 from stationcheck.config import yaml_text
+from stationcheck.config.error_wording import Location
 from stationcheck.config.findings import Finding, error, warning
 from stationcheck.config.parts import ConfigParts
 from stationcheck.config.schema import BUNDLED_MODEL, resolve_path
-from stationcheck.config.wording import Location
 from stationcheck.errors import ConfigError
 
 MANIFEST_NAME = "references.yaml"

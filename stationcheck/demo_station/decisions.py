@@ -25,13 +25,9 @@ from stationcheck.core.plan import (
 from stationcheck.demo_station import layout
 from stationcheck.demo_station.camera import CameraTransform
 from stationcheck.demo_station.choreography import StationInput
-from stationcheck.demo_station.ground_truth import (
-    TruthRow,
-    distance_to_polygon_edge,
-    point_in_polygon,
-    zone_of,
-)
+from stationcheck.demo_station.ground_truth import zone_of
 from stationcheck.errors import ConfigError
+from stationcheck.pipeline.truth_rows import TruthRow, distance_to_polygon_edge, point_in_polygon
 
 CAMERA_MOVED_PX = 3.0  # a frame corner moved this far from the reference -> camera moved
 BIN_FLAGS = {"bin_gasket": "hand_in_bin_gasket", "bin_cover": "hand_in_bin_cover"}

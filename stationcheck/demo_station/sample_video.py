@@ -36,13 +36,14 @@ from stationcheck.demo_station.files import (
     TRUTH_NAME,
     VIDEO_NAME,
 )
-from stationcheck.demo_station.ground_truth import TruthRow, ground_truth, write_truth_csv
+from stationcheck.demo_station.ground_truth import ground_truth
 from stationcheck.demo_station.look import LookFilter
 from stationcheck.demo_station.rig import OperatorRig, RigLayers, SoftShadow
 from stationcheck.demo_station.script import Limits, SceneScript, load_script
 from stationcheck.demo_station.shading import as_u8
 from stationcheck.demo_station.station_scene import REFERENCE_STATE, StationScene
 from stationcheck.errors import InputFileError
+from stationcheck.pipeline.truth_rows import TruthRow, write_truth_csv
 
 logger = logging.getLogger(__name__)
 

@@ -8,7 +8,7 @@
 * :mod:`~stationcheck.judgements.camera_shift`: the camera moved away from its reference view
   (:class:`~stationcheck.core.observations.CameraMoved`), with re-mapped zones on offer.
 
-:class:`~stationcheck.judgements.station.StationJudgements` runs all three on each frame. This
-package's ``__init__`` and :mod:`~stationcheck.judgements.settings` import no OpenCV, so the
-config schema can use the settings' defaults.
+:class:`~stationcheck.judgements.station.StationJudgements` runs all three on each frame. Their
+settings live in :mod:`~stationcheck.config.judgement_settings`, so the config schema owns them
+without importing this package.
 """

@@ -45,8 +45,8 @@ import cv2
 import numpy as np
 import numpy.typing as npt
 
+from stationcheck.config.judgement_settings import BinActivitySettings
 from stationcheck.core.observations import BinActivity
-from stationcheck.judgements.settings import BinActivitySettings
 from stationcheck.judgements.zone_window import U8Array, zone_box_px, zone_window
 
 logger = logging.getLogger(__name__)

@@ -34,10 +34,10 @@ import cv2
 import numpy as np
 import numpy.typing as npt
 
+from stationcheck.config.judgement_settings import CameraShiftSettings
 from stationcheck.core.observations import CameraMoved
 from stationcheck.core.plan import ZoneSpec
 from stationcheck.judgements.patch_alignment import PatchAligner
-from stationcheck.judgements.settings import CameraShiftSettings
 from stationcheck.judgements.zone_window import U8Array
 
 logger = logging.getLogger(__name__)

@@ -27,8 +27,8 @@ from dataclasses import dataclass
 import cv2
 import numpy as np
 
+from stationcheck.config.judgement_settings import PictureQualitySettings
 from stationcheck.core.observations import PictureState
-from stationcheck.judgements.settings import PictureQualitySettings
 from stationcheck.judgements.zone_window import U8Array
 
 INTERVAL_S = 0.25

@@ -33,9 +33,9 @@ import cv2
 import numpy as np
 import numpy.typing as npt
 
+from stationcheck.config.judgement_settings import PresenceSettings
 from stationcheck.core.observations import CheckVerdict, Verdict
 from stationcheck.errors import ConfigError
-from stationcheck.judgements.settings import PresenceSettings
 from stationcheck.judgements.zone_window import U8Array, zone_box_px
 
 logger = logging.getLogger(__name__)

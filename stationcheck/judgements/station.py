@@ -20,6 +20,7 @@ from pathlib import Path
 import cv2
 import numpy as np
 
+from stationcheck.config.judgement_settings import JudgementSettings
 from stationcheck.config.schema import StationConfig
 from stationcheck.core.observations import CameraMoved, CheckVerdict, Observation
 from stationcheck.core.plan import ZoneSpec
@@ -35,7 +36,6 @@ from stationcheck.judgements.presence import (
     PresenceScore,
     TaughtClasses,
 )
-from stationcheck.judgements.settings import JudgementSettings
 from stationcheck.judgements.teaching import load_taught, teaching_dir
 from stationcheck.judgements.zone_window import U8Array
 

@@ -17,8 +17,8 @@ from stationcheck.live.grabber import FrameGrabber, SourceOpener
 from stationcheck.live.loop import LiveLoop, LiveStats
 from stationcheck.live.watchdog import WatchdogLimits
 from stationcheck.plc.link import SignalLink
+from stationcheck.plc.link_session import SessionSettings
 from stationcheck.plc.links import LinkSettings, open_link
-from stationcheck.plc.session import SessionSettings
 from stationcheck.plc.worker import LinkWorker, WorkerSettings
 from stationcheck.sources.frame_source import FrameSource
 from stationcheck.sources.kinds import SourceOptions, parse_source, source_kind
@@ -96,7 +96,7 @@ def run_live(
     on_ready: Callable[[LiveLoop], None] | None = None,
 ) -> LiveStats:
     from stationcheck.judgements.station import StationJudgements
-    from stationcheck.pipeline.decisions import DecisionCore
+    from stationcheck.pipeline.decision_core import DecisionCore
     from stationcheck.pipeline.evidence import EvidenceWriter, prune_evidence
     from stationcheck.pipeline.frame_path import FramePath
     from stationcheck.pipeline.judging import StationImageJudge

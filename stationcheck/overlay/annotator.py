@@ -8,8 +8,8 @@ import numpy as np
 from stationcheck.core.plan import StationPlan
 from stationcheck.overlay.panel import PANEL_WIDTH_PX, PanelPainter
 from stationcheck.overlay.scene import draw_scene, short_names
+from stationcheck.overlay.station_view import StationView, StationViewBuilder
 from stationcheck.overlay.symbols import Image
-from stationcheck.pipeline.station_view import StationView, StationViewBuilder
 
 
 class Annotator:

@@ -14,7 +14,7 @@ neutral   white       plain circle               waiting, pending positions
 
 from __future__ import annotations
 
-from stationcheck.pipeline.station_view import Meaning
+from stationcheck.overlay.station_view import Meaning
 
 BGR = tuple[int, int, int]
 

@@ -11,6 +11,7 @@ import numpy as np
 
 from stationcheck.core.plan import FastenStep, StationPlan
 from stationcheck.overlay.palette import COLOURS, DARK, MUTED, PANEL, TEXT_ON
+from stationcheck.overlay.station_view import Meaning, StationView
 from stationcheck.overlay.symbols import (
     FONT_BOLD,
     Image,
@@ -21,7 +22,6 @@ from stationcheck.overlay.symbols import (
     text_size,
     wrap,
 )
-from stationcheck.pipeline.station_view import Meaning, StationView
 
 PANEL_WIDTH_PX = 400
 PAD = 12

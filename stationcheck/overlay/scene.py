@@ -10,6 +10,7 @@ import numpy as np
 
 from stationcheck.core.plan import StationPlan, ZoneSpec
 from stationcheck.overlay.palette import COLOURS, DARK, TEXT_ON
+from stationcheck.overlay.station_view import Meaning, StationView
 from stationcheck.overlay.symbols import (
     FONT_BOLD,
     Image,
@@ -18,7 +19,6 @@ from stationcheck.overlay.symbols import (
     put_text,
     text_size,
 )
-from stationcheck.pipeline.station_view import Meaning, StationView
 
 FILL_ALPHA = 0.30
 

@@ -7,7 +7,7 @@ import numpy as np
 import numpy.typing as npt
 
 from stationcheck.overlay.palette import BGR, COLOURS, DARK
-from stationcheck.pipeline.station_view import Meaning
+from stationcheck.overlay.station_view import Meaning
 
 Image = npt.NDArray[np.uint8]
 FONT = cv2.FONT_HERSHEY_SIMPLEX

@@ -22,9 +22,9 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from stationcheck.core.plan import StationPlan
-from stationcheck.demo_station.ground_truth import distance_to_polygon_edge, point_in_polygon
+from stationcheck.pipeline.decision_trace import FrameState
 from stationcheck.pipeline.expected import Decision
-from stationcheck.pipeline.trace import FrameState
+from stationcheck.pipeline.truth_rows import distance_to_polygon_edge, point_in_polygon
 from stationcheck.pipeline.truth_sidecar import TruthTable
 
 DEFAULT_EDGE_TOLERANCE_FRAMES = 3

@@ -30,8 +30,8 @@ from stationcheck.core.alarms import ALARMS
 from stationcheck.core.events import RESULT_NOK, RESULT_OK
 from stationcheck.core.observations import PositionRef
 from stationcheck.errors import InputFileError
+from stationcheck.pipeline.decision_trace import FramedEvent
 from stationcheck.pipeline.json_lines import read_json_lines
-from stationcheck.pipeline.trace import FramedEvent
 
 DECISION_KINDS = (
     "enable",

@@ -15,7 +15,7 @@ between frames, the next frame's zone observation. Only the decision steps ever 
 sequencer, always on the caller's thread.
 
 :class:`FramePath` holds the tracker and zone states for the caller's loop and hands every
-observation to a :class:`~stationcheck.pipeline.decisions.DecisionCore`. It does not know where
+observation to a :class:`~stationcheck.pipeline.decision_core.DecisionCore`. It does not know where
 frames come from or where outputs go.
 
 A detector that raises on a frame becomes a ``DetectorFault`` observation (the tool is
@@ -41,7 +41,7 @@ from stationcheck.core.records import Frame, Keypoints, ToolPose
 from stationcheck.core.tracker import Tracker, TrackerSettings, TrackerState
 from stationcheck.core.zones import ZoneMap, ZoneVisit
 from stationcheck.errors import ModelError, ModelOutputError, StationcheckError
-from stationcheck.pipeline.decisions import DecisionCore, DecisionStep
+from stationcheck.pipeline.decision_core import DecisionCore, DecisionStep
 from stationcheck.pipeline.judging import ImageJudge
 from stationcheck.vision.detector import KeypointDetector
 from stationcheck.vision.frozen_image import FrozenImageWatch

@@ -12,7 +12,7 @@ from stationcheck.core import event_kinds as ev
 from stationcheck.core.events import Event
 from stationcheck.core.observations import PositionRef
 from stationcheck.errors import StoreError, first_line, stop_requested
-from stationcheck.pipeline.decisions import DecisionStep
+from stationcheck.pipeline.decision_core import DecisionStep
 from stationcheck.pipeline.evidence import EvidenceWriter
 from stationcheck.store.step_log import StepLog
 

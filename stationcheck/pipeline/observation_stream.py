@@ -19,7 +19,7 @@ from typing import IO, Any
 from stationcheck.core.observations import Observation, observation_from_dict
 from stationcheck.core.plan import StationPlan
 from stationcheck.errors import InputFileError
-from stationcheck.pipeline.decisions import DecisionStep
+from stationcheck.pipeline.decision_core import DecisionStep
 from stationcheck.pipeline.json_lines import read_json_lines
 
 logger = logging.getLogger(__name__)

@@ -25,7 +25,8 @@ from stationcheck.pipeline.comparison import (
     count_false_enables,
     restrict_to_frames,
 )
-from stationcheck.pipeline.decisions import DecisionCore, StepSink
+from stationcheck.pipeline.decision_core import DecisionCore, StepSink
+from stationcheck.pipeline.decision_trace import RunTrace
 from stationcheck.pipeline.evidence import EvidenceWriter, prune_evidence
 from stationcheck.pipeline.expected import Decision, decisions_from_events, read_expected
 from stationcheck.pipeline.frame_path import FramePath
@@ -33,10 +34,9 @@ from stationcheck.pipeline.judging import ImageJudge
 from stationcheck.pipeline.log_sink import StepLogSink, rework_positions_from_log
 from stationcheck.pipeline.loop import FrameSink, LoopStats, Progress, run_loop
 from stationcheck.pipeline.observation_stream import ObservationRecorder, read_observations
-from stationcheck.pipeline.report import ReplayReport
+from stationcheck.pipeline.replay_report import ReplayReport
 from stationcheck.pipeline.station_inputs import InputSchedule, read_station_inputs
 from stationcheck.pipeline.summary import summarise_units
-from stationcheck.pipeline.trace import RunTrace
 from stationcheck.pipeline.truth_sidecar import TruthJudge, TruthTable, load_truth, truth_detector
 from stationcheck.store.sqlite_log import SqliteStepLog
 
@@ -147,7 +147,7 @@ def _replay_video(
         frame_sinks: list[FrameSink] = []
         writer = None
         if settings.annotate is not None:
-            from stationcheck.overlay.annotated_video import AnnotatedVideoWriter
+            from stationcheck.pipeline.annotated_video import AnnotatedVideoWriter
 
             writer = AnnotatedVideoWriter(
                 settings.annotate, plan, source.fps, every=settings.annotate_every

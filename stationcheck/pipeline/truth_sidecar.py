@@ -21,8 +21,8 @@ from stationcheck.core.observations import (
 from stationcheck.core.outputs import Output
 from stationcheck.core.plan import StationPlan
 from stationcheck.core.records import Frame, ToolPose
-from stationcheck.demo_station.ground_truth import TruthRow, read_truth_csv
 from stationcheck.errors import InputFileError
+from stationcheck.pipeline.truth_rows import TruthRow, read_truth_csv
 from stationcheck.vision.fake_detector import ReplayKeypointDetector
 
 SEEN_SCORE = 0.99  # what the stand-in detector reports for a visible keypoint

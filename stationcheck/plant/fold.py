@@ -16,8 +16,8 @@ from typing import Any
 
 from stationcheck.core.events import Event
 from stationcheck.errors import StoreError
+from stationcheck.store.log_records import StoredEvent
 from stationcheck.store.projection import project
-from stationcheck.store.records import StoredEvent
 from stationcheck.store.sql_tables import (
     ALARM_COLUMNS,
     STEP_COLUMNS,

@@ -28,12 +28,12 @@ from typing import Any, Self, TypeVar, cast
 
 from stationcheck.errors import PlantDatabaseError, first_line
 from stationcheck.plant.connect import connect, redacted
-from stationcheck.plant.schema import require_current
+from stationcheck.plant.plant_schema import require_current
 from stationcheck.quality.figures import DAY_S, StationFigures, tally_range
 from stationcheck.quality.period import OPEN_END_S, OPEN_START_S, Period
 from stationcheck.quality.rollup import FigureCache
 from stationcheck.store import queries
-from stationcheck.store.records import AlarmRow, StepRow, UnitRow
+from stationcheck.store.log_records import AlarmRow, StepRow, UnitRow
 
 _Cache = TypeVar("_Cache")
 

@@ -1,5 +1,5 @@
 """Station signals as records and their register encoding (the decoder of inputs into
-observations is :mod:`stationcheck.plc.session`).
+observations is :mod:`stationcheck.plc.link_session`).
 
 Scaled integers on the wire: torque in 0.01 N*m (unsigned 16 bit, 0-655.35 N*m), angle in
 0.1 degree (signed 16 bit, -3276.8 to 3276.7 degrees), serial as ASCII two characters per

@@ -29,7 +29,7 @@ from dataclasses import dataclass, field, replace
 from stationcheck.core.observations import LinkEvent, LinkStatus, Observation
 from stationcheck.errors import first_line
 from stationcheck.plc.link import SignalLink
-from stationcheck.plc.session import InputDecoder, SessionSettings
+from stationcheck.plc.link_session import InputDecoder, SessionSettings
 from stationcheck.plc.signals import OutputSignals
 
 logger = logging.getLogger(__name__)

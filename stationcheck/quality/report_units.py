@@ -13,10 +13,10 @@ from stationcheck.core import event_kinds as ev
 from stationcheck.core.events import RESULT_NOK, Event
 from stationcheck.core.result_words import unit_word
 from stationcheck.errors import StoreError
-from stationcheck.quality.export import nok_reason
 from stationcheck.quality.period import Period, format_time
+from stationcheck.quality.unit_export import nok_reason
 from stationcheck.store import queries
-from stationcheck.store.records import StepRow, UnitQuery, UnitRow
+from stationcheck.store.log_records import StepRow, UnitQuery, UnitRow
 
 REPORT_UNITS = 200  # listed; a longer list is cut with a note (the review screen has them all)
 LOOK_AT = ("NOK", "reworked", "aborted", "open")

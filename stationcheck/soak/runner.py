@@ -23,6 +23,7 @@ from typing import Any
 
 import numpy as np
 
+from stationcheck.config.judgement_settings import CameraShiftSettings
 from stationcheck.core import event_kinds as ev
 from stationcheck.core.observations import (
     CameraMoved,
@@ -36,14 +37,13 @@ from stationcheck.core.observations import (
 )
 from stationcheck.core.records import Frame, Keypoint, Keypoints
 from stationcheck.errors import ModelOutputError
-from stationcheck.judgements.settings import CameraShiftSettings
 from stationcheck.pipeline.comparison import truly_at_target
-from stationcheck.pipeline.decisions import DecisionCore, DecisionStep
+from stationcheck.pipeline.decision_core import DecisionCore, DecisionStep
 from stationcheck.pipeline.frame_path import FramePath
 from stationcheck.pipeline.truth_sidecar import TruthJudge
 from stationcheck.soak.faults import TRIGGER_WAIT_S, PlannedFault, fault_stream
 from stationcheck.soak.footage import Footage
-from stationcheck.soak.report import FaultRecord, SoakReport
+from stationcheck.soak.soak_report import FaultRecord, SoakReport
 
 CYCLE_S = 0.01  # the live loop checks its watchdogs this often without frames
 IMAGE_SIZE = (60, 80)  # the frozen-picture check's own size: nothing is lost by not rendering

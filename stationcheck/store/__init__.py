@@ -3,8 +3,7 @@ from the events for quick review queries."""
 
 from __future__ import annotations
 
-from stationcheck.store.memory_log import MemoryStepLog
-from stationcheck.store.records import (
+from stationcheck.store.log_records import (
     AlarmRow,
     Page,
     StepRow,
@@ -12,6 +11,7 @@ from stationcheck.store.records import (
     UnitQuery,
     UnitRow,
 )
+from stationcheck.store.memory_log import MemoryStepLog
 from stationcheck.store.sqlite_log import SqliteStepLog
 from stationcheck.store.step_log import StepLog
 

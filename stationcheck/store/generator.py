@@ -17,9 +17,9 @@ from pathlib import Path
 from typing import Any
 
 from stationcheck.core import event_kinds as ev
+from stationcheck.store.log_records import StoredEvent
 from stationcheck.store.memory_log import MemoryTables
 from stationcheck.store.projection import project
-from stationcheck.store.records import StoredEvent
 from stationcheck.store.sql_tables import (
     ALARM_COLUMNS,
     STEP_COLUMNS,
@@ -42,7 +42,7 @@ from stationcheck.store.synthetic import (
     is_time_key,
     shift_time,
 )
-from stationcheck.store.transaction import write_transaction
+from stationcheck.store.write_transaction import write_transaction
 
 GENERATE_CHUNK_UNITS = 2_000
 _SLOT = re.compile(r'"@@(\d+)@@"')

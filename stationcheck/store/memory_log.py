@@ -7,9 +7,7 @@ from dataclasses import replace
 
 from stationcheck.core.events import RESULT_NOK, Event
 from stationcheck.core.progress import UnitProgress, rebuild_unit
-from stationcheck.store.projection import project
-from stationcheck.store.queries import decode_after, encode_after
-from stationcheck.store.records import (
+from stationcheck.store.log_records import (
     UNIT_OPEN,
     AlarmRow,
     Page,
@@ -18,6 +16,8 @@ from stationcheck.store.records import (
     UnitQuery,
     UnitRow,
 )
+from stationcheck.store.projection import project
+from stationcheck.store.queries import decode_after, encode_after
 from stationcheck.store.step_log import checked_batch
 
 _RESULT_TESTS: dict[str, Callable[[UnitRow], bool]] = {

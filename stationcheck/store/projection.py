@@ -16,7 +16,14 @@ from typing import Any, Protocol
 from stationcheck.core import event_kinds as ev
 from stationcheck.core.events import RESULT_NOK, RESULT_OK, RESULT_UNDECIDED, Event
 from stationcheck.core.handlers import ANGLE_UNIT, TORQUE_UNIT
-from stationcheck.store.records import RESULTS, UNIT_OPEN, AlarmRow, StepRow, StoredEvent, UnitRow
+from stationcheck.store.log_records import (
+    RESULTS,
+    UNIT_OPEN,
+    AlarmRow,
+    StepRow,
+    StoredEvent,
+    UnitRow,
+)
 
 logger = logging.getLogger(__name__)
 

@@ -7,8 +7,8 @@ import json
 import sqlite3
 from typing import Any
 
+from stationcheck.store.log_records import AlarmRow, Page, StepRow, TimeBasis, UnitQuery, UnitRow
 from stationcheck.store.projection import ALARM_TAG, FAILED_POSITION_TAG
-from stationcheck.store.records import AlarmRow, Page, StepRow, TimeBasis, UnitQuery, UnitRow
 from stationcheck.store.sql_tables import (
     ALARM_COLUMNS,
     STEP_COLUMNS,

@@ -21,7 +21,7 @@ from stationcheck.core import event_kinds as ev
 from stationcheck.core.events import Event
 from stationcheck.store.sqlite_errors import store_errors
 from stationcheck.store.sqlite_log import SqliteStepLog
-from stationcheck.store.transaction import write_transaction
+from stationcheck.store.write_transaction import write_transaction
 
 logger = logging.getLogger(__name__)
 

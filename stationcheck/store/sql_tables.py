@@ -12,7 +12,7 @@ import sqlite3
 from dataclasses import fields, replace
 from typing import Any
 
-from stationcheck.store.records import AlarmRow, StepRow, UnitRow
+from stationcheck.store.log_records import AlarmRow, StepRow, UnitRow
 
 UNIT_COLUMNS = tuple(f.name for f in fields(UnitRow))
 STEP_COLUMNS = tuple(f.name for f in fields(StepRow))

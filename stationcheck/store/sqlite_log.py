@@ -22,9 +22,8 @@ from urllib.parse import quote
 from stationcheck.core.events import Event
 from stationcheck.core.progress import UnitProgress, rebuild_unit
 from stationcheck.errors import StoreError
-from stationcheck.store import queries, schema
-from stationcheck.store.projection import project
-from stationcheck.store.records import (
+from stationcheck.store import log_schema, queries
+from stationcheck.store.log_records import (
     AlarmRow,
     Page,
     StepRow,
@@ -33,10 +32,11 @@ from stationcheck.store.records import (
     UnitQuery,
     UnitRow,
 )
+from stationcheck.store.projection import project
 from stationcheck.store.sql_tables import BufferedSqlTables, dump_json
 from stationcheck.store.sqlite_errors import store_errors
 from stationcheck.store.step_log import checked_batch
-from stationcheck.store.transaction import write_transaction
+from stationcheck.store.write_transaction import write_transaction
 
 logger = logging.getLogger(__name__)
 
@@ -75,14 +75,16 @@ def refill_derived(conn: sqlite3.Connection, chunk_events: int = REFILL_CHUNK_EV
 
 def _check_identity(conn: sqlite3.Connection, path: Path) -> int:
     """The schema version of a file that is (or can become) a step log."""
-    version = schema.schema_version(conn)
-    app_id = schema.application_id(conn)
-    if app_id not in (0, schema.APPLICATION_ID) or (app_id == 0 and schema.has_tables(conn)):
+    version = log_schema.schema_version(conn)
+    app_id = log_schema.application_id(conn)
+    if app_id not in (0, log_schema.APPLICATION_ID) or (
+        app_id == 0 and log_schema.has_tables(conn)
+    ):
         raise StoreError(f"step log {path} is an SQLite file of another program, not a step log")
-    if version > schema.SCHEMA_VERSION:
+    if version > log_schema.SCHEMA_VERSION:
         raise StoreError(
             f"step log {path} has schema version {version}, newer than this stationcheck "
-            f"knows ({schema.SCHEMA_VERSION}); use a newer stationcheck to open it"
+            f"knows ({log_schema.SCHEMA_VERSION}); use a newer stationcheck to open it"
         )
     return version
 
@@ -124,11 +126,11 @@ class SqliteStepLog:
             except BaseException:
                 conn.close()
                 raise
-        if version < schema.SCHEMA_VERSION:
+        if version < log_schema.SCHEMA_VERSION:
             conn.close()
             raise StoreError(
                 f"step log {self.path} has schema version {version}; open it once for writing "
-                f"(e.g. by the station) to update it to {schema.SCHEMA_VERSION}"
+                f"(e.g. by the station) to update it to {log_schema.SCHEMA_VERSION}"
             )
         return conn
 
@@ -152,7 +154,7 @@ class SqliteStepLog:
                 if mode.lower() != "wal":
                     raise StoreError(f"step log {path} cannot use a write-ahead log (got {mode})")
                 conn.execute(f"PRAGMA synchronous = {synchronous}")
-                schema.migrate(conn, refill_derived)
+                log_schema.migrate(conn, refill_derived)
             except BaseException:
                 conn.close()
                 raise
@@ -227,7 +229,7 @@ class SqliteStepLog:
             raise StoreError(f"step log {self.path} was opened read-only; cannot rebuild")
         conn = self._conn
         with store_errors(self.path, "rebuilding units, steps and alarms"), write_transaction(conn):
-            schema.recreate_derived(conn)
+            log_schema.recreate_derived(conn)
             count = refill_derived(conn)
         logger.info("rebuilt %s from %d events", self.path, count)
         return count

@@ -13,7 +13,7 @@ from typing import Protocol, runtime_checkable
 
 from stationcheck.core.events import Event
 from stationcheck.core.progress import UnitProgress
-from stationcheck.store.records import AlarmRow, Page, StepRow, StoredEvent, UnitQuery, UnitRow
+from stationcheck.store.log_records import AlarmRow, Page, StepRow, StoredEvent, UnitQuery, UnitRow
 
 
 @runtime_checkable

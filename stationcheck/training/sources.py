@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import importlib
 import logging
 from pathlib import Path
 from types import ModuleType
@@ -32,26 +31,18 @@ def coco_sources(annotations: Path, image_dir: Path, seed: int) -> tuple[FrameSo
     return CocoSource(annotations, image_dir).split(HOLDOUT_FRACTION, seed)
 
 
-def _demo_module() -> ModuleType:
-    try:
-        return importlib.import_module("stationcheck.demo_station.training")
-    except ImportError as exc:
-        raise InputFileError(
-            f"the demo renderer's training frames are unavailable ({exc})"
-        ) from exc
-
-
-def demo_moving_sample() -> MovingSampleFn | None:
+def demo_moving_sample(module: ModuleType) -> MovingSampleFn | None:
     """The demo renderer's frames of fast moves with their known step (for the motion lead),
-    or None when the renderer offers none."""
-    function: MovingSampleFn | None = getattr(_demo_module(), "render_moving_sample", None)
+    or None when the renderer offers none. ``module`` is the renderer's training module, passed
+    in by the command (the demo sits above training in the layers)."""
+    function: MovingSampleFn | None = getattr(module, "render_moving_sample", None)
     return function
 
 
-def demo_sources() -> tuple[FrameSource, FrameSource]:
-    """The demo renderer's training frames; the held-out part is the same generator on its
-    own random stream (it is infinite, so nothing is shared)."""
-    module = _demo_module()
+def demo_sources(module: ModuleType) -> tuple[FrameSource, FrameSource]:
+    """The demo renderer's training frames (``module``: the renderer's training module); the
+    held-out part is the same generator on its own random stream (it is infinite, so nothing
+    is shared)."""
     functions: list[tuple[SampleFn, float]] = []
     for name, weight in DEMO_SAMPLE_FUNCTIONS:
         function = getattr(module, name, None)

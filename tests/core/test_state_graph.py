@@ -13,9 +13,17 @@ from collections.abc import Callable
 from dataclasses import replace
 
 from stationcheck.core.state import Phase
-from stationcheck.core.state_graph import ANY_INPUT, Edge, as_dot, as_text, edges, reachable, targets
+from stationcheck.core.state_graph import (
+    ANY_INPUT,
+    Edge,
+    as_dot,
+    as_text,
+    edges,
+    reachable,
+    targets,
+)
 from stationcheck.core.step_kinds import STEP_KINDS
-from stationcheck.core.transitions import OPEN, PHASES, TABLE, Row
+from stationcheck.core.transitions import OPEN, PHASES, TABLE
 from tests.core.conftest import Run, Scenario
 
 ID = r'"(?:[^"\\]|\\.)*"|[A-Za-z_][A-Za-z0-9_]*'

@@ -17,8 +17,8 @@ from stationcheck.core.plan import (
 )
 from stationcheck.demo_station.choreography import StationInput
 from stationcheck.demo_station.decisions import expected_decisions
-from stationcheck.demo_station.ground_truth import TruthRow
 from stationcheck.errors import ConfigError
+from stationcheck.pipeline.truth_rows import TruthRow
 
 FPS = 30.0
 SQUARE_1 = ((100.0, 100.0), (130.0, 100.0), (130.0, 130.0), (100.0, 130.0))

@@ -12,7 +12,7 @@ import pytest
 
 from stationcheck.demo_station import layout
 from stationcheck.demo_station import sample_video as sv
-from stationcheck.demo_station.ground_truth import COLUMNS, read_truth_csv
+from stationcheck.pipeline.truth_rows import COLUMNS, read_truth_csv
 
 SAMPLE_DIR = sv.REPO_ROOT / "sample_video"
 

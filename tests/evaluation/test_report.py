@@ -12,7 +12,7 @@ import pytest
 
 from stationcheck.cli import main
 from stationcheck.errors import InputFileError
-from stationcheck.evaluation.report import evaluate
+from stationcheck.evaluation.accuracy_report import evaluate
 from stationcheck.evaluation.truth import read_coco_frames, read_truth_csv, read_video_frames
 from stationcheck.vision.fake_detector import ReplayKeypointDetector
 from tests.vision.conftest import blob_frame, blob_model_proto, coarse_info, refine_info

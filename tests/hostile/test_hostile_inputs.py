@@ -144,7 +144,7 @@ def test_alias_bomb_is_refused_quickly_and_small() -> None:
     script = (
         "import resource, sys, time\n"
         "from stationcheck.cli import main\n"
-        "import stationcheck.commands.check, stationcheck.config.validation\n"
+        "import stationcheck.commands.check, stationcheck.config.config_check\n"
         "before_mb = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024\n"
         "start = time.perf_counter()\n"
         f"code = main(['check', {str(CORPUS / 'configs' / 'alias_bomb.yaml')!r}])\n"

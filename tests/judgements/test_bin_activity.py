@@ -10,12 +10,12 @@ from collections.abc import Callable
 
 import pytest
 
+from stationcheck.config.judgement_settings import BinActivitySettings
 from stationcheck.core.observations import BinActivity
 from stationcheck.core.plan import ZoneSpec
 from stationcheck.demo_station.camera import CameraTransform
 from stationcheck.judgements import bin_activity
 from stationcheck.judgements.bin_activity import BinActivityJudge
-from stationcheck.judgements.settings import BinActivitySettings
 from stationcheck.judgements.zone_window import U8Array
 from tests.judgements.conftest import FPS, Render, reach_into, zone_centre
 

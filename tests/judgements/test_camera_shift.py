@@ -15,6 +15,7 @@ import cv2
 import numpy as np
 import pytest
 
+from stationcheck.config.judgement_settings import CameraShiftSettings
 from stationcheck.core.plan import ZoneSpec
 from stationcheck.demo_station.camera import CameraTransform
 from stationcheck.judgements.camera_shift import (
@@ -29,7 +30,6 @@ from stationcheck.judgements.camera_shift import (
     fit_similarity,
     remap_zones,
 )
-from stationcheck.judgements.settings import CameraShiftSettings
 from stationcheck.judgements.zone_window import U8Array
 from tests.judgements.conftest import Render, reach_into, true_shift_px
 

@@ -8,11 +8,11 @@ from dataclasses import replace
 import numpy as np
 import pytest
 
+from stationcheck.config.judgement_settings import CameraShiftSettings
 from stationcheck.core.plan import ZoneSpec
 from stationcheck.demo_station.camera import CameraTransform
 from stationcheck.demo_station.look import WARM_CAST_BGR, Look, LookFilter
 from stationcheck.judgements.camera_shift import CameraShiftJudge, ReferenceView
-from stationcheck.judgements.settings import CameraShiftSettings
 from tests.judgements.conftest import Render, true_shift_px
 
 DARK = Look(gain=0.45, cast_bgr=WARM_CAST_BGR, vignette=0.35)

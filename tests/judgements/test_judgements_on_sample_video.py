@@ -19,16 +19,16 @@ import cv2
 import numpy as np
 import pytest
 
-from stationcheck.config.schema import StationConfig
-from stationcheck.core.records import Frame
-from stationcheck.judgements.station import StationJudgements
-from stationcheck.judgements.teaching import read_manifest, teaching_dir
-from stationcheck.judgements.trace import JudgementTrace, run_judgements, video_frames
-from stationcheck.judgements.truth_comparison import (
+from stationcheck.benches.truth_comparison import (
     TruthComparison,
     compare_trace,
     read_truth_columns,
 )
+from stationcheck.config.schema import StationConfig
+from stationcheck.core.records import Frame
+from stationcheck.judgements.judgement_trace import JudgementTrace, run_judgements, video_frames
+from stationcheck.judgements.station import StationJudgements
+from stationcheck.judgements.teaching import read_manifest, teaching_dir
 from tests.judgements.conftest import REPO_ROOT
 
 VIDEO = REPO_ROOT / "sample_video" / "demo_station.mp4"

@@ -1,4 +1,4 @@
-"""A small subset of the look matrix (the whole grid: python -m stationcheck.judgements.look_matrix).
+"""A small subset of the look matrix (the whole grid: python -m stationcheck.benches.look_matrix).
 
 Keypoints come from the ground truth, so only the image checks are on trial; the decisions are
 scored against the rendered scene's ground truth (when the hand was in which bin).
@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import pytest
 
-from stationcheck.judgements.look_matrix import (
+from stationcheck.benches.look_matrix import (
     FRESH_SCENE,
     HELDOUT_SCENE,
     TOO_DARK,

@@ -6,9 +6,9 @@ import cv2
 import numpy as np
 import pytest
 
+from stationcheck.config.judgement_settings import PictureQualitySettings
 from stationcheck.config.schema import JudgementsSection
 from stationcheck.judgements.picture_quality import INTERVAL_S, QualityMonitor, measure_quality
-from stationcheck.judgements.settings import PictureQualitySettings
 from tests.judgements.conftest import Render
 
 

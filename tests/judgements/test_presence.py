@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import pytest
 
+from stationcheck.config.judgement_settings import PresenceSettings
 from stationcheck.core.observations import CheckVerdict
 from stationcheck.core.plan import ZoneSpec
 from stationcheck.demo_station.camera import CameraTransform
@@ -20,7 +21,6 @@ from stationcheck.judgements.presence import (
     class_template,
     normalised,
 )
-from stationcheck.judgements.settings import PresenceSettings
 from stationcheck.judgements.zone_window import U8Array, zone_box_px
 from tests.judgements.conftest import FPS, Render, cover_box
 

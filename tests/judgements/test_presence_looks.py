@@ -6,10 +6,10 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
+from stationcheck.config.judgement_settings import PresenceSettings
 from stationcheck.core.plan import ZoneSpec
 from stationcheck.demo_station.look import WARM_CAST_BGR, Look, LookFilter
 from stationcheck.judgements.presence import PresenceJudge, TaughtClasses
-from stationcheck.judgements.settings import PresenceSettings
 from tests.judgements.conftest import FPS, Render
 
 # (look, must it decide): the worst may stay undecided (it then never releases a unit)

@@ -8,16 +8,16 @@ from pathlib import Path
 import cv2
 import pytest
 
+from stationcheck.benches.measuring import load_sections
 from stationcheck.cli import main
-from stationcheck.commands.bench import load_sections
 from stationcheck.config import check_data
-from stationcheck.config.schema import StationConfig
-from stationcheck.judgements.settings import (
+from stationcheck.config.judgement_settings import (
     BinActivitySettings,
     CameraShiftSettings,
     JudgementSettings,
     PresenceSettings,
 )
+from stationcheck.config.schema import StationConfig
 from tests.judgements.conftest import DEMO_CONFIG, Render
 
 

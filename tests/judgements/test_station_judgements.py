@@ -4,13 +4,13 @@ from __future__ import annotations
 
 import pytest
 
+from stationcheck.config.judgement_settings import JudgementSettings
 from stationcheck.core.observations import BinActivity, CameraMoved, CheckVerdict
 from stationcheck.core.plan import ZoneSpec
 from stationcheck.core.records import Frame
 from stationcheck.demo_station.camera import CameraTransform
 from stationcheck.errors import InputFileError
 from stationcheck.judgements.presence import REPEAT_S, TaughtClasses
-from stationcheck.judgements.settings import JudgementSettings
 from stationcheck.judgements.station import StationJudgements
 from stationcheck.judgements.zone_window import U8Array
 from tests.judgements.conftest import FPS, Render, frames_of, reach_into, zone_centre

@@ -10,12 +10,12 @@ import numpy as np
 import pytest
 import yaml
 
+from stationcheck.config.judgement_settings import PresenceSettings
 from stationcheck.config.schema import StationConfig
 from stationcheck.core.plan import ZoneSpec
 from stationcheck.errors import ConfigError, InputFileError
 from stationcheck.judgements import teaching
 from stationcheck.judgements.presence import PresenceJudge
-from stationcheck.judgements.settings import PresenceSettings
 from tests.judgements.conftest import FPS, Render
 
 

@@ -5,15 +5,15 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from stationcheck.core.plan import ZoneSpec
-from stationcheck.demo_station.camera import CameraTransform
-from stationcheck.judgements.truth_comparison import (
+from stationcheck.benches.truth_comparison import (
     compare_bins,
     compare_camera,
     compare_check,
     runs,
     true_zone_shift_px,
 )
+from stationcheck.core.plan import ZoneSpec
+from stationcheck.demo_station.camera import CameraTransform
 from tests.judgements.conftest import true_shift_px
 
 

@@ -13,7 +13,7 @@ from stationcheck.core.records import Frame
 from stationcheck.live.grabber import FrameGrabber
 from stationcheck.live.loop import LiveLoop
 from stationcheck.live.watchdog import WatchdogLimits
-from stationcheck.pipeline.decisions import DecisionCore
+from stationcheck.pipeline.decision_core import DecisionCore
 from stationcheck.pipeline.frame_path import FramePath
 from stationcheck.pipeline.judging import ImageJudge
 from stationcheck.plc.link import MemoryLink

@@ -25,7 +25,7 @@ from stationcheck.core.records import Frame, Keypoint, Keypoints
 from stationcheck.live.grabber import FrameGrabber
 from stationcheck.live.loop import LiveLoop
 from stationcheck.live.watchdog import WatchdogLimits
-from stationcheck.pipeline.decisions import DecisionCore
+from stationcheck.pipeline.decision_core import DecisionCore
 from stationcheck.pipeline.frame_path import FramePath
 from stationcheck.plc.modbus_client import ModbusClientLink
 from stationcheck.plc.simulator import StationSimulator

@@ -8,10 +8,10 @@ import pytest
 from stationcheck.cli import main
 from stationcheck.config import load_config
 from stationcheck.live.session import LiveSettings, link_limits, make_link
-from stationcheck.sources.kinds import parse_source
 from stationcheck.plc.link import ConsoleLink
 from stationcheck.plc.modbus_client import ModbusClientLink
 from stationcheck.plc.modbus_server import ModbusServerLink
+from stationcheck.sources.kinds import parse_source
 
 REPO = Path(__file__).resolve().parents[2]
 CONFIG = REPO / "configs" / "demo_station.yaml"
@@ -87,7 +87,7 @@ def test_run_command_dry_run_with_console_link(
 def test_run_counts_the_units_it_ended_in_shown_words() -> None:
     from stationcheck.commands.run import UnitCount
     from stationcheck.core.observations import Tick
-    from stationcheck.pipeline.decisions import DecisionStep
+    from stationcheck.pipeline.decision_core import DecisionStep
     from tests.event_examples import unit_ended
 
     count = UnitCount()

@@ -15,8 +15,8 @@ from stationcheck.core.plan import StationPlan
 from stationcheck.overlay.annotator import Annotator
 from stationcheck.overlay.palette import COLOURS
 from stationcheck.overlay.panel import PANEL_WIDTH_PX
+from stationcheck.overlay.station_view import StationViewBuilder
 from stationcheck.overlay.symbols import draw_symbol
-from stationcheck.pipeline.station_view import StationViewBuilder
 from tests.event_examples import tightening, unit_ended, unit_started
 from tests.overlay.conftest import fastening
 
@@ -121,7 +121,7 @@ def test_the_annotated_video_opens_in_opencv_with_every_frame(
 ) -> None:
     from stationcheck.core.observations import ZoneObservation
     from stationcheck.core.records import Frame, Keypoints, ToolPose
-    from stationcheck.overlay.annotated_video import AnnotatedVideoWriter
+    from stationcheck.pipeline.annotated_video import AnnotatedVideoWriter
     from stationcheck.pipeline.frame_path import FrameResult, StageTimes
 
     path = tmp_path / "out.mp4"

@@ -12,7 +12,7 @@ import pytest
 
 from stationcheck.config import load_config
 from stationcheck.core.plan import StationPlan
-from stationcheck.pipeline.report import ReplayReport
+from stationcheck.pipeline.replay_report import ReplayReport
 from stationcheck.pipeline.session import ReplaySettings, run_replay
 
 REPO = Path(__file__).resolve().parents[2]

@@ -11,16 +11,16 @@ import pytest
 from stationcheck.core import event_kinds as ev
 from stationcheck.core.observations import PositionRef
 from stationcheck.core.plan import FastenStep, StationPlan, Thresholds, ZoneSpec
-from stationcheck.demo_station.ground_truth import TruthRow
 from stationcheck.errors import InputFileError
 from stationcheck.pipeline.comparison import compare_decisions, count_false_enables
+from stationcheck.pipeline.decision_trace import FramedEvent, FrameState
 from stationcheck.pipeline.expected import (
     Decision,
     decisions_from_events,
     number_passes,
     read_expected,
 )
-from stationcheck.pipeline.trace import FramedEvent, FrameState
+from stationcheck.pipeline.truth_rows import TruthRow
 from stationcheck.pipeline.truth_sidecar import TruthTable
 from tests.event_examples import alarm, tightening, unit_ended, unit_started
 

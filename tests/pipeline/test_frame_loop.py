@@ -21,7 +21,8 @@ from stationcheck.core.observations import (
 from stationcheck.core.plan import FastenStep, StationPlan, Thresholds, ZoneSpec
 from stationcheck.core.records import Frame, Keypoints
 from stationcheck.errors import InputFileError, ModelError
-from stationcheck.pipeline.decisions import DecisionCore, DecisionStep
+from stationcheck.pipeline.decision_core import DecisionCore, DecisionStep
+from stationcheck.pipeline.decision_trace import RunTrace
 from stationcheck.pipeline.frame_path import FramePath, FrameResult
 from stationcheck.pipeline.log_sink import (
     STOPPED_ON_ERROR,
@@ -31,7 +32,6 @@ from stationcheck.pipeline.log_sink import (
 )
 from stationcheck.pipeline.loop import run_loop
 from stationcheck.pipeline.station_inputs import InputSchedule
-from stationcheck.pipeline.trace import RunTrace
 from stationcheck.sources.memory_source import MemoryFrameSource
 from stationcheck.store import MemoryStepLog, SqliteStepLog
 from stationcheck.vision.fake_detector import ReplayKeypointDetector

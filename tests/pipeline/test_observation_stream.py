@@ -21,7 +21,7 @@ from stationcheck.core.observations import (
 )
 from stationcheck.core.plan import StationPlan
 from stationcheck.errors import InputFileError
-from stationcheck.pipeline.decisions import DecisionStep
+from stationcheck.pipeline.decision_core import DecisionStep
 from stationcheck.pipeline.observation_stream import ObservationRecorder, read_observations
 from stationcheck.pipeline.session import ReplaySettings, run_replay
 from tests.pipeline.conftest import CONFIG, FIRST_UNIT_FRAMES, Replay, needs_sample

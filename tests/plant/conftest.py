@@ -25,10 +25,10 @@ def pg() -> Iterator[Cluster]:
     if not (PG_BIN / "initdb").exists():
         pytest.fail(f"PostgreSQL server binaries missing in {PG_BIN}: apt-get install postgresql")
     with throwaway_cluster() as cluster:
-        from stationcheck.plant import schema
+        from stationcheck.plant import plant_schema
 
         with admin_connection(cluster) as conn:
-            schema.migrate(conn)
+            plant_schema.migrate(conn)
         yield cluster
 
 

@@ -41,10 +41,10 @@ class Station:
 
 
 def add_station(pg: Cluster, admin: Any, line: str = "line-1") -> Station:
-    from stationcheck.plant import schema
+    from stationcheck.plant import plant_schema
 
     station_id = f"cover-{next(_numbers)}"
-    role = schema.add_station(admin, station_id, line, "demo-plant",
+    role = plant_schema.add_station(admin, station_id, line, "demo-plant",
                               role_password=STATION_PASSWORD)
     return Station(station_id, role, pg.url(role),
                    _write_secret(pg, "station", STATION_PASSWORD))

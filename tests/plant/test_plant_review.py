@@ -61,10 +61,10 @@ def review(capsys: pytest.CaptureFixture[str], *args: str) -> Any:
 
 @pytest.fixture
 def reviewer(pg: Cluster, monkeypatch: pytest.MonkeyPatch) -> str:
-    from stationcheck.plant import schema
+    from stationcheck.plant import plant_schema
 
     with admin_connection(pg) as admin:
-        schema.add_reviewer(admin, "quality_reviewer", role_password="review-secret")
+        plant_schema.add_reviewer(admin, "quality_reviewer", role_password="review-secret")
     monkeypatch.setenv("STATIONCHECK_PG_PASSWORD", "review-secret")
     return pg.url("quality_reviewer")
 
@@ -125,7 +125,7 @@ def plant_web(two_stations: TwoStations, reviewer: str) -> Iterator[Any]:
 
     from stationcheck.web.access import AccessRule
     from stationcheck.web.listener import WebServer
-    from stationcheck.web.review import build_review_router, review_source
+    from stationcheck.web.review_screen import build_review_router, review_source
 
     server = WebServer(build_review_router(review_source(reviewer)), "127.0.0.1", 0,
                        AccessRule(None)).start()
@@ -164,7 +164,7 @@ def test_figures_follow_the_fold(pg: Cluster, reviewer: str, tmp_path: Path) -> 
     from stationcheck.store.sqlite_log import SqliteStepLog
     from stationcheck.web.access import AccessRule
     from stationcheck.web.listener import WebServer
-    from stationcheck.web.review import build_review_router, review_source
+    from stationcheck.web.review_screen import build_review_router, review_source
 
     whole, first_half = tmp_path / "whole.sqlite", tmp_path / "half.sqlite"
     events = generate_log(whole, 200, seed=5)

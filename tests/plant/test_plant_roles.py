@@ -9,7 +9,7 @@ from typing import Any
 import pytest
 from plant_helpers import Station, add_station
 
-from stationcheck.plant import connect, schema
+from stationcheck.plant import connect, plant_schema
 from stationcheck.plant.throwaway import Cluster
 
 _FORWARD = ("SELECT plant.forward_events(%s, ARRAY[1]::bigint[], ARRAY[0.0]::float8[], "
@@ -40,7 +40,7 @@ def test_station_role_cannot_write_for_another_station_or_read(pg: Cluster, admi
 
 
 def test_review_role_reads_but_cannot_write(pg: Cluster, admin: Any, station: Station) -> None:
-    schema.add_reviewer(admin, "quality_reviewer", role_password="review-secret")
+    plant_schema.add_reviewer(admin, "quality_reviewer", role_password="review-secret")
     secret = pg.folder / "review.secret"
     secret.write_text("review-secret")
     with connect.connect(pg.url("quality_reviewer"), secret) as conn:

@@ -8,13 +8,13 @@ from typing import Any
 import pytest
 
 from stationcheck.errors import PlantDatabaseError
-from stationcheck.plant import schema
+from stationcheck.plant import plant_schema
 
 
 def test_migrate_again_keeps_the_version_and_the_data(admin: Any) -> None:
     before = admin.execute("SELECT count(*) FROM plant.stations").fetchone()[0]
-    assert schema.migrate(admin) == schema.SCHEMA_VERSION == len(schema.MIGRATIONS)
-    assert schema.schema_version(admin) == schema.SCHEMA_VERSION
+    assert plant_schema.migrate(admin) == plant_schema.SCHEMA_VERSION == len(plant_schema.MIGRATIONS)
+    assert plant_schema.schema_version(admin) == plant_schema.SCHEMA_VERSION
     assert admin.execute("SELECT count(*) FROM plant.stations").fetchone()[0] == before
 
 
@@ -22,8 +22,8 @@ def test_a_newer_database_is_refused(admin: Any) -> None:
     admin.execute("UPDATE plant.schema_version SET version = version + 1")
     try:
         with pytest.raises(PlantDatabaseError, match="newer than this stationcheck"):
-            schema.migrate(admin)
+            plant_schema.migrate(admin)
         with pytest.raises(PlantDatabaseError, match="plant setup"):
-            schema.require_current(admin)
+            plant_schema.require_current(admin)
     finally:
-        admin.execute("UPDATE plant.schema_version SET version = %s", (schema.SCHEMA_VERSION,))
+        admin.execute("UPDATE plant.schema_version SET version = %s", (plant_schema.SCHEMA_VERSION,))

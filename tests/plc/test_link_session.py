@@ -1,4 +1,4 @@
-"""The input decoder under the link-session rule (stationcheck.plc.session)."""
+"""The input decoder under the link-session rule (stationcheck.plc.link_session)."""
 
 from __future__ import annotations
 
@@ -12,7 +12,7 @@ from stationcheck.core.observations import (
     ToolRunning,
     UnitStarted,
 )
-from stationcheck.plc.session import InputDecoder, SessionSettings, restarted
+from stationcheck.plc.link_session import InputDecoder, SessionSettings, restarted
 from stationcheck.plc.signals import InputSignals
 
 

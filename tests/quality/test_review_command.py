@@ -13,7 +13,7 @@ import pytest
 
 from stationcheck.cli import EXIT_USAGE, main
 from stationcheck.errors import StoreError
-from stationcheck.store.schema import APPLICATION_ID, SCHEMA_VERSION
+from stationcheck.store.log_schema import APPLICATION_ID, SCHEMA_VERSION
 
 
 def run(capsys: pytest.CaptureFixture[str], *args: str) -> tuple[int, str, str]:

@@ -12,12 +12,12 @@ from pathlib import Path
 import pytest
 from review_logs import RECORDED_AT_S, sequencer_events, write_log
 
-from stationcheck.quality import export
+from stationcheck.quality import unit_export
 from stationcheck.quality.period import Period
-from stationcheck.quality.report import build_report
+from stationcheck.quality.review_report import build_report
 from stationcheck.quality.trends import fastener_positions, position_trend
 from stationcheck.store import SqliteStepLog
-from stationcheck.store.records import UnitQuery
+from stationcheck.store.log_records import UnitQuery
 from stationcheck.store.synthetic import POSITIONS, StationScript
 
 DRIFT_UNITS = 40
@@ -107,10 +107,10 @@ def test_unit_list_exports_read_back(scripted_log: Path) -> None:
     with SqliteStepLog(scripted_log, readonly=True) as log:
         conn = log.connection
         query = UnitQuery(order="serial")
-        text = "".join(export.csv_chunks(
-            (export.unit_dict(u) for u in export.iter_units(conn, query, page_units=2)),
-            export.UNIT_FIELDS, rows_per_chunk=2))
-        data = json.loads("".join(export.units_json(conn, query)))
+        text = "".join(unit_export.csv_chunks(
+            (unit_export.unit_dict(u) for u in unit_export.iter_units(conn, query, page_units=2)),
+            unit_export.UNIT_FIELDS, rows_per_chunk=2))
+        data = json.loads("".join(unit_export.units_json(conn, query)))
     rows = list(csv.DictReader(io.StringIO(text)))
     assert [r["serial"] for r in rows] == [f"QA-000{n}" for n in range(1, 6)]
     rework = rows[2]
@@ -124,7 +124,7 @@ def test_unit_list_exports_read_back(scripted_log: Path) -> None:
 def test_unit_steps_export_shows_the_failed_position_and_its_rework(scripted_log: Path) -> None:
     with SqliteStepLog(scripted_log, readonly=True) as log:
         steps = log.steps("QA-0003")
-    rows = list(csv.DictReader(io.StringIO(export.unit_steps_csv(steps))))
+    rows = list(csv.DictReader(io.StringIO(unit_export.unit_steps_csv(steps))))
     p5 = [(r["pass_no"], r["attempt"], r["result"], r["position_result"]) for r in rows
           if r["position"] == "p5"]
     assert p5 == [("1", "1", "NOK", ""), ("1", "2", "NOK", "NOK"), ("2", "1", "OK", "OK")]
@@ -137,7 +137,7 @@ def test_exports_round_to_the_instruments_resolution_and_give_iso_times() -> Non
     with the standard library's own ISO parser."""
     from datetime import datetime
 
-    from stationcheck.store.records import AlarmRow, StepRow
+    from stationcheck.store.log_records import AlarmRow, StepRow
 
     step = StepRow(seq=1, serial="U-1", pass_no=1, step="fasten", kind="fasten",
                    result="NotOK", ended_t_s=12.3456789, recorded_at_s=1_760_000_000.123456,
@@ -145,15 +145,15 @@ def test_exports_round_to_the_instruments_resolution_and_give_iso_times() -> Non
                    angle_deg=52.44999, angle_low_deg=15.0, angle_high_deg=45.0)
     alarm = AlarmRow(seq=2, serial="U-1", t_s=12.3456789, recorded_at_s=1_760_000_001.98765,
                      code="check_failed")
-    row = next(csv.DictReader(io.StringIO(export.unit_steps_csv([step]))))
+    row = next(csv.DictReader(io.StringIO(unit_export.unit_steps_csv([step]))))
     assert (row["torque_nm"], row["angle_deg"], row["ended_t_s"]) == ("4.23", "52.4", "12.346")
     assert row["result"] == "NOK"
-    for shown in (export.step_dict(step), export.alarm_dict(alarm)):
+    for shown in (unit_export.step_dict(step), unit_export.alarm_dict(alarm)):
         iso = datetime.fromisoformat(shown["recorded_at"])
         assert iso.tzinfo is not None
         assert iso.timestamp() == pytest.approx(shown["recorded_at_s"], abs=1.0)  # to the second
-    assert export.alarm_dict(alarm)["recorded_at_s"] == 1_760_000_001.988
-    assert all(name.endswith(("_nm", "_deg", "_s", "_at")) for name in export.STEP_FIELDS
+    assert unit_export.alarm_dict(alarm)["recorded_at_s"] == 1_760_000_001.988
+    assert all(name.endswith(("_nm", "_deg", "_s", "_at")) for name in unit_export.STEP_FIELDS
                if any(word in name for word in ("torque", "angle", "time", "recorded")))
 
 

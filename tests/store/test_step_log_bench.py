@@ -6,8 +6,9 @@ from pathlib import Path
 
 import pytest
 
-from stationcheck.commands.bench import load_sections
-from stationcheck.store import SqliteStepLog, bench
+from stationcheck.benches import bench_store as bench
+from stationcheck.benches.measuring import load_sections
+from stationcheck.store import SqliteStepLog
 from stationcheck.store.generator import generate_log
 
 

@@ -14,7 +14,7 @@ import pytest
 from stationcheck.core.events import Event
 from stationcheck.errors import StoreError
 from stationcheck.store import SqliteStepLog, sqlite_errors
-from stationcheck.store.schema import APPLICATION_ID, SCHEMA_VERSION
+from stationcheck.store.log_schema import APPLICATION_ID, SCHEMA_VERSION
 from tests.event_examples import alarm, unit_started
 
 

@@ -8,7 +8,7 @@ from pathlib import Path
 
 from step_log_helpers import QUICK, RECORDED_AT_S, table_rows
 
-from stationcheck.store import MemoryStepLog, SqliteStepLog, schema
+from stationcheck.store import MemoryStepLog, SqliteStepLog, log_schema
 from stationcheck.store.generator import generate_log
 from stationcheck.store.sql_tables import dump_json
 from stationcheck.store.sqlite_log import refill_derived
@@ -46,7 +46,7 @@ def test_rebuild_in_small_chunks_gives_the_same_rows(tmp_path: Path) -> None:
     before = table_rows(path)
     with SqliteStepLog(path) as log:
         log.connection.execute("BEGIN IMMEDIATE")
-        schema.recreate_derived(log.connection)
+        log_schema.recreate_derived(log.connection)
         refill_derived(log.connection, chunk_events=7)
         log.connection.execute("COMMIT")
     assert table_rows(path) == before

@@ -9,7 +9,7 @@ import pytest
 from step_log_helpers import RECORDED_AT_S, table_rows
 
 from stationcheck.errors import StoreError
-from stationcheck.store import SqliteStepLog, schema
+from stationcheck.store import SqliteStepLog, log_schema
 from stationcheck.store.sql_tables import dump_json
 from stationcheck.store.sqlite_log import refill_derived
 from stationcheck.store.synthetic import UnitStream
@@ -28,7 +28,7 @@ def make_v1(path: Path, units: int) -> list[tuple[float, str, str | None, str, f
     """A log as the first schema wrote it: the events table only."""
     rows = stream_events(units)
     conn = sqlite3.connect(path, isolation_level=None)
-    schema.migrate(conn, refill_derived, upto=1)
+    log_schema.migrate(conn, refill_derived, upto=1)
     conn.execute("BEGIN")
     conn.executemany(
         "INSERT INTO events (t_s, kind, serial, data, recorded_at_s) VALUES (?, ?, ?, ?, ?)", rows
@@ -47,7 +47,7 @@ def test_v1_log_opens_with_current_code(tmp_path: Path) -> None:
     assert "units" not in tables
     conn.close()
     with SqliteStepLog(old) as log:
-        assert log.connection.execute("PRAGMA user_version").fetchone()[0] == schema.SCHEMA_VERSION
+        assert log.connection.execute("PRAGMA user_version").fetchone()[0] == log_schema.SCHEMA_VERSION
         assert log.units().total == 12
         assert len(log.events()) == len(rows)
     # the same events appended through the current code give the same rows
@@ -78,7 +78,7 @@ def test_failing_migration_leaves_the_old_version(tmp_path: Path,
         conn.execute("CREATE TABLE half_done (x)")
         raise sqlite3.OperationalError("simulated failure")
 
-    monkeypatch.setattr(schema, "MIGRATIONS", (schema.MIGRATIONS[0], broken))
+    monkeypatch.setattr(log_schema, "MIGRATIONS", (log_schema.MIGRATIONS[0], broken))
     with pytest.raises(StoreError, match="simulated failure"):
         SqliteStepLog(path)
     conn = sqlite3.connect(path)
@@ -89,8 +89,8 @@ def test_failing_migration_leaves_the_old_version(tmp_path: Path,
 
 
 def test_migrations_are_numbered_by_position() -> None:
-    assert schema.SCHEMA_VERSION == len(schema.MIGRATIONS) >= 2
-    assert len(set(schema.MIGRATIONS)) == len(schema.MIGRATIONS)
+    assert log_schema.SCHEMA_VERSION == len(log_schema.MIGRATIONS) >= 2
+    assert len(set(log_schema.MIGRATIONS)) == len(log_schema.MIGRATIONS)
 
 
 def test_v3_log_gets_the_station_id_column(tmp_path: Path) -> None:
@@ -98,14 +98,14 @@ def test_v3_log_gets_the_station_id_column(tmp_path: Path) -> None:
     path = tmp_path / "v3.sqlite"
     rows = stream_events(2)
     conn = sqlite3.connect(path, isolation_level=None)
-    schema.migrate(conn, refill_derived, upto=3)
+    log_schema.migrate(conn, refill_derived, upto=3)
     conn.execute("BEGIN")
     conn.executemany(
         "INSERT INTO events (t_s, kind, serial, data, recorded_at_s) VALUES (?, ?, ?, ?, ?)", rows)
     conn.execute("COMMIT")
     conn.close()
     with SqliteStepLog(path, station_id="cover-7") as log:
-        assert schema.schema_version(log.connection) == schema.SCHEMA_VERSION
+        assert log_schema.schema_version(log.connection) == log_schema.SCHEMA_VERSION
         log.append([e.event for e in log.events(limit=1)], RECORDED_AT_S + 99)
         owners = [r[6] for r in log.raw_events(0, 10_000)]
     assert owners == [None] * len(rows) + ["cover-7"]

@@ -7,8 +7,8 @@ from pathlib import Path
 
 import pytest
 
+from stationcheck.benches.measuring import SECTION_MODULES, load_sections
 from stationcheck.cli import main
-from stationcheck.commands.bench import SECTION_MODULES, load_sections
 
 
 def test_bench_registry_lists_the_detector_section() -> None:

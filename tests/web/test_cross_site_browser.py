@@ -27,8 +27,8 @@ from stationcheck.store.sqlite_log import SqliteStepLog
 from stationcheck.web.access import AccessRule
 from stationcheck.web.listener import WebServer
 from stationcheck.web.operator.feed import OperatorFeed
-from stationcheck.web.operator.routes import operator_router
-from stationcheck.web.review import ReviewSource, build_review_router
+from stationcheck.web.operator.operator_routes import operator_router
+from stationcheck.web.review_screen import ReviewSource, build_review_router
 from stationcheck.web.server import Request, Response, Router
 from stationcheck.web.setup import SetupSession, Workspace, build_router
 from tests.conftest import CHROMIUM_ARGS, chromium_path

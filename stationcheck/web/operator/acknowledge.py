@@ -13,7 +13,7 @@ import threading
 from dataclasses import dataclass
 
 from stationcheck.core.observations import OperatorAck
-from stationcheck.pipeline.decisions import DecisionCore
+from stationcheck.pipeline.decision_core import DecisionCore
 
 logger = logging.getLogger(__name__)
 

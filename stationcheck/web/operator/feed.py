@@ -8,7 +8,7 @@ thread renders at most ``max_fps`` times a second and draws pictures only while 
 watches them; a slow or stalled viewer only misses pictures, it never holds up the others.
 
 The feed is a frame sink and a step sink of the loop (see :mod:`stationcheck.pipeline.loop`
-and :mod:`stationcheck.pipeline.decisions`). With a :class:`DecisionCore` given (live runs),
+and :mod:`stationcheck.pipeline.decision_core`). With a :class:`DecisionCore` given (live runs),
 acknowledge presses from the screen are applied on the loop's thread at its next frame.
 """
 
@@ -30,10 +30,10 @@ from stationcheck.core.observations import PictureState
 from stationcheck.core.plan import StationPlan
 from stationcheck.errors import first_line, stop_requested
 from stationcheck.overlay.scene import draw_scene
+from stationcheck.overlay.station_view import StationView, StationViewBuilder
 from stationcheck.overlay.symbols import Image
-from stationcheck.pipeline.decisions import DecisionCore, DecisionStep
+from stationcheck.pipeline.decision_core import DecisionCore, DecisionStep
 from stationcheck.pipeline.frame_path import FrameResult
-from stationcheck.pipeline.station_view import StationView, StationViewBuilder
 from stationcheck.web.operator.acknowledge import AckInbox
 from stationcheck.web.operator.screen_state import (
     RecentAlarms,

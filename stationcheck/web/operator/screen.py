@@ -12,9 +12,9 @@ from typing import TYPE_CHECKING
 
 from stationcheck.web.app import start_server
 from stationcheck.web.operator.feed import OperatorFeed, ScreenMode
+from stationcheck.web.operator.operator_routes import operator_router
 from stationcheck.web.operator.options import DEFAULT_SCREEN_PORT, pace_speed
 from stationcheck.web.operator.pacing import RealTimePacer
-from stationcheck.web.operator.routes import operator_router
 
 if TYPE_CHECKING:
     from pathlib import Path

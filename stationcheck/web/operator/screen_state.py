@@ -19,7 +19,7 @@ from stationcheck.core.events import Event
 from stationcheck.core.observations import PictureState
 from stationcheck.core.plan import FastenStep
 from stationcheck.overlay.scene import fastener_state
-from stationcheck.pipeline.station_view import Meaning, StationView
+from stationcheck.overlay.station_view import Meaning, StationView
 from stationcheck.web.operator.wording import Wording, condition_alarm, event_alarm
 
 EVENT_ALARM_SHOWN_S = 8.0

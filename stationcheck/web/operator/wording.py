@@ -14,7 +14,7 @@ from dataclasses import dataclass
 
 from stationcheck.core.plan import CheckStep, ConfirmStep, StationPlan, Step
 from stationcheck.overlay.scene import short_names
-from stationcheck.pipeline.station_view import (
+from stationcheck.overlay.station_view import (
     ALARM_WORDS,
     Meaning,
     StationView,

@@ -3,7 +3,7 @@ steps, teaching of check zones, live validation, dry run and a comment-keeping s
 
 from __future__ import annotations
 
-from stationcheck.web.setup.routes import SetupApp, build_router
+from stationcheck.web.setup.setup_routes import SetupApp, build_router
 from stationcheck.web.setup.workspace import SetupSession, Workspace, default_root
 
 __all__ = ["SetupApp", "SetupSession", "Workspace", "build_router", "default_root"]

@@ -24,9 +24,9 @@ from stationcheck.core.observations import Observation, PictureState, UnitStarte
 from stationcheck.core.plan import StationPlan
 from stationcheck.errors import InputFileError
 from stationcheck.overlay.annotator import Annotator
-from stationcheck.pipeline.decisions import DecisionCore, DecisionStep
+from stationcheck.overlay.station_view import StationViewBuilder
+from stationcheck.pipeline.decision_core import DecisionCore, DecisionStep
 from stationcheck.pipeline.frame_path import FrameResult
-from stationcheck.pipeline.station_view import StationViewBuilder
 from stationcheck.web.server import WebError
 
 log = logging.getLogger(__name__)

@@ -6,10 +6,10 @@ from __future__ import annotations
 from pathlib import Path
 from typing import Any
 
+from stationcheck.config.error_wording import format_path
 from stationcheck.config.parts import parts_of_data
 from stationcheck.config.schema import ID_PATTERN
 from stationcheck.config.station_files import MANIFEST_NAME, teaching_folder
-from stationcheck.config.wording import format_path
 from stationcheck.core.plan import ZoneSpec
 from stationcheck.errors import StationcheckError
 from stationcheck.judgements import teaching

@@ -19,12 +19,12 @@ from stationcheck.core.observations import Observation, ZoneObservation
 from stationcheck.core.outputs import Output
 from stationcheck.core.plan import ConfirmStep, FastenStep, StationPlan, ZoneSpec
 from stationcheck.core.records import Frame, ToolPose
-from stationcheck.pipeline.decisions import DecisionCore, DecisionStep
+from stationcheck.pipeline.decision_core import DecisionCore, DecisionStep
 from stationcheck.pipeline.frame_path import FrameResult, StageTimes
 from stationcheck.web.access import AccessRule
 from stationcheck.web.listener import WebServer
 from stationcheck.web.operator.feed import OperatorFeed, ScreenFrame
-from stationcheck.web.operator.routes import operator_router
+from stationcheck.web.operator.operator_routes import operator_router
 from tests.pipeline.conftest import CONFIG, INPUTS, TRUTH, VIDEO, needs_sample
 
 __all__ = ["CONFIG", "INPUTS", "TRUTH", "VIDEO", "needs_sample"]

@@ -17,8 +17,8 @@ from stationcheck.core import event_kinds as ev
 from stationcheck.core.observations import OperatorAck, UnitStarted
 from stationcheck.core.plan import StationPlan
 from stationcheck.web.operator.feed import OperatorFeed
+from stationcheck.web.operator.operator_routes import PART_HEAD
 from stationcheck.web.operator.pacing import RealTimePacer
-from stationcheck.web.operator.routes import PART_HEAD
 from tests.web.operator.conftest import Served, Station, blank_image, wait_for, wait_frame
 
 
@@ -261,7 +261,7 @@ def test_a_unit_continued_after_a_restart_shows_the_positions_done_before(
     from types import SimpleNamespace
 
     from stationcheck.cli import main
-    from stationcheck.pipeline.decisions import DecisionCore
+    from stationcheck.pipeline.decision_core import DecisionCore
     from stationcheck.store.sqlite_log import SqliteStepLog
     from stationcheck.web.operator.screen import OperatorScreen
     from tests.web.operator.conftest import CONFIG, INPUTS, TRUTH, VIDEO
@@ -311,7 +311,7 @@ def test_a_feed_closed_at_once_after_the_end_still_says_how_the_run_ended(
         confirm_plan: StationPlan) -> None:
     """A replay without a terminal closes its screen right after the run: the stream's last
     state must still be the ended one, or the page would read it as a lost connection."""
-    from stationcheck.web.operator.routes import state_events
+    from stationcheck.web.operator.operator_routes import state_events
 
     feed = OperatorFeed(confirm_plan, mode="replay")
     feed.on_frame(Station(confirm_plan).frame())

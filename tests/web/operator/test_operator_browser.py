@@ -18,7 +18,7 @@ from playwright.sync_api import expect
 from stationcheck.core.observations import UnitStarted
 from stationcheck.core.outputs import Output
 from stationcheck.core.plan import StationPlan
-from stationcheck.pipeline.report import ReplayReport
+from stationcheck.pipeline.replay_report import ReplayReport
 from stationcheck.pipeline.session import ReplaySettings, run_replay
 from stationcheck.web.operator.feed import OperatorFeed
 from tests.web.operator.conftest import (

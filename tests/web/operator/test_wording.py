@@ -10,7 +10,7 @@ import pytest
 from stationcheck.core.observations import PositionRef
 from stationcheck.core.outputs import Guidance, Output
 from stationcheck.core.plan import CheckStep, PickStep, StationPlan, ZoneSpec
-from stationcheck.pipeline.station_view import StationView, TighteningShown, UnitShown
+from stationcheck.overlay.station_view import StationView, TighteningShown, UnitShown
 from stationcheck.web.operator.screen_state import alarms_shown
 from stationcheck.web.operator.wording import Wording, condition_alarm
 from tests.web.operator.conftest import square

@@ -9,10 +9,10 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
-from stationcheck.pipeline.report import ReplayReport
+from stationcheck.pipeline.replay_report import ReplayReport
 from stationcheck.web.access import AccessRule
 from stationcheck.web.listener import WebServer
-from stationcheck.web.review import ReviewSource, build_review_router
+from stationcheck.web.review_screen import ReviewSource, build_review_router
 
 
 @dataclass

@@ -5,7 +5,7 @@ from __future__ import annotations
 from stationcheck.config import load_config
 from stationcheck.core.observations import PictureState
 from stationcheck.demo_station.files import DEMO_CONFIG
-from stationcheck.pipeline.decisions import DecisionCore
+from stationcheck.pipeline.decision_core import DecisionCore
 from stationcheck.web.setup.dry_run import DryRunRecorder
 
 

@@ -22,7 +22,7 @@ from stationcheck.web.access import AccessRule
 from stationcheck.web.listener import WebServer
 from stationcheck.web.setup import SetupSession, Workspace
 from stationcheck.web.setup.labelling import LabelService, TrainCommand
-from stationcheck.web.setup.routes import SetupApp
+from stationcheck.web.setup.setup_routes import SetupApp
 from tests.web.setup.conftest import DEMO_VIDEO, REPO
 
 CLIP_FIRST = 2840  # the tool is in view until sample frame 2898, then out of view

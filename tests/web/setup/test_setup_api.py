@@ -171,7 +171,7 @@ def test_dry_run_refuses_a_config_with_errors(setup_server: ServerFactory) -> No
 
 def test_a_check_reads_the_zones_and_steps_once(monkeypatch: pytest.MonkeyPatch) -> None:
     """The page's check and its drawing share one reading of the document's parts."""
-    from stationcheck.config import parts, validation
+    from stationcheck.config import config_check, parts
     from stationcheck.demo_station.files import DEMO_CONFIG
     from stationcheck.web.setup import checking
 
@@ -182,7 +182,7 @@ def test_a_check_reads_the_zones_and_steps_once(monkeypatch: pytest.MonkeyPatch)
         calls.append(1)
         return real(data)
 
-    monkeypatch.setattr(validation, "parts_of_data", counted)
+    monkeypatch.setattr(config_check, "parts_of_data", counted)
     monkeypatch.setattr(checking, "parts_of_data", counted)
     data = yaml.safe_load(DEMO_CONFIG.read_text(encoding="utf-8"))
     page = checking.check_for_page(data, DEMO_CONFIG.parent, "demo")

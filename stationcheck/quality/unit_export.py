@@ -22,7 +22,7 @@ from stationcheck.core.result_words import VOCABULARY_NOTE, unit_word
 from stationcheck.quality.period import format_time
 from stationcheck.shown_text import csv_cell
 from stationcheck.store import queries
-from stationcheck.store.records import AlarmRow, StepRow, UnitQuery, UnitRow
+from stationcheck.store.log_records import AlarmRow, StepRow, UnitQuery, UnitRow
 
 EXPORT_PAGE_UNITS = 1000
 TORQUE_DIGITS = 2  # 0.01 N·m

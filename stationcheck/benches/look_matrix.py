@@ -15,7 +15,7 @@ against the ground truth:
 
 A cell passes when all four are 0. It "runs" when the station judged it throughout, and
 "cannot judge" when it said so instead (then it must stay inhibited). Run the whole grid with
-``python -m stationcheck.judgements.look_matrix`` (several minutes).
+``python -m stationcheck.benches.look_matrix`` (several minutes).
 """
 
 from __future__ import annotations
@@ -37,12 +37,12 @@ from stationcheck.demo_station.files import DEMO_CONFIG, REPO_ROOT
 from stationcheck.demo_station.look import WARM_CAST_BGR, Look
 from stationcheck.demo_station.sample_video import FrameRenderer, produce
 from stationcheck.judgements.station import StationJudgements
-from stationcheck.pipeline.decisions import DecisionCore
+from stationcheck.pipeline.decision_core import DecisionCore
+from stationcheck.pipeline.decision_trace import RunTrace
 from stationcheck.pipeline.frame_path import FramePath
 from stationcheck.pipeline.judging import StationImageJudge
 from stationcheck.pipeline.loop import run_loop
 from stationcheck.pipeline.station_inputs import InputSchedule, parse_input
-from stationcheck.pipeline.trace import RunTrace
 from stationcheck.pipeline.truth_sidecar import BIN_FLAGS, TruthTable, truth_detector
 
 SCENES_DIR = REPO_ROOT / "sample_video" / "look_scenes"

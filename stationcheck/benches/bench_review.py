@@ -20,10 +20,10 @@ from pathlib import Path
 from typing import TYPE_CHECKING
 from urllib.parse import urlencode
 
-from stationcheck.store.bench import percentile, timed_ms
+from stationcheck.benches.bench_store import percentile, timed_ms
 
 if TYPE_CHECKING:
-    from stationcheck.commands.bench import BenchOptions, BenchRow
+    from stationcheck.benches.measuring import BenchOptions, BenchRow
 
 logger = logging.getLogger(__name__)
 
@@ -86,13 +86,13 @@ class _Client:
 def measure(options: BenchOptions) -> list[BenchRow]:
     import json
 
-    from stationcheck.commands.bench import BenchRow, resident_memory_mb
-    from stationcheck.quality import export
-    from stationcheck.store.records import UnitQuery
+    from stationcheck.benches.measuring import BenchRow, resident_memory_mb
+    from stationcheck.quality import unit_export
+    from stationcheck.store.log_records import UnitQuery
     from stationcheck.store.sqlite_log import SqliteStepLog
     from stationcheck.web.access import AccessRule
     from stationcheck.web.listener import WebServer
-    from stationcheck.web.review import ReviewSource, build_review_router
+    from stationcheck.web.review_screen import ReviewSource, build_review_router
 
     path, units = bench_log_path()
     prepare_s = ensure_log(path, units)
@@ -193,7 +193,7 @@ def measure(options: BenchOptions) -> list[BenchRow]:
             sum(
                 chunk.count("\n")
                 for chunk in islice(
-                    export.units_csv(log.connection, UnitQuery(order="oldest")), 200
+                    unit_export.units_csv(log.connection, UnitQuery(order="oldest")), 200
                 )
             )
             - 1

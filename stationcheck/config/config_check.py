@@ -10,13 +10,13 @@ from pydantic import ValidationError
 
 from stationcheck.config.bounds import lint_bounds
 from stationcheck.config.document import YamlDocument, read_yaml_file
+from stationcheck.config.error_wording import plain_errors
 from stationcheck.config.findings import CheckResult, Finding, sort_findings
 from stationcheck.config.geometry_lint import lint_geometry
 from stationcheck.config.parts import parts_of_data
 from stationcheck.config.reference_lint import lint_references
 from stationcheck.config.schema import StationConfig
 from stationcheck.config.station_files import lint_files
-from stationcheck.config.wording import plain_errors
 from stationcheck.errors import ConfigError
 
 logger = logging.getLogger(__name__)

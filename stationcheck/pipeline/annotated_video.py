@@ -22,10 +22,10 @@ import cv2
 from stationcheck.core.plan import StationPlan
 from stationcheck.errors import InputFileError
 from stationcheck.overlay.annotator import Annotator
+from stationcheck.overlay.station_view import StationView, StationViewBuilder
 from stationcheck.overlay.symbols import Image
-from stationcheck.pipeline.decisions import DecisionStep
+from stationcheck.pipeline.decision_core import DecisionStep
 from stationcheck.pipeline.frame_path import FrameResult
-from stationcheck.pipeline.station_view import StationView, StationViewBuilder
 
 logger = logging.getLogger(__name__)
 

@@ -11,7 +11,7 @@ from __future__ import annotations
 import sqlite3
 from collections.abc import Callable
 
-from stationcheck.store.transaction import write_transaction
+from stationcheck.store.write_transaction import write_transaction
 
 APPLICATION_ID = 0x53544C47  # "STLG": marks a file as a stationcheck step log
 

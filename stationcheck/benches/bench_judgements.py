@@ -20,11 +20,11 @@ import numpy as np
 from stationcheck.config import load_config
 from stationcheck.config.schema import StationConfig
 from stationcheck.demo_station.files import DEMO_CONFIG, SAMPLE_VIDEO
+from stationcheck.judgements.judgement_trace import JudgementTrace, run_judgements, video_frames
 from stationcheck.judgements.station import COST_NAMES, StationJudgements
-from stationcheck.judgements.trace import JudgementTrace, run_judgements, video_frames
 
 if TYPE_CHECKING:
-    from stationcheck.commands.bench import BenchOptions, BenchRow
+    from stationcheck.benches.measuring import BenchOptions, BenchRow
 
 logger = logging.getLogger(__name__)
 
@@ -82,7 +82,7 @@ def costs_of(trace: JudgementTrace) -> JudgementCosts:
 
 
 def measure(options: BenchOptions) -> list[BenchRow]:
-    from stationcheck.commands.bench import BenchRow
+    from stationcheck.benches.measuring import BenchRow
     from stationcheck.errors import InputFileError
 
     video = options.video or SAMPLE_VIDEO

@@ -12,7 +12,7 @@ from pathlib import Path
 
 import numpy as np
 
-from stationcheck.commands.bench import BenchOptions, BenchRow
+from stationcheck.benches.measuring import BenchOptions, BenchRow
 from stationcheck.demo_station.files import DEMO_CONFIG, SAMPLE_INPUTS, SAMPLE_VIDEO
 
 SECTION_NAME = "pipeline"

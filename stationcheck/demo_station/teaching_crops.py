@@ -6,7 +6,7 @@ stage, so none of them is a frame of the sample video: the sample video stays a 
 the taught check. Regenerate the committed references (through the same library code as
 ``stationcheck teach``) with::
 
-    python -m stationcheck.judgements.demo_teaching configs/demo_station.yaml
+    python -m stationcheck.demo_station.teaching_crops configs/demo_station.yaml
 """
 
 from __future__ import annotations

@@ -17,8 +17,8 @@ import numpy as np
 import numpy.typing as npt
 
 from stationcheck.core.plan import ZoneSpec
-from stationcheck.demo_station.ground_truth import TruthRow, read_truth_csv
-from stationcheck.judgements.trace import JudgementTrace
+from stationcheck.judgements.judgement_trace import JudgementTrace
+from stationcheck.pipeline.truth_rows import TruthRow, read_truth_csv
 
 BoolArray = npt.NDArray[np.bool_]
 Interval = tuple[int, int]  # [start, end) in frames
@@ -244,11 +244,11 @@ def read_truth_columns(path: Path) -> dict[str, npt.NDArray[np.float64]]:
 
 
 def main(argv: Sequence[str] | None = None) -> int:
-    """``python -m stationcheck.judgements.truth_comparison``: the demo station's judgements on
+    """``python -m stationcheck.benches.truth_comparison``: the demo station's judgements on
     the sample video against its ground truth, event by event."""
     from stationcheck.config import load_config
+    from stationcheck.judgements.judgement_trace import run_judgements, video_frames
     from stationcheck.judgements.station import StationJudgements
-    from stationcheck.judgements.trace import run_judgements, video_frames
 
     root = Path(__file__).resolve().parents[2]
     parser = argparse.ArgumentParser(description=main.__doc__)

@@ -16,12 +16,12 @@ from typing import TYPE_CHECKING
 
 from stationcheck.core.events import Event
 from stationcheck.store.generator import generate_log
-from stationcheck.store.records import UnitQuery
+from stationcheck.store.log_records import UnitQuery
 from stationcheck.store.sqlite_log import SqliteStepLog, Synchronous
 from stationcheck.store.synthetic import UnitStream
 
 if TYPE_CHECKING:
-    from stationcheck.commands.bench import BenchOptions, BenchRow
+    from stationcheck.benches.measuring import BenchOptions, BenchRow
 
 logger = logging.getLogger(__name__)
 
@@ -135,7 +135,7 @@ def measure_queries(path: Path, repeats: int = 20) -> dict[str, QueryTiming]:
 
 
 def measure(options: BenchOptions) -> list[BenchRow]:
-    from stationcheck.commands.bench import BenchRow
+    from stationcheck.benches.measuring import BenchRow
 
     rows: list[BenchRow] = []
     with tempfile.TemporaryDirectory(prefix="stationcheck-bench-") as folder:

@@ -27,10 +27,10 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from stationcheck.store.bench import percentile, timed_ms
+from stationcheck.benches.bench_store import percentile, timed_ms
 
 if TYPE_CHECKING:
-    from stationcheck.commands.bench import BenchOptions, BenchRow
+    from stationcheck.benches.measuring import BenchOptions, BenchRow
     from stationcheck.plant.throwaway import Cluster
 
 logger = logging.getLogger(__name__)
@@ -104,20 +104,20 @@ def _copy_station(admin: Any, source: str, target: str, shift_s: float) -> None:
 
 
 def _fill(cluster: Cluster, stations: int, units: int, forwarded: int) -> dict[str, float]:
-    from stationcheck.plant import connect, schema
+    from stationcheck.plant import connect, plant_schema
     from stationcheck.plant.fold import fold_station
 
     log = _station_log(units)
     url = cluster.url()
     admin: Any
     with connect.connect(url) as admin:
-        schema.migrate(admin)
+        plant_schema.migrate(admin)
         names = [f"st-{n:03d}" for n in range(1, stations + 1)]
         roles = {}
         for n, sid in enumerate(names):
             line = f"line-{n % 10 + 1}"
             if n < forwarded:
-                roles[sid] = schema.add_station(
+                roles[sid] = plant_schema.add_station(
                     admin, sid, line, "demo-plant", role_password=cluster.password
                 )
             else:
@@ -158,10 +158,10 @@ def _fill(cluster: Cluster, stations: int, units: int, forwarded: int) -> dict[s
 
 
 def _review_rows(cluster: Cluster, stations: int) -> list[BenchRow]:
-    from stationcheck.commands.bench import BenchRow
+    from stationcheck.benches.measuring import BenchRow
     from stationcheck.web.access import AccessRule
     from stationcheck.web.listener import WebServer
-    from stationcheck.web.review import build_review_router, review_source
+    from stationcheck.web.review_screen import build_review_router, review_source
 
     server = WebServer(
         build_review_router(review_source(cluster.url())), "127.0.0.1", 0, AccessRule(None)
@@ -222,18 +222,18 @@ def _review_rows(cluster: Cluster, stations: int) -> list[BenchRow]:
 
 
 def _live_rows(options: BenchOptions, cluster: Cluster) -> list[BenchRow]:
-    from stationcheck.commands.bench import BenchRow
-    from stationcheck.live.bench import DEFAULT_FRAMES, run_on_loopback
+    from stationcheck.benches.bench_live import DEFAULT_FRAMES, run_on_loopback
+    from stationcheck.benches.measuring import BenchRow
 
     frames = options.frames_or(DEFAULT_FRAMES)
     results: dict[str, np.ndarray[Any, Any]] = {}
     context = multiprocessing.get_context("spawn")
-    from stationcheck.plant import schema
+    from stationcheck.plant import plant_schema
 
     with cluster.connect_admin() as admin:
         urls = {
             sid: cluster.url(
-                schema.add_station(
+                plant_schema.add_station(
                     admin, sid, "line-0", "demo-plant", role_password=cluster.password
                 )
             )
@@ -292,7 +292,7 @@ def _bounce(cluster: Cluster, run_s: float) -> None:
 
 
 def measure(options: BenchOptions) -> list[BenchRow]:
-    from stationcheck.commands.bench import BenchRow
+    from stationcheck.benches.measuring import BenchRow
     from stationcheck.plant.throwaway import throwaway_cluster
 
     stations = _setting("STATIONS", 100)

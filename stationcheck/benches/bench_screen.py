@@ -17,7 +17,7 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from stationcheck.commands.bench import BenchOptions, BenchRow
+from stationcheck.benches.measuring import BenchOptions, BenchRow
 from stationcheck.demo_station.files import DEMO_CONFIG
 
 if TYPE_CHECKING:
@@ -63,7 +63,7 @@ def _run_loop(frames: list[np.ndarray], feed: OperatorFeed | None, paced: bool =
     from stationcheck.config import load_config
     from stationcheck.core.observations import UnitStarted
     from stationcheck.judgements.station import StationJudgements
-    from stationcheck.pipeline.decisions import DecisionCore
+    from stationcheck.pipeline.decision_core import DecisionCore
     from stationcheck.pipeline.frame_path import FramePath
     from stationcheck.pipeline.judging import StationImageJudge
     from stationcheck.pipeline.loop import FrameSink, run_loop
@@ -117,8 +117,8 @@ def _watched(
 
 
 def measure(options: BenchOptions) -> list[BenchRow]:
+    from stationcheck.benches.bench_detector import load_frames
     from stationcheck.config import load_config
-    from stationcheck.vision.detector_bench import load_frames
 
     frames = load_frames(options.video, options.frames_or(300))
     plan = load_config(DEMO_CONFIG).to_plan()

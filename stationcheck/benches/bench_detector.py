@@ -15,7 +15,7 @@ from stationcheck.core.records import Frame
 from stationcheck.demo_station.files import SAMPLE_VIDEO
 
 if TYPE_CHECKING:
-    from stationcheck.commands.bench import BenchOptions, BenchRow
+    from stationcheck.benches.measuring import BenchOptions, BenchRow
 
 logger = logging.getLogger(__name__)
 
@@ -58,7 +58,7 @@ def load_frames(video: Path | None, count: int) -> list[npt.NDArray[np.uint8]]:
 
 
 def measure(options: BenchOptions) -> list[BenchRow]:
-    from stationcheck.commands.bench import BenchRow, resident_memory_mb
+    from stationcheck.benches.measuring import BenchRow, resident_memory_mb
     from stationcheck.vision.detector import load_detector
 
     images = load_frames(options.video, options.frames_or(DEFAULT_FRAMES))

@@ -12,7 +12,7 @@ from dataclasses import dataclass
 
 from stationcheck.core.events import Event
 from stationcheck.core.observations import ToolRunning, ZoneObservation
-from stationcheck.pipeline.decisions import DecisionStep
+from stationcheck.pipeline.decision_core import DecisionStep
 
 
 @dataclass(frozen=True)

@@ -21,7 +21,7 @@ from pathlib import Path
 
 import numpy as np
 
-from stationcheck.commands.bench import BenchOptions, BenchRow, resident_memory_mb
+from stationcheck.benches.measuring import BenchOptions, BenchRow, resident_memory_mb
 from stationcheck.demo_station.files import DEMO_CONFIG, SAMPLE_VIDEO
 
 SECTION_NAME = "flood"
@@ -64,8 +64,8 @@ class _Probe:
 def _run(options: BenchOptions, frames: int, flood: bool) -> tuple[_Probe, list[float], float]:
     import subprocess
 
+    from stationcheck.benches.bench_live import free_port, start_simulator
     from stationcheck.config import load_config
-    from stationcheck.live.bench import free_port, start_simulator
     from stationcheck.live.loop import LiveLoop
     from stationcheck.live.session import LiveSettings, run_live
     from stationcheck.web.operator.screen import OperatorScreen
@@ -90,7 +90,7 @@ def _run(options: BenchOptions, frames: int, flood: bool) -> tuple[_Probe, list[
                     [
                         sys.executable,
                         "-m",
-                        "stationcheck.web.flood_bench",
+                        "stationcheck.benches.bench_flood",
                         str(screen.server.server_address[1]),
                     ]
                 )

@@ -37,7 +37,7 @@ from typing import IO
 
 import numpy as np
 
-from stationcheck.commands.bench import BenchOptions, BenchRow, resident_memory_mb
+from stationcheck.benches.measuring import BenchOptions, BenchRow, resident_memory_mb
 from stationcheck.demo_station.files import DEMO_CONFIG, SAMPLE_INPUTS, SAMPLE_VIDEO
 from stationcheck.errors import SignalLinkError
 from stationcheck.live.loop import LiveLoop, LiveStats

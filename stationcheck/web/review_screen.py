@@ -13,13 +13,13 @@ from collections.abc import Iterator
 from pathlib import Path
 from typing import Any
 
-from stationcheck.quality import export
+from stationcheck.quality import unit_export as export
 from stationcheck.quality.charts_svg import figure_charts, trend_svg
 from stationcheck.quality.figures import StationFigures
 from stationcheck.quality.json_views import figures_dict, trend_dict, trend_findings
 from stationcheck.quality.period import Period
-from stationcheck.quality.report import build_report, log_is_demo
 from stationcheck.quality.report_units import unit_models
+from stationcheck.quality.review_report import build_report, log_is_demo
 from stationcheck.quality.rollup import FigureCache
 from stationcheck.quality.trends import (
     DEFAULT_POINTS,
@@ -28,7 +28,7 @@ from stationcheck.quality.trends import (
     position_trend,
 )
 from stationcheck.store import queries
-from stationcheck.store.records import (
+from stationcheck.store.log_records import (
     RESULT_FILTERS,
     UNIT_ORDERS,
     AlarmRow,
