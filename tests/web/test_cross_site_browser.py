@@ -169,7 +169,8 @@ def test_another_local_site_cannot_write_to_any_screen(
     assert [(c["name"], c["httpOnly"], c["sameSite"]) for c in cookies] == [
         (tokened.server.cookie_name, True, "Strict")]
     targets = [f"{s.origin}{path}" for s in screens for path in s.writes]
-    assert len(targets) == 2 * 8 + 1 + 2  # setup's eight writes twice, the ack, two reviews
+    # setup's thirteen writes (five are the Label tab's) twice, the ack, two reviews
+    assert len(targets) == 2 * 13 + 1 + 2
     attacker = serve_attack_page(targets)
     try:
         page.goto(f"http://127.0.0.1:{attacker.server_address[1]}/")
