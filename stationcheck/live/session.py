@@ -15,8 +15,9 @@ from stationcheck.config import StationConfig, load_config
 from stationcheck.core.observations import PositionRef
 from stationcheck.errors import InputFileError, first_line
 from stationcheck.live.grabber import FrameGrabber, SourceOpener
-from stationcheck.live.loop import LiveLoop, LiveStats
+from stationcheck.live.linked_station import LiveLoop
 from stationcheck.live.watchdog import WatchdogLimits
+from stationcheck.pipeline.frame_loop import LoopStats
 from stationcheck.plc.address_map import address_map_from
 from stationcheck.plc.link import ConsoleLink, SignalLink
 from stationcheck.plc.session import SessionSettings
@@ -107,7 +108,7 @@ def link_limits(config: StationConfig, timeout_ms: float | None = None) -> Watch
 
 
 def run_live(settings: LiveSettings, should_stop: Callable[[], bool] = lambda: False,
-             on_ready: Callable[[LiveLoop], None] | None = None) -> LiveStats:
+             on_ready: Callable[[LiveLoop], None] | None = None) -> LoopStats:
     from stationcheck.judgements.station import StationJudgements
     from stationcheck.pipeline.decisions import DecisionCore
     from stationcheck.pipeline.evidence import EvidenceWriter, prune_evidence

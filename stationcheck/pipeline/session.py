@@ -28,10 +28,10 @@ from stationcheck.pipeline.comparison import (
 from stationcheck.pipeline.decisions import DecisionCore, StepSink
 from stationcheck.pipeline.evidence import EvidenceWriter, prune_evidence
 from stationcheck.pipeline.expected import Decision, decisions_from_events, read_expected
+from stationcheck.pipeline.frame_loop import FrameSink, LoopStats, Progress, run_loop
 from stationcheck.pipeline.frame_path import FramePath
 from stationcheck.pipeline.judging import ImageJudge
 from stationcheck.pipeline.log_sink import StepLogSink, rework_positions_from_log
-from stationcheck.pipeline.loop import FrameSink, LoopStats, Progress, run_loop
 from stationcheck.pipeline.observation_stream import ObservationRecorder, read_observations
 from stationcheck.pipeline.report import ReplayReport
 from stationcheck.pipeline.station_inputs import InputSchedule, read_station_inputs

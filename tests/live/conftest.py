@@ -11,7 +11,7 @@ import numpy as np
 from stationcheck.core.plan import FastenStep, StationPlan, Thresholds, ZoneSpec
 from stationcheck.core.records import Frame
 from stationcheck.live.grabber import FrameGrabber
-from stationcheck.live.loop import LiveLoop
+from stationcheck.live.linked_station import LiveLoop
 from stationcheck.live.watchdog import WatchdogLimits
 from stationcheck.pipeline.decisions import DecisionCore
 from stationcheck.pipeline.frame_path import FramePath

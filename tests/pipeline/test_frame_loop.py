@@ -21,6 +21,7 @@ from stationcheck.core.plan import FastenStep, StationPlan, Thresholds, ZoneSpec
 from stationcheck.core.records import Frame, Keypoints
 from stationcheck.errors import InputFileError, ModelError
 from stationcheck.pipeline.decisions import DecisionCore, DecisionStep
+from stationcheck.pipeline.frame_loop import run_loop
 from stationcheck.pipeline.frame_path import FramePath, FrameResult
 from stationcheck.pipeline.log_sink import (
     STOPPED_ON_ERROR,
@@ -28,7 +29,6 @@ from stationcheck.pipeline.log_sink import (
     StepLogSink,
     rework_positions_from_log,
 )
-from stationcheck.pipeline.loop import run_loop
 from stationcheck.pipeline.station_inputs import InputSchedule
 from stationcheck.pipeline.trace import RunTrace
 from stationcheck.sources.memory_source import MemoryFrameSource
@@ -213,7 +213,7 @@ def test_a_run_stopped_on_request_is_logged_as_a_stop_not_an_error(tmp_path: Pat
     because the run was stopped, with no error attached."""
     class StopAt:  # a frame sink that is the operator pressing Ctrl-C at frame 30
         def on_frame(self, result: FrameResult) -> None:
-            if result.frame.index == 30:
+            if result.sighting.frame.index == 30:
                 raise KeyboardInterrupt
 
         def on_stop(self, error: BaseException | None) -> None:
