@@ -103,8 +103,8 @@ def run(inputs: Sequence[Observation], detector: ReplayKeypointDetector, count: 
 
 def entered(collect: Collect, zone: str, after: int = 0) -> int:
     """The first frame (from ``after``) whose zone observation puts the tip in ``zone``."""
-    return next(f.frame.index for f in collect.frames
-                if f.frame.index >= after and f.zone.zone == zone)
+    return next(f.sighting.frame.index for f in collect.frames
+                if f.sighting.frame.index >= after and f.sighting.zone.zone == zone)
 
 
 def edges(trace: RunTrace) -> list[tuple[int, str, str | None]]:
@@ -148,7 +148,7 @@ def test_a_rework_pass_gets_its_positions_from_the_log_and_enables_only_those() 
     # back at B the tool is enabled after the dwell; at A (done in the first pass) never
     assert rework_edges[0] == (entered(collect, "B", after=105) + 6, "tool_enabled", "B")
     assert all(zone != "A" for frame, kind, zone in rework_edges if kind == "tool_enabled")
-    assert not any(f.output.tool_enabled for f in collect.frames if f.frame.index >= 150)
+    assert not any(f.output.tool_enabled for f in collect.frames if f.sighting.frame.index >= 150)
 
 
 class FlakyDetector:
@@ -169,7 +169,7 @@ class FlakyDetector:
 def test_a_detector_failure_inhibits_until_the_next_good_frame() -> None:
     detector = FlakyDetector(tip_track([(0, AT_A)], 40), failing={20, 21})
     trace, collect = run([UnitStarted(t(1), "U-1")], detector, 40)
-    by_frame = {f.frame.index: f.output for f in collect.frames}
+    by_frame = {f.sighting.frame.index: f.output for f in collect.frames}
     assert by_frame[19].tool_enabled
     assert not by_frame[20].tool_enabled and by_frame[20].enable_reason == "detector_fault"
     assert "detector_fault" in by_frame[21].alarms
@@ -292,7 +292,7 @@ def test_the_loop_decides_what_the_judging_thread_found_as_one_frame_at_a_time_w
     assert step_kinds(pipelined.steps) == step_kinds(one_by_one.steps)
     kinds = [kind for kind, _, _ in step_kinds(pipelined.steps)]
     assert kinds.count("CameraMoved") == 4 and kinds.count("TighteningResult") == 2
-    assert [f.frame.index for f in pipelined.frames] == list(range(80))
+    assert [f.sighting.frame.index for f in pipelined.frames] == list(range(80))
     assert [f.output for f in pipelined.frames] == [f.output for f in one_by_one.frames]
     assert [len(f.steps) for f in pipelined.frames] == [len(f.steps) for f in one_by_one.frames]
 
@@ -305,7 +305,7 @@ def test_a_judgement_that_raises_stops_the_loop_inhibited_with_its_error() -> No
     with pytest.raises(RuntimeError, match="judge broke on frame 20"):
         run_loop(MemoryFrameSource(images(40), FPS), path, InputSchedule(BUMP_INPUTS), [collect])
     assert len(collect.stopped) == 1 and isinstance(collect.stopped[0], RuntimeError)
-    assert [f.frame.index for f in collect.frames] == list(range(20))  # up to the broken one
+    assert [f.sighting.frame.index for f in collect.frames] == list(range(20))  # up to the broken one
     assert path._executor is None  # the judging thread was stopped
 
 
@@ -316,6 +316,6 @@ def test_deciding_a_frame_before_the_previous_one_is_settled_is_refused() -> Non
     with pytest.raises(RuntimeError, match="settle the previous frame"):
         path.decide(path.sight(frames[1]))
     first = path.settle()
-    assert first is not None and first.frame.index == 0
+    assert first is not None and first.sighting.frame.index == 0
     assert path.settle() is None
     path.close()
