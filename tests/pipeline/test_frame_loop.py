@@ -33,7 +33,7 @@ from stationcheck.pipeline.station_inputs import InputSchedule
 from stationcheck.pipeline.trace import RunTrace
 from stationcheck.sources.memory_source import MemoryFrameSource
 from stationcheck.store import MemoryStepLog, SqliteStepLog
-from stationcheck.vision.fake_detector import ReplayKeypointDetector
+from stationcheck.vision.table_detector import TableKeypointDetector
 
 FPS = 30.0
 AT_A = (115.0, 115.0)
@@ -53,13 +53,13 @@ PLAN = StationPlan(
 
 
 def tip_track(spans: Sequence[tuple[int, tuple[float, float] | None]], count: int
-              ) -> ReplayKeypointDetector:
+              ) -> TableKeypointDetector:
     """Tip positions from frame spans ``(first frame, position or None = unseen)``."""
     table: dict[int, dict[str, tuple[float, float, float]]] = {}
     for frame in range(count):
         where = [pos for first, pos in spans if first <= frame][-1]
         table[frame] = {"tip": (*where, 0.99)} if where is not None else {}
-    return ReplayKeypointDetector(table, ("tip",))
+    return TableKeypointDetector(table, ("tip",))
 
 
 def images(count: int) -> list[np.ndarray]:
@@ -88,7 +88,7 @@ class Collect:
         self.stopped.append(error)
 
 
-def run(inputs: Sequence[Observation], detector: ReplayKeypointDetector, count: int,
+def run(inputs: Sequence[Observation], detector: TableKeypointDetector, count: int,
         log: MemoryStepLog | SqliteStepLog | None = None,
         source: MemoryFrameSource | None = None) -> tuple[RunTrace, Collect]:
     log = log if log is not None else MemoryStepLog()
@@ -156,7 +156,7 @@ class FlakyDetector:
 
     keypoint_names = ("tip",)
 
-    def __init__(self, inner: ReplayKeypointDetector, failing: set[int]) -> None:
+    def __init__(self, inner: TableKeypointDetector, failing: set[int]) -> None:
         self.inner = inner
         self.failing = failing
 
