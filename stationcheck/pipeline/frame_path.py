@@ -16,7 +16,11 @@ sequencer, always on the caller's thread.
 
 :class:`FramePath` holds the tracker and zone states for the caller's loop and hands every
 observation to a :class:`~stationcheck.pipeline.decisions.DecisionCore`. It does not know where
-frames come from or where outputs go.
+frames come from or where outputs go (:mod:`~stationcheck.pipeline.frame_loop` drives it for
+replay and live alike). One record per stage boundary leaves it: a :class:`Sighting` (what the
+detector, tracker and zones saw) and a :class:`FrameResult` (that sighting with the steps the
+sequencer took for it); the later holds the earlier, nothing is copied. ``model_file`` names
+the model behind the detector (see ``docs/frame-path.md``).
 
 A detector that raises on a frame becomes a ``DetectorFault`` observation (the tool is
 inhibited); after ``max_detector_faults`` unexpected failures in a row the path gives up with a
