@@ -167,11 +167,12 @@ class LiveLoop(FrameLoop):
         limits = limits or WatchdogLimits()
         self.grabber = grabber
         self.worker = worker
-        self.linked = LinkedStation(path.decisions, worker, limits)
+        self.linked = LinkedStation(path.decisions, worker, limits)  # also ``self.station``
         self.watchdogs = self.linked.watchdogs
         super().__init__(path, GrabberFeed(grabber, limits.cycle_s), self.linked,
                          frame_sinks=frame_sinks, on_frame_taken=on_frame_taken)
 
     @property
     def _last_frame_at(self) -> float:
+        """When the loop last had a frame in hand (perf_counter)."""
         return self.linked.last_frame_at

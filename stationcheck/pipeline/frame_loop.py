@@ -150,9 +150,6 @@ class LoopStats:
     def medians_ms(self) -> dict[str, float]:
         return {name: statistics.median(values) for name, values in self.stage_ms.items() if values}
 
-    def process_ms_median(self) -> float:
-        return statistics.median(self.process_ms) if self.process_ms else 0.0
-
     def pipeline_fps(self, excluded: Sequence[str] = ("outputs",)) -> float:
         """Frames per second of the decision path (reading frames to the logged decision),
         leaving out the optional outputs such as an annotated video."""
