@@ -163,7 +163,7 @@ def _replay_video(settings: ReplaySettings, prepared: _Prepared,
         if writer is not None:
             writer.raise_if_failed()
         return _report(settings, prepared, outputs, stats, settings.first_frame,
-                       detector_name=_detector_name(settings, detector),
+                       detector_name=_detector_name(settings, path.model_file),
                        judges_name=settings.judges)
 
 
@@ -241,11 +241,10 @@ def _detector(settings: ReplaySettings, config: StationConfig,
     return load_detector(path, threads=threads)
 
 
-def _detector_name(settings: ReplaySettings, detector: object) -> str:
+def _detector_name(settings: ReplaySettings, model_file: Path | None) -> str:
     if settings.detector == "truth":
         return "ground truth (no model)"
-    coarse = getattr(detector, "coarse", None)
-    return str(getattr(coarse, "path", "model"))
+    return str(model_file or "model")
 
 
 def _judges(settings: ReplaySettings, config: StationConfig, plan: StationPlan,
