@@ -57,19 +57,8 @@ DEFAULT_MAX_DETECTOR_FAULTS = 30
 
 
 @dataclass(frozen=True)
-class StageTimes:
-    """Wall time per stage for one frame, in milliseconds."""
-
-    detect_ms: float = 0.0
-    track_ms: float = 0.0
-    judge_ms: float = 0.0
-    decide_ms: float = 0.0
-
-
-@dataclass(frozen=True)
 class Sighting:
-    """Stage boundary 1: one frame as the detector, tracker and zones saw it; nothing is
-    decided yet."""
+    """Seen: one frame as the detector, tracker and zones saw it; nothing is decided yet."""
 
     frame: Frame
     keypoints: Keypoints | None  # None when the detector failed on this frame
@@ -82,25 +71,23 @@ class Sighting:
 
 @dataclass(frozen=True)
 class FrameResult:
-    """Stage boundary 2: what the sequencer decided for one sighting (its zone observation's
-    step, then the image judgements' steps). The frame sinks (annotated video, operator
-    screen) draw from it; what the sequencer wrote is in each step's events."""
+    """Frame done: what the sequencer decided for one sighting (its zone observation's step,
+    then the image judgements' steps). The frame sinks (annotated video, operator screen)
+    draw from it; what the sequencer wrote is in each step's events."""
 
     sighting: Sighting
     steps: tuple[DecisionStep, ...]
     judge_ms: float = 0.0
     decide_ms: float = 0.0
 
+    def __post_init__(self) -> None:
+        if not self.steps:
+            raise ValueError("a FrameResult needs at least the zone observation's step, got none")
+
     @property
     def output(self) -> Output:
         """The frame's last output: after its judgements' findings."""
         return self.steps[-1].output
-
-    @property
-    def times(self) -> StageTimes:
-        seen = self.sighting
-        return StageTimes(detect_ms=seen.detect_ms, track_ms=seen.track_ms,
-                          judge_ms=self.judge_ms, decide_ms=self.decide_ms)
 
 
 def model_file_of(detector: object) -> Path | None:

@@ -16,7 +16,7 @@ from stationcheck.core.records import Frame
 from stationcheck.errors import ModelError
 from stationcheck.pipeline.decisions import DecisionCore
 from stationcheck.pipeline.frame_loop import SAMPLES_KEPT, FrameLoop, GrabbedFrame, LoopStats
-from stationcheck.pipeline.frame_path import FramePath, Sighting, model_file_of
+from stationcheck.pipeline.frame_path import FramePath, FrameResult, Sighting, model_file_of
 from tests.pipeline.test_frame_loop import AT_A, PLAN, Collect, tip_track
 
 
@@ -109,6 +109,8 @@ def test_each_cycle_calls_the_station_side_in_the_loop_order() -> None:
     assert (stats.frames, stats.cycles, len(stats.process_ms)) == (2, 3, 2)
     assert [r.sighting.frame.index for r in collect.frames] == [0, 1]
     assert all(r.output is r.steps[-1].output for r in collect.frames)
+    with pytest.raises(ValueError, match="at least the zone observation's step"):
+        FrameResult(collect.frames[0].sighting, ())
 
 
 class BrokenDetector:
