@@ -130,7 +130,7 @@ class LoopStats:
     """Frames handled and where the time went (per-frame milliseconds, the last
     ``SAMPLES_KEPT`` of each series)."""
 
-    frames: int = 0  # frames whose decisions are complete, image judgements included
+    frames: int = 0  # frames decided (their image judgements' findings follow a frame later)
     cycles: int = 0  # loop turns, with or without a new frame
     wall_s: float = 0.0
     stage_ms: dict[str, deque[float]] = field(default_factory=dict)
@@ -176,6 +176,7 @@ class FrameLoop:
         self.progress = progress
         self.on_frame_taken = on_frame_taken  # sees each frame as taken, before anything else
         self.stats = LoopStats()
+        self.handed_on = 0  # frame results given to the frame sinks
         path.on_decided = station.on_decided  # the enable goes out before the judgements
 
     def run(self, should_stop: Callable[[], bool] = lambda: False) -> LoopStats:
@@ -213,6 +214,7 @@ class FrameLoop:
                     stats.add("inputs", (time.perf_counter() - t2) * 1e3)
                     station.deciding(sighting, in_hand_s)
                     path.decide(sighting)
+                    stats.frames += 1
                     station.decided(sighting, in_hand_s)
                     stats.process_ms.append((time.perf_counter() - taken_at) * 1e3)
                     station.cycle_done(in_hand_s)
@@ -242,14 +244,14 @@ class FrameLoop:
         for sink in self.frame_sinks:
             sink.on_frame(result)
         stats.add("outputs", (time.perf_counter() - t0) * 1e3)
-        stats.frames += 1
         seen = result.sighting
         stats.add("detect", seen.detect_ms)
         stats.add("track_zones", seen.track_ms)
         stats.add("judge", result.judge_ms)
         stats.add("decide_and_log", result.decide_ms)
+        self.handed_on += 1
         if self.progress is not None:
-            self.progress(stats.frames)
+            self.progress(self.handed_on)
 
 
 class SourceFeed:
