@@ -66,7 +66,7 @@ def _run(options: BenchOptions, frames: int, flood: bool) -> tuple[_Probe, list[
 
     from stationcheck.benches.bench_live import free_port, start_simulator
     from stationcheck.config import load_config
-    from stationcheck.live.loop import LiveLoop
+    from stationcheck.live.linked_station import LiveLoop
     from stationcheck.live.session import LiveSettings, run_live
     from stationcheck.web.operator.screen import OperatorScreen
 

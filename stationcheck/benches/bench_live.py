@@ -40,8 +40,8 @@ import numpy as np
 from stationcheck.benches.measuring import BenchOptions, BenchRow, resident_memory_mb
 from stationcheck.demo_station.files import DEMO_CONFIG, SAMPLE_INPUTS, SAMPLE_VIDEO
 from stationcheck.errors import SignalLinkError
-from stationcheck.live.loop import LiveLoop, LiveStats
-from stationcheck.pipeline.loop import FrameSink
+from stationcheck.live.linked_station import LiveLoop
+from stationcheck.pipeline.frame_loop import FrameSink, LoopStats
 
 SECTION_NAME = "live"
 SECTION_HELP = "live run on loopback: sample video -> outputs written to a simulator process"
@@ -133,7 +133,7 @@ def run_on_loopback(
     speed: float,
     sinks: tuple[FrameSink, ...] = (),
     log_path: Path | None = None,
-) -> tuple[LiveStats, LiveLoop]:
+) -> tuple[LoopStats, LiveLoop]:
     """One live run of the sample video at ``speed`` against a simulator process at the same
     speed; ``sinks`` are added to the loop's frame sinks; the step log goes to ``log_path``
     (default: a temporary file)."""

@@ -64,9 +64,9 @@ def _run_loop(frames: list[np.ndarray], feed: OperatorFeed | None, paced: bool =
     from stationcheck.core.observations import UnitStarted
     from stationcheck.judgements.station import StationJudgements
     from stationcheck.pipeline.decision_core import DecisionCore
+    from stationcheck.pipeline.frame_loop import FrameSink, run_loop
     from stationcheck.pipeline.frame_path import FramePath
     from stationcheck.pipeline.judging import StationImageJudge
-    from stationcheck.pipeline.loop import FrameSink, run_loop
     from stationcheck.pipeline.station_inputs import InputSchedule
     from stationcheck.sources.memory_source import MemoryFrameSource
     from stationcheck.vision.detector import load_detector
@@ -86,7 +86,7 @@ def _run_loop(frames: list[np.ndarray], feed: OperatorFeed | None, paced: bool =
     )
     schedule = InputSchedule([UnitStarted(t_s=0.0, serial="BENCH-000001")])
     stats = run_loop(MemoryFrameSource(frames, fps=CAMERA_FPS), path, schedule, sinks)
-    return stats.wall_fps
+    return stats.fps
 
 
 def _watched(

@@ -39,9 +39,9 @@ from stationcheck.demo_station.sample_video import FrameRenderer, produce
 from stationcheck.judgements.station import StationJudgements
 from stationcheck.pipeline.decision_core import DecisionCore
 from stationcheck.pipeline.decision_trace import RunTrace
+from stationcheck.pipeline.frame_loop import run_loop
 from stationcheck.pipeline.frame_path import FramePath
 from stationcheck.pipeline.judging import StationImageJudge
-from stationcheck.pipeline.loop import run_loop
 from stationcheck.pipeline.station_inputs import InputSchedule, parse_input
 from stationcheck.pipeline.truth_sidecar import BIN_FLAGS, TruthTable, truth_detector
 

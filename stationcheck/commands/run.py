@@ -17,7 +17,7 @@ from stationcheck.core import event_kinds as ev
 from stationcheck.core.result_words import SHOWN_RESULT, unit_word
 
 if TYPE_CHECKING:
-    from stationcheck.live.loop import LiveLoop
+    from stationcheck.live.linked_station import LiveLoop
     from stationcheck.pipeline.decision_core import DecisionStep
 
 
@@ -200,4 +200,4 @@ def summary(loop: LiveLoop) -> str:
 
         p50, p99 = np.percentile(worker.coil_latency_ms, [50, 99])  # as the benchmark does
         text += f", decision to enable coil p50 {p50:.1f} ms / p99 {p99:.1f} ms"
-    return f"{text}, heartbeat {stats.heartbeat}"
+    return f"{text}, heartbeat {loop.linked.heartbeat}"

@@ -1,3 +1,4 @@
-"""The live station run: frame grabber, live loop with watchdogs, and its set-up from a config."""
+"""The live station run: frame grabber, the frame loop's linked station (PLC link, clock,
+watchdogs), and its set-up from a config."""
 
 from __future__ import annotations

@@ -17,17 +17,12 @@ from dataclasses import dataclass
 
 from stationcheck.core.records import Frame
 from stationcheck.errors import first_line
+from stationcheck.pipeline.frame_loop import GrabbedFrame
 from stationcheck.sources.frame_source import FrameSource
 
 logger = logging.getLogger(__name__)
 
 SourceOpener = Callable[[], FrameSource]
-
-
-@dataclass(frozen=True)
-class GrabbedFrame:
-    frame: Frame
-    grabbed_at_s: float  # perf_counter when the grabber had it in hand
 
 
 @dataclass

@@ -14,8 +14,9 @@ from stationcheck.config import StationConfig, load_config
 from stationcheck.core.observations import PositionRef
 from stationcheck.errors import InputFileError, first_line
 from stationcheck.live.grabber import FrameGrabber, SourceOpener
-from stationcheck.live.loop import LiveLoop, LiveStats
+from stationcheck.live.linked_station import LiveLoop
 from stationcheck.live.watchdog import WatchdogLimits
+from stationcheck.pipeline.frame_loop import LoopStats
 from stationcheck.plc.link import SignalLink
 from stationcheck.plc.link_session import SessionSettings
 from stationcheck.plc.links import LinkSettings, open_link
@@ -94,7 +95,7 @@ def run_live(
     settings: LiveSettings,
     should_stop: Callable[[], bool] = lambda: False,
     on_ready: Callable[[LiveLoop], None] | None = None,
-) -> LiveStats:
+) -> LoopStats:
     from stationcheck.judgements.station import StationJudgements
     from stationcheck.pipeline.decision_core import DecisionCore
     from stationcheck.pipeline.evidence import EvidenceWriter, prune_evidence

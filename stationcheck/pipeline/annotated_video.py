@@ -97,18 +97,18 @@ class AnnotatedVideoWriter:
 
     def on_frame(self, result: FrameResult) -> None:
         self.raise_if_failed()
-        if result.frame.index % self.every:
+        if result.sighting.frame.index % self.every:
             return
-        pose = result.pose
+        pose = result.sighting.pose
         view = self.views.view(
             result.output,
-            frame_index=result.frame.index,
-            t_s=result.frame.t_s,
+            frame_index=result.sighting.frame.index,
+            t_s=result.sighting.frame.t_s,
             tip_px=pose.tip_px,
             rear_px=pose.rear_px,
             tip_seen=pose.seen,
         )
-        self._draw.queue.put((result.frame.image, view))
+        self._draw.queue.put((result.sighting.frame.image, view))
 
     def on_stop(self, error: BaseException | None) -> None:
         """Writes what is queued and closes the file (the frames up to a failure stay)."""

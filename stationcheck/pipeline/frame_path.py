@@ -16,7 +16,11 @@ sequencer, always on the caller's thread.
 
 :class:`FramePath` holds the tracker and zone states for the caller's loop and hands every
 observation to a :class:`~stationcheck.pipeline.decision_core.DecisionCore`. It does not know where
-frames come from or where outputs go.
+frames come from or where outputs go (:mod:`~stationcheck.pipeline.frame_loop` drives it for
+replay and live alike). One record per stage boundary leaves it: a :class:`Sighting` (what the
+detector, tracker and zones saw) and a :class:`FrameResult` (that sighting with the steps the
+sequencer took for it); the later holds the earlier, nothing is copied. ``model_file`` names
+the model behind the detector (see ``docs/frame-path.md``).
 
 A detector that raises on a frame becomes a ``DetectorFault`` observation (the tool is
 inhibited); after ``max_detector_faults`` unexpected failures in a row the path gives up with a
@@ -33,6 +37,7 @@ import time
 from collections.abc import Callable, Sequence
 from concurrent.futures import Future, ThreadPoolExecutor
 from dataclasses import dataclass, replace
+from pathlib import Path
 
 from stationcheck.core.observations import DetectorFault, Observation, ZoneObservation
 from stationcheck.core.outputs import Output
@@ -52,49 +57,45 @@ DEFAULT_MAX_DETECTOR_FAULTS = 30
 
 
 @dataclass(frozen=True)
-class StageTimes:
-    """Wall time per stage for one frame, in milliseconds."""
-
-    detect_ms: float = 0.0
-    track_ms: float = 0.0
-    judge_ms: float = 0.0
-    decide_ms: float = 0.0
-
-
-@dataclass(frozen=True)
-class FrameResult:
-    """What one frame produced; the overlay and the operator screen draw from it."""
-
-    frame: Frame
-    keypoints: Keypoints | None  # None when the detector failed on this frame
-    pose: ToolPose
-    zone: ZoneObservation
-    steps: tuple[DecisionStep, ...]  # the zone observation's step, then the judgements'
-    output: Output
-    times: StageTimes
-
-
-@dataclass(frozen=True)
 class Sighting:
-    """One frame as the detector, tracker and zones saw it, before any decision."""
+    """Seen: one frame as the detector, tracker and zones saw it; nothing is decided yet."""
 
     frame: Frame
     keypoints: Keypoints | None  # None when the detector failed on this frame
     fault: DetectorFault | None
     pose: ToolPose
     zone: ZoneObservation
-    detect_ms: float
-    track_ms: float
+    detect_ms: float = 0.0
+    track_ms: float = 0.0
 
 
-@dataclass
-class _Pending:
-    """A decided frame whose judgements' findings are not decided yet."""
+@dataclass(frozen=True)
+class FrameResult:
+    """Frame done: what the sequencer decided for one sighting (its zone observation's step,
+    then the image judgements' steps). The frame sinks (annotated video, operator screen)
+    draw from it; what the sequencer wrote is in each step's events."""
 
     sighting: Sighting
-    first: DecisionStep
-    decide_ms: float
-    judged: Future[tuple[list[Observation], float]] | None = None
+    steps: tuple[DecisionStep, ...]
+    judge_ms: float = 0.0
+    decide_ms: float = 0.0
+
+    def __post_init__(self) -> None:
+        if not self.steps:
+            raise ValueError("a FrameResult needs at least the zone observation's step, got none")
+
+    @property
+    def output(self) -> Output:
+        """The frame's last output: after its judgements' findings."""
+        return self.steps[-1].output
+
+
+def model_file_of(detector: object) -> Path | None:
+    """The model file behind a detector: the coarse model of the ONNX detector, None for a
+    detector that answers from a table. A run's record of which model decided its units (the
+    model file's hash) starts from here."""
+    path = getattr(getattr(detector, "coarse", None), "path", None)
+    return Path(path) if path is not None else None
 
 
 class FramePath:
@@ -120,8 +121,12 @@ class FramePath:
         self.faults_in_a_row = 0
         self.unusable_in_a_row = 0
         self.last_pose: ToolPose | None = None
+        self.model_file = model_file_of(detector)
         self.on_decided: Callable[[Output], None] | None = None
-        self._pending: _Pending | None = None
+        # the decided frame whose judgements' findings are not decided yet, and those judgements
+        self._pending: tuple[FrameResult, Future[tuple[list[Observation], float]] | None] | None = (
+            None
+        )
         self._executor: ThreadPoolExecutor | None = None
         self.frozen_image = FrozenImageWatch()
 
@@ -168,13 +173,13 @@ class FramePath:
         first = self.decisions.apply(sighting.fault or sighting.zone)
         if self.on_decided is not None:
             self.on_decided(first.output)
-        decide_ms = (time.perf_counter() - t0) * 1e3
-        pending = _Pending(sighting, first, decide_ms)
+        decided = FrameResult(sighting, (first,), decide_ms=(time.perf_counter() - t0) * 1e3)
+        judged = None
         if self.judges and not judge_now:
-            pending.judged = self._judging_thread().submit(
+            judged = self._judging_thread().submit(
                 self._judge, sighting.frame, sighting.pose, first.output
             )
-        self._pending = pending
+        self._pending = (decided, judged)
 
     def settle(self) -> FrameResult | None:
         """The last decided frame's result once its judgements' findings are decided (None
@@ -182,27 +187,21 @@ class FramePath:
         pending, self._pending = self._pending, None
         if pending is None:
             return None
-        sighting, first = pending.sighting, pending.first
-        if pending.judged is not None:
-            judged, judge_ms = pending.judged.result()
+        decided, judging = pending
+        sighting, first = decided.sighting, decided.steps[0]
+        if judging is not None:
+            judged, judge_ms = judging.result()
         else:
             judged, judge_ms = self._judge(sighting.frame, sighting.pose, first.output)
+        if not judged:
+            return replace(decided, judge_ms=judge_ms)
         t0 = time.perf_counter()
         steps = [first] + [self.decisions.apply(observation) for observation in judged]
-        decide_ms = pending.decide_ms + (time.perf_counter() - t0) * 1e3
-        return FrameResult(
-            frame=sighting.frame,
-            keypoints=sighting.keypoints,
-            pose=sighting.pose,
-            zone=sighting.zone,
+        return replace(
+            decided,
             steps=tuple(steps),
-            output=steps[-1].output,
-            times=StageTimes(
-                detect_ms=sighting.detect_ms,
-                track_ms=sighting.track_ms,
-                judge_ms=judge_ms,
-                decide_ms=decide_ms,
-            ),
+            judge_ms=judge_ms,
+            decide_ms=decided.decide_ms + (time.perf_counter() - t0) * 1e3,
         )
 
     def close(self) -> None:

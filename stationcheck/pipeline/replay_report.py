@@ -6,7 +6,7 @@ from dataclasses import dataclass
 from typing import Any
 
 from stationcheck.pipeline.comparison import Comparison, FalseEnables
-from stationcheck.pipeline.loop import LoopStats
+from stationcheck.pipeline.frame_loop import LoopStats
 from stationcheck.pipeline.summary import UnitPass, format_unit_table
 
 MAX_MISMATCHES_SHOWN = 50
@@ -66,7 +66,7 @@ class ReplayReport:
             "edge_offsets_frames": comparison.edge_offsets_frames if comparison else None,
             "offsets_frames_by_kind": comparison.offsets_by_kind if comparison else None,
             "fps": round(self.fps, 1),
-            "wall_fps": round(self.stats.wall_fps, 1),
+            "wall_fps": round(self.stats.fps, 1),
             "wall_s": round(self.stats.wall_s, 2),
             "stage_ms_median": {k: round(v, 3) for k, v in self.stats.medians_ms().items()},
             "log_path": self.log_path,

@@ -29,10 +29,10 @@ from stationcheck.pipeline.decision_core import DecisionCore, StepSink
 from stationcheck.pipeline.decision_trace import RunTrace
 from stationcheck.pipeline.evidence import EvidenceWriter, prune_evidence
 from stationcheck.pipeline.expected import Decision, decisions_from_events, read_expected
+from stationcheck.pipeline.frame_loop import FrameSink, LoopStats, Progress, run_loop
 from stationcheck.pipeline.frame_path import FramePath
 from stationcheck.pipeline.judging import ImageJudge
 from stationcheck.pipeline.log_sink import StepLogSink, rework_positions_from_log
-from stationcheck.pipeline.loop import FrameSink, LoopStats, Progress, run_loop
 from stationcheck.pipeline.observation_stream import ObservationRecorder, read_observations
 from stationcheck.pipeline.replay_report import ReplayReport
 from stationcheck.pipeline.station_inputs import InputSchedule, read_station_inputs
@@ -183,7 +183,7 @@ def _replay_video(
             outputs,
             stats,
             settings.first_frame,
-            detector_name=_detector_name(settings, detector),
+            detector_name=_detector_name(settings, path.model_file),
             judges_name=settings.judges,
         )
 
@@ -276,11 +276,10 @@ def _detector(
     return load_detector(path, threads=threads)
 
 
-def _detector_name(settings: ReplaySettings, detector: object) -> str:
+def _detector_name(settings: ReplaySettings, model_file: Path | None) -> str:
     if settings.detector == "truth":
         return "ground truth (no model)"
-    coarse = getattr(detector, "coarse", None)
-    return str(getattr(coarse, "path", "model"))
+    return str(model_file or "model")
 
 
 def _judges(

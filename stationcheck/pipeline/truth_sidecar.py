@@ -23,7 +23,7 @@ from stationcheck.core.plan import StationPlan
 from stationcheck.core.records import Frame, ToolPose
 from stationcheck.errors import InputFileError
 from stationcheck.pipeline.truth_rows import TruthRow, read_truth_csv
-from stationcheck.vision.fake_detector import ReplayKeypointDetector
+from stationcheck.vision.table_detector import TableKeypointDetector
 
 SEEN_SCORE = 0.99  # what the stand-in detector reports for a visible keypoint
 BIN_FLAGS = {"bin_gasket": "hand_in_bin_gasket", "bin_cover": "hand_in_bin_cover"}
@@ -66,9 +66,9 @@ def truth_points(table: TruthTable) -> dict[int, dict[str, tuple[float, float, f
     }
 
 
-def truth_detector(table: TruthTable) -> ReplayKeypointDetector:
+def truth_detector(table: TruthTable) -> TableKeypointDetector:
     """Answers with :func:`truth_points`."""
-    return ReplayKeypointDetector(truth_points(table), ("tip", "rear"))
+    return TableKeypointDetector(truth_points(table), ("tip", "rear"))
 
 
 def camera_shift_px(

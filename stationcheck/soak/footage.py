@@ -20,7 +20,7 @@ from stationcheck.core.observations import Observation
 from stationcheck.core.plan import StationPlan
 from stationcheck.pipeline.station_inputs import read_station_inputs
 from stationcheck.pipeline.truth_sidecar import TruthTable, load_truth, truth_points
-from stationcheck.vision.fake_detector import PointTable
+from stationcheck.vision.table_detector import PointTable
 
 logger = logging.getLogger(__name__)
 

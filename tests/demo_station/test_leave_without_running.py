@@ -20,8 +20,8 @@ from stationcheck.demo_station.rig import OperatorRig
 from stationcheck.pipeline.comparison import count_false_enables
 from stationcheck.pipeline.decision_core import DecisionCore
 from stationcheck.pipeline.decision_trace import RunTrace
+from stationcheck.pipeline.frame_loop import run_loop
 from stationcheck.pipeline.frame_path import FramePath
-from stationcheck.pipeline.loop import run_loop
 from stationcheck.pipeline.station_inputs import InputSchedule, parse_input
 from stationcheck.pipeline.truth_sidecar import TruthJudge, TruthTable, truth_detector
 from stationcheck.sources.memory_source import MemoryFrameSource

@@ -14,7 +14,7 @@ from stationcheck.cli import main
 from stationcheck.errors import InputFileError
 from stationcheck.evaluation.accuracy_report import evaluate
 from stationcheck.evaluation.truth import read_coco_frames, read_truth_csv, read_video_frames
-from stationcheck.vision.fake_detector import ReplayKeypointDetector
+from stationcheck.vision.table_detector import TableKeypointDetector
 from tests.vision.conftest import blob_frame, blob_model_proto, coarse_info, refine_info
 
 TRUTH_HEADER = [
@@ -68,7 +68,7 @@ def test_replayed_truth_scores_perfectly(labelled_video: tuple[Path, Path]) -> N
     video, truth_csv = labelled_video
     truth = read_truth_csv(truth_csv)
     table = {i: {"tip": (r[0, 0], r[0, 1], 0.9 if r[0, 2] else 0.0)} for i, (_, r) in truth.items()}
-    fake = ReplayKeypointDetector(table)
+    fake = TableKeypointDetector(table)
     report = evaluate(fake, read_video_frames(video, truth_csv))
     m = report.metrics
     assert (m.frames, m.visible_frames, m.absent_frames) == (10, 8, 2)

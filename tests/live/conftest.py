@@ -11,7 +11,7 @@ import numpy as np
 from stationcheck.core.plan import FastenStep, StationPlan, Thresholds, ZoneSpec
 from stationcheck.core.records import Frame
 from stationcheck.live.grabber import FrameGrabber
-from stationcheck.live.loop import LiveLoop
+from stationcheck.live.linked_station import LiveLoop
 from stationcheck.live.watchdog import WatchdogLimits
 from stationcheck.pipeline.decision_core import DecisionCore
 from stationcheck.pipeline.frame_path import FramePath
@@ -19,7 +19,7 @@ from stationcheck.pipeline.judging import ImageJudge
 from stationcheck.plc.link import MemoryLink
 from stationcheck.plc.signals import InputSignals
 from stationcheck.plc.worker import LinkWorker, WorkerSettings
-from stationcheck.vision.fake_detector import ReplayKeypointDetector
+from stationcheck.vision.table_detector import TableKeypointDetector
 
 AT_A = (115.0, 115.0)
 
@@ -56,8 +56,8 @@ class StallingSource:
         self.release.set()
 
 
-def detector_at(where: tuple[float, float], frames: int) -> ReplayKeypointDetector:
-    return ReplayKeypointDetector({i: {"tip": (*where, 0.99)} for i in range(frames + 1)},
+def detector_at(where: tuple[float, float], frames: int) -> TableKeypointDetector:
+    return TableKeypointDetector({i: {"tip": (*where, 0.99)} for i in range(frames + 1)},
                                   ("tip",))
 
 

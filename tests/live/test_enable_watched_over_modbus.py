@@ -23,7 +23,7 @@ from pymodbus.client import ModbusTcpClient
 from stationcheck.core.plan import Thresholds
 from stationcheck.core.records import Frame, Keypoint, Keypoints
 from stationcheck.live.grabber import FrameGrabber
-from stationcheck.live.loop import LiveLoop
+from stationcheck.live.linked_station import LiveLoop
 from stationcheck.live.watchdog import WatchdogLimits
 from stationcheck.pipeline.decision_core import DecisionCore
 from stationcheck.pipeline.frame_path import FramePath

@@ -13,7 +13,7 @@ import time
 import pytest
 
 from stationcheck.live.grabber import FrameGrabber
-from stationcheck.live.loop import LiveLoop
+from stationcheck.live.linked_station import LiveLoop
 from stationcheck.live.watchdog import WatchdogLimits
 from stationcheck.pipeline.decision_core import DecisionCore
 from stationcheck.pipeline.frame_path import FramePath

@@ -122,7 +122,8 @@ def test_the_annotated_video_opens_in_opencv_with_every_frame(
     from stationcheck.core.observations import ZoneObservation
     from stationcheck.core.records import Frame, Keypoints, ToolPose
     from stationcheck.pipeline.annotated_video import AnnotatedVideoWriter
-    from stationcheck.pipeline.frame_path import FrameResult, StageTimes
+    from stationcheck.pipeline.decision_core import DecisionStep
+    from stationcheck.pipeline.frame_path import FrameResult, Sighting
 
     path = tmp_path / "out.mp4"
     writer = AnnotatedVideoWriter(path, plan, fps=30.0)
@@ -130,8 +131,8 @@ def test_the_annotated_video_opens_in_opencv_with_every_frame(
         frame = Frame(index, index / 30, np.full((480, 640, 3), 20 * index, np.uint8))
         pose = ToolPose(frame.t_s, index, None, None, False, False, 0.0)
         zone = ZoneObservation(frame.t_s, index, None, None, None, 0.0, False)
-        writer.on_frame(FrameResult(frame, Keypoints(index, frame.t_s, ()), pose, zone, (),
-                                    fastening(index % 2 == 0), StageTimes()))
+        seen = Sighting(frame, Keypoints(index, frame.t_s, ()), None, pose, zone)
+        writer.on_frame(FrameResult(seen, (DecisionStep(zone, fastening(index % 2 == 0), ()),)))
     writer.on_stop(None)
     writer.raise_if_failed()
     capture = cv2.VideoCapture(str(path))

@@ -23,6 +23,7 @@ from stationcheck.core.records import Frame, Keypoints
 from stationcheck.errors import InputFileError, ModelError
 from stationcheck.pipeline.decision_core import DecisionCore, DecisionStep
 from stationcheck.pipeline.decision_trace import RunTrace
+from stationcheck.pipeline.frame_loop import run_loop
 from stationcheck.pipeline.frame_path import FramePath, FrameResult
 from stationcheck.pipeline.log_sink import (
     STOPPED_ON_ERROR,
@@ -30,11 +31,10 @@ from stationcheck.pipeline.log_sink import (
     StepLogSink,
     rework_positions_from_log,
 )
-from stationcheck.pipeline.loop import run_loop
 from stationcheck.pipeline.station_inputs import InputSchedule
 from stationcheck.sources.memory_source import MemoryFrameSource
 from stationcheck.store import MemoryStepLog, SqliteStepLog
-from stationcheck.vision.fake_detector import ReplayKeypointDetector
+from stationcheck.vision.table_detector import TableKeypointDetector
 
 FPS = 30.0
 AT_A = (115.0, 115.0)
@@ -54,13 +54,13 @@ PLAN = StationPlan(
 
 
 def tip_track(spans: Sequence[tuple[int, tuple[float, float] | None]], count: int
-              ) -> ReplayKeypointDetector:
+              ) -> TableKeypointDetector:
     """Tip positions from frame spans ``(first frame, position or None = unseen)``."""
     table: dict[int, dict[str, tuple[float, float, float]]] = {}
     for frame in range(count):
         where = [pos for first, pos in spans if first <= frame][-1]
         table[frame] = {"tip": (*where, 0.99)} if where is not None else {}
-    return ReplayKeypointDetector(table, ("tip",))
+    return TableKeypointDetector(table, ("tip",))
 
 
 def images(count: int) -> list[np.ndarray]:
@@ -89,7 +89,7 @@ class Collect:
         self.stopped.append(error)
 
 
-def run(inputs: Sequence[Observation], detector: ReplayKeypointDetector, count: int,
+def run(inputs: Sequence[Observation], detector: TableKeypointDetector, count: int,
         log: MemoryStepLog | SqliteStepLog | None = None,
         source: MemoryFrameSource | None = None) -> tuple[RunTrace, Collect]:
     log = log if log is not None else MemoryStepLog()
@@ -104,8 +104,8 @@ def run(inputs: Sequence[Observation], detector: ReplayKeypointDetector, count: 
 
 def entered(collect: Collect, zone: str, after: int = 0) -> int:
     """The first frame (from ``after``) whose zone observation puts the tip in ``zone``."""
-    return next(f.frame.index for f in collect.frames
-                if f.frame.index >= after and f.zone.zone == zone)
+    return next(f.sighting.frame.index for f in collect.frames
+                if f.sighting.frame.index >= after and f.sighting.zone.zone == zone)
 
 
 def edges(trace: RunTrace) -> list[tuple[int, str, str | None]]:
@@ -149,7 +149,7 @@ def test_a_rework_pass_gets_its_positions_from_the_log_and_enables_only_those() 
     # back at B the tool is enabled after the dwell; at A (done in the first pass) never
     assert rework_edges[0] == (entered(collect, "B", after=105) + 6, "tool_enabled", "B")
     assert all(zone != "A" for frame, kind, zone in rework_edges if kind == "tool_enabled")
-    assert not any(f.output.tool_enabled for f in collect.frames if f.frame.index >= 150)
+    assert not any(f.output.tool_enabled for f in collect.frames if f.sighting.frame.index >= 150)
 
 
 class FlakyDetector:
@@ -157,7 +157,7 @@ class FlakyDetector:
 
     keypoint_names = ("tip",)
 
-    def __init__(self, inner: ReplayKeypointDetector, failing: set[int]) -> None:
+    def __init__(self, inner: TableKeypointDetector, failing: set[int]) -> None:
         self.inner = inner
         self.failing = failing
 
@@ -170,7 +170,7 @@ class FlakyDetector:
 def test_a_detector_failure_inhibits_until_the_next_good_frame() -> None:
     detector = FlakyDetector(tip_track([(0, AT_A)], 40), failing={20, 21})
     trace, collect = run([UnitStarted(t(1), "U-1")], detector, 40)
-    by_frame = {f.frame.index: f.output for f in collect.frames}
+    by_frame = {f.sighting.frame.index: f.output for f in collect.frames}
     assert by_frame[19].tool_enabled
     assert not by_frame[20].tool_enabled and by_frame[20].enable_reason == "detector_fault"
     assert "detector_fault" in by_frame[21].alarms
@@ -214,7 +214,7 @@ def test_a_run_stopped_on_request_is_logged_as_a_stop_not_an_error(tmp_path: Pat
     because the run was stopped, with no error attached."""
     class StopAt:  # a frame sink that is the operator pressing Ctrl-C at frame 30
         def on_frame(self, result: FrameResult) -> None:
-            if result.frame.index == 30:
+            if result.sighting.frame.index == 30:
                 raise KeyboardInterrupt
 
         def on_stop(self, error: BaseException | None) -> None:
@@ -293,7 +293,7 @@ def test_the_loop_decides_what_the_judging_thread_found_as_one_frame_at_a_time_w
     assert step_kinds(pipelined.steps) == step_kinds(one_by_one.steps)
     kinds = [kind for kind, _, _ in step_kinds(pipelined.steps)]
     assert kinds.count("CameraMoved") == 4 and kinds.count("TighteningResult") == 2
-    assert [f.frame.index for f in pipelined.frames] == list(range(80))
+    assert [f.sighting.frame.index for f in pipelined.frames] == list(range(80))
     assert [f.output for f in pipelined.frames] == [f.output for f in one_by_one.frames]
     assert [len(f.steps) for f in pipelined.frames] == [len(f.steps) for f in one_by_one.frames]
 
@@ -306,7 +306,7 @@ def test_a_judgement_that_raises_stops_the_loop_inhibited_with_its_error() -> No
     with pytest.raises(RuntimeError, match="judge broke on frame 20"):
         run_loop(MemoryFrameSource(images(40), FPS), path, InputSchedule(BUMP_INPUTS), [collect])
     assert len(collect.stopped) == 1 and isinstance(collect.stopped[0], RuntimeError)
-    assert [f.frame.index for f in collect.frames] == list(range(20))  # up to the broken one
+    assert [f.sighting.frame.index for f in collect.frames] == list(range(20))  # up to the broken one
     assert path._executor is None  # the judging thread was stopped
 
 
@@ -317,6 +317,6 @@ def test_deciding_a_frame_before_the_previous_one_is_settled_is_refused() -> Non
     with pytest.raises(RuntimeError, match="settle the previous frame"):
         path.decide(path.sight(frames[1]))
     first = path.settle()
-    assert first is not None and first.frame.index == 0
+    assert first is not None and first.sighting.frame.index == 0
     assert path.settle() is None
     path.close()

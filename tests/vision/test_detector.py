@@ -15,7 +15,7 @@ from stationcheck.vision.detector import (
     lead_point,
     load_detector,
 )
-from stationcheck.vision.fake_detector import ReplayKeypointDetector
+from stationcheck.vision.table_detector import TableKeypointDetector
 from tests.vision.conftest import ModelFactory, blob_frame, coarse_info, refine_info
 
 
@@ -71,18 +71,30 @@ def test_scores_rise_with_evidence(blob_bundle: Path) -> None:
 
 def test_protocol_is_met_by_real_and_fake(blob_bundle: Path) -> None:
     assert isinstance(load_detector(blob_bundle), KeypointDetector)
-    assert isinstance(ReplayKeypointDetector({}), KeypointDetector)
+    assert isinstance(TableKeypointDetector({}), KeypointDetector)
 
 
-def test_fake_detector_replays_its_table_and_records_hints() -> None:
-    fake = ReplayKeypointDetector({5: {"tip": (10.0, 20.0, 0.9)}})
+def test_table_detector_answers_from_its_table_and_records_hints() -> None:
+    fake = TableKeypointDetector({5: {"tip": (10.0, 20.0, 0.9)}})
     image = np.zeros((4, 4, 3), np.uint8)
     hit = fake.detect(Frame(5, 0.2, image), tip_hint_px=(9.0, 19.0))
     miss = fake.detect(Frame(6, 0.23, image))
     tip = hit.get("tip")
     assert tip is not None and (tip.x_px, tip.y_px, tip.score) == (10.0, 20.0, 0.9)
     assert [p.score for p in miss.points] == [0.0, 0.0]
-    assert fake.hints == [(9.0, 19.0), None]
+    assert list(fake.hints) == [(9.0, 19.0), None]
+
+
+def test_table_detector_keeps_only_the_newest_hints() -> None:
+    detector = TableKeypointDetector({}, hints_kept=8)
+    image = np.zeros((4, 4, 3), np.uint8)
+    for index in range(1000):
+        detector.detect(Frame(index, index / 30, image), tip_hint_px=(float(index), 0.0))
+    assert len(detector.hints) == 8
+    assert list(detector.hints) == [(float(index), 0.0) for index in range(992, 1000)]
+    assert len(TableKeypointDetector({}).hints) == 0
+    with pytest.raises(ValueError, match="hints_kept must be >= 1"):
+        TableKeypointDetector({}, hints_kept=0)
 
 
 def test_detector_works_at_other_frame_sizes(blob_bundle: Path) -> None:

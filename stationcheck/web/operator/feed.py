@@ -7,7 +7,7 @@ returns; drawing the zones, JPEG encoding and sending happen on other threads. T
 thread renders at most ``max_fps`` times a second and draws pictures only while someone
 watches them; a slow or stalled viewer only misses pictures, it never holds up the others.
 
-The feed is a frame sink and a step sink of the loop (see :mod:`stationcheck.pipeline.loop`
+The feed is a frame sink and a step sink of the loop (see :mod:`stationcheck.pipeline.frame_loop`
 and :mod:`stationcheck.pipeline.decision_core`). With a :class:`DecisionCore` given (live runs),
 acknowledge presses from the screen are applied on the loop's thread at its next frame.
 """
@@ -127,20 +127,22 @@ class OperatorFeed:
 
     def on_frame(self, result: FrameResult) -> None:
         output = result.output
-        if self.decisions is not None and self.acks.apply_pending(self.decisions, result.frame.t_s):
+        if self.decisions is not None and self.acks.apply_pending(
+            self.decisions, result.sighting.frame.t_s
+        ):
             output = self.decisions.last_output or output
         try:
-            pose = result.pose
+            pose = result.sighting.pose
             view = self.views.view(
                 output,
-                frame_index=result.frame.index,
-                t_s=result.frame.t_s,
+                frame_index=result.sighting.frame.index,
+                t_s=result.sighting.frame.t_s,
                 tip_px=pose.tip_px,
                 rear_px=pose.rear_px,
                 tip_seen=pose.seen,
             )
             handed = _Handed(
-                result.frame.image, view, tuple(self.recent.active(view.t_s)), self.clock()
+                result.sighting.frame.image, view, tuple(self.recent.active(view.t_s)), self.clock()
             )
         except Exception:  # the screen must never stop the station
             if not self._warned:

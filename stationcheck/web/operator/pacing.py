@@ -35,10 +35,10 @@ class RealTimePacer:
     def on_frame(self, result: FrameResult) -> None:
         now = self.clock()
         if self._start is None:
-            self._start = (now, result.frame.t_s)
+            self._start = (now, result.sighting.frame.t_s)
             return
         wall0, t0 = self._start
-        due = wall0 + (result.frame.t_s - t0) / self.speed
+        due = wall0 + (result.sighting.frame.t_s - t0) / self.speed
         if due > now:
             self.sleep(due - now)
             self.waited_s += due - now

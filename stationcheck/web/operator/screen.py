@@ -20,7 +20,7 @@ if TYPE_CHECKING:
     from pathlib import Path
 
     from stationcheck.core.plan import StationPlan
-    from stationcheck.live.loop import LiveLoop
+    from stationcheck.live.linked_station import LiveLoop
     from stationcheck.pipeline.session import Watcher
     from stationcheck.web.listener import WebServer
 

@@ -81,27 +81,27 @@ class DryRunRecorder:
             )
 
     def on_frame(self, result: FrameResult) -> None:
-        if result.frame.t_s < self.draw_from_s - 1e-6:
+        if result.sighting.frame.t_s < self.draw_from_s - 1e-6:
             return
         self.run_frames += 1
         self.enabled_frames += int(result.output.tool_enabled)
-        if result.frame.index % self.every:
+        if result.sighting.frame.index % self.every:
             return
-        pose = result.pose
+        pose = result.sighting.pose
         view = self.views.view(
             result.output,
-            frame_index=result.frame.index,
-            t_s=result.frame.t_s,
+            frame_index=result.sighting.frame.index,
+            t_s=result.sighting.frame.t_s,
             tip_px=pose.tip_px,
             rear_px=pose.rear_px,
             tip_seen=pose.seen,
         )
-        canvas = self.annotator.annotate(result.frame.image, view)
+        canvas = self.annotator.annotate(result.sighting.frame.image, view)
         ok, encoded = cv2.imencode(".jpg", canvas, [cv2.IMWRITE_JPEG_QUALITY, JPEG_QUALITY])
         if not ok:
             raise InputFileError("cannot encode a dry-run frame as JPEG")
         self.frames.append(encoded.tobytes())
-        self.frame_times_s.append(result.frame.t_s)
+        self.frame_times_s.append(result.sighting.frame.t_s)
 
     def on_stop(self, error: BaseException | None) -> None:
         if error is not None:
@@ -171,10 +171,10 @@ def run_dry(config: StationConfig, request: DryRunRequest) -> DryRunRecorder:
         ModelError: the model cannot be loaded.
     """
     from stationcheck.judgements.station import StationJudgements
+    from stationcheck.pipeline.frame_loop import run_loop
     from stationcheck.pipeline.frame_path import FramePath
     from stationcheck.pipeline.judging import StationImageJudge
     from stationcheck.pipeline.log_sink import StepLogSink, rework_positions_from_log
-    from stationcheck.pipeline.loop import run_loop
     from stationcheck.pipeline.station_inputs import InputSchedule, read_station_inputs
     from stationcheck.sources.video_file import VideoFileSource
     from stationcheck.store.memory_log import MemoryStepLog

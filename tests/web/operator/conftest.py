@@ -20,7 +20,7 @@ from stationcheck.core.outputs import Output
 from stationcheck.core.plan import ConfirmStep, FastenStep, StationPlan, ZoneSpec
 from stationcheck.core.records import Frame, ToolPose
 from stationcheck.pipeline.decision_core import DecisionCore, DecisionStep
-from stationcheck.pipeline.frame_path import FrameResult, StageTimes
+from stationcheck.pipeline.frame_path import FrameResult, Sighting
 from stationcheck.web.access import AccessRule
 from stationcheck.web.listener import WebServer
 from stationcheck.web.operator.feed import OperatorFeed, ScreenFrame
@@ -87,8 +87,8 @@ class Station:
         step = self.decisions.apply(zone)
         pose = ToolPose(t_s, self.index, tip_px, None, tip_px is not None,
                         tip_px is not None, 0.9 if tip_px else 0.0)
-        result = FrameResult(Frame(self.index, t_s, blank_image()), None, pose, zone, (step,),
-                             step.output, StageTimes())
+        result = FrameResult(Sighting(Frame(self.index, t_s, blank_image()), None, None, pose,
+                                      zone), (step,))
         self.index += 1
         return result
 
@@ -189,7 +189,7 @@ class Holds:
             return
         name, pred = self.moments[self.next]
         if pred(result.output):
-            self.frames[self.next] = result.frame.index
+            self.frames[self.next] = result.sighting.frame.index
             self.reached[self.next].set()
             if not self.released[self.next].wait(timeout=60):
                 raise AssertionError(f"the test never let go of moment {name!r}")

@@ -199,7 +199,7 @@ def test_pacer_refuses_a_speed_that_is_not_positive(speed: float) -> None:
 def _result_at(t_s: float) -> Any:
     from types import SimpleNamespace
 
-    return SimpleNamespace(frame=SimpleNamespace(t_s=t_s))
+    return SimpleNamespace(sighting=SimpleNamespace(frame=SimpleNamespace(t_s=t_s)))
 
 
 def test_frame_route_draws_the_newest_picture_once(served_factory: Callable[..., Served],
