@@ -51,6 +51,14 @@ def demo_moving_sample() -> MovingSampleFn | None:
 def demo_sources() -> tuple[FrameSource, FrameSource]:
     """The demo renderer's training frames; the held-out part is the same generator on its
     own random stream (it is infinite, so nothing is shared)."""
+    functions = demo_sample_functions()
+    logger.info("demo training frames from %s", [f.__name__ for f, _ in functions])
+    source = FunctionSource(functions)
+    return source, source
+
+
+def demo_sample_functions() -> list[tuple[SampleFn, float]]:
+    """The demo renderer's sample functions with their share (weights sum to 1)."""
     module = _demo_module()
     functions: list[tuple[SampleFn, float]] = []
     for name, weight in DEMO_SAMPLE_FUNCTIONS:
@@ -59,6 +67,4 @@ def demo_sources() -> tuple[FrameSource, FrameSource]:
             functions.append((function, weight))
     if not functions:
         raise InputFileError("stationcheck.demo_station.training offers no sample function")
-    logger.info("demo training frames from %s", [f.__name__ for f, _ in functions])
-    source = FunctionSource(functions)
-    return source, source
+    return functions
