@@ -131,7 +131,9 @@ def point_config_at(config_path: Path, model_file: Path) -> None:
 
     document = yaml_document.load_file(config_path)
     relative = model_file.resolve().relative_to(config_path.resolve().parent).as_posix()
-    yaml_document.merge_into(document, {"model": {"path": relative}})
+    plain = yaml_document.to_plain(document)
+    plain.setdefault("model", {})["path"] = relative
+    yaml_document.merge_into(document, plain)
     tmp = config_path.with_name(config_path.name + ".tmp")
     tmp.write_text(yaml_document.dump_text(document), encoding="utf-8")
     tmp.replace(config_path)
