@@ -144,14 +144,20 @@ def main() -> int:
     labels, clicks = simulate_labelling(recording / VIDEO, recording_p.rows, args.clicks, seed=3)
     truth = {r.frame_index: r for r in recording_p.rows}
     errors = [
-        float(np.hypot(lab.keypoints[0, 0] - truth[i].tip_x_px, lab.keypoints[0, 1] - truth[i].tip_y_px))
+        float(
+            np.hypot(
+                lab.keypoints[0, 0] - truth[i].tip_x_px, lab.keypoints[0, 1] - truth[i].tip_y_px
+            )
+        )
         for i, lab in labels.items()
         if lab.source == "propagated" and lab.keypoints[0, 2] > 0 and truth[i].tip_v == 2
     ]
     wrong_absent = sum(
         1 for i, lab in labels.items() if lab.keypoints[0, 2] == 0 and truth[i].tip_v == 2
     )
-    write_station_labels(station, recording / VIDEO, labels, recording_p.choreography.fps, args.every)
+    write_station_labels(
+        station, recording / VIDEO, labels, recording_p.choreography.fps, args.every
+    )
     shown["labelling"] = {
         "clicks": clicks,
         "frames_labelled": len(labels),
@@ -184,7 +190,9 @@ def main() -> int:
     shown["train"] = {
         "seconds": round(train_s, 1),
         "progress_lines": len(lines),
-        "steps": max((ln.get("step", 0) for ln in lines if ln.get("phase") == "training"), default=0),
+        "steps": max(
+            (ln.get("step", 0) for ln in lines if ln.get("phase") == "training"), default=0
+        ),
     }
     shown["fitness"] = {
         k: fitness[k]
@@ -206,7 +214,9 @@ def main() -> int:
     shown["bundled_held_out_vs_truth"] = figures(None, recording / VIDEO, held_from)
     shown["fine_tuned_on_replay_scene"] = figures(model, replay_scene / VIDEO)
     shown["replay_fine_tuned"] = replay(config, replay_scene, out / "replay_fine.sqlite", model)
-    shown["replay_bundled"] = replay(config, replay_scene, out / "replay_bundled.sqlite", sv_bundled())
+    shown["replay_bundled"] = replay(
+        config, replay_scene, out / "replay_bundled.sqlite", sv_bundled()
+    )
     shown["fine_tuned_on_sample_video"] = figures(model, REPO_ROOT / "sample_video" / VIDEO)
     shown["detector_ms_median_1_thread"] = round(detector_ms(model, replay_scene / VIDEO), 2)
     shown["model_sha256"] = file_sha256(model)

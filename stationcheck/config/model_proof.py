@@ -16,6 +16,9 @@ from importlib import resources
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, Literal
 
+from stationcheck.config.findings import Finding, warning
+from stationcheck.config.schema import BUNDLED_MODEL, resolve_path
+
 if TYPE_CHECKING:
     from stationcheck.config.schema import StationConfig
 
@@ -135,3 +138,37 @@ def station_model_proof(config: StationConfig) -> ModelProof:
         config.resolve("."),
         demo_bundled=config.model_path is None and config.station.demo_data,
     )
+
+
+def proof_of_data(data: dict[str, Any], base_dir: Path) -> ModelProof | None:
+    """:func:`model_proof` for a config held as plain data (the setup page's); None when the
+    model file it names is not there (``station_files`` reports that)."""
+    model = data.get("model")
+    station = data.get("station")
+    written = model.get("path", BUNDLED_MODEL) if isinstance(model, dict) else BUNDLED_MODEL
+    if not isinstance(written, str):
+        return None
+    bundled = written == BUNDLED_MODEL
+    if bundled:
+        path = Path(str(resources.files("stationcheck.models").joinpath(BUNDLED_COARSE_NAME)))
+    else:
+        path = resolve_path(base_dir, written)
+        if not path.is_file():
+            return None
+    demo = isinstance(station, dict) and station.get("demo_data") is True
+    return model_proof(path, base_dir, demo_bundled=bundled and demo)
+
+
+def lint_model_proof(data: dict[str, Any], base_dir: Path) -> list[Finding]:
+    """A warning at ``model.path`` when the station's own model file is unproven or unfit,
+    or when the bundled model was measured on this station and found unfit. (The bundled model
+    at a station that never measured it is said by ``check``, ``run`` and the setup screen's
+    model badge through :func:`station_model_proof`, not as a config finding.)"""
+    proof = proof_of_data(data, base_dir)
+    if proof is None or not proof.warns:
+        return []
+    model = data.get("model")
+    bundled = not isinstance(model, dict) or model.get("path", BUNDLED_MODEL) == BUNDLED_MODEL
+    if bundled and proof.report is None:
+        return []
+    return [warning(("model", "path"), proof.message)]

@@ -16,6 +16,7 @@ as not visible too.
 
 from __future__ import annotations
 
+import itertools
 import json
 import logging
 from collections.abc import Iterator, Sequence
@@ -109,7 +110,7 @@ def _track(
         "winSize": (LK_WINDOW_PX, LK_WINDOW_PX),
         "criteria": (cv2.TERM_CRITERIA_EPS | cv2.TERM_CRITERIA_COUNT, 30, 0.01),
     }
-    for a, b in zip(order, order[1:], strict=False):
+    for a, b in itertools.pairwise(order):
         moved, status, _ = cv2.calcOpticalFlowPyrLK(
             frames[a], frames[b], estimate, None, maxLevel=LK_LEVELS, **params
         )
@@ -132,14 +133,14 @@ def _track(
         near = np.linalg.norm((refined - moved).reshape(-1, 2), axis=1) <= REFINE_MAX_PX
         use = good & (status_ref.ravel() == 1) & near
         target = np.where(use[:, None], refined.reshape(-1, 2), moved.reshape(-1, 2))
-        matrix, _ = cv2.estimateAffinePartial2D(
-            key_points.reshape(-1, 2)[good], target[good]
-        )
+        matrix, _ = cv2.estimateAffinePartial2D(key_points.reshape(-1, 2)[good], target[good])
         if matrix is None:
             break
         ends = key_ends @ matrix[:, :2].T + matrix[:, 2]
         h, w = frames[b].shape
-        inside = (ends[:, 0] >= 0) & (ends[:, 0] <= w - 1) & (ends[:, 1] >= 0) & (ends[:, 1] <= h - 1)
+        inside = (
+            (ends[:, 0] >= 0) & (ends[:, 0] <= w - 1) & (ends[:, 1] >= 0) & (ends[:, 1] <= h - 1)
+        )
         if not inside[0]:
             break
         kps = np.zeros((2, 3))
@@ -219,7 +220,7 @@ def simulate_labelling(
         raise InputFileError(f"{video}: {len(frames)} frames, truth has {len(rows)} rows")
     rng = np.random.default_rng(seed)
     first = max(2, int(budget * FIRST_SHARE))
-    picked = {int(round(x)) for x in np.linspace(0, len(frames) - 1, first)}
+    picked = {round(x) for x in np.linspace(0, len(frames) - 1, first)}
     clicks = {i: click(rows[i], rng) for i in sorted(picked)}
     while True:
         labels, lost = propagate(frames, clicks)
@@ -282,7 +283,9 @@ def write_station_labels(
         "info": {"description": "station labels (DEMO DATA, rendered station)"},
         "images": images,
         "annotations": annotations,
-        "categories": [{"id": 1, "name": "tool", "keypoints": ["tip", "rear"], "skeleton": [[1, 2]]}],
+        "categories": [
+            {"id": 1, "name": "tool", "keypoints": ["tip", "rear"], "skeleton": [[1, 2]]}
+        ],
     }
     path = labels_dir / "coco.json"
     path.write_text(json.dumps(data), encoding="utf-8")
