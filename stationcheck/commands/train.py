@@ -81,6 +81,19 @@ def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[ty
         default=400,
         help="held-out frames for score calibration (default: %(default)s)",
     )
+    p.add_argument(
+        "--rendered-share",
+        type=float,
+        default=None,
+        help="with --station: share of the demo renderer's frames mixed into the station's own "
+        "so the model does not forget (default: 0.3)",
+    )
+    p.add_argument(
+        "--motion-frames",
+        type=int,
+        default=400,
+        help="rendered frames of fast moves to measure the motion lead on (default: %(default)s)",
+    )
     p.add_argument("--name", default="tool_tip", help="model file name stem (default: %(default)s)")
     p.set_defaults(handler=run)
 
@@ -138,7 +151,13 @@ def run(args: argparse.Namespace) -> int:
         flush=True,
     )
     path = write_bundle(
-        result, config, args.out, holdout, args.calibration_frames, moving_sample=moving_sample
+        result,
+        config,
+        args.out,
+        holdout,
+        args.calibration_frames,
+        moving_sample=moving_sample,
+        motion_frames=args.motion_frames,
     )
     print(f"wrote {path} and {path.parent / config.coarse_info().refine_model}")
     return 0

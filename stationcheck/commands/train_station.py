@@ -17,7 +17,7 @@ from typing import Any
 
 from stationcheck.config import StationConfig, load_config
 from stationcheck.config.model_proof import fitness_path, station_model_file
-from stationcheck.errors import StationcheckError
+from stationcheck.errors import InputFileError, StationcheckError
 from stationcheck.evaluation.fitness import Fitness, measure_fitness, write_fitness
 from stationcheck.evaluation.station_labels import TimeSplit, read_station_labels, split_by_time
 
@@ -145,11 +145,18 @@ def train_station(args: Any) -> int:
     from stationcheck.training.loop import Progress
     from stationcheck.training.station import (
         DEFAULT_MINUTES,
+        STATION_SHARE,
         DEFAULT_STEPS,
         MODEL_DIR,
         FineTuneSettings,
         fine_tune,
     )
+
+    def _share(value: float | None) -> float:
+        share = 1.0 - STATION_SHARE if value is None else value
+        if not 0.0 <= share < 1.0:
+            raise InputFileError(f"--rendered-share must be in [0, 1), got {value}")
+        return share
 
     minutes = args.minutes if args.minutes is not None else DEFAULT_MINUTES
     printer = ProgressPrinter(args.progress_json, 60.0 * minutes)
@@ -168,6 +175,8 @@ def train_station(args: Any) -> int:
             batch_size=args.batch_size,
             workers=args.workers,
             calibration_frames=args.calibration_frames,
+            motion_frames=args.motion_frames,
+            station_share=1.0 - _share(args.rendered_share),
         )
 
         def on_progress(p: Progress) -> None:

@@ -120,7 +120,7 @@ def fine_tune(
         on_phase("training", 0, config.max_steps)
     result = train(source, config, on_progress=on_progress)
     calibration_labels = split.calibration or split.train
-    calibration = mixed_source(calibration_labels, 0.5)
+    calibration = mixed_source(calibration_labels, max(settings.station_share, 0.5))
     staging = settings.out_dir.with_name(settings.out_dir.name + ".new")
     if staging.exists():
         shutil.rmtree(staging)
@@ -132,7 +132,7 @@ def fine_tune(
         staging,
         calibration,
         settings.calibration_frames,
-        moving_sample=demo_moving_sample(),
+        moving_sample=demo_moving_sample() if settings.motion_frames > 0 else None,
         motion_frames=settings.motion_frames,
     )
     return install_bundle(staging, settings.out_dir)
