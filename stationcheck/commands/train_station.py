@@ -145,9 +145,9 @@ def train_station(args: Any) -> int:
     from stationcheck.training.loop import Progress
     from stationcheck.training.station import (
         DEFAULT_MINUTES,
-        STATION_SHARE,
         DEFAULT_STEPS,
         MODEL_DIR,
+        STATION_SHARE,
         FineTuneSettings,
         fine_tune,
     )
