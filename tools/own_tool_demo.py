@@ -24,12 +24,16 @@ import numpy as np
 from stationcheck.config.model_proof import file_sha256
 from stationcheck.demo_station import sample_video as sv
 from stationcheck.demo_station.files import DEMO_CONFIG, DEMO_SCRIPT, REPO_ROOT
-from stationcheck.demo_station.own_tool import simulate_labelling, unseen_rig, write_station_labels
+from stationcheck.demo_station.own_tool import (
+    RECORDING_SCRIPT,
+    simulate_labelling,
+    unseen_rig,
+    write_station_labels,
+)
 from stationcheck.evaluation.report import evaluate
 from stationcheck.evaluation.truth import read_video_frames
 from stationcheck.vision.detector import load_detector
 
-RECORDING_SCRIPT = REPO_ROOT / "sample_video" / "look_scenes" / "own_tool_recording.yaml"
 VIDEO = "demo_station.mp4"
 
 

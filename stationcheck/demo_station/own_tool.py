@@ -30,10 +30,12 @@ import numpy.typing as npt
 from stationcheck.demo_station.ground_truth import TruthRow
 from stationcheck.demo_station.held_out_looks import UNSEEN_ARM, UNSEEN_TOOL
 from stationcheck.demo_station.rig import OperatorRig
+from stationcheck.demo_station.files import REPO_ROOT
 from stationcheck.errors import InputFileError
 
 logger = logging.getLogger(__name__)
 
+RECORDING_SCRIPT = REPO_ROOT / "sample_video" / "look_scenes" / "own_tool_recording.yaml"
 CLICK_NOISE_PX = 1.0
 FB_MAX_PX = 0.8
 LK_WINDOW_PX = 21
