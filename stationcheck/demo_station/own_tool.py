@@ -27,10 +27,10 @@ import cv2
 import numpy as np
 import numpy.typing as npt
 
+from stationcheck.demo_station.files import REPO_ROOT
 from stationcheck.demo_station.ground_truth import TruthRow
 from stationcheck.demo_station.held_out_looks import UNSEEN_ARM, UNSEEN_TOOL
 from stationcheck.demo_station.rig import OperatorRig
-from stationcheck.demo_station.files import REPO_ROOT
 from stationcheck.errors import InputFileError
 
 logger = logging.getLogger(__name__)
