@@ -10,8 +10,8 @@ Lucas-Kanade (OpenCV ``calcOpticalFlowPyrLK``) from each clicked frame forwards 
 next one backwards, a point kept only while its forward-backward error stays within
 :data:`FB_MAX_PX`; where both reach a frame, the nearer click weighs more. A frame the flow
 loses is queued for a click (within the click budget). A "not visible" click marks the frames
-around it that differ from it by less than :data:`STILL_LEVELS` grey levels (the empty station)
-as not visible too.
+around it that differ from it by less than :data:`STILL_LEVELS` grey levels in every 16 px cell
+(the empty station) as not visible too.
 """
 
 from __future__ import annotations
@@ -42,7 +42,7 @@ LK_WINDOW_PX = 21
 LK_LEVELS = 3
 BODY_POINTS = 12
 REFINE_MAX_PX = 3.0
-STILL_LEVELS = 2.0
+STILL_LEVELS = 6.0  # in every 16 px cell
 FIRST_SHARE = 0.7  # of the click budget spread evenly over time; the rest where flow is lost
 Points = npt.NDArray[np.float64]  # 2 x 3: tip, rear as (x, y, v)
 
@@ -163,7 +163,10 @@ def _still_span(
 
     def still(i: int) -> bool:
         blurred = cv2.GaussianBlur(frames[i], (0, 0), 2.0).astype(np.float32)
-        return float(np.mean(np.abs(blurred - reference))) < STILL_LEVELS
+        difference = np.abs(blurred - reference)
+        h, w = difference.shape
+        cells = cv2.resize(difference, (w // 16, h // 16), interpolation=cv2.INTER_AREA)
+        return float(np.max(cells)) < STILL_LEVELS
 
     low = index
     while low - 1 >= limit[0] and still(low - 1):
