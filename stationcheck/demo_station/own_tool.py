@@ -108,30 +108,14 @@ def _track(
     key_ends = np.array([tip, rear], np.float64)
     estimate = key_points.copy()
     out: dict[int, Points] = {}
-    params = {
-        "winSize": (LK_WINDOW_PX, LK_WINDOW_PX),
-        "criteria": (cv2.TERM_CRITERIA_EPS | cv2.TERM_CRITERIA_COUNT, 30, 0.01),
-    }
     for a, b in itertools.pairwise(order):
-        moved, status, _ = cv2.calcOpticalFlowPyrLK(
-            frames[a], frames[b], estimate, None, maxLevel=LK_LEVELS, **params
-        )
-        back, status_back, _ = cv2.calcOpticalFlowPyrLK(
-            frames[b], frames[a], moved, None, maxLevel=LK_LEVELS, **params
-        )
+        moved, status = _flow(frames[a], frames[b], estimate)
+        back, status_back = _flow(frames[b], frames[a], moved)
         fb = np.linalg.norm((back - estimate).reshape(-1, 2), axis=1)
         good = (status.ravel() == 1) & (status_back.ravel() == 1) & (fb <= FB_MAX_PX)
         if good.sum() < max(3, BODY_POINTS // 2):
             break
-        refined, status_ref, _ = cv2.calcOpticalFlowPyrLK(
-            frames[key],
-            frames[b],
-            key_points,
-            moved.copy(),
-            maxLevel=1,
-            flags=cv2.OPTFLOW_USE_INITIAL_FLOW,
-            **params,
-        )
+        refined, status_ref = _flow(frames[key], frames[b], key_points, guess=moved)
         near = np.linalg.norm((refined - moved).reshape(-1, 2), axis=1) <= REFINE_MAX_PX
         use = good & (status_ref.ravel() == 1) & near
         target = np.where(use[:, None], refined.reshape(-1, 2), moved.reshape(-1, 2))
@@ -153,6 +137,26 @@ def _track(
         estimate = (key_points.reshape(-1, 2) @ matrix[:, :2].T + matrix[:, 2]).astype(np.float32)
         estimate = estimate.reshape(-1, 1, 2)
     return out
+
+
+def _flow(
+    before: npt.NDArray[np.uint8],
+    after: npt.NDArray[np.uint8],
+    points: npt.NDArray[np.float32],
+    guess: npt.NDArray[np.float32] | None = None,
+) -> tuple[npt.NDArray[np.float32], npt.NDArray[np.uint8]]:
+    """Pyramidal Lucas-Kanade; with ``guess``, one level around it (refinement)."""
+    moved, status, _ = cv2.calcOpticalFlowPyrLK(
+        before,
+        after,
+        points,
+        guess.copy() if guess is not None else None,  # type: ignore[arg-type]
+        winSize=(LK_WINDOW_PX, LK_WINDOW_PX),
+        maxLevel=1 if guess is not None else LK_LEVELS,
+        criteria=(cv2.TERM_CRITERIA_EPS | cv2.TERM_CRITERIA_COUNT, 30, 0.01),
+        flags=cv2.OPTFLOW_USE_INITIAL_FLOW if guess is not None else 0,
+    )
+    return np.asarray(moved, np.float32), np.asarray(status, np.uint8)
 
 
 def _still_span(
@@ -251,7 +255,8 @@ def write_station_labels(
     images_dir = labels_dir / "images"
     images_dir.mkdir(parents=True, exist_ok=True)
     keep = {i for i, lab in labels.items() if lab.source == "clicked" or i % every == 0}
-    images, annotations = [], []
+    images: list[dict[str, object]] = []
+    annotations: list[dict[str, object]] = []
     capture = cv2.VideoCapture(str(video))
     index = 0
     try:
