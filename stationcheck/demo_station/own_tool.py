@@ -42,6 +42,7 @@ LK_WINDOW_PX = 21
 LK_LEVELS = 3
 BODY_POINTS = 12
 REFINE_MAX_PX = 3.0
+MAX_BRIDGE_FRAMES = 12  # a fast move between two positions takes ~0.2-0.4 s
 STILL_LEVELS = 6.0  # in every 16 px cell
 FIRST_SHARE = 0.7  # of the click budget spread evenly over time; the rest where flow is lost
 Points = npt.NDArray[np.float64]  # 2 x 3: tip, rear as (x, y, v)
@@ -213,10 +214,38 @@ def propagate(
                 kps = f if f is not None else k  # type: ignore[assignment]
             if kps is not None:
                 labels[j] = FrameLabel(j, kps, "propagated")
+        _bridge(labels, a, b)
         gap = [a + o for o in range(1, b - a) if a + o not in labels]
         if gap:
             lost.append(gap[len(gap) // 2])
     return labels, lost
+
+
+def _bridge(labels: dict[int, FrameLabel], a: int, b: int) -> None:
+    """Fills a short run of frames the flow lost (a fast move blurs the tool) between two
+    labelled frames with the tool in view, in a straight line in time."""
+    j = a + 1
+    while j < b:
+        if j in labels:
+            j += 1
+            continue
+        end = j
+        while end < b and end not in labels:
+            end += 1
+        before, after = labels.get(j - 1), labels.get(end)
+        if (
+            before is not None
+            and after is not None
+            and end - j <= MAX_BRIDGE_FRAMES
+            and (before.keypoints[:, 2] > 0).all()
+            and (after.keypoints[:, 2] > 0).all()
+        ):
+            span = end - (j - 1)
+            for k in range(j, end):
+                w = (k - (j - 1)) / span
+                kps = (1 - w) * before.keypoints + w * after.keypoints
+                labels[k] = FrameLabel(k, kps, "propagated")
+        j = end + 1
 
 
 def simulate_labelling(

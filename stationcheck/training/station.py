@@ -24,9 +24,17 @@ import numpy as np
 
 from stationcheck.errors import InputFileError
 from stationcheck.evaluation.station_labels import StationLabel, TimeSplit
+from stationcheck.training.augment import AugmentSettings
 from stationcheck.training.bundle import write_bundle
 from stationcheck.training.loop import Progress, TrainConfig, train
-from stationcheck.training.samples import FloatArray, FrameSource, FunctionSource, ImageU8, SampleFn
+from stationcheck.training.samples import (
+    ExampleSettings,
+    FloatArray,
+    FrameSource,
+    FunctionSource,
+    ImageU8,
+    SampleFn,
+)
 from stationcheck.training.sources import demo_moving_sample, demo_sample_functions
 
 logger = logging.getLogger(__name__)
@@ -40,6 +48,9 @@ DEFAULT_STEPS = 1500
 DEFAULT_MINUTES = 7.0
 FINE_TUNE_LEARNING_RATE = 1.5e-3
 FINE_TUNE_WARMUP_STEPS = 30
+# A station's fast moves are what its labels have fewest of (the flow loses a blurred tool), so
+# its frames get trailing motion blur more often than the bundled model's training did.
+FINE_TUNE_MOTION_BLUR_P = 0.5
 CALIBRATION_FRAMES = 400
 MOTION_FRAMES = 400
 
@@ -118,7 +129,8 @@ def fine_tune(
     source = mixed_source(split.train, settings.station_share)
     if on_phase is not None:
         on_phase("training", 0, config.max_steps)
-    result = train(source, config, on_progress=on_progress)
+    examples = ExampleSettings(augment=AugmentSettings(p_motion_blur=FINE_TUNE_MOTION_BLUR_P))
+    result = train(source, config, on_progress=on_progress, example_settings=examples)
     calibration_labels = split.calibration or split.train
     calibration = mixed_source(calibration_labels, max(settings.station_share, 0.5))
     staging = settings.out_dir.with_name(settings.out_dir.name + ".new")
