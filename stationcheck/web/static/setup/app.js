@@ -38,10 +38,10 @@ function renderTop() {
 // Whether the station's model was proven on this station (its fitness report); the words
 // carry the meaning, the colour doubles it (IEC 60073: green normal, yellow abnormal, red fault).
 const MODEL_WORDS = {
-  fit: ["normal", "\u2714", "model fit for this station"],
+  fit: ["normal", "\u2714", "model fit"],
   demo: ["neutral", "i", "demo model"],
-  unproven: ["abnormal", "!", "model UNPROVEN on this station"],
-  unfit: ["fault", "\u2716", "model NOT FIT for this station"],
+  unproven: ["abnormal", "!", "model UNPROVEN"],
+  unfit: ["fault", "\u2716", "model NOT FIT"],
 };
 function renderModelBadge(model) {
   const badge = document.getElementById("model-badge");
@@ -49,13 +49,14 @@ function renderModelBadge(model) {
   const [meaning, symbol, words] = MODEL_WORDS[model.state] || MODEL_WORDS.unproven;
   const f = model.fitness;
   const figures = f && f.tip_p95_px != null
-    ? ` (tip p95 ${f.tip_p95_px.toFixed(1)} of ${f.inner_radius_px.toFixed(1)} px, misses `
-      + `${(100 * (f.miss_rate || 0)).toFixed(1)} %, false ${(100 * (f.false_detection_rate || 0)).toFixed(1)} %)`
+    ? `\nheld out: tip p95 ${f.tip_p95_px.toFixed(1)} px (inner radius ${f.inner_radius_px.toFixed(1)} px), `
+      + `misses ${(100 * (f.miss_rate || 0)).toFixed(1)} %, `
+      + `false detections ${(100 * (f.false_detection_rate || 0)).toFixed(1)} %`
     : "";
   badge.hidden = false;
   badge.className = `badge meaning-${meaning}`;
-  badge.textContent = `${symbol} ${words}${figures}`;
-  badge.title = model.message;
+  badge.textContent = `${symbol} ${words}`;
+  badge.title = model.message + figures;
 }
 
 function renderTabs() {
