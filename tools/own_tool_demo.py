@@ -32,7 +32,7 @@ from stationcheck.demo_station.own_tool import (
 )
 from stationcheck.evaluation.report import evaluate
 from stationcheck.evaluation.truth import read_video_frames
-from stationcheck.vision.detector import load_detector
+from stationcheck.vision.detector import bundled_model_path, load_detector
 
 VIDEO = "demo_station.mp4"
 
@@ -61,6 +61,16 @@ def make_station(station: Path) -> Path:
     config = station / "station.yaml"
     config.write_text(yaml_document.dump_text(document), encoding="utf-8")
     return config
+
+
+def point_at_bundled(config: Path) -> None:
+    from stationcheck.web.setup import yaml_document
+
+    document = yaml_document.load_file(config)
+    plain = yaml_document.to_plain(document)
+    plain["model"]["path"] = "bundled"
+    yaml_document.merge_into(document, plain)
+    config.write_text(yaml_document.dump_text(document), encoding="utf-8")
 
 
 def figures(model: Path | None, video: Path, first_s: float = 0.0) -> dict[str, float | None]:
@@ -132,15 +142,7 @@ def main() -> int:
         recording_p = sv.produce(RECORDING_SCRIPT, DEMO_CONFIG, rig=unseen_rig())
         shutil.rmtree(station / "labels", ignore_errors=True)
         shutil.rmtree(station / "model", ignore_errors=True)
-        make_station_keep = station / "recordings"
-        assert make_station_keep.is_dir()
-        from stationcheck.web.setup import yaml_document
-
-        document = yaml_document.load_file(config)
-        plain = yaml_document.to_plain(document)
-        plain["model"]["path"] = "bundled"
-        yaml_document.merge_into(document, plain)
-        config.write_text(yaml_document.dump_text(document), encoding="utf-8")
+        point_at_bundled(config)
     print(f"rendered in {time.perf_counter() - started:.0f} s", flush=True)
     shown["bundled_on_recording"] = figures(None, recording / VIDEO)
     print("bundled model on the recording:", shown["bundled_on_recording"], flush=True)
@@ -227,12 +229,6 @@ def main() -> int:
     shown["total_seconds"] = round(time.perf_counter() - started, 1)
     print(json.dumps(shown, indent=2))
     return 0
-
-
-def sv_bundled() -> Path:
-    from stationcheck.vision.detector import bundled_model_path
-
-    return bundled_model_path()
 
 
 if __name__ == "__main__":
