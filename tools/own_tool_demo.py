@@ -221,7 +221,7 @@ def main() -> int:
     shown["fine_tuned_on_replay_scene"] = figures(model, replay_scene / VIDEO)
     shown["replay_fine_tuned"] = replay(config, replay_scene, out / "replay_fine.sqlite", model)
     shown["replay_bundled"] = replay(
-        config, replay_scene, out / "replay_bundled.sqlite", sv_bundled()
+        config, replay_scene, out / "replay_bundled.sqlite", bundled_model_path()
     )
     shown["fine_tuned_on_sample_video"] = figures(model, REPO_ROOT / "sample_video" / VIDEO)
     shown["detector_ms_median_1_thread"] = round(detector_ms(model, replay_scene / VIDEO), 2)
