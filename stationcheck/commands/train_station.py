@@ -9,6 +9,7 @@ and proven on its held-out frames before it goes live.
 from __future__ import annotations
 
 import json
+import signal
 import sys
 import time
 from dataclasses import replace
@@ -160,6 +161,7 @@ def train_station(args: Any) -> int:
 
     minutes = args.minutes if args.minutes is not None else DEFAULT_MINUTES
     printer = ProgressPrinter(args.progress_json, 60.0 * minutes)
+    _stop_on_terminate()
     try:
         printer.phase("reading labels", 0, 0)
         config_path: Path = args.station
@@ -196,3 +198,16 @@ def train_station(args: Any) -> int:
         print(f"wrote {model} and pointed {config_path} at it")
         print("\n".join(fitness_lines(fitness)))
     return 0
+
+
+def _stop_on_terminate() -> None:
+    """A screen's cancel ends the process with SIGTERM: stop like Ctrl-C, so the last line
+    says so and the station's model is left as it was."""
+
+    def stop(signum: int, frame: object) -> None:
+        raise KeyboardInterrupt
+
+    try:
+        signal.signal(signal.SIGTERM, stop)
+    except ValueError:  # not the main thread (called from a test or a server thread)
+        pass

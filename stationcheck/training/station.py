@@ -138,15 +138,19 @@ def fine_tune(
         shutil.rmtree(staging)
     if on_phase is not None:
         on_phase("calibrating", result.steps, config.max_steps)
-    write_bundle(
-        result,
-        replace(config, start_from=None),
-        staging,
-        calibration,
-        settings.calibration_frames,
-        moving_sample=demo_moving_sample() if settings.motion_frames > 0 else None,
-        motion_frames=settings.motion_frames,
-    )
+    try:
+        write_bundle(
+            result,
+            replace(config, start_from=None),
+            staging,
+            calibration,
+            settings.calibration_frames,
+            moving_sample=demo_moving_sample() if settings.motion_frames > 0 else None,
+            motion_frames=settings.motion_frames,
+        )
+    except BaseException:
+        shutil.rmtree(staging, ignore_errors=True)  # the station's model stays as it was
+        raise
     return install_bundle(staging, settings.out_dir)
 
 
