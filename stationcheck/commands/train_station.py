@@ -161,7 +161,7 @@ def train_station(args: Any) -> int:
 
     minutes = args.minutes if args.minutes is not None else DEFAULT_MINUTES
     printer = ProgressPrinter(args.progress_json, 60.0 * minutes)
-    _stop_on_terminate()
+    previous = _stop_on_terminate()
     try:
         printer.phase("reading labels", 0, 0)
         config_path: Path = args.station
@@ -191,6 +191,9 @@ def train_station(args: Any) -> int:
     except (Exception, KeyboardInterrupt) as exc:
         printer.error(exc if isinstance(exc, Exception) else Exception("cancelled"))
         raise
+    finally:
+        if previous is not None:
+            signal.signal(signal.SIGTERM, previous)
     printer.done(model, fitness)
     if not args.progress_json:
         from stationcheck.evaluation.fitness import fitness_lines
@@ -200,7 +203,7 @@ def train_station(args: Any) -> int:
     return 0
 
 
-def _stop_on_terminate() -> None:
+def _stop_on_terminate() -> signal.Handlers | Any:
     """A screen's cancel ends the process with SIGTERM: stop like Ctrl-C, so the last line
     says so and the station's model is left as it was."""
 
@@ -208,6 +211,6 @@ def _stop_on_terminate() -> None:
         raise KeyboardInterrupt
 
     try:
-        signal.signal(signal.SIGTERM, stop)
-    except ValueError:  # not the main thread (called from a test or a server thread)
-        pass
+        return signal.signal(signal.SIGTERM, stop)
+    except ValueError:  # not the main thread (called from a server thread)
+        return None
