@@ -122,7 +122,9 @@ def replay(config: Path, scene: Path, log: Path, model: Path | None) -> dict[str
 def main() -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--out", type=Path, default=Path("/tmp/stationcheck-own-tool"))
-    parser.add_argument("--minutes", type=float, default=7.0, help="training budget")
+    parser.add_argument(
+        "--minutes", type=float, default=None, help="training budget (default: train's own)"
+    )
     parser.add_argument("--clicks", type=int, default=60)
     parser.add_argument("--every", type=int, default=3, help="keep every n-th propagated frame")
     parser.add_argument("--skip-render", action="store_true", help="reuse rendered scenes")
@@ -181,8 +183,7 @@ def main() -> int:
         "--station",
         str(config),
         "--progress-json",
-        "--minutes",
-        str(args.minutes),
+        *(["--minutes", str(args.minutes)] if args.minutes is not None else []),
     ]
     result = subprocess.run(command, capture_output=True, text=True, check=False)
     lines = [json.loads(line) for line in result.stdout.splitlines() if line.startswith("{")]

@@ -48,7 +48,7 @@ def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[ty
         "--minutes",
         type=float,
         default=None,
-        help="time budget in minutes (stops at whichever budget comes first; --station: 7)",
+        help="time budget in minutes (stops at whichever budget comes first; --station: 8.5)",
     )
     p.add_argument("--seed", type=int, default=0, help="random seed (default: %(default)s)")
     p.add_argument("--batch-size", type=int, default=32, help="default: %(default)s")

@@ -45,7 +45,7 @@ STATION_SHARE = 0.7  # the rest: renderer frames, so the model does not forget
 # Defaults sized for ~1,000 labelled frames in <= 10 minutes on 2 CPU cores (one torch thread
 # plus one data worker): the time budget usually ends the run.
 DEFAULT_STEPS = 1500
-DEFAULT_MINUTES = 7.0
+DEFAULT_MINUTES = 8.5
 FINE_TUNE_LEARNING_RATE = 1.5e-3
 FINE_TUNE_WARMUP_STEPS = 30
 # A station's fast moves are what its labels have fewest of (the flow loses a blurred tool), so
