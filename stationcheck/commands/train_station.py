@@ -110,7 +110,8 @@ def held_out_dry_run(
             recorder = run_dry(config, request)
         except StationcheckError as exc:
             return {"skipped": f"{video}: {exc}"}
-        timeline = recorder.timeline
+        # the run starts at the open unit's start (lead-in); the report shows the span itself
+        timeline = [e for e in recorder.timeline if e["t_s"] is None or e["t_s"] >= low - 1e-6]
         return {
             "video": video_name,
             "inputs": str(inputs) if inputs is not None else None,

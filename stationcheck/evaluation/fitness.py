@@ -234,11 +234,12 @@ def fitness_lines(fitness: Fitness) -> list[str]:
             f"{dry.get('frames', 0)} frames"
         )
         lines += [
-            f"  {item['t_s'] if item.get('t_s') is not None else '-':>8} s  {item['text']}"
-            for item in dry.get("timeline", [])
+            f"  {_seconds(item.get('t_s'))}  {item['text']}" for item in dry.get("timeline", [])
         ]
-    lines.append(
-        f"verdict        {fitness.verdict.upper() if not fitness.fit else fitness.verdict}"
-    )
+    lines.append(f"verdict        {fitness.verdict}")
     lines += [f"  - {reason}" for reason in fitness.reasons]
     return lines
+
+
+def _seconds(t_s: object) -> str:
+    return f"{t_s:8.2f} s" if isinstance(t_s, int | float) else "       - s"
