@@ -22,6 +22,10 @@ from __future__ import annotations
 import argparse
 import json
 import sys
+from typing import TYPE_CHECKING
+
+if TYPE_CHECKING:
+    from stationcheck.config import StationConfig
 
 EXIT_OK = 0
 EXIT_FINDINGS = 1
@@ -85,4 +89,18 @@ def run(args: argparse.Namespace) -> int:
     for line in result.lines():
         print(terminal_text(line))
     print(terminal_text(result.summary()))
+    if result.config is not None and not any(f.path == ("model", "path") for f in result.findings):
+        warn_unproven_model(result.config)
     return code
+
+
+def warn_unproven_model(config: StationConfig) -> None:
+    """Says on stderr, framed so it is not missed, when the station's model is unproven or
+    unfit (``check`` and ``run``)."""
+    from stationcheck.config.model_proof import station_model_proof
+
+    proof = station_model_proof(config)
+    if proof.warns:
+        sys.stdout.flush()
+        bar = "!" * 78
+        print(f"{bar}\n!! {proof.message}\n{bar}", file=sys.stderr, flush=True)

@@ -19,7 +19,9 @@ def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[ty
             "Runs the detector on labelled frames (a COCO keypoint dataset, or a video with its "
             "per-frame ground-truth CSV) and reports tip error median/p95 in frame pixels, PCK "
             "at 2/5/10 px, miss and false detection rates, and COCO OKS AP (pycocotools). "
-            "Without arguments: the bundled model on the sample video."
+            "Without arguments: the bundled model on the sample video. With --station: the "
+            "station's model on its held-out labelled frames, as its fitness report "
+            "(<station folder>/model/fitness.json) with a verdict."
         ),
     )
     p.add_argument(
@@ -27,6 +29,13 @@ def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[ty
         type=Path,
         default=None,
         help="coarse .onnx model (default: the bundled demo model)",
+    )
+    p.add_argument(
+        "--station",
+        type=Path,
+        default=None,
+        metavar="CONFIG",
+        help="the station's fitness report: its model on its held-out labelled frames",
     )
     p.add_argument("--coco", type=Path, default=None, help="COCO keypoint JSON")
     p.add_argument("--images", type=Path, default=None, help="image directory for --coco")
@@ -56,6 +65,8 @@ def run(args: argparse.Namespace) -> int:
     from stationcheck.vision.detector import load_detector
 
     require_pycocotools()  # before any frame is read: exit 7 at once, not after the whole run
+    if args.station is not None:
+        return _run_station(args)
     if args.coco is not None or args.images is not None:
         if args.coco is None or args.images is None or args.video or args.truth:
             raise InputFileError("use --coco with --images, or --video with --truth")
@@ -102,3 +113,22 @@ def run(args: argparse.Namespace) -> int:
     ]
     print("\n".join(lines), file=sys.stdout)
     return 0
+
+
+def _run_station(args: argparse.Namespace) -> int:
+    from stationcheck.commands.train_station import assess_station, station_split
+    from stationcheck.config import load_config
+    from stationcheck.evaluation.fitness import fitness_lines
+
+    if args.model or args.coco or args.images or args.video or args.truth:
+        raise InputFileError(
+            "--station measures the station's own model on its own labels; "
+            "leave out --model, --coco, --images, --video and --truth"
+        )
+    config = load_config(args.station)
+    fitness = assess_station(config, station_split(config))
+    if args.json:
+        print(json.dumps(fitness.as_dict()))
+    else:
+        print("\n".join(fitness_lines(fitness)))
+    return 0 if fitness.fit else 1

@@ -122,6 +122,7 @@ class UnitCount:
 
 def run(args: argparse.Namespace) -> int:
     from stationcheck.cli import PRIVACY_NOTE, SAFETY_NOTE
+    from stationcheck.commands.check import warn_unproven_model
     from stationcheck.config import load_config
     from stationcheck.live.session import LiveSettings, run_live
     from stationcheck.web.operator.options import audience_words
@@ -152,6 +153,7 @@ def run(args: argparse.Namespace) -> int:
     units = UnitCount()
     config = load_config(args.config)
     log_path = args.log or config.resolve(config.log.path)  # as run_live resolves it
+    warn_unproven_model(config)
 
     def ready(loop: LiveLoop) -> None:
         loops.append(loop)

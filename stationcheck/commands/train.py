@@ -17,8 +17,10 @@ def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[ty
             "Trains the coarse and refine keypoint networks (tip, rear) together, by default on "
             "the demo renderer's random training frames, or on your own COCO keypoint dataset "
             "(--coco/--images). Stops at --steps or --minutes, checkpoints as it goes, and "
-            "writes <name>.coarse.onnx and <name>.refine.onnx with calibrated scores. Needs the "
-            "'train' extra (torch)."
+            "writes <name>.coarse.onnx and <name>.refine.onnx with calibrated scores. With "
+            "--station: fine-tunes the station's model on the frames labelled in its setup "
+            "screen, writes it into the station folder, points the config at it and writes its "
+            "fitness report. Needs the 'train' extra (torch)."
         ),
     )
     p.add_argument(
@@ -27,12 +29,26 @@ def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[ty
         default=Path("trained_model"),
         help="directory for the ONNX files and the checkpoint (default: %(default)s)",
     )
-    p.add_argument("--steps", type=int, default=3000, help="step budget (default: %(default)s)")
+    p.add_argument(
+        "--station",
+        type=Path,
+        default=None,
+        metavar="CONFIG",
+        help="fine-tune this station's model on its labelled frames (<station folder>/labels/)",
+    )
+    p.add_argument(
+        "--progress-json",
+        action="store_true",
+        help="with --station: one JSON object per line on stdout (phase, step, time left)",
+    )
+    p.add_argument(
+        "--steps", type=int, default=None, help="step budget (default: 3000; --station: 1500)"
+    )
     p.add_argument(
         "--minutes",
         type=float,
         default=None,
-        help="time budget in minutes (stops at whichever budget comes first)",
+        help="time budget in minutes (stops at whichever budget comes first; --station: 8.5)",
     )
     p.add_argument("--seed", type=int, default=0, help="random seed (default: %(default)s)")
     p.add_argument("--batch-size", type=int, default=32, help="default: %(default)s")
@@ -65,11 +81,34 @@ def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[ty
         default=400,
         help="held-out frames for score calibration (default: %(default)s)",
     )
+    p.add_argument(
+        "--rendered-share",
+        type=float,
+        default=None,
+        help="with --station: share of the demo renderer's frames mixed into the station's own "
+        "so the model does not forget (default: 0.3)",
+    )
+    p.add_argument(
+        "--motion-frames",
+        type=int,
+        default=400,
+        help="rendered frames of fast moves to measure the motion lead on (default: %(default)s)",
+    )
     p.add_argument("--name", default="tool_tip", help="model file name stem (default: %(default)s)")
     p.set_defaults(handler=run)
 
 
 def run(args: argparse.Namespace) -> int:
+    if args.station is not None:
+        from stationcheck.commands.train_station import train_station
+
+        if args.coco is not None or args.images is not None or args.resume:
+            raise InputFileError(
+                "--station reads the station's own labels; leave out --coco, --images and --resume"
+            )
+        return train_station(args)
+    if args.progress_json:
+        raise InputFileError("--progress-json goes with --station")
     import stationcheck.training  # noqa: F401  (raises the install hint without torch)
     from stationcheck.training.bundle import write_bundle
     from stationcheck.training.loop import Progress, TrainConfig, train
@@ -87,13 +126,13 @@ def run(args: argparse.Namespace) -> int:
         moving_sample = demo_moving_sample(demo_training)
     config = TrainConfig(
         seed=args.seed,
-        max_steps=args.steps,
+        max_steps=args.steps if args.steps is not None else 3000,
         max_minutes=args.minutes,
         batch_size=args.batch_size,
         threads=args.threads,
         workers=args.workers,
         model_name=args.name,
-        start_from=_start_from(args.start_from),
+        start_from=start_from_path(args.start_from),
     )
     checkpoint = args.checkpoint or args.out / "checkpoint.pt"
 
@@ -114,13 +153,19 @@ def run(args: argparse.Namespace) -> int:
         flush=True,
     )
     path = write_bundle(
-        result, config, args.out, holdout, args.calibration_frames, moving_sample=moving_sample
+        result,
+        config,
+        args.out,
+        holdout,
+        args.calibration_frames,
+        moving_sample=moving_sample,
+        motion_frames=args.motion_frames,
     )
     print(f"wrote {path} and {path.parent / config.coarse_info().refine_model}")
     return 0
 
 
-def _start_from(value: str | None) -> Path | None:
+def start_from_path(value: str | None) -> Path | None:
     if value is None:
         return None
     if value == "bundled":

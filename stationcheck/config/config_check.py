@@ -13,6 +13,7 @@ from stationcheck.config.document import YamlDocument, read_yaml_file
 from stationcheck.config.error_wording import plain_errors
 from stationcheck.config.findings import CheckResult, Finding, sort_findings
 from stationcheck.config.geometry_lint import lint_geometry
+from stationcheck.config.model_proof import lint_model_proof
 from stationcheck.config.parts import parts_of_data
 from stationcheck.config.reference_lint import lint_references
 from stationcheck.config.schema import StationConfig
@@ -54,6 +55,8 @@ def check_document(document: YamlDocument, base_dir: Path, source: str) -> Check
     findings += lint_geometry(parts)
     findings += lint_references(parts)
     findings += lint_files(document.data, parts, base_dir)
+    if config is not None:
+        findings += lint_model_proof(document.data, base_dir)
     located = [
         f
         if f.line is not None

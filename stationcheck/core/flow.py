@@ -59,6 +59,7 @@ def open_unit(tx: Transaction, started: UnitStarted) -> None:
             positions=positions,
             rework_positions=_refs(started.rework_positions),
             **({"demo_data": True} if tx.index.plan.demo_data else {}),
+            **({"model_sha256": tx.index.plan.model_sha256} if tx.index.plan.model_sha256 else {}),
         )
     for ref in unknown:
         tx.alarm(

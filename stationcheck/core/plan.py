@@ -100,6 +100,7 @@ class StationPlan:
     thresholds: Thresholds = Thresholds()
     station: str = ""  # the station's name, for the log
     demo_data: bool = False  # invented data (the demo station): every unit's log says so
+    model_sha256: str = ""  # SHA-256 of the coarse model file deciding (empty: no model)
 
     def zone(self, zone_id: str) -> ZoneSpec:
         for zone in self.zones:

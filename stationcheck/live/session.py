@@ -102,6 +102,7 @@ def run_live(
     from stationcheck.pipeline.frame_path import FramePath
     from stationcheck.pipeline.judging import StationImageJudge
     from stationcheck.pipeline.log_sink import StepLogSink, rework_positions_from_log
+    from stationcheck.pipeline.model_identity import with_model_identity
     from stationcheck.store.sqlite_log import SqliteStepLog
     from stationcheck.vision.detector import load_detector
 
@@ -120,6 +121,7 @@ def run_live(
         detector = load_detector(
             settings.model_path or config.model_path, threads=config.model.threads
         )
+        plan = with_model_identity(plan, detector)
         judges = [StationImageJudge(StationJudgements.from_config(config))]
         log = SqliteStepLog(log_path, station_id=config.station_id)
         stack.callback(log.close)

@@ -33,6 +33,7 @@ from stationcheck.pipeline.frame_loop import FrameSink, LoopStats, Progress, run
 from stationcheck.pipeline.frame_path import FramePath
 from stationcheck.pipeline.judging import ImageJudge
 from stationcheck.pipeline.log_sink import StepLogSink, rework_positions_from_log
+from stationcheck.pipeline.model_identity import with_model_identity
 from stationcheck.pipeline.observation_stream import ObservationRecorder, read_observations
 from stationcheck.pipeline.replay_report import ReplayReport
 from stationcheck.pipeline.station_inputs import InputSchedule, read_station_inputs
@@ -141,6 +142,7 @@ def _replay_video(
         )
         stack.callback(source.close)
         detector = _detector(settings, config, prepared.truth)
+        plan = with_model_identity(plan, detector)
         judges = _judges(settings, config, plan, prepared.truth)
         outputs = _open_outputs(stack, settings, plan, source.fps, config)
         log = outputs.log

@@ -40,9 +40,17 @@ def demo_moving_sample(module: ModuleType) -> MovingSampleFn | None:
 
 
 def demo_sources(module: ModuleType) -> tuple[FrameSource, FrameSource]:
-    """The demo renderer's training frames (``module``: the renderer's training module); the
-    held-out part is the same generator on its own random stream (it is infinite, so nothing
-    is shared)."""
+    """The demo renderer's training frames (``module``: the renderer's training module, passed
+    in by the command); the held-out part is the same generator on its own random stream (it is
+    infinite, so nothing is shared)."""
+    functions = demo_sample_functions(module)
+    logger.info("demo training frames from %s", [f.__name__ for f, _ in functions])
+    source = FunctionSource(functions)
+    return source, source
+
+
+def demo_sample_functions(module: ModuleType) -> list[tuple[SampleFn, float]]:
+    """The demo renderer's sample functions with their share (weights sum to 1)."""
     functions: list[tuple[SampleFn, float]] = []
     for name, weight in DEMO_SAMPLE_FUNCTIONS:
         function = getattr(module, name, None)
@@ -50,6 +58,4 @@ def demo_sources(module: ModuleType) -> tuple[FrameSource, FrameSource]:
             functions.append((function, weight))
     if not functions:
         raise InputFileError("stationcheck.demo_station.training offers no sample function")
-    logger.info("demo training frames from %s", [f.__name__ for f, _ in functions])
-    source = FunctionSource(functions)
-    return source, source
+    return functions

@@ -216,7 +216,10 @@ def test_good_configs_have_no_findings(
     changes: list[tuple[str, Any]], check_changes: Callable[..., CheckResult]
 ) -> None:
     result = check_changes(changes, with_files=("videos/dry run.mp4", "models/tool.onnx"))
-    assert result.findings == (), result.lines()
+    # a station's own model file that no fitness report has measured is said once
+    # (tests/config/test_model_proof.py)
+    others = [f for f in result.findings if "UNPROVEN MODEL" not in f.message]
+    assert others == [], result.lines()
     assert result.config is not None
 
 

@@ -12,6 +12,7 @@ from pathlib import Path
 from typing import Any
 
 from stationcheck.config import check_data
+from stationcheck.config.model_proof import proof_of_data
 from stationcheck.config.parts import parts_of_data
 from stationcheck.core import bolt_pattern
 
@@ -44,12 +45,35 @@ def check_for_page(
         summary = f"{source}: OK with warnings: 0 errors, {warnings} warnings"
     return {
         "summary": summary,
+        "model": model_badge(data, base_dir),
         "ok": result.ok,
         "errors": len(result.errors),
         "warnings": warnings,
         "findings": findings,
         "zones": zones,
     }
+
+
+def model_badge(data: dict[str, Any], base_dir: Path) -> dict[str, Any]:
+    """The model badge: whether the station's model is proven on the station (its fitness
+    report), with the report's figures when one matches."""
+    proof = proof_of_data(data, base_dir)
+    if proof is None:
+        return {"state": "unproven", "message": "the model file named in model.path is missing"}
+    out: dict[str, Any] = {"state": proof.state, "message": proof.message}
+    if proof.report is not None:
+        keys = (
+            "tip_median_px",
+            "tip_p95_px",
+            "inner_radius_px",
+            "miss_rate",
+            "false_detection_rate",
+            "held_out_frames",
+            "measured_at",
+            "verdict",
+        )
+        out["fitness"] = {k: proof.report.get(k) for k in keys}
+    return out
 
 
 def tightening_numbers(data: dict[str, Any]) -> dict[str, tuple[int, int]]:

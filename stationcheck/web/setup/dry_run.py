@@ -175,6 +175,7 @@ def run_dry(config: StationConfig, request: DryRunRequest) -> DryRunRecorder:
     from stationcheck.pipeline.frame_path import FramePath
     from stationcheck.pipeline.judging import StationImageJudge
     from stationcheck.pipeline.log_sink import StepLogSink, rework_positions_from_log
+    from stationcheck.pipeline.model_identity import with_model_identity
     from stationcheck.pipeline.station_inputs import InputSchedule, read_station_inputs
     from stationcheck.sources.video_file import VideoFileSource
     from stationcheck.store.memory_log import MemoryStepLog
@@ -194,6 +195,7 @@ def run_dry(config: StationConfig, request: DryRunRequest) -> DryRunRecorder:
     )
     try:
         detector = load_detector(config.model_path, threads=config.model.threads)
+        plan = with_model_identity(plan, detector)
         judges = [StationImageJudge(StationJudgements.from_config(config))]
         step_log = MemoryStepLog()
         recorder = DryRunRecorder(plan, request.every, draw_from_s=request.start_s)

@@ -31,8 +31,33 @@ function renderTop() {
   summary.className = `badge meaning-${meaning}`;
   summary.textContent = `${symbol} ${words}`;
   summary.title = check.summary || "";
+  renderModelBadge(check.model);
   document.getElementById("undo").disabled = S.undo.length === 0;
   document.title = `${S.dirty ? "* " : ""}stationcheck setup`;
+}
+
+// Whether the station's model was proven on this station (its fitness report); the words
+// carry the meaning, the colour doubles it (IEC 60073: green normal, yellow abnormal, red fault).
+const MODEL_WORDS = {
+  fit: ["normal", "\u2714", "model fit"],
+  demo: ["neutral", "i", "demo model"],
+  unproven: ["abnormal", "!", "model UNPROVEN"],
+  unfit: ["fault", "\u2716", "model NOT FIT"],
+};
+function renderModelBadge(model) {
+  const badge = document.getElementById("model-badge");
+  if (!model) { badge.hidden = true; return; }
+  const [meaning, symbol, words] = MODEL_WORDS[model.state] || MODEL_WORDS.unproven;
+  const f = model.fitness;
+  const figures = f && f.tip_p95_px != null
+    ? `\nheld out: tip p95 ${f.tip_p95_px.toFixed(1)} px (inner radius ${f.inner_radius_px.toFixed(1)} px), `
+      + `misses ${(100 * (f.miss_rate || 0)).toFixed(1)} %, `
+      + `false detections ${(100 * (f.false_detection_rate || 0)).toFixed(1)} %`
+    : "";
+  badge.hidden = false;
+  badge.className = `badge meaning-${meaning}`;
+  badge.textContent = `${symbol} ${words}`;
+  badge.title = model.message + figures;
 }
 
 function renderTabs() {

@@ -1,0 +1,179 @@
+"""Fine-tuning a station's own model: its labelled frames, mixed with renderer frames, starting
+from the station's current model (or the bundled one).
+
+The mix is :data:`STATION_SHARE` of the station's own frames and the rest renderer frames
+(random scenes and the demo station, as the bundled model was trained on), so the model learns
+the station's tool without forgetting what a tool-free bench and other looks are. Every frame
+gets the training augmentation (colour, blur, noise, affine, trailing motion blur, JPEG,
+occlusion). The labels are split by time (:mod:`stationcheck.labels.station_labels`); only
+the early part is trained on. The bundle is written to a fresh folder and moved into
+``<station folder>/model/`` only when complete, so a failed or cancelled run leaves the
+station's model as it was.
+"""
+
+from __future__ import annotations
+
+import logging
+import shutil
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass, replace
+from pathlib import Path
+from types import ModuleType
+
+import cv2
+import numpy as np
+
+from stationcheck.errors import InputFileError
+from stationcheck.labels.station_labels import StationLabel, TimeSplit
+from stationcheck.training.augment import AugmentSettings
+from stationcheck.training.bundle import write_bundle
+from stationcheck.training.loop import Progress, TrainConfig, train
+from stationcheck.training.samples import (
+    ExampleSettings,
+    FloatArray,
+    FrameSource,
+    FunctionSource,
+    ImageU8,
+    SampleFn,
+)
+from stationcheck.training.sources import demo_moving_sample, demo_sample_functions
+
+logger = logging.getLogger(__name__)
+
+MODEL_DIR = "model"
+MODEL_NAME = "tool_tip"
+STATION_SHARE = 0.7  # the rest: renderer frames, so the model does not forget
+# Defaults sized for ~1,000 labelled frames in <= 10 minutes on 2 CPU cores (one torch thread
+# plus one data worker): the time budget usually ends the run.
+DEFAULT_STEPS = 1500
+DEFAULT_MINUTES = 8.5
+FINE_TUNE_LEARNING_RATE = 1.5e-3
+FINE_TUNE_WARMUP_STEPS = 30
+# A station's fast moves are what its labels have fewest of (the flow loses a blurred tool), so
+# its frames get trailing motion blur more often than the bundled model's training did.
+FINE_TUNE_MOTION_BLUR_P = 0.5
+CALIBRATION_FRAMES = 400
+MOTION_FRAMES = 400
+
+
+class LabelSource:
+    """Frames of the station's labels, read from their PNG files when drawn."""
+
+    def __init__(self, labels: Sequence[StationLabel]) -> None:
+        if not labels:
+            raise InputFileError("no labelled frames to draw from")
+        self._labels = tuple(labels)
+
+    def __len__(self) -> int:
+        return len(self._labels)
+
+    def sample(self, rng: np.random.Generator) -> tuple[ImageU8, FloatArray]:
+        item = self._labels[int(rng.integers(len(self._labels)))]
+        image = cv2.imread(str(item.image), cv2.IMREAD_COLOR)
+        if image is None:
+            raise InputFileError(f"cannot read labelled image {item.image}")
+        return np.asarray(image, np.uint8), item.keypoints.copy()
+
+
+def mixed_source(
+    labels: Sequence[StationLabel],
+    station_share: float = STATION_SHARE,
+    renderer: ModuleType | None = None,
+) -> FrameSource:
+    """The station's frames at ``station_share``, the renderer's training frames (``renderer``:
+    its training module, passed in by the command) for the rest."""
+    own = LabelSource(labels)
+    functions: list[tuple[SampleFn, float]] = [(own.sample, station_share)]
+    if station_share < 1.0 and renderer is not None:
+        rendered = demo_sample_functions(renderer)
+        total = sum(w for _, w in rendered)
+        functions += [(f, (1.0 - station_share) * w / total) for f, w in rendered]
+    return FunctionSource(functions)
+
+
+@dataclass(frozen=True)
+class FineTuneSettings:
+    start_from: Path  # coarse model file (its refine partner beside it)
+    out_dir: Path  # <station folder>/model
+    max_steps: int = DEFAULT_STEPS
+    max_minutes: float | None = DEFAULT_MINUTES
+    seed: int = 0
+    batch_size: int = 32
+    workers: int = 1
+    station_share: float = STATION_SHARE
+    calibration_frames: int = CALIBRATION_FRAMES
+    motion_frames: int = MOTION_FRAMES
+    # the demo renderer's training module (frames mixed in, fast moves for the motion lead);
+    # passed in by the command, as the demo sits above training in the layers
+    renderer: ModuleType | None = None
+
+
+PhaseFn = Callable[[str, int, int], None]  # phase, step, max_steps
+
+
+def fine_tune(
+    split: TimeSplit,
+    settings: FineTuneSettings,
+    on_progress: Callable[[Progress], None] | None = None,
+    on_phase: PhaseFn | None = None,
+) -> Path:
+    """Trains, calibrates, measures the motion lead, and returns the station's coarse model
+    path (in ``settings.out_dir``)."""
+    config = TrainConfig(
+        seed=settings.seed,
+        max_steps=settings.max_steps,
+        max_minutes=settings.max_minutes,
+        batch_size=settings.batch_size,
+        learning_rate=FINE_TUNE_LEARNING_RATE,
+        warmup_steps=min(FINE_TUNE_WARMUP_STEPS, max(1, settings.max_steps // 4)),
+        checkpoint_every=10**9,
+        log_every=10,
+        threads=1,
+        workers=settings.workers,
+        model_name=MODEL_NAME,
+        start_from=settings.start_from,
+    )
+    source = mixed_source(split.train, settings.station_share, settings.renderer)
+    if on_phase is not None:
+        on_phase("training", 0, config.max_steps)
+    examples = ExampleSettings(augment=AugmentSettings(p_motion_blur=FINE_TUNE_MOTION_BLUR_P))
+    result = train(source, config, on_progress=on_progress, example_settings=examples)
+    calibration_labels = split.calibration or split.train
+    calibration = mixed_source(
+        calibration_labels, max(settings.station_share, 0.5), settings.renderer
+    )
+    staging = settings.out_dir.with_name(settings.out_dir.name + ".new")
+    if staging.exists():
+        shutil.rmtree(staging)
+    if on_phase is not None:
+        on_phase("calibrating", result.steps, config.max_steps)
+    try:
+        write_bundle(
+            result,
+            replace(config, start_from=None),
+            staging,
+            calibration,
+            settings.calibration_frames,
+            moving_sample=(
+                demo_moving_sample(settings.renderer)
+                if settings.motion_frames > 0 and settings.renderer is not None
+                else None
+            ),
+            motion_frames=settings.motion_frames,
+        )
+    except BaseException:
+        shutil.rmtree(staging, ignore_errors=True)  # the station's model stays as it was
+        raise
+    return install_bundle(staging, settings.out_dir)
+
+
+def install_bundle(staging: Path, out_dir: Path) -> Path:
+    """Moves the two model files from ``staging`` into ``out_dir`` (replacing the old ones,
+    other files there are kept) and returns the coarse model's path."""
+    out_dir.mkdir(parents=True, exist_ok=True)
+    coarse = out_dir / f"{MODEL_NAME}.coarse.onnx"
+    for name in (f"{MODEL_NAME}.refine.onnx", f"{MODEL_NAME}.coarse.onnx"):
+        (staging / name).replace(out_dir / name)
+    shutil.rmtree(staging, ignore_errors=True)
+    logger.info("station model written: %s", coarse)
+    return coarse

@@ -1,0 +1,88 @@
+"""The fast part of the own-tool demonstration (the long part: ``tools/own_tool_demo.py``): a
+recording with the held-out tool, labelled from a few simulated clicks plus optical flow, stored
+as the station's label dataset; the bundled model misses the unseen tool."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import cv2
+import numpy as np
+import pytest
+
+from stationcheck.demo_station import sample_video as sv
+from stationcheck.demo_station.files import DEMO_CONFIG
+from stationcheck.demo_station.own_tool import (
+    RECORDING_SCRIPT,
+    simulate_labelling,
+    unseen_rig,
+    write_station_labels,
+)
+from stationcheck.evaluation.report import evaluate
+from stationcheck.labels.station_labels import read_station_labels
+from stationcheck.evaluation.truth import LabelledFrame
+from stationcheck.core.records import Frame
+from stationcheck.vision.detector import load_detector
+
+FRAMES = 150
+
+
+@pytest.fixture(scope="module")
+def recording(tmp_path_factory: pytest.TempPathFactory) -> tuple[Path, list[sv.TruthRow]]:
+    production = sv.produce(RECORDING_SCRIPT, DEMO_CONFIG, rig=unseen_rig())
+    renderer = sv.FrameRenderer(production)
+    station = tmp_path_factory.mktemp("station")
+    video = station / "recordings" / "rec.mp4"
+    video.parent.mkdir(parents=True)
+    writer = cv2.VideoWriter(str(video), cv2.VideoWriter.fourcc(*"mp4v"), 30.0, (640, 480))
+    for index in range(FRAMES):
+        writer.write(renderer.render(index))
+    writer.release()
+    return video, production.rows[:FRAMES]
+
+
+def _tip_errors(labels: dict[int, object], rows: list[sv.TruthRow], source: str) -> list[float]:
+    return [
+        float(np.hypot(lab.keypoints[0, 0] - rows[i].tip_x_px, lab.keypoints[0, 1] - rows[i].tip_y_px))  # type: ignore[attr-defined]
+        for i, lab in labels.items()
+        if lab.source == source and lab.keypoints[0, 2] > 0 and rows[i].tip_v == 2  # type: ignore[attr-defined]
+    ]
+
+
+def test_a_few_clicks_label_most_frames_close_to_the_truth(
+    recording: tuple[Path, list[sv.TruthRow]],
+) -> None:
+    video, rows = recording
+    labels, clicks = simulate_labelling(video, rows, budget=4, seed=1)
+    assert clicks <= 4 and len(labels) >= 0.6 * FRAMES
+    clicked = _tip_errors(labels, rows, "clicked")
+    propagated = _tip_errors(labels, rows, "propagated")
+    assert clicked and max(clicked) < 4.0  # 1 px noise per axis
+    # carried along within a few px (the whole recording: 2.2 px median, tools/own_tool_demo.py)
+    assert len(propagated) > 80 and float(np.median(propagated)) < 4.0
+    station = video.parent.parent
+    write_station_labels(station, video, labels, 30.0, every=5)
+    read_back = read_station_labels(station)
+    assert {i.label_source for i in read_back} == {"clicked", "propagated"}
+    assert all(i.video == "recordings/rec.mp4" for i in read_back)
+    assert sum(i.label_source == "clicked" for i in read_back) == clicks
+    # Reference: pycocotools reads the written dataset.
+    coco = pytest.importorskip("pycocotools.coco").COCO(str(station / "labels" / "coco.json"))
+    assert len(coco.getImgIds()) == len(read_back)
+
+
+def test_the_bundled_model_misses_the_unseen_tool(
+    recording: tuple[Path, list[sv.TruthRow]],
+) -> None:
+    video, rows = recording
+    capture = cv2.VideoCapture(str(video))
+    frames = []
+    for row in rows:
+        ok, image = capture.read()
+        assert ok
+        truth = np.array([[row.tip_x_px, row.tip_y_px, row.tip_v], [row.rear_x_px, row.rear_y_px, row.rear_v]])
+        frames.append(LabelledFrame(Frame(row.frame_index, row.t_s, image), truth))
+    capture.release()
+    report = evaluate(load_detector(None), frames)
+    assert report.metrics.visible_frames > 100
+    assert report.metrics.miss_rate > 0.2

@@ -1,0 +1,88 @@
+"""``train --station``: fine-tunes from the station's model on its labels, writes the model into
+the station folder, points the config at it and proves it; progress as JSON lines."""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import shutil
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+pytest.importorskip("torch")
+
+from stationcheck.cli import main
+from stationcheck.config import load_config
+from stationcheck.config.model_proof import station_model_proof
+from stationcheck.demo_station.files import DEMO_CONFIG
+from tests.evaluation.station_label_fixture import FixtureFrame, write_labels
+from tests.training.conftest import toy_sample
+
+PROGRESS_KEYS = {"phase", "step", "max_steps", "elapsed_s", "left_s"}
+
+
+def _station(tmp_path: Path, labelled: int) -> Path:
+    shutil.copytree(DEMO_CONFIG.parent / "demo_station", tmp_path / "demo_station")
+    text = DEMO_CONFIG.read_text(encoding="utf-8").replace("../sample_video/demo_station.mp4", "0")
+    (tmp_path / "station.yaml").write_text(text, encoding="utf-8")
+    rng = np.random.default_rng(5)
+    frames = []
+    for i in range(labelled):
+        image, kps = toy_sample(rng)
+        frames.append(
+            FixtureFrame("recordings/rec.mp4", 3 * i, i / 10, image, kps if kps[0, 2] else None)
+        )
+    if labelled:
+        write_labels(tmp_path, frames)
+    return tmp_path / "station.yaml"
+
+
+def _run(config: Path, capsys: pytest.CaptureFixture[str]) -> tuple[int, list[dict[str, object]]]:
+    code = main(
+        [
+            "train", "--station", str(config), "--progress-json", "--steps", "2",
+            "--batch-size", "4", "--workers", "0", "--calibration-frames", "8",
+            "--motion-frames", "0", "--rendered-share", "0",
+        ]
+    )  # fmt: skip
+    out = capsys.readouterr().out
+    return code, [json.loads(line) for line in out.splitlines()]
+
+
+def test_fine_tunes_into_the_station_folder_and_proves_it(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    config = _station(tmp_path, 30)
+    code, lines = _run(config, capsys)
+    assert code == 0
+    progress, last = lines[:-1], lines[-1]
+    assert progress and all(set(p) == PROGRESS_KEYS for p in progress)
+    assert "training" in {p["phase"] for p in progress}
+    assert [p["step"] for p in progress if p["phase"] == "training"][-1] == 2
+    model = tmp_path / "model" / "tool_tip.coarse.onnx"
+    assert last["done"] is True and Path(str(last["model"])) == model
+    assert (tmp_path / "model" / "tool_tip.refine.onnx").is_file()
+    assert not (tmp_path / "model.new").exists()
+    # the config now names the station's model; its comments are kept
+    text = config.read_text(encoding="utf-8")
+    assert "  path: model/tool_tip.coarse.onnx" in text
+    assert "# stationcheck station config -- DEMO DATA" in text
+    assert "# the model shipped in the package, or a path to an .onnx file" in text
+    # the fitness report names the file it measured (reference: hashlib over the file)
+    report = json.loads((tmp_path / "model" / "fitness.json").read_text(encoding="utf-8"))
+    assert report["model_sha256"] == hashlib.sha256(model.read_bytes()).hexdigest()
+    assert report == last["fitness"]
+    assert report["held_out_frames"] == 6 and report["dry_run"]["skipped"]
+    assert station_model_proof(load_config(config)).state in ("fit", "unfit")
+
+
+def test_no_labels_ends_with_one_error_line(
+    tmp_path: Path, capsys: pytest.CaptureFixture[str]
+) -> None:
+    config = _station(tmp_path, 0)
+    code, lines = _run(config, capsys)
+    assert code == 3
+    assert set(lines[-1]) == {"error"} and "no labelled frames yet" in str(lines[-1]["error"])
+    assert "bundled" in config.read_text(encoding="utf-8")
