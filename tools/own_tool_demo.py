@@ -30,7 +30,7 @@ from stationcheck.demo_station.own_tool import (
     unseen_rig,
     write_station_labels,
 )
-from stationcheck.evaluation.report import evaluate
+from stationcheck.evaluation.accuracy_report import evaluate
 from stationcheck.evaluation.truth import read_video_frames
 from stationcheck.vision.detector import bundled_model_path, load_detector
 

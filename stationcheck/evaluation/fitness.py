@@ -31,7 +31,7 @@ from stationcheck.config.model_proof import file_sha256
 from stationcheck.config.schema import StationConfig
 from stationcheck.core.records import Frame
 from stationcheck.errors import InputFileError
-from stationcheck.evaluation.report import evaluate
+from stationcheck.evaluation.accuracy_report import evaluate
 from stationcheck.evaluation.truth import LabelledFrame
 from stationcheck.labels.station_labels import StationLabel
 from stationcheck.vision.detector import KeypointDetector

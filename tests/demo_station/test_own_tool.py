@@ -18,7 +18,7 @@ from stationcheck.demo_station.own_tool import (
     unseen_rig,
     write_station_labels,
 )
-from stationcheck.evaluation.report import evaluate
+from stationcheck.evaluation.accuracy_report import evaluate
 from stationcheck.labels.station_labels import read_station_labels
 from stationcheck.evaluation.truth import LabelledFrame
 from stationcheck.core.records import Frame

@@ -20,7 +20,7 @@ def _unit_started_data(model_sha256: str) -> dict[str, object]:
     sequencer = Sequencer(plan)
     _, _, events = sequencer.step(sequencer.initial_state(), UnitStarted(0.0, "PC-000001"))
     (started,) = [e for e in events if e.kind == "unit_started"]
-    return dict(started.data)
+    return dict(started.to_data())
 
 
 @pytest.mark.parametrize(("sha", "expected"), [("ab" * 32, "ab" * 32), ("", None)])
@@ -48,4 +48,4 @@ def test_replayed_units_name_the_bundled_model_file(tmp_path: Path) -> None:
         log.close()
     # Reference: hashlib's SHA-256 of the shipped file's bytes, as `sha256sum` prints it.
     expected = hashlib.sha256(bundled_model_path().read_bytes()).hexdigest()
-    assert started and all(e.data["model_sha256"] == expected for e in started)
+    assert started and all(e.to_data()["model_sha256"] == expected for e in started)
