@@ -95,6 +95,8 @@ class View:
 
     def apply(self, point: Point, width_px: int, height_px: int) -> Point:
         """Where a point of the developed frame lands in the delivered one."""
+        if self.is_identity:
+            return point
         h = self.homography(width_px, height_px)
         x, y, w = h @ np.array([point[0], point[1], 1.0])
         return float(x / w), float(y / w)

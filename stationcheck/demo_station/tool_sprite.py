@@ -57,6 +57,14 @@ class ToolStyle:
             raise ValueError(f"ToolStyle.length_px must be in [60, 400], got {self.length_px}")
         if not 6.0 <= self.radius_px <= 40.0:
             raise ValueError(f"ToolStyle.radius_px must be in [6, 40], got {self.radius_px}")
+        if not 4.0 <= self.bit_length_px <= 120.0:
+            raise ValueError(
+                f"ToolStyle.bit_length_px must be in [4, 120], got {self.bit_length_px}"
+            )
+        if not -1.0 <= self.cable_bend <= 1.0:
+            raise ValueError(f"ToolStyle.cable_bend must be in [-1, 1], got {self.cable_bend}")
+        if not isinstance(self.has_cable, bool):
+            raise ValueError(f"ToolStyle.has_cable must be true or false, got {self.has_cable!r}")
 
 
 DEMO_TOOL = ToolStyle()
