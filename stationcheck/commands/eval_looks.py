@@ -15,8 +15,11 @@ TARGET_TIP_P95_PX = 6.0
 
 def meets_target(figures: dict[str, Any]) -> bool:
     p95, miss = figures.get("tip_p95_px"), figures.get("miss_rate")
-    return p95 is not None and miss is not None and p95 <= TARGET_TIP_P95_PX and (
-        miss <= TARGET_MISS_RATE
+    return (
+        p95 is not None
+        and miss is not None
+        and p95 <= TARGET_TIP_P95_PX
+        and (miss <= TARGET_MISS_RATE)
     )
 
 
@@ -66,7 +69,9 @@ def run_looks(
         f"held-out looks ({LOOKS_SCENE.name}, demo data); detected = score >= {min_score:g}; "
         f"target: miss <= {TARGET_MISS_RATE:.0%}, tip p95 <= {TARGET_TIP_P95_PX:g} px"
     )
-    print(f"{'look':<16} {'frames':>6} {'median px':>9} {'p95 px':>7} {'miss':>6} {'false':>6}  met")
+    print(
+        f"{'look':<16} {'frames':>6} {'median px':>9} {'p95 px':>7} {'miss':>6} {'false':>6}  met"
+    )
     for r in rows:
         met = "-" if r["meets_target"] is None else ("yes" if r["meets_target"] else "NO")
         print(

@@ -90,8 +90,8 @@ class View:
         sx, sy = self.width_px / width_px, self.height_px / height_px
         out_cx, out_cy = (self.width_px - 1) / 2.0, (self.height_px - 1) / 2.0
         place = np.array([[sx, 0, out_cx], [0, sy, out_cy], [0, 0, 1]], np.float64)
-        matrix: npt.NDArray[np.float64] = place @ zoom @ rotate @ tilt @ centre
-        return matrix / matrix[2, 2]
+        matrix = place @ zoom @ rotate @ tilt @ centre
+        return np.asarray(matrix / matrix[2, 2], np.float64)
 
     def apply(self, point: Point, width_px: int, height_px: int) -> Point:
         """Where a point of the developed frame lands in the delivered one."""

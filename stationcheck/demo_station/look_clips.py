@@ -14,8 +14,8 @@ from pathlib import Path
 
 import numpy as np
 
-from stationcheck.core.records import Frame
 from stationcheck.config import load_config
+from stationcheck.core.records import Frame
 from stationcheck.demo_station.files import DEMO_CONFIG, REPO_ROOT
 from stationcheck.demo_station.held_out_looks import HeldOutLook
 from stationcheck.demo_station.sample_video import (

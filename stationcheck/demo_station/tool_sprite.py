@@ -64,7 +64,7 @@ class ToolStyle:
         if not -1.0 <= self.cable_bend <= 1.0:
             raise ValueError(f"ToolStyle.cable_bend must be in [-1, 1], got {self.cable_bend}")
         if not isinstance(self.has_cable, bool):
-            raise ValueError(f"ToolStyle.has_cable must be true or false, got {self.has_cable!r}")
+            raise TypeError(f"ToolStyle.has_cable must be true or false, got {self.has_cable!r}")
 
 
 DEMO_TOOL = ToolStyle()
@@ -223,8 +223,12 @@ def _draw_angle_head(
     head_r = max(9.0, 0.8 * radius)
     canvas.paint(
         canvas.polygon_mask(
-            [(0, -0.55 * head_r), (chuck_end, -0.6 * radius), (chuck_end, 0.6 * radius),
-             (0, 0.55 * head_r)]
+            [
+                (0, -0.55 * head_r),
+                (chuck_end, -0.6 * radius),
+                (chuck_end, 0.6 * radius),
+                (0, 0.55 * head_r),
+            ]
         ),
         (150, 150, 155),
         0.6 * radius,
@@ -247,7 +251,10 @@ def _draw_pistol_handle(canvas: Canvas, style: ToolStyle, length: float, radius:
     )
     canvas.paint(
         canvas.rounded_rect_mask(
-            x - 0.2 * length, reach - 0.06 * length, x + 0.3 * length, reach + 0.12 * length,
+            x - 0.2 * length,
+            reach - 0.06 * length,
+            x + 0.3 * length,
+            reach + 0.12 * length,
             5.0,
         ),
         style.pack_bgr,

@@ -5,6 +5,7 @@ from __future__ import annotations
 import colorsys
 
 import numpy as np
+
 from stationcheck.demo_station.arm_sprite import DEMO_ARM
 from stationcheck.demo_station.held_out_looks import (
     HELD_OUT_HUE_BAND,
