@@ -67,10 +67,14 @@ def _colour_lists_to_tuples(values: dict[str, Any]) -> dict[str, Any]:
 def _check_colours(values: Mapping[str, Any], where: str, errors: list[str]) -> bool:
     good = True
     for key, value in values.items():
-        if key.endswith("_bgr") and value is not None and not (
-            isinstance(value, tuple)
-            and len(value) == 3
-            and all(isinstance(c, float) and 0.0 <= c <= 255.0 for c in value)
+        if (
+            key.endswith("_bgr")
+            and value is not None
+            and not (
+                isinstance(value, tuple)
+                and len(value) == 3
+                and all(isinstance(c, float) and 0.0 <= c <= 255.0 for c in value)
+            )
         ):
             errors.append(f"{where}.{key}: expected three numbers in [0, 255], got {value!r}")
             good = False
