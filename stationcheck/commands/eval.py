@@ -21,7 +21,9 @@ def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[ty
             "at 2/5/10 px, miss and false detection rates, and COCO OKS AP (pycocotools). "
             "Without arguments: the bundled model on the sample video. With --station: the "
             "station's model on its held-out labelled frames, as its fitness report "
-            "(<station folder>/model/fitness.json) with a verdict."
+            "(<station folder>/model/fitness.json) with a verdict. With --looks: the "
+            "model on short rendered clips of camera looks kept out of training (a dim lamp, "
+            "sensor noise, JPEG 15, zoom, roll, other tool colours, an unseen tool)."
         ),
     )
     p.add_argument(
@@ -53,6 +55,25 @@ def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[ty
         default=0.5,
         help="score at which a keypoint counts as detected (default: %(default)s)",
     )
+    p.add_argument(
+        "--looks",
+        action="store_true",
+        help="measure on rendered clips of the held-out looks instead (demo data; minutes)",
+    )
+    p.add_argument(
+        "--look",
+        action="append",
+        default=None,
+        metavar="NAME",
+        help="with --looks: only this look (repeatable), e.g. 'JPEG 15'",
+    )
+    p.add_argument(
+        "--look-frames",
+        type=int,
+        default=None,
+        metavar="N",
+        help="with --looks: only the first N frames of each clip",
+    )
     p.add_argument("--threads", type=int, default=1, help="onnxruntime threads (default: 1)")
     p.add_argument("--json", action="store_true", help="print one JSON object")
     p.set_defaults(handler=run)
@@ -67,6 +88,17 @@ def run(args: argparse.Namespace) -> int:
     require_pycocotools()  # before any frame is read: exit 7 at once, not after the whole run
     if args.station is not None:
         return _run_station(args)
+    if args.looks:
+        from stationcheck.commands.eval_looks import run_looks
+
+        if args.coco or args.images or args.video or args.truth:
+            raise InputFileError("--looks renders its own clips; drop --coco/--video")
+        if args.look_frames is not None and args.look_frames < 1:
+            raise InputFileError(f"--look-frames must be >= 1, got {args.look_frames}")
+        detector = load_detector(args.model, threads=args.threads)
+        return run_looks(detector, args.min_score, args.json, args.look, args.look_frames)
+    if args.look or args.look_frames is not None:
+        raise InputFileError("--look and --look-frames go with --looks")
     if args.coco is not None or args.images is not None:
         if args.coco is None or args.images is None or args.video or args.truth:
             raise InputFileError("use --coco with --images, or --video with --truth")

@@ -53,6 +53,12 @@ def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[ty
     p.add_argument("--seed", type=int, default=0, help="random seed (default: %(default)s)")
     p.add_argument("--batch-size", type=int, default=32, help="default: %(default)s")
     p.add_argument(
+        "--learning-rate",
+        type=float,
+        default=3e-3,
+        help="peak AdamW learning rate; lower it to refine a model --from one (default: %(default)s)",
+    )
+    p.add_argument(
         "--coco",
         type=Path,
         default=None,
@@ -129,6 +135,7 @@ def run(args: argparse.Namespace) -> int:
         max_steps=args.steps if args.steps is not None else 3000,
         max_minutes=args.minutes,
         batch_size=args.batch_size,
+        learning_rate=args.learning_rate,
         threads=args.threads,
         workers=args.workers,
         model_name=args.name,

@@ -2,6 +2,11 @@
 
 The camera transform is a rotation about the image centre followed by a shift, applied to the
 whole image: a reference-frame point ``p`` lands at ``R(rot) (p - c) + c + (dx, dy)``.
+
+A :class:`View` is how another station's camera frames the same bench: zoom, tilt (a keystone:
+the camera looks down at an angle), rotation about the image centre and the delivered frame
+size. It maps the 640x480 developed picture to the delivered one with one homography, and the
+ground truth goes through the same matrix.
 """
 
 from __future__ import annotations
@@ -11,6 +16,7 @@ from dataclasses import dataclass
 
 import cv2
 import numpy as np
+import numpy.typing as npt
 
 from stationcheck.demo_station import compositor as comp
 from stationcheck.demo_station import textures
@@ -38,6 +44,81 @@ class CameraTransform:
     @property
     def is_identity(self) -> bool:
         return self.dx_px == 0.0 and self.dy_px == 0.0 and self.rot_deg == 0.0
+
+
+@dataclass(frozen=True)
+class View:
+    """``zoom``: magnification about the centre (1 = as drawn); ``tilt_deg``: how far the
+    camera leans forward from looking straight down (the far edge shrinks); ``rot_deg``:
+    rotation about the centre; ``width_px``/``height_px``: the delivered frame size."""
+
+    zoom: float = 1.0
+    tilt_deg: float = 0.0
+    rot_deg: float = 0.0
+    width_px: int = 640
+    height_px: int = 480
+
+    def __post_init__(self) -> None:
+        if not 0.5 <= self.zoom <= 2.5:
+            raise ValueError(f"View.zoom must be in [0.5, 2.5], got {self.zoom!r}")
+        if not -30.0 <= self.tilt_deg <= 30.0:
+            raise ValueError(f"View.tilt_deg must be in [-30, 30], got {self.tilt_deg!r}")
+        if not -180.0 <= self.rot_deg <= 180.0:
+            raise ValueError(f"View.rot_deg must be in [-180, 180], got {self.rot_deg!r}")
+        for name in ("width_px", "height_px"):
+            value = getattr(self, name)
+            if not isinstance(value, int) or not 64 <= value <= 4096:
+                raise ValueError(f"View.{name} must be an integer in [64, 4096], got {value!r}")
+
+    @property
+    def is_identity(self) -> bool:
+        return self == View()
+
+    def homography(self, width_px: int, height_px: int) -> npt.NDArray[np.float64]:
+        """The 3x3 matrix from a ``width_px`` x ``height_px`` developed frame to this view."""
+        cx, cy = (width_px - 1) / 2.0, (height_px - 1) / 2.0
+        centre = np.array([[1, 0, -cx], [0, 1, -cy], [0, 0, 1]], np.float64)
+        # keystone: a plane tilted about the horizontal axis, seen by a camera of focal length
+        # about the frame width (a normal lens), then scaled back so the centre row keeps size
+        k = math.tan(math.radians(self.tilt_deg)) / float(width_px)
+        tilt = np.array([[1, 0, 0], [0, 1, 0], [0, k, 1]], np.float64)
+        a = math.radians(self.rot_deg)
+        rotate = np.array(
+            [[math.cos(a), -math.sin(a), 0], [math.sin(a), math.cos(a), 0], [0, 0, 1]], np.float64
+        )
+        zoom = np.diag([self.zoom, self.zoom, 1.0])
+        sx, sy = self.width_px / width_px, self.height_px / height_px
+        out_cx, out_cy = (self.width_px - 1) / 2.0, (self.height_px - 1) / 2.0
+        place = np.array([[sx, 0, out_cx], [0, sy, out_cy], [0, 0, 1]], np.float64)
+        matrix = place @ zoom @ rotate @ tilt @ centre
+        return np.asarray(matrix / matrix[2, 2], np.float64)
+
+    def apply(self, point: Point, width_px: int, height_px: int) -> Point:
+        """Where a point of the developed frame lands in the delivered one."""
+        if self.is_identity:
+            return point
+        h = self.homography(width_px, height_px)
+        x, y, w = h @ np.array([point[0], point[1], 1.0])
+        return float(x / w), float(y / w)
+
+    def warp(self, image: U8Image) -> U8Image:
+        """The delivered frame (edges outside the developed picture are reflected)."""
+        if self.is_identity:
+            return image
+        height_px, width_px = image.shape[:2]
+        h = self.homography(width_px, height_px)
+        size = (self.width_px, self.height_px)
+        if self.tilt_deg == 0.0:
+            return as_u8(
+                cv2.warpAffine(
+                    image, h[:2], size, flags=cv2.INTER_LINEAR, borderMode=cv2.BORDER_REFLECT_101
+                )
+            )
+        return as_u8(
+            cv2.warpPerspective(
+                image, h, size, flags=cv2.INTER_LINEAR, borderMode=cv2.BORDER_REFLECT_101
+            )
+        )
 
 
 @dataclass(frozen=True)

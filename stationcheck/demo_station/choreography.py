@@ -196,7 +196,8 @@ class _Planner:
 
     def move_to(self, tip: Point, lift_px: float, hop_px: float = 14.0, bias: float = 0.0) -> int:
         dist = math.dist(self.track.last.tip_px, tip)
-        return self.track.move(Waypoint(tip, lift_px, bias), self.s(0.24 + dist / 680.0), hop_px)
+        seconds = self.s(0.24 + dist / 680.0) / self.script.knobs.operator_speed
+        return self.track.move(Waypoint(tip, lift_px, bias), seconds, hop_px)
 
     # --- actions -----------------------------------------------------------------------
     def pick(self, pick: Pick) -> None:

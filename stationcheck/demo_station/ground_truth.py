@@ -1,7 +1,8 @@
 """Per-frame ground truth of the sample video, from the plan (never from a detector).
 
 Columns (CSV, one row per video frame; documented in ``sample_video/README.md``):
-image positions of tip and rear after the camera's move, their COCO visibility, their
+image positions of tip and rear after the camera's move (and the script's camera view:
+zoom, tilt, roll, frame size), their COCO visibility, their
 reference-frame (physical) positions, the zone the tip is physically in, hand-in-bin flags,
 the locking pin, whether anything covers the pin's check zone, the camera transform, the
 serial of the unit on the fixture.
@@ -13,6 +14,7 @@ from collections.abc import Sequence
 
 from stationcheck.core.plan import ZoneSpec
 from stationcheck.demo_station import layout
+from stationcheck.demo_station.camera import View
 from stationcheck.demo_station.choreography import Choreography
 from stationcheck.demo_station.rig import OperatorRig
 from stationcheck.demo_station.shading import Point
@@ -31,8 +33,8 @@ def zone_of(point: Point, zones: Sequence[ZoneSpec]) -> str:
     return ""
 
 
-def _in_frame(point: Point) -> bool:
-    return 0.0 <= point[0] <= WIDTH_PX - 1 and 0.0 <= point[1] <= HEIGHT_PX - 1
+def _in_frame(point: Point, view: View) -> bool:
+    return 0.0 <= point[0] <= view.width_px - 1 and 0.0 <= point[1] <= view.height_px - 1
 
 
 def _grid(polygon: Sequence[tuple[float, float]], steps: int = 5) -> list[Point]:
@@ -48,7 +50,10 @@ def _grid(polygon: Sequence[tuple[float, float]], steps: int = 5) -> list[Point]
     ]
 
 
-def ground_truth(chor: Choreography, rig: OperatorRig, zones: Sequence[ZoneSpec]) -> list[TruthRow]:
+def ground_truth(
+    chor: Choreography, rig: OperatorRig, zones: Sequence[ZoneSpec], view: View | None = None
+) -> list[TruthRow]:
+    view = view or View()
     by_id = {z.id: z for z in zones}
     pin_points = _grid(by_id["locking_pin"].polygon_px)
     rows = []
@@ -61,10 +66,10 @@ def ground_truth(chor: Choreography, rig: OperatorRig, zones: Sequence[ZoneSpec]
         visibility = []
         image_points = []
         for point in (tip, rear):
-            seen = camera.apply(point, WIDTH_PX, HEIGHT_PX)
+            seen = view.apply(camera.apply(point, WIDTH_PX, HEIGHT_PX), WIDTH_PX, HEIGHT_PX)
             image_points.append(seen)
             covered = rig.coverage_at(pose, placed, point)[1] >= OCCLUDED_ALPHA
-            visibility.append(0 if not _in_frame(seen) else (1 if covered else 2))
+            visibility.append(0 if not _in_frame(seen, view) else (1 if covered else 2))
         reach = rig.reach_placed(placed)
         clear = not any(
             max(cover[0], cover[2]) >= CLEAR_ALPHA

@@ -27,7 +27,9 @@ class Look:
     ``vignette``: extra darkening towards the corners (share lost in a corner, 0-0.9);
     ``noise_sigma``: extra sensor noise (grey levels, one standard deviation);
     ``jpeg_quality``: the camera's JPEG quality (None: no compression); ``blur_px``: extra
-    Gaussian lens blur (sigma, px)."""
+    Gaussian lens blur (sigma, px); ``light_from``: where a lamp sits, as (x, y) fractions of
+    the frame (may lie outside it), brightening the bench towards it by up to
+    ``light_falloff`` (0-1; 0 = even light)."""
 
     gain: float = 1.0
     cast_bgr: tuple[float, float, float] = (1.0, 1.0, 1.0)
@@ -35,8 +37,17 @@ class Look:
     noise_sigma: float = 0.0
     jpeg_quality: int | None = None
     blur_px: float = 0.0
+    light_from: tuple[float, float] = (0.5, 0.5)
+    light_falloff: float = 0.0
 
     def __post_init__(self) -> None:
+        if len(self.light_from) != 2 or not all(-2.0 <= c <= 3.0 for c in self.light_from):
+            raise ValueError(
+                f"Look.light_from must be two fractions of the frame in [-2, 3], "
+                f"got {self.light_from!r}"
+            )
+        if not 0.0 <= self.light_falloff <= 1.0:
+            raise ValueError(f"Look.light_falloff must be in [0, 1], got {self.light_falloff!r}")
         if not 0.05 <= self.gain <= 4.0:
             raise ValueError(f"Look.gain must be in [0.05, 4], got {self.gain!r}")
         if len(self.cast_bgr) != 3 or not all(0.2 <= c <= 3.0 for c in self.cast_bgr):
@@ -66,6 +77,9 @@ class Look:
         parts.append("no JPEG" if self.jpeg_quality is None else f"JPEG {self.jpeg_quality}")
         if self.blur_px:
             parts.append(f"blur {self.blur_px:g}")
+        if self.light_falloff:
+            x, y = self.light_from
+            parts.append(f"lamp at ({x:g}, {y:g}) falloff {self.light_falloff:g}")
         return ", ".join(parts)
 
 
@@ -85,9 +99,10 @@ def look_from_mapping(doc: Any, where: str, errors: list[str]) -> Look:
         errors.append(f"{where}: unknown keys {unknown}; knobs are {sorted(names)}")
         return Look()
     values = dict(doc)
-    if "cast_bgr" in values and isinstance(values["cast_bgr"], list):
-        values["cast_bgr"] = tuple(float(c) for c in values["cast_bgr"])
     try:
+        for key in ("cast_bgr", "light_from"):
+            if key in values and isinstance(values[key], list):
+                values[key] = tuple(float(c) for c in values[key])
         return Look(**values)
     except (TypeError, ValueError) as exc:
         errors.append(f"{where}: {exc}")
@@ -101,9 +116,15 @@ class LookFilter:
         self.look = look
         light = textures.vignette(height_px, width_px, 2.0 * look.vignette)
         light = np.clip(light, 1.0 - look.vignette, 1.0) * np.float32(look.gain)
+        if look.light_falloff:
+            ys, xs = np.mgrid[0:height_px, 0:width_px].astype(np.float32)
+            d = np.hypot(xs / width_px - look.light_from[0], ys / height_px - look.light_from[1])
+            light = light * np.clip(1.0 + look.light_falloff * (0.5 - d), 0.05, None)
         cast = np.asarray(look.cast_bgr, np.float32)
         self._light = np.ascontiguousarray(light[:, :, None] * cast[None, None, :], np.float32)
-        self._plain_light = look.vignette == 0.0 and look.cast_bgr == (1.0, 1.0, 1.0)
+        self._plain_light = (
+            look.vignette == 0.0 and look.cast_bgr == (1.0, 1.0, 1.0) and not look.light_falloff
+        )
         rng = np.random.default_rng(seed)
         self._noise = (
             textures.NoiseBank(rng, height_px, width_px, look.noise_sigma)

@@ -28,10 +28,10 @@ import numpy as np
 import numpy.typing as npt
 
 from stationcheck.demo_station.files import REPO_ROOT
-from stationcheck.pipeline.truth_rows import TruthRow
 from stationcheck.demo_station.held_out_looks import UNSEEN_ARM, UNSEEN_TOOL
 from stationcheck.demo_station.rig import OperatorRig
 from stationcheck.errors import InputFileError
+from stationcheck.pipeline.truth_rows import TruthRow
 
 logger = logging.getLogger(__name__)
 

@@ -87,9 +87,17 @@ def produce(
     script = load_script(script_path, script_limits(plan))
     if seed is not None:
         script = replace(script, seed=seed)
-    rig = rig or OperatorRig()
-    chor = choreograph(script, rig)
-    rows = ground_truth(chor, rig, plan.zones)
+    return plan_production(script, plan, rig)
+
+
+def plan_production(
+    script: SceneScript, plan: StationPlan, rig: OperatorRig | None = None
+) -> Production:
+    """Everything but the pixels of a loaded script on a station plan."""
+    knobs = script.knobs
+    rig = rig or OperatorRig(knobs.tool, knobs.arm)
+    chor = choreograph(script, rig, knobs.fps)
+    rows = ground_truth(chor, rig, plan.zones, knobs.view)
     decisions = expected_decisions(plan, rows, chor.inputs, chor.fps)
     return Production(script, plan, chor, rows, decisions, rig)
 
@@ -99,7 +107,8 @@ class FrameRenderer:
 
     def __init__(self, production: Production) -> None:
         self.p = production
-        self.scene = StationScene()
+        self.scene = StationScene(bench=production.script.knobs.bench)
+        self.view = production.script.knobs.view
         self.camera = Camera(
             layout.FRAME_WIDTH_PX,
             layout.FRAME_HEIGHT_PX,
@@ -112,7 +121,7 @@ class FrameRenderer:
             None
             if look.is_plain
             else LookFilter(
-                look, layout.FRAME_WIDTH_PX, layout.FRAME_HEIGHT_PX, production.script.seed + 11
+                look, self.view.width_px, self.view.height_px, production.script.seed + 11
             )
         )
         self._part_shadows = {
@@ -159,6 +168,7 @@ class FrameRenderer:
         image = self.camera.develop(
             self.scene_image(frame), self.p.choreography.camera(frame), exposure, rng
         )
+        image = self.view.warp(image)
         return image if self._look is None else self._look.apply(image, rng)
 
     def reference(self) -> np.ndarray:
@@ -172,7 +182,7 @@ def write_video(
     renderer: FrameRenderer, path: Path, progress: Callable[[int, int], None] | None = None
 ) -> None:
     chor = renderer.p.choreography
-    size = (layout.FRAME_WIDTH_PX, layout.FRAME_HEIGHT_PX)
+    size = (renderer.view.width_px, renderer.view.height_px)
     fourcc = cv2.VideoWriter.fourcc(*"mp4v")
     writer = cv2.VideoWriter(str(path), fourcc, chor.fps, size)
     if not writer.isOpened():
@@ -204,8 +214,8 @@ def write_sidecars(p: Production, out_dir: Path, config_path: Path = DEFAULT_CON
     meta = {
         "description": "Sample video of the demo pump end-cover station (DEMO DATA, invented)",
         "video": VIDEO_NAME,
-        "width_px": layout.FRAME_WIDTH_PX,
-        "height_px": layout.FRAME_HEIGHT_PX,
+        "width_px": p.script.knobs.view.width_px,
+        "height_px": p.script.knobs.view.height_px,
         "fps": fps,
         "frame_count": chor.frame_count,
         "duration_s": round(chor.frame_count / fps, 3),

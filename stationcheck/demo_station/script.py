@@ -16,7 +16,14 @@ A small YAML file (see ``sample_video/demo_script.yaml`` and ``sample_video/READ
         pin: push                               # push | leave_out | keep | none
         ack_after_s: 1.5                        # operator acknowledges after this wait
     look: {gain: 0.45, cast_bgr: [0.78, 0.95, 1.12], vignette: 0.35, noise_sigma: 3,
-           jpeg_quality: 40, blur_px: 0.8}          # optional: a worse camera picture
+           jpeg_quality: 40, blur_px: 0.8,
+           light_from: [0.9, 0.1], light_falloff: 0.4}  # optional: a worse camera picture
+    tool: {kind: pistol, body_bgr: [40, 40, 150]}   # optional: another station's tool,
+    operator: {speed: 1.3, glove_bgr: [40, 40, 42]} # hands, pace, bench and camera
+    bench: mat
+    camera: {zoom: 1.15, tilt_deg: 8, rot_deg: 4, width_px: 800, height_px: 600, fps: 25}
+
+The knobs besides ``look`` are described in ``scene_knobs.py``.
 
 ``rework: true`` starts a rework pass of a serial seen before (same part still in the fixture).
 A tightening's ``ok`` must agree with the station config's torque and angle limits, as the
@@ -31,9 +38,21 @@ from typing import Any, Literal
 
 from stationcheck.config import yaml_text
 from stationcheck.demo_station.look import Look, look_from_mapping
+from stationcheck.demo_station.scene_knobs import SceneKnobs, knobs_from_document
 from stationcheck.errors import ConfigError, InputFileError
 
 PinAction = Literal["push", "leave_out", "keep", "none"]
+TOP_LEVEL_KEYS = (
+    "format_version",
+    "seed",
+    "units",
+    "tail_s",
+    "look",
+    "tool",
+    "operator",
+    "bench",
+    "camera",
+)
 BIN_ZONES = ("bin_gasket", "bin_cover")
 
 
@@ -96,6 +115,7 @@ class SceneScript:
     units: tuple[UnitScript, ...]
     tail_s: float = 1.0  # still frames after the last action
     look: Look = field(default_factory=Look)  # how the camera picture looks (light, noise, ...)
+    knobs: SceneKnobs = field(default_factory=SceneKnobs)  # tool, operator, bench, camera
     source: str = field(default="", compare=False)
 
 
@@ -147,9 +167,13 @@ def parse_script(doc: Any, limits: Limits, source: str = "<script>") -> SceneScr
         errors.append(f"tail_s: expected a number >= 0, got {tail!r}")
         tail = 1.0
     look = look_from_mapping(doc.get("look"), "look", errors)
+    knobs = knobs_from_document(doc, errors)
+    unknown = sorted(set(doc) - set(TOP_LEVEL_KEYS))
+    if unknown:
+        errors.append(f"unknown keys {unknown}; a script has {list(TOP_LEVEL_KEYS)}")
     if errors:
         raise ConfigError(f"{source}: " + "; ".join(errors))
-    return SceneScript(seed, tuple(units), float(tail), look, source)
+    return SceneScript(seed, tuple(units), float(tail), look, knobs, source)
 
 
 def _unit(doc: Any, where: str, limits: Limits, errors: list[str]) -> UnitScript | None:

@@ -66,10 +66,10 @@ REFERENCE_STATE = StationState()
 class StationScene:
     """Builds the base image once; assembles and caches the still image of any state."""
 
-    def __init__(self, seed: int = 2024) -> None:
+    def __init__(self, seed: int = 2024, bench: textures.BenchKind = "wood") -> None:
         rng = np.random.default_rng(seed)
         h, w = layout.FRAME_HEIGHT_PX, layout.FRAME_WIDTH_PX
-        base = textures.wood(rng, h, w)
+        base = textures.bench(rng, h, w, bench)
         self._base = np.clip(base, 0, 255).astype(np.uint8)
         self._draw_plate(rng)
         self._paste(_bin_sprite(rng, layout.LEFT_BIN_PX, "gaskets"), shadow=True)

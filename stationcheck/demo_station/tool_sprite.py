@@ -1,13 +1,18 @@
-"""The handheld fastening tool (an inline electric driver) seen from above, as a sprite.
+"""The handheld fastening tool seen from above, as a sprite.
+
+Three kinds: ``inline`` (a straight driver, the demo tool), ``pistol`` (a shorter, bulkier body
+with a handle and battery pack off to one side) and ``angle_head`` (a slim body whose head turns
+the socket down into the screw, so the tip lies under a round head, not at a visible bit).
 
 Local frame: the bit tip at (0, 0), the tool axis along +x towards the rear end cap. The two
-keypoints are ``tip`` (the bit's end) and ``rear`` (the centre of the end cap); ``grip`` is where
-the hand holds it.
+keypoints are ``tip`` (the bit's end, or the head's centre) and ``rear`` (the centre of the end
+cap); ``grip`` is where the hand holds it.
 """
 
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import Literal
 
 import cv2
 import numpy as np
@@ -23,6 +28,8 @@ from stationcheck.demo_station.shading import (
 )
 
 BGR = tuple[float, float, float]
+ToolKind = Literal["inline", "pistol", "angle_head"]
+TOOL_KINDS: tuple[ToolKind, ...] = ("inline", "pistol", "angle_head")
 TIP_INSET_PX = 0.5  # the tip keypoint sits this far inside the bit's end
 REAR_INSET_PX = 3.0  # the rear keypoint sits this far inside the end cap
 
@@ -40,62 +47,27 @@ class ToolStyle:
     cable_bend: float = 0.35  # how far the cable curves sideways (-1..1)
     has_cable: bool = True
     body_material: Material = MATTE
+    kind: ToolKind = "inline"
+    pack_bgr: BGR = (40, 40, 44)  # a pistol tool's battery pack
 
     def __post_init__(self) -> None:
+        if self.kind not in TOOL_KINDS:
+            raise ValueError(f"ToolStyle.kind must be one of {TOOL_KINDS}, got {self.kind!r}")
         if not 60.0 <= self.length_px <= 400.0:
             raise ValueError(f"ToolStyle.length_px must be in [60, 400], got {self.length_px}")
         if not 6.0 <= self.radius_px <= 40.0:
             raise ValueError(f"ToolStyle.radius_px must be in [6, 40], got {self.radius_px}")
+        if not 4.0 <= self.bit_length_px <= 120.0:
+            raise ValueError(
+                f"ToolStyle.bit_length_px must be in [4, 120], got {self.bit_length_px}"
+            )
+        if not -1.0 <= self.cable_bend <= 1.0:
+            raise ValueError(f"ToolStyle.cable_bend must be in [-1, 1], got {self.cable_bend}")
+        if not isinstance(self.has_cable, bool):
+            raise TypeError(f"ToolStyle.has_cable must be true or false, got {self.has_cable!r}")
 
 
 DEMO_TOOL = ToolStyle()
-
-
-def random_tool_style(rng: np.random.Generator) -> ToolStyle:
-    """A plausible driver of another make: size, colours, cable or cordless."""
-    bodies = [
-        (62, 60, 58),
-        (30, 30, 32),
-        (150, 90, 40),
-        (40, 40, 150),
-        (50, 120, 60),
-        (40, 170, 200),
-        (170, 170, 165),
-        (20, 90, 200),
-        (90, 90, 90),
-    ]
-    accents = [
-        (40, 150, 215),
-        (60, 60, 200),
-        (200, 200, 200),
-        (40, 200, 240),
-        (150, 80, 30),
-        (30, 30, 30),
-    ]
-    body = bodies[int(rng.integers(len(bodies)))]
-    jitter = rng.uniform(0.8, 1.2, 3)
-    return ToolStyle(
-        length_px=float(rng.uniform(140, 200)),
-        radius_px=float(rng.uniform(13, 21)),
-        bit_length_px=float(rng.uniform(16, 40)),
-        body_bgr=(
-            min(255.0, body[0] * jitter[0]),
-            min(255.0, body[1] * jitter[1]),
-            min(255.0, body[2] * jitter[2]),
-        ),
-        accent_bgr=accents[int(rng.integers(len(accents)))],
-        grip_bgr=_grey(rng, 25, 60),
-        cap_bgr=_grey(rng, 30, 70),
-        cable_bgr=_grey(rng, 20, 60),
-        cable_bend=float(rng.uniform(-1, 1)),
-        has_cable=bool(rng.random() < 0.7),
-        body_material=MATTE if rng.random() < 0.7 else RUBBER,
-    )
-
-
-def _grey(rng: np.random.Generator, low: float, high: float) -> BGR:
-    v = float(rng.uniform(low, high))
-    return (v, v, v)
 
 
 def make_tool_sprite(style: ToolStyle = DEMO_TOOL) -> Sprite:
@@ -103,10 +75,13 @@ def make_tool_sprite(style: ToolStyle = DEMO_TOOL) -> Sprite:
     length, radius, bit = style.length_px, style.radius_px, style.bit_length_px
     cable_len = 110.0 if style.has_cable else 0.0
     margin = 14.0
+    side = 0.55 * length if style.kind == "pistol" else 0.0  # handle and pack off to one side
     width = int(length + cable_len + 2 * margin)
-    height = int(2 * (radius + margin) + (80 if style.has_cable else 0))
+    height = int(2 * (radius + margin) + max(80.0 if style.has_cable else 0.0, 2.0 * side))
     canvas = Canvas(width, height, (margin, height / 2.0))
     tip, rear = (TIP_INSET_PX, 0.0), (length - REAR_INSET_PX, 0.0)
+    if style.kind == "pistol":
+        _draw_pistol_handle(canvas, style, length, radius)
 
     chuck_end = bit + 0.1 * length
     nose_end = chuck_end + 0.1 * length
@@ -116,29 +91,10 @@ def make_tool_sprite(style: ToolStyle = DEMO_TOOL) -> Sprite:
 
     if style.has_cable:
         _draw_cable(canvas, style, length, cable_len)
-    # bit: hex shank tapering to a cross point
-    shank = 2.6 if radius > 15 else 2.2
-    canvas.paint(
-        canvas.polygon_mask(
-            [(0, -0.9), (5, -shank), (bit + 2, -shank), (bit + 2, shank), (5, shank), (0, 0.9)]
-        ),
-        (185, 185, 190),
-        shank,
-        STEEL,
-    )
-    # quick-change chuck: chrome sleeve with a groove
-    canvas.paint(
-        canvas.polygon_mask([(bit, -5.5), (chuck_end, -7.5), (chuck_end, 7.5), (bit, 5.5)]),
-        (200, 200, 205),
-        7.0,
-        CHROME,
-    )
-    canvas.darken(
-        canvas.capsule_mask(
-            (bit + 0.55 * (chuck_end - bit), -7), (bit + 0.55 * (chuck_end - bit), 7), 1.2
-        ),
-        0.45,
-    )
+    if style.kind == "angle_head":
+        _draw_angle_head(canvas, style, bit, chuck_end, radius)
+    else:
+        _draw_bit_and_chuck(canvas, bit, chuck_end, radius)
     # nose cone and body
     r_nose = 0.62 * radius
     canvas.paint(
@@ -232,3 +188,76 @@ def _draw_cable(canvas: Canvas, style: ToolStyle, length: float, cable_len: floa
     canvas.paint(mask, style.cable_bgr, 4.0, RUBBER)
     relief = canvas.capsule_mask((length - 2, 0), (length + 14, ys[3]), 11)
     canvas.paint(relief, style.cap_bgr, 5.5, RUBBER)
+
+
+def _draw_bit_and_chuck(canvas: Canvas, bit: float, chuck_end: float, radius: float) -> None:
+    """A hex bit tapering to a cross point in a chrome quick-change chuck."""
+    shank = 2.6 if radius > 15 else 2.2
+    canvas.paint(
+        canvas.polygon_mask(
+            [(0, -0.9), (5, -shank), (bit + 2, -shank), (bit + 2, shank), (5, shank), (0, 0.9)]
+        ),
+        (185, 185, 190),
+        shank,
+        STEEL,
+    )
+    canvas.paint(
+        canvas.polygon_mask([(bit, -5.5), (chuck_end, -7.5), (chuck_end, 7.5), (bit, 5.5)]),
+        (200, 200, 205),
+        7.0,
+        CHROME,
+    )
+    canvas.darken(
+        canvas.capsule_mask(
+            (bit + 0.55 * (chuck_end - bit), -7), (bit + 0.55 * (chuck_end - bit), 7), 1.2
+        ),
+        0.45,
+    )
+
+
+def _draw_angle_head(
+    canvas: Canvas, style: ToolStyle, bit: float, chuck_end: float, radius: float
+) -> None:
+    """A right-angle head: a round gear housing over the tip (the socket points down into the
+    screw), joined to the body by a tapered neck."""
+    head_r = max(9.0, 0.8 * radius)
+    canvas.paint(
+        canvas.polygon_mask(
+            [
+                (0, -0.55 * head_r),
+                (chuck_end, -0.6 * radius),
+                (chuck_end, 0.6 * radius),
+                (0, 0.55 * head_r),
+            ]
+        ),
+        (150, 150, 155),
+        0.6 * radius,
+        CHROME,
+    )
+    canvas.paint(canvas.circle_mask((0, 0), head_r), (170, 170, 175), head_r, STEEL)
+    canvas.darken(canvas.ring_mask((0, 0), 0.55 * head_r, 0.4 * head_r), 0.55)
+    canvas.paint(canvas.circle_mask((0, 0), 0.22 * head_r), style.accent_bgr, 3.0, MATTE)
+
+
+def _draw_pistol_handle(canvas: Canvas, style: ToolStyle, length: float, radius: float) -> None:
+    """A pistol tool's handle and battery pack, seen leaning out from under the body."""
+    x = 0.62 * length
+    reach = 0.5 * length
+    canvas.paint(
+        canvas.capsule_mask((x, 0), (x + 0.08 * length, reach), 1.5 * radius),
+        style.grip_bgr,
+        0.75 * radius,
+        RUBBER,
+    )
+    canvas.paint(
+        canvas.rounded_rect_mask(
+            x - 0.2 * length,
+            reach - 0.06 * length,
+            x + 0.3 * length,
+            reach + 0.12 * length,
+            5.0,
+        ),
+        style.pack_bgr,
+        0.09 * length,
+        MATTE,
+    )

@@ -8,7 +8,12 @@ x = y = 0 then), 1 labelled but hidden (under a hand), 2 visible.
 - :func:`render_training_sample`: the tool anywhere, at any angle and scale, on random benches
   with distractors, random light and camera; sometimes no tool, sometimes cut off or covered.
 - :func:`render_station_sample`: the demo station itself with a random operator state, as the
-  model sees it at run time (random operators' sleeves and gloves, small camera moves).
+  model sees it at run time (random operators' sleeves and gloves, small camera moves), and
+  often as another station would show it: another tool, glove, lamp direction and level,
+  camera mounting (zoom, tilt, roll) and resolution.
+
+Tools, gloves, lamps and views are randomised (:mod:`~stationcheck.demo_station.randomise`)
+but never drawn from the held-out looks (:mod:`~stationcheck.demo_station.held_out_looks`).
 - :func:`render_moving_sample`: either kind with the tool moving fast during the exposure, and
   the tip's step since the previous frame (to measure how far a model places a blurred tip
   behind the label).
@@ -32,12 +37,18 @@ import numpy.typing as npt
 
 from stationcheck.demo_station import compositor as comp
 from stationcheck.demo_station import layout, props, textures
-from stationcheck.demo_station.arm_sprite import DEMO_ARM, random_arm_style
-from stationcheck.demo_station.camera import Camera, CameraTransform, Exposure
+from stationcheck.demo_station.arm_sprite import DEMO_ARM
+from stationcheck.demo_station.camera import Camera, CameraTransform, Exposure, View
+from stationcheck.demo_station.randomise import (
+    random_arm,
+    random_light_from,
+    random_tool,
+    random_view,
+)
 from stationcheck.demo_station.rig import OperatorRig, RigPose, SoftShadow
 from stationcheck.demo_station.shading import Sprite, as_u8
 from stationcheck.demo_station.station_scene import StationScene, StationState
-from stationcheck.demo_station.tool_sprite import DEMO_TOOL, random_tool_style
+from stationcheck.demo_station.tool_sprite import DEMO_TOOL
 
 WIDTH_PX, HEIGHT_PX = layout.FRAME_WIDTH_PX, layout.FRAME_HEIGHT_PX
 KEYPOINT_NAMES = ("tip", "rear")
@@ -45,6 +56,10 @@ NO_TOOL_P = 0.1
 CROSS_ORDER = (1, 4, 2, 5, 3, 6)  # screws get seated in this order on the demo station
 BENCH_MARGIN_PX = 64
 FAST_STEP_PX = (10.0, 36.0)  # tip travel per frame of render_moving_sample
+OTHER_TOOL_P = 0.4  # station frames with another station's tool and operator
+VIEW_P = 0.3  # station frames seen through another camera mounting
+LOW_RES_P = 0.15  # frames from a lower-resolution camera, scaled up to 640x480
+PLAIN_CAMERAS = 4  # the first cameras light the bench as the demo station does
 # colour casts of the light (a few fixed ones, so the camera can cache its light maps)
 TINTS: tuple[tuple[float, float, float], ...] = (
     *(
@@ -109,21 +124,31 @@ def _prop(index: int) -> tuple[Sprite, SoftShadow]:
 
 def _random_rig(index: int) -> OperatorRig:
     rng = np.random.default_rng(100 + index)
-    return OperatorRig(random_tool_style(rng), random_arm_style(rng), seed=100 + index)
+    return OperatorRig(random_tool(rng), random_arm(rng), seed=100 + index)
 
 
 def _station_rig(index: int) -> OperatorRig:
     """The station's own tool in the hands of different operators (index 0: the video's)."""
     if index == 0:
         return OperatorRig(DEMO_TOOL, DEMO_ARM, seed=7)
-    return OperatorRig(
-        DEMO_TOOL, random_arm_style(np.random.default_rng(200 + index)), seed=200 + index
-    )
+    return OperatorRig(DEMO_TOOL, random_arm(np.random.default_rng(200 + index)), seed=200 + index)
 
 
 def _camera(index: int) -> Camera:
-    sigma, blur = ((1.8, 0.7), (3.0, 0.0), (5.0, 0.0), (1.2, 0.5))[index]
-    return Camera(WIDTH_PX, HEIGHT_PX, 300 + index, sigma, lens_blur_px=blur)
+    if index < PLAIN_CAMERAS:
+        sigma, blur = ((1.8, 0.7), (3.0, 0.0), (5.0, 0.0), (1.2, 0.5))[index]
+        return Camera(WIDTH_PX, HEIGHT_PX, 300 + index, sigma, lens_blur_px=blur)
+    rng = np.random.default_rng(300 + index)  # another lamp and lens
+    return Camera(
+        WIDTH_PX,
+        HEIGHT_PX,
+        300 + index,
+        float(rng.uniform(0.8, 5.0)),
+        vignette=float(rng.uniform(0.0, 0.45)),
+        light_from=random_light_from(rng),
+        falloff=float(rng.uniform(0.0, 0.6)),
+        lens_blur_px=float(rng.choice([0.0, 0.5, 0.9, 1.3])),
+    )
 
 
 @dataclass
@@ -141,9 +166,9 @@ def _pools() -> _Pools:
     return _Pools(
         benches=_LazyPool(20, _bench),
         props=_LazyPool(44, _prop),
-        rigs=_LazyPool(8, _random_rig),
+        rigs=_LazyPool(48, _random_rig),
         station_rigs=_LazyPool(6, _station_rig),
-        cameras=_LazyPool(4, _camera),
+        cameras=_LazyPool(16, _camera),
         scene=StationScene(),
     )
 
@@ -228,8 +253,9 @@ def _random_sample(
     camera = pools.cameras.draw(rng)
     exposure = Exposure(float(rng.uniform(0.6, 1.35)), TINTS[int(rng.integers(len(TINTS)))])
     image = camera.develop(frame, CameraTransform(), exposure, rng)
-    image = _degrade(image, rng)
-    return _label(image, rig, pose, extra, CameraTransform(), want_mask)
+    view = random_view(rng) if rng.random() < 0.5 * VIEW_P else View()
+    image = _degrade(view.warp(image), rng)
+    return _label(image, rig, pose, extra, CameraTransform(), want_mask, view)
 
 
 def _station_sample(
@@ -243,7 +269,8 @@ def _station_sample(
     )
     state = StationState(stage, screws, bool(rng.random() < 0.6))  # type: ignore[arg-type]
     frame = pools.scene.image(state).copy()
-    rig = pools.station_rigs.draw(rng)
+    other = rng.random() < OTHER_TOOL_P
+    rig = pools.rigs.draw(rng) if other else pools.station_rigs.draw(rng)
     pose = _station_pose(rng) if rng.random() > NO_TOOL_P else None
     if pose is not None:
         rig.draw_on(frame, pose, (motion or _moved)(pose, rng), 0.4)
@@ -256,12 +283,17 @@ def _station_sample(
     else:  # knocked or re-mounted
         dx, dy = rng.uniform(-14, 14, 2)
         transform = CameraTransform(float(dx), float(dy), float(rng.uniform(-2, 2)))
-    camera = pools.cameras[(0, 0, 1, 3)[int(rng.integers(4))]]
-    exposure = Exposure(
-        float(rng.uniform(0.85, 1.15)), STATION_TINTS[int(rng.integers(len(STATION_TINTS)))]
-    )
-    image = _degrade(camera.develop(frame, transform, exposure, rng), rng)
-    return _label(image, rig, pose, None, transform, want_mask)
+    if other:  # another station: any lamp, level and colour
+        camera = pools.cameras.draw(rng)
+        exposure = Exposure(float(rng.uniform(0.55, 1.3)), TINTS[int(rng.integers(len(TINTS)))])
+    else:
+        camera = pools.cameras[(0, 0, 1, 3)[int(rng.integers(4))]]
+        exposure = Exposure(
+            float(rng.uniform(0.85, 1.15)), STATION_TINTS[int(rng.integers(len(STATION_TINTS)))]
+        )
+    view = random_view(rng) if rng.random() < VIEW_P else View()
+    image = _degrade(view.warp(camera.develop(frame, transform, exposure, rng)), rng)
+    return _label(image, rig, pose, None, transform, want_mask, view)
 
 
 def _random_pose(rng: np.random.Generator) -> RigPose:
@@ -353,6 +385,10 @@ def _paste_prop(frame: U8Image, prop: tuple[Sprite, SoftShadow], rng: np.random.
 
 
 def _degrade(image: U8Image, rng: np.random.Generator) -> U8Image:
+    if rng.random() < LOW_RES_P:
+        scale = float(rng.uniform(0.45, 0.8))
+        small = cv2.resize(image, None, fx=scale, fy=scale, interpolation=cv2.INTER_AREA)
+        image = as_u8(cv2.resize(small, (WIDTH_PX, HEIGHT_PX), interpolation=cv2.INTER_LINEAR))
     if rng.random() < 0.25:
         image = as_u8(cv2.GaussianBlur(image, (0, 0), float(rng.uniform(0.5, 1.4))))
     if rng.random() < 0.3:
@@ -369,7 +405,9 @@ def _label(
     extra: tuple[OperatorRig, RigPose] | None,
     transform: CameraTransform,
     want_mask: bool,
+    view: View | None = None,
 ) -> Sample:
+    view = view or View()
     kps = np.zeros((2, 3), np.float32)
     if pose is None:
         return Sample(image, kps, np.zeros(image.shape[:2], bool) if want_mask else None)
@@ -377,7 +415,7 @@ def _label(
         hidden = rig.occluder_alpha_at(pose, point)
         if extra is not None:
             hidden = max(hidden, extra[0].arm_alpha_at(extra[1], point))
-        x, y = transform.apply(point, WIDTH_PX, HEIGHT_PX)
+        x, y = view.apply(transform.apply(point, WIDTH_PX, HEIGHT_PX), WIDTH_PX, HEIGHT_PX)
         if 0.0 <= x <= WIDTH_PX - 1 and 0.0 <= y <= HEIGHT_PX - 1:
             kps[row] = (x, y, 1.0 if hidden >= 0.5 else 2.0)
     mask = None
@@ -393,5 +431,7 @@ def _label(
                 (WIDTH_PX, HEIGHT_PX),
                 flags=cv2.INTER_LINEAR,
             )
+        if not view.is_identity:
+            visible = view.warp(as_u8(np.round(255.0 * visible).astype(np.uint8))) / 255.0
         mask = visible >= 0.5
     return Sample(image, kps, mask)

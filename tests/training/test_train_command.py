@@ -67,6 +67,8 @@ def test_train_command_on_coco_writes_a_loadable_bundle(
             str(out),
             "--name",
             "mine",
+            "--learning-rate",
+            "5e-4",
         ]
     )
     assert code == 0
@@ -74,6 +76,10 @@ def test_train_command_on_coco_writes_a_loadable_bundle(
     detector = load_detector(out / "mine.coarse.onnx")
     assert detector.refine is not None and detector.refine.path.name == "mine.refine.onnx"
     assert (out / "checkpoint.pt").is_file()
+    import torch
+
+    saved = torch.load(out / "checkpoint.pt", map_location="cpu", weights_only=True)
+    assert saved["config"]["learning_rate"] == 5e-4
 
 
 def test_train_command_refuses_coco_without_images(capsys: pytest.CaptureFixture[str]) -> None:
