@@ -34,7 +34,7 @@ def run_looks(
     from stationcheck.demo_station.held_out_looks import HELD_OUT_LOOKS
     from stationcheck.demo_station.look_clips import LOOKS_SCENE, look_clip
     from stationcheck.errors import InputFileError
-    from stationcheck.evaluation.report import evaluate
+    from stationcheck.evaluation.accuracy_report import evaluate
 
     looks = HELD_OUT_LOOKS
     if names:
