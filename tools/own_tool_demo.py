@@ -26,9 +26,9 @@ from stationcheck.demo_station import sample_video as sv
 from stationcheck.demo_station.files import DEMO_CONFIG, DEMO_SCRIPT, REPO_ROOT
 from stationcheck.demo_station.own_tool import (
     RECORDING_SCRIPT,
+    save_labels,
     simulate_labelling,
     unseen_rig,
-    write_station_labels,
 )
 from stationcheck.evaluation.accuracy_report import evaluate
 from stationcheck.evaluation.truth import read_video_frames
@@ -126,7 +126,12 @@ def main() -> int:
         "--minutes", type=float, default=None, help="training budget (default: train's own)"
     )
     parser.add_argument("--clicks", type=int, default=60)
-    parser.add_argument("--every", type=int, default=3, help="keep every n-th propagated frame")
+    parser.add_argument(
+        "--every",
+        type=int,
+        default=1,
+        help="save every n-th propagated frame (1: all, as the Label tab)",
+    )
     parser.add_argument("--skip-render", action="store_true", help="reuse rendered scenes")
     args = parser.parse_args()
     out: Path = args.out
@@ -154,25 +159,29 @@ def main() -> int:
     errors = [
         float(
             np.hypot(
-                lab.keypoints[0, 0] - truth[i].tip_x_px, lab.keypoints[0, 1] - truth[i].tip_y_px
+                lab.tip[0] - truth[lab.frame_index].tip_x_px,
+                lab.tip[1] - truth[lab.frame_index].tip_y_px,
             )
         )
-        for i, lab in labels.items()
-        if lab.source == "propagated" and lab.keypoints[0, 2] > 0 and truth[i].tip_v == 2
+        for lab in labels
+        if lab.source == "propagated" and lab.tip is not None and truth[lab.frame_index].tip_v
     ]
-    wrong_absent = sum(
-        1 for i, lab in labels.items() if lab.keypoints[0, 2] == 0 and truth[i].tip_v == 2
+    wrong_absent = sum(1 for lab in labels if lab.tip is None and truth[lab.frame_index].tip_v)
+    wrong_present = sum(
+        1 for lab in labels if lab.tip is not None and not truth[lab.frame_index].tip_v
     )
-    write_station_labels(
-        station, recording / VIDEO, labels, recording_p.choreography.fps, args.every
-    )
+    saved = save_labels(station, recording / VIDEO, labels, args.every)
     shown["labelling"] = {
         "clicks": clicks,
         "frames_labelled": len(labels),
+        "frames_not_visible": sum(1 for lab in labels if lab.tip is None),
+        "frames_saved": saved.images,
         "frames": len(recording_p.rows),
         "propagated_tip_error_median_px": statistics.median(errors) if errors else None,
         "propagated_tip_error_p95_px": float(np.percentile(errors, 95)) if errors else None,
+        "propagated_tip_error_gt_5px": sum(e > 5 for e in errors),
         "marked_not_visible_but_visible": wrong_absent,
+        "labelled_visible_but_not": wrong_present,
         "seconds": round(time.perf_counter() - t0, 1),
     }
     print("labelling:", shown["labelling"], flush=True)
