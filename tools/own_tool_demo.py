@@ -116,7 +116,8 @@ def replay(config: Path, scene: Path, log: Path, model: Path | None) -> dict[str
         )
     )
     out = report.to_json()
-    return {k: out.get(k) for k in ("frames", "false_enables", "mismatches", "mismatches_by_kind")}
+    keys = ("frames", "false_enables", "mismatches", "mismatches_by_kind", "mismatch_details")
+    return {k: out.get(k) for k in keys}
 
 
 def main() -> int:
