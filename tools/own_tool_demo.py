@@ -1,10 +1,11 @@
 """Teaching the model a tool it never saw, end to end, with figures (demo data).
 
 Renders a station recording with the held-out tool and glove (``held_out_looks.py``), measures
-the bundled model on it, labels it from at most 60 simulated clicks plus optical-flow
-propagation, runs ``stationcheck train --station`` (time-limited), and prints the fitness report,
-the held-out figures against the renderer's truth, and a replay of another scene with that look
-(false enables, decision mismatches). Run: ``.venv/bin/python tools/own_tool_demo.py``
+the bundled model on it, labels it as an engineer would on the Label tab (at most 60 simulated
+clicks on the proposed and queued frames, the product's propagation between them, saved as the
+station's COCO dataset), runs ``stationcheck train --station`` (time-limited), and prints the
+fitness report, the held-out figures against the renderer's truth, and a replay of another
+scene with that look (false enables, decision mismatches). Run: ``.venv/bin/python tools/own_tool_demo.py``
 (about 15-20 minutes on 2 cores; ``--minutes`` sets the training budget).
 """
 
