@@ -1,10 +1,11 @@
 """Teaching the model a tool it never saw, end to end, with figures (demo data).
 
 Renders a station recording with the held-out tool and glove (``held_out_looks.py``), measures
-the bundled model on it, labels it from at most 60 simulated clicks plus optical-flow
-propagation, runs ``stationcheck train --station`` (time-limited), and prints the fitness report,
-the held-out figures against the renderer's truth, and a replay of another scene with that look
-(false enables, decision mismatches). Run: ``.venv/bin/python tools/own_tool_demo.py``
+the bundled model on it, labels it as an engineer would on the Label tab (at most 60 simulated
+clicks on the proposed and queued frames, the product's propagation between them, saved as the
+station's COCO dataset), runs ``stationcheck train --station`` (time-limited), and prints the
+fitness report, the held-out figures against the renderer's truth, and a replay of another
+scene with that look (false enables, decision mismatches). Run: ``.venv/bin/python tools/own_tool_demo.py``
 (about 15-20 minutes on 2 cores; ``--minutes`` sets the training budget).
 """
 
@@ -26,9 +27,9 @@ from stationcheck.demo_station import sample_video as sv
 from stationcheck.demo_station.files import DEMO_CONFIG, DEMO_SCRIPT, REPO_ROOT
 from stationcheck.demo_station.own_tool import (
     RECORDING_SCRIPT,
+    save_labels,
     simulate_labelling,
     unseen_rig,
-    write_station_labels,
 )
 from stationcheck.evaluation.accuracy_report import evaluate
 from stationcheck.evaluation.truth import read_video_frames
@@ -116,7 +117,8 @@ def replay(config: Path, scene: Path, log: Path, model: Path | None) -> dict[str
         )
     )
     out = report.to_json()
-    return {k: out.get(k) for k in ("frames", "false_enables", "mismatches", "mismatches_by_kind")}
+    keys = ("frames", "false_enables", "mismatches", "mismatches_by_kind", "mismatch_details")
+    return {k: out.get(k) for k in keys}
 
 
 def main() -> int:
@@ -126,7 +128,12 @@ def main() -> int:
         "--minutes", type=float, default=None, help="training budget (default: train's own)"
     )
     parser.add_argument("--clicks", type=int, default=60)
-    parser.add_argument("--every", type=int, default=3, help="keep every n-th propagated frame")
+    parser.add_argument(
+        "--every",
+        type=int,
+        default=1,
+        help="save every n-th propagated frame (1: all, as the Label tab)",
+    )
     parser.add_argument("--skip-render", action="store_true", help="reuse rendered scenes")
     args = parser.parse_args()
     out: Path = args.out
@@ -154,25 +161,29 @@ def main() -> int:
     errors = [
         float(
             np.hypot(
-                lab.keypoints[0, 0] - truth[i].tip_x_px, lab.keypoints[0, 1] - truth[i].tip_y_px
+                lab.tip[0] - truth[lab.frame_index].tip_x_px,
+                lab.tip[1] - truth[lab.frame_index].tip_y_px,
             )
         )
-        for i, lab in labels.items()
-        if lab.source == "propagated" and lab.keypoints[0, 2] > 0 and truth[i].tip_v == 2
+        for lab in labels
+        if lab.source == "propagated" and lab.tip is not None and truth[lab.frame_index].tip_v
     ]
-    wrong_absent = sum(
-        1 for i, lab in labels.items() if lab.keypoints[0, 2] == 0 and truth[i].tip_v == 2
+    wrong_absent = sum(1 for lab in labels if lab.tip is None and truth[lab.frame_index].tip_v)
+    wrong_present = sum(
+        1 for lab in labels if lab.tip is not None and not truth[lab.frame_index].tip_v
     )
-    write_station_labels(
-        station, recording / VIDEO, labels, recording_p.choreography.fps, args.every
-    )
+    saved = save_labels(station, recording / VIDEO, labels, args.every)
     shown["labelling"] = {
         "clicks": clicks,
         "frames_labelled": len(labels),
+        "frames_not_visible": sum(1 for lab in labels if lab.tip is None),
+        "frames_saved": saved.images,
         "frames": len(recording_p.rows),
         "propagated_tip_error_median_px": statistics.median(errors) if errors else None,
         "propagated_tip_error_p95_px": float(np.percentile(errors, 95)) if errors else None,
+        "propagated_tip_error_gt_5px": sum(e > 5 for e in errors),
         "marked_not_visible_but_visible": wrong_absent,
+        "labelled_visible_but_not": wrong_present,
         "seconds": round(time.perf_counter() - t0, 1),
     }
     print("labelling:", shown["labelling"], flush=True)

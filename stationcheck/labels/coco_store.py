@@ -3,7 +3,8 @@
 Layout: ``<station folder>/labels/coco.json`` and the frames as
 ``<station folder>/labels/images/<video stem>_<frame index:06d>.png`` (``file_name`` in the
 JSON is that bare name, relative to ``images/``, as COCO's own sets name theirs). One category,
-``tool`` with keypoints ``tip`` and ``rear``. Each image carries ``video`` (file name),
+``tool`` with keypoints ``tip`` and ``rear``. Each image carries ``video`` (the recording's path
+relative to the station folder when it lies inside it, else its file name),
 ``frame_index``, ``t_s`` and ``tool_visible``; a frame where the tool is not visible is an image
 without annotation. Each annotation carries ``label_source`` (``clicked`` or ``propagated``).
 A rear outside the picture is stored as not labelled (``v`` 0), as COCO does.
@@ -69,13 +70,22 @@ def load(folder: Path) -> dict[str, Any]:
     return doc
 
 
+def video_ref(station_folder: Path, video: Path) -> str:
+    """How the dataset names a recording: relative to the station folder (so the station's
+    config finds it) when it lies inside it, else by file name."""
+    try:
+        return video.resolve().relative_to(station_folder.resolve()).as_posix()
+    except ValueError:
+        return video.name
+
+
 def labels_of(folder: Path, video_name: str) -> list[FrameLabel]:
     """The stored labels of one video (by file name), in frame order."""
     doc = load(folder)
     notes = {a["image_id"]: a for a in doc["annotations"] if isinstance(a, dict)}
     out: list[FrameLabel] = []
     for image in doc["images"]:
-        if image.get("video") != video_name:
+        if Path(str(image.get("video"))).name != Path(video_name).name:
             continue
         note = notes.get(image.get("id"))
         if note is None:
@@ -124,12 +134,16 @@ def save(station_folder: Path, video: VideoFrames, labels: Iterable[FrameLabel])
     folder = labels_folder(station_folder)
     images_dir = folder / IMAGES_DIR
     new = {label.frame_index: label for label in labels}
+    named = video_ref(station_folder, video.path)
     doc = load(folder)
     notes = {a["image_id"]: a for a in doc["annotations"] if isinstance(a, dict)}
     kept: list[tuple[dict[str, Any], dict[str, Any] | None]] = [
         (image, notes.get(image.get("id")))
         for image in doc["images"]
-        if not (image.get("video") == video.path.name and image.get("frame_index") in new)
+        if not (
+            Path(str(image.get("video"))).name == video.path.name
+            and image.get("frame_index") in new
+        )
     ]
     width, height = video.width_px, video.height_px
     for index, label in new.items():
@@ -137,7 +151,7 @@ def save(station_folder: Path, video: VideoFrames, labels: Iterable[FrameLabel])
             "file_name": image_name(video.path, index),
             "width": width,
             "height": height,
-            "video": video.path.name,
+            "video": named,
             "frame_index": index,
             "t_s": round(index / video.fps, 4),
             "tool_visible": label.visible,

@@ -5,8 +5,10 @@ from the earlier click and backward from the later click with pyramidal Lucas-Ka
 flow (OpenCV ``calcOpticalFlowPyrLK``). Every step is checked forward-backward (track the
 point on, track it back; the two must land within ``max_round_trip_px``); a direction stops at
 the first step that fails the check or leaves the picture. A frame gets a propagated label
-when at least one direction reached it and, where both did, they agree within
-``max_disagreement_px`` (the label is then their mix, weighted towards the nearer click).
+when both directions reached it and agree within ``max_disagreement_px`` (the label is then
+their mix, weighted towards the nearer click), or when only one did and the frame lies within
+``max_one_way_frames`` of that direction's click (a fast move or the tool leaving the picture
+loses the other direction).
 Between a visible click and a "not visible" click only the visible side tracks, so a
 "not visible" click stops propagation across it. Frames left without a label are returned as
 gaps: the screen asks for a click in the middle of the longest ones first.
@@ -40,7 +42,7 @@ class FlowSettings:
     max_disagreement_px: float = 2.5
     edge_margin_px: float = 3.0
     max_span_frames: int = 900  # longer spans between clicks are not tracked (too much drift)
-    max_one_way_frames: int = 15  # towards a "not visible" click only one direction tracks
+    max_one_way_frames: int = 15  # a single direction is trusted this far from its click
     min_body_points: int = 8
     min_inlier_share: float = 0.5
     max_scale_change: float = 0.08
@@ -189,8 +191,15 @@ def propagate_span(
                 continue
             weight = 1.0 - offset / count  # the forward track is better near the first click
             points = (weight * ahead + (1.0 - weight) * behind).astype(np.float32)
-        elif both_ends or (ahead is None and behind is None):
-            continue  # one direction lost the tool where the other still has it: ask
+        elif ahead is None and behind is None:
+            continue
+        elif both_ends:
+            # One direction lost the tool where the other still has it: trusted near its own
+            # click (as towards a "not visible" click), asked for further away.
+            near = offset if ahead is not None else count - offset
+            if near > settings.max_one_way_frames:
+                continue
+            points = ahead if ahead is not None else behind  # type: ignore[assignment]
         elif offset > settings.max_one_way_frames and count - offset > settings.max_one_way_frames:
             continue
         else:

@@ -110,7 +110,7 @@ def _labels(data: dict[str, Any], path: Path) -> list[StationLabel]:
             continue
         raw = np.asarray(ann["keypoints"], dtype=np.float64).reshape(-1, 3)[order]
         by_image[ann["image_id"]] = (raw, str(ann.get("label_source", "clicked")))
-    images_dir = path.parent
+    folder = path.parent
     out = []
     for img in data["images"]:
         kps, source = by_image.get(img["id"], (np.zeros((len(order), 3)), ""))
@@ -118,7 +118,7 @@ def _labels(data: dict[str, Any], path: Path) -> list[StationLabel]:
             continue  # neither labelled nor marked "not visible": not a label yet
         out.append(
             StationLabel(
-                image=images_dir / img["file_name"],
+                image=_image_path(folder, str(img["file_name"])),
                 video=str(img.get("video", "")),
                 frame_index=int(img.get("frame_index", 0)),
                 t_s=float(img.get("t_s", 0.0)),
@@ -130,6 +130,15 @@ def _labels(data: dict[str, Any], path: Path) -> list[StationLabel]:
         raise InputFileError(f"{path}: the dataset has no labelled frames")
     out.sort(key=lambda item: (item.video, item.t_s, item.frame_index))
     return out
+
+
+def _image_path(folder: Path, file_name: str) -> Path:
+    """``file_name`` as COCO names it, relative to ``images/`` (the Label tab writes that);
+    relative to the labels folder itself when the file is there (older sets)."""
+    beside = folder / file_name
+    if beside.is_file() and not (folder / IMAGES_DIR / file_name).is_file():
+        return beside
+    return folder / IMAGES_DIR / file_name
 
 
 def split_by_time(

@@ -1,6 +1,7 @@
 """The fast part of the own-tool demonstration (the long part: ``tools/own_tool_demo.py``): a
-recording with the held-out tool, labelled from a few simulated clicks plus optical flow, stored
-as the station's label dataset; the bundled model misses the unseen tool."""
+recording with the held-out tool, labelled as on the Label tab (simulated clicks on the proposed
+and queued frames, the product's propagation between them), stored as the station's COCO
+dataset; the bundled model misses the unseen tool."""
 
 from __future__ import annotations
 
@@ -10,21 +11,23 @@ import cv2
 import numpy as np
 import pytest
 
+from stationcheck.core.records import Frame
 from stationcheck.demo_station import sample_video as sv
 from stationcheck.demo_station.files import DEMO_CONFIG
 from stationcheck.demo_station.own_tool import (
     RECORDING_SCRIPT,
+    save_labels,
     simulate_labelling,
     unseen_rig,
-    write_station_labels,
 )
 from stationcheck.evaluation.accuracy_report import evaluate
-from stationcheck.labels.station_labels import read_station_labels
 from stationcheck.evaluation.truth import LabelledFrame
-from stationcheck.core.records import Frame
+from stationcheck.labels.records import FrameLabel
+from stationcheck.labels.station_labels import read_station_labels
 from stationcheck.vision.detector import load_detector
 
 FRAMES = 150
+BUDGET = 20  # clicks; the first 150 frames are mostly fast moves
 
 
 @pytest.fixture(scope="module")
@@ -41,11 +44,16 @@ def recording(tmp_path_factory: pytest.TempPathFactory) -> tuple[Path, list[sv.T
     return video, production.rows[:FRAMES]
 
 
-def _tip_errors(labels: dict[int, object], rows: list[sv.TruthRow], source: str) -> list[float]:
+def _tip_errors(labels: list[FrameLabel], rows: list[sv.TruthRow], source: str) -> list[float]:
     return [
-        float(np.hypot(lab.keypoints[0, 0] - rows[i].tip_x_px, lab.keypoints[0, 1] - rows[i].tip_y_px))  # type: ignore[attr-defined]
-        for i, lab in labels.items()
-        if lab.source == source and lab.keypoints[0, 2] > 0 and rows[i].tip_v == 2  # type: ignore[attr-defined]
+        float(
+            np.hypot(
+                lab.tip[0] - rows[lab.frame_index].tip_x_px,
+                lab.tip[1] - rows[lab.frame_index].tip_y_px,
+            )
+        )
+        for lab in labels
+        if lab.source == source and lab.tip is not None and rows[lab.frame_index].tip_v == 2
     ]
 
 
@@ -53,19 +61,25 @@ def test_a_few_clicks_label_most_frames_close_to_the_truth(
     recording: tuple[Path, list[sv.TruthRow]],
 ) -> None:
     video, rows = recording
-    labels, clicks = simulate_labelling(video, rows, budget=4, seed=1)
-    assert clicks <= 4 and len(labels) >= 0.6 * FRAMES
+    labels, clicks = simulate_labelling(video, rows, budget=BUDGET, seed=1, proposals=10)
+    assert clicks <= BUDGET and len(labels) >= 0.45 * FRAMES
+    assert len({lab.frame_index for lab in labels}) == len(labels)
     clicked = _tip_errors(labels, rows, "clicked")
     propagated = _tip_errors(labels, rows, "propagated")
-    assert clicked and max(clicked) < 4.0  # 1 px noise per axis
-    # carried along within a few px (the whole recording: 2.2 px median, tools/own_tool_demo.py)
-    assert len(propagated) > 80 and float(np.median(propagated)) < 4.0
+    assert clicked and max(clicked) < 4.5  # 1 px noise per axis
+    # the Label tab's propagation: within a few px of the renderer's truth
+    assert len(propagated) > 40 and float(np.median(propagated)) < 2.0
+    assert float(np.percentile(propagated, 95)) < 5.0
     station = video.parent.parent
-    write_station_labels(station, video, labels, 30.0, every=5)
+    saved = save_labels(station, video, labels, every=5)
     read_back = read_station_labels(station)
+    assert saved.images == len(read_back)
     assert {i.label_source for i in read_back} == {"clicked", "propagated"}
     assert all(i.video == "recordings/rec.mp4" for i in read_back)
-    assert sum(i.label_source == "clicked" for i in read_back) == clicks
+    assert all(i.image.is_file() for i in read_back)
+    assert sum(i.label_source == "clicked" for i in read_back) == sum(
+        lab.source == "clicked" and lab.tip is not None for lab in labels
+    )
     # Reference: pycocotools reads the written dataset.
     coco = pytest.importorskip("pycocotools.coco").COCO(str(station / "labels" / "coco.json"))
     assert len(coco.getImgIds()) == len(read_back)
@@ -80,7 +94,9 @@ def test_the_bundled_model_misses_the_unseen_tool(
     for row in rows:
         ok, image = capture.read()
         assert ok
-        truth = np.array([[row.tip_x_px, row.tip_y_px, row.tip_v], [row.rear_x_px, row.rear_y_px, row.rear_v]])
+        truth = np.array(
+            [[row.tip_x_px, row.tip_y_px, row.tip_v], [row.rear_x_px, row.rear_y_px, row.rear_v]]
+        )
         frames.append(LabelledFrame(Frame(row.frame_index, row.t_s, image), truth))
     capture.release()
     report = evaluate(load_detector(None), frames)

@@ -108,3 +108,23 @@ def test_two_directions_that_disagree_are_queued(
     last = FrameLabel(FIRST + 30, wrong_tip, truth.rear[FIRST + 30], "clicked")
     frames = [grey[i] for i in range(FIRST, FIRST + 31)]
     assert propagate_span(frames, first, last, FlowSettings()) == []
+
+
+def test_one_direction_alone_is_trusted_only_near_its_click(
+    grey: dict[int, npt.NDArray[np.uint8]], truth: Truth
+) -> None:
+    rng = np.random.default_rng(9)
+    first, last = truth.click(FIRST, rng), truth.click(FIRST + 40, rng)
+    frames = [grey[i].copy() for i in range(FIRST, FIRST + 41)]
+    assert first.tip is not None and last.tip is not None and last.rear is not None
+    x0, x1 = sorted((int(last.tip[0]), int(last.rear[0])))
+    y0, y1 = sorted((int(last.tip[1]), int(last.rear[1])))
+    frames[-1][max(0, y0 - 30) : y1 + 30, max(0, x0 - 30) : x1 + 30] = 128  # nothing to follow
+    settings = FlowSettings()
+    labels = propagate_span(frames, first, last, settings)
+    offsets = [label.frame_index - FIRST for label in labels]
+    assert offsets and max(offsets) <= settings.max_one_way_frames  # the rest is asked for
+    for label in labels:  # the renderer's truth is the reference
+        assert label.tip is not None
+        tip = truth.tip[label.frame_index]
+        assert np.hypot(label.tip[0] - tip[0], label.tip[1] - tip[1]) <= 5.0
