@@ -10,7 +10,9 @@ rate on frames marked "tool not visible".
 The verdict "fit for this station" needs all three: p95 below the smallest inner radius,
 misses <= :data:`MAX_MISS_RATE`, false detections <= :data:`MAX_FALSE_DETECTION_RATE`
 (common practice, no source: an enable decided on a dwell of several frames tolerates rare
-single-frame slips, not a tip placed outside the zone one frame in twenty).
+single-frame slips, not a tip placed outside the zone one frame in twenty), and enough held-out
+frames of each kind for those rates to be shown (:data:`MIN_VISIBLE_FRAMES`,
+:data:`MIN_ABSENT_FRAMES`).
 """
 
 from __future__ import annotations
@@ -39,6 +41,10 @@ from stationcheck.vision.detector import KeypointDetector
 FORMAT_VERSION = 1
 MAX_MISS_RATE = 0.02
 MAX_FALSE_DETECTION_RATE = 0.01
+# A rate can be shown to be within its limit only when one frame is no more than the limit:
+# 1 / 0.02 = 50 frames with the tool in view, 1 / 0.01 = 100 frames without it.
+MIN_VISIBLE_FRAMES = math.ceil(1.0 / MAX_MISS_RATE)
+MIN_ABSENT_FRAMES = math.ceil(1.0 / MAX_FALSE_DETECTION_RATE)
 
 
 @dataclass(frozen=True)
@@ -101,10 +107,27 @@ class Fitness:
 
 
 def verdict_reasons(
-    p95_px: float | None, miss: float | None, false_rate: float | None, radius_px: float
+    p95_px: float | None,
+    miss: float | None,
+    false_rate: float | None,
+    radius_px: float,
+    visible_frames: int | None = None,
+    absent_frames: int | None = None,
 ) -> tuple[str, ...]:
-    """Why the model is not fit (empty: fit)."""
+    """Why the model is not fit (empty: fit). With the frame counts given, too few held-out
+    frames of either kind is a reason too: the rate could not show its limit."""
     reasons = []
+    if visible_frames is not None and 0 < visible_frames < MIN_VISIBLE_FRAMES:
+        reasons.append(
+            f"only {visible_frames} held-out frames with the tool in view (at least "
+            f"{MIN_VISIBLE_FRAMES} are needed to show misses <= {MAX_MISS_RATE:.0%}): label more"
+        )
+    if absent_frames is not None and 0 < absent_frames < MIN_ABSENT_FRAMES:
+        reasons.append(
+            f"only {absent_frames} held-out frames marked 'tool not visible' (at least "
+            f"{MIN_ABSENT_FRAMES} are needed to show false detections <= "
+            f"{MAX_FALSE_DETECTION_RATE:.0%}): record and label the tool out of view"
+        )
     if p95_px is None:
         reasons.append("no held-out frame with the tool in view: tip error not measured")
     elif not p95_px < radius_px:
@@ -153,7 +176,9 @@ def measure_fitness(
 
     median, p95 = value(m.tip_median_px), value(m.tip_p95_px)
     miss, false_rate = value(m.miss_rate), value(m.false_detection_rate)
-    reasons = verdict_reasons(p95, miss, false_rate, zone.inner_radius_px)
+    reasons = verdict_reasons(
+        p95, miss, false_rate, zone.inner_radius_px, m.visible_frames, m.absent_frames
+    )
     refine_name = _refine_name(model_file)
     refine_file = model_file.parent / refine_name if refine_name else None
     return Fitness(

@@ -66,6 +66,24 @@ def test_verdict_rules(
         assert expected in text
 
 
+@pytest.mark.parametrize(
+    ("visible", "absent", "reasons"),
+    [
+        (50, 100, []),  # one frame is exactly the limit of each rate
+        (49, 100, ["only 49 held-out frames with the tool in view"]),
+        (500, 4, ["only 4 held-out frames marked 'tool not visible'"]),
+        (10, 10, ["only 10 held-out frames with", "only 10 held-out frames marked"]),
+    ],
+)
+def test_too_few_held_out_frames_cannot_show_the_rates(
+    visible: int, absent: int, reasons: list[str]
+) -> None:
+    got = verdict_reasons(3.0, 0.0, 0.0, 17.0, visible, absent)
+    assert len(got) == len(reasons)
+    for text, expected in zip(got, reasons, strict=True):
+        assert expected in text
+
+
 class _ReplayDetector:
     """Answers each frame with given points (a stand-in for a model, keyed by frame index)."""
 
@@ -114,7 +132,10 @@ def test_figures_and_verdict_on_held_out_frames(tmp_path: Path) -> None:
     assert fitness.tip_p95_share == pytest.approx(fitness.tip_p95_px / fitness.inner_radius_px)
     assert fitness.miss_rate == pytest.approx(1 / 18)
     assert fitness.false_detection_rate == pytest.approx(1 / 2)
-    assert not fitness.fit and len(fitness.reasons) == 2
+    assert not fitness.fit and len(fitness.reasons) == 4
+    assert [r.split()[0:3] for r in fitness.reasons[:2]] == [["only", "18", "held-out"]] + [
+        ["only", "2", "held-out"]
+    ]
     assert fitness.as_dict()["verdict"] == "NOT fit for this station"
     assert len(fitness.model_sha256) == 64 and fitness.refine_model == "tool_tip.refine.onnx"
     assert math.isclose(fitness.inner_radius_px, 17.0, abs_tol=0.05)
