@@ -27,13 +27,11 @@ import numpy as np
 import numpy.typing as npt
 
 from stationcheck.errors import InputFileError
+from stationcheck.labels.coco_store import COCO_NAME, IMAGES_DIR, labels_folder
+from stationcheck.labels.records import KEYPOINT_NAMES
 
 logger = logging.getLogger(__name__)
 
-LABELS_DIR = "labels"
-COCO_NAME = "coco.json"
-IMAGES_DIR = "images"
-KEYPOINT_NAMES = ("tip", "rear")
 HELD_OUT_SHARE = 0.2
 CALIBRATION_SHARE = 0.1
 GAP_S = 1.0  # frames this close to a boundary are left out of training (near copies)
@@ -71,10 +69,6 @@ class TimeSplit:
             low, high = spans.get(item.video, (item.t_s, item.t_s))
             spans[item.video] = (min(low, item.t_s), max(high, item.t_s))
         return spans
-
-
-def labels_folder(station_dir: Path) -> Path:
-    return station_dir / LABELS_DIR
 
 
 def read_station_labels(station_dir: Path) -> list[StationLabel]:
