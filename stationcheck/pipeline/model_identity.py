@@ -5,17 +5,10 @@ unit (a retrained or swapped model shows as a new hash)."""
 from __future__ import annotations
 
 from dataclasses import replace
-from pathlib import Path
 
 from stationcheck.config.model_proof import file_sha256
 from stationcheck.core.plan import StationPlan
-
-
-def model_file_of(detector: object) -> Path | None:
-    """The coarse model file behind an ONNX detector; None for other detectors (ground truth,
-    recorded answers)."""
-    path = getattr(getattr(detector, "coarse", None), "path", None)
-    return path if isinstance(path, Path) else None
+from stationcheck.pipeline.frame_path import model_file_of
 
 
 def with_model_identity(plan: StationPlan, detector: object) -> StationPlan:
