@@ -2,6 +2,9 @@
 
 Rules:
 - A keypoint below ``min_score`` is not seen. The tool is seen when its tip is seen.
+- A tip within ``edge_band_px`` of the picture's border is not seen: a point on the border
+  cannot be told from one just beyond it, so a tool leaving the picture nose first counts as
+  gone (towards inhibit) instead of being held by a tip drawn on the edge.
 - Seen tips are smoothed with the One Euro filter on frame timestamps (tip and rear separately).
 - When the tip is not seen, the last smoothed pose is held for ``lost_track_grace_ms``; after that
   the tool is not visible and the filters start afresh on the next sighting (no smoothing across
@@ -26,6 +29,22 @@ from stationcheck.core.validation import require_at_least, require_text
 
 logger = logging.getLogger(__name__)
 
+PICTURE_EDGE_BAND_PX = 4.0  # common practice, no source: a few pixels, more than a tip's error
+
+
+def at_picture_edge(
+    x_px: float, y_px: float, size: tuple[int, int], band_px: float = PICTURE_EDGE_BAND_PX
+) -> bool:
+    """True when (x, y) lies within ``band_px`` of the border of a ``size`` = (width, height)
+    picture, or outside it."""
+    width, height = size
+    return (
+        x_px < band_px
+        or y_px < band_px
+        or x_px > width - 1 - band_px
+        or y_px > height - 1 - band_px
+    )
+
 
 @dataclass(frozen=True)
 class TrackerSettings:
@@ -35,9 +54,11 @@ class TrackerSettings:
     rear_name: str = "rear"
     smoothing: OneEuroSettings = field(default_factory=OneEuroSettings)
     max_speed_px_s: float | None = 4000.0
+    edge_band_px: float = PICTURE_EDGE_BAND_PX
 
     def __post_init__(self) -> None:
         require_at_least("TrackerSettings", "min_score", self.min_score, 0.0)
+        require_at_least("TrackerSettings", "edge_band_px", self.edge_band_px, 0.0)
         if self.min_score > 1.0:
             raise ValueError(f"TrackerSettings.min_score must be <= 1, got {self.min_score}")
         require_at_least("TrackerSettings", "lost_track_grace_ms", self.lost_track_grace_ms, 0.0)
@@ -70,9 +91,22 @@ class Tracker:
     def initial_state(self) -> TrackerState:
         return TrackerState()
 
-    def update(self, state: TrackerState, keypoints: Keypoints) -> tuple[TrackerState, ToolPose]:
+    def update(
+        self,
+        state: TrackerState,
+        keypoints: Keypoints,
+        picture_size: tuple[int, int] | None = None,
+    ) -> tuple[TrackerState, ToolPose]:
+        """``picture_size`` (width, height) turns on the edge band; None leaves it off."""
         t_s = keypoints.t_s
         tip = self._seen(keypoints, self.settings.tip_name)
+        if (
+            tip is not None
+            and picture_size is not None
+            and at_picture_edge(tip.x_px, tip.y_px, picture_size, self.settings.edge_band_px)
+        ):
+            logger.debug("frame %d: tip on the picture's edge band", keypoints.frame_index)
+            tip = None
         if tip is not None and self._implausible_jump(state, tip, t_s):
             logger.debug("frame %d: tip jump rejected by the speed gate", keypoints.frame_index)
             tip = None

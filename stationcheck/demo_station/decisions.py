@@ -22,6 +22,7 @@ from stationcheck.core.plan import (
     StationPlan,
     Step,
 )
+from stationcheck.core.tracker import at_picture_edge
 from stationcheck.demo_station import layout
 from stationcheck.demo_station.camera import CameraTransform
 from stationcheck.demo_station.choreography import StationInput
@@ -52,9 +53,15 @@ class _Unit:
 class ReferenceSequencer:
     """Replays ground truth and inputs frame by frame and records the expected decisions."""
 
-    def __init__(self, plan: StationPlan, fps: float) -> None:
+    def __init__(
+        self,
+        plan: StationPlan,
+        fps: float,
+        picture_size: tuple[int, int] = (layout.FRAME_WIDTH_PX, layout.FRAME_HEIGHT_PX),
+    ) -> None:
         self.plan = plan
         self.fps = fps
+        self.picture_size = picture_size  # (width, height): the station's edge band lies in it
         t = plan.thresholds
         self.dwell_frames = self._frames(t.dwell_ms)
         self.grace_frames = self._frames(t.lost_track_grace_ms)
@@ -186,7 +193,7 @@ class ReferenceSequencer:
     def _track_zone(self, row: TruthRow) -> None:
         point = (row.tip_ref_x_px, row.tip_ref_y_px)
         new = self.zone
-        if row.tip_v == 2:
+        if row.tip_v == 2 and not at_picture_edge(row.tip_x_px, row.tip_y_px, self.picture_size):
             self.last_seen = self.frame
             self.lost = False
             if not self.zone or not self._holds(self.zone, point):
@@ -336,9 +343,13 @@ def _corner_shift_px(row: TruthRow) -> float:
 
 
 def expected_decisions(
-    plan: StationPlan, rows: Sequence[TruthRow], inputs: Sequence[StationInput], fps: float
+    plan: StationPlan,
+    rows: Sequence[TruthRow],
+    inputs: Sequence[StationInput],
+    fps: float,
+    picture_size: tuple[int, int] = (layout.FRAME_WIDTH_PX, layout.FRAME_HEIGHT_PX),
 ) -> list[dict[str, Any]]:
-    seq = ReferenceSequencer(plan, fps)
+    seq = ReferenceSequencer(plan, fps, picture_size)
     by_frame: dict[int, list[StationInput]] = {}
     for item in inputs:
         by_frame.setdefault(item.frame, []).append(item)

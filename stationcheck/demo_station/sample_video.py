@@ -98,7 +98,9 @@ def plan_production(
     rig = rig or OperatorRig(knobs.tool, knobs.arm)
     chor = choreograph(script, rig, knobs.fps)
     rows = ground_truth(chor, rig, plan.zones, knobs.view)
-    decisions = expected_decisions(plan, rows, chor.inputs, chor.fps)
+    decisions = expected_decisions(
+        plan, rows, chor.inputs, chor.fps, (knobs.view.width_px, knobs.view.height_px)
+    )
     return Production(script, plan, chor, rows, decisions, rig)
 
 

@@ -146,7 +146,10 @@ class FramePath:
             keypoints_for_tracker = Keypoints(frame.index, frame.t_s, ())
         else:
             keypoints_for_tracker = keypoints
-        self.tracker_state, pose = self.tracker.update(self.tracker_state, keypoints_for_tracker)
+        height, width = frame.image.shape[:2]
+        self.tracker_state, pose = self.tracker.update(
+            self.tracker_state, keypoints_for_tracker, (width, height)
+        )
         self.visit, zone_obs = self.zone_map.observe(self.visit, pose, frame_age_ms)
         frozen_ms = self.frozen_image.see(frame, frame.source_t_s)
         if frozen_ms > 0.0:

@@ -149,8 +149,47 @@ def test_the_tracker_keeps_no_state_of_its_own() -> None:
         ({"lost_track_grace_ms": -1.0}, "lost_track_grace_ms must be >= 0.0, got -1.0"),
         ({"tip_name": ""}, "tip_name must be a non-empty string"),
         ({"max_speed_px_s": 0.0}, "max_speed_px_s must be >="),
+        ({"edge_band_px": -1.0}, "edge_band_px must be >= 0.0, got -1.0"),
     ],
 )
 def test_tracker_settings_are_validated(kwargs: dict[str, object], message: str) -> None:
     with pytest.raises(ValueError, match=message):
         TrackerSettings(**kwargs)  # type: ignore[arg-type]
+
+
+@pytest.mark.parametrize(
+    ("x_px", "y_px", "seen"),
+    [
+        (1.0, 200.0, False),
+        (3.9, 200.0, False),
+        (4.0, 200.0, True),
+        (635.0, 240.0, True),  # 639 - 4: the last column outside the band
+        (635.5, 240.0, False),
+        (320.0, 475.0, True),
+        (320.0, 476.5, False),
+        (-2.0, 200.0, False),  # a model may answer just beyond the picture
+    ],
+)
+def test_a_tip_on_the_pictures_edge_band_is_not_seen(x_px: float, y_px: float, seen: bool) -> None:
+    tracker = Tracker(TrackerSettings())
+    _, pose = tracker.update(tracker.initial_state(), frame(0, (x_px, y_px, 0.95)), (640, 480))
+    assert (pose.seen, pose.visible) == (seen, seen)
+
+
+def test_without_the_picture_size_the_edge_band_is_off() -> None:
+    (pose,) = follow(Tracker(TrackerSettings()), [frame(0, (1.0, 200.0, 0.95))])
+    assert pose.seen
+
+
+def test_a_tool_leaving_nose_first_is_lost_after_the_grace_period() -> None:
+    """Its nose rests on the left edge: the tip drawn there does not hold the tool."""
+    tracker = Tracker(TrackerSettings(lost_track_grace_ms=300.0))
+    state, poses = tracker.initial_state(), []
+    for i in range(40):
+        tip = (100.0, 200.0, 0.9) if i < 10 else (1.5, 201.0, 0.85)
+        state, pose = tracker.update(state, frame(i, tip), (640, 480))
+        poses.append(pose)
+    assert all(p.seen for p in poses[:10])
+    assert not any(p.seen for p in poses[10:])
+    # last seen at frame 9 (0.3 s); still held at 0.3 s later, gone after
+    assert poses[18].visible and not poses[19].visible

@@ -194,3 +194,12 @@ def test_confirm_step_is_done_on_an_ack_and_left_out_of_a_rework_pass() -> None:
     rework = StationInput(0, "unit_started", {"serial": "PC-1", "rework": True})
     again = expected_decisions(confirm_plan, truth, [rework], FPS)
     assert [d["kind"] for d in again] == ["check_result", "unit_result"]  # straight to the check
+
+
+@pytest.mark.parametrize(("x_px", "lost"), [(0.5, True), (3.5, True), (4.5, False)])
+def test_a_tip_on_the_pictures_edge_band_counts_as_gone(x_px: float, lost: bool) -> None:
+    """The same band as the station's tracker: a tip on the border may lie just beyond it."""
+    truth = rows(60, lambda f: (*AWAY, 2) if f <= 20 else (x_px, 115.0, 2))
+    out = expected_decisions(plan(), truth, [started()], FPS, (640, 480))
+    alarms = [d for d in kinds(out, "alarm") if d["alarm"] == "tool_lost"]
+    assert [(a["frame"], a["last_seen_frame"]) for a in alarms] == ([(30, 20)] if lost else [])
