@@ -156,7 +156,9 @@ def main() -> int:
     shown["bundled_on_recording"] = figures(None, recording / VIDEO)
     print("bundled model on the recording:", shown["bundled_on_recording"], flush=True)
     t0 = time.perf_counter()
-    labels, clicks = simulate_labelling(recording / VIDEO, recording_p.rows, args.clicks, seed=3)
+    labels, clicks, marks = simulate_labelling(
+        recording / VIDEO, recording_p.rows, args.clicks, seed=3
+    )
     truth = {r.frame_index: r for r in recording_p.rows}
     errors = [
         float(
@@ -175,6 +177,10 @@ def main() -> int:
     saved = save_labels(station, recording / VIDEO, labels, args.every)
     shown["labelling"] = {
         "clicks": clicks,
+        "out_of_view_marks": marks,
+        "frames_marked_out_of_view": sum(
+            1 for lab in labels if lab.tip is None and lab.source == "propagated"
+        ),
         "frames_labelled": len(labels),
         "frames_not_visible": sum(1 for lab in labels if lab.tip is None),
         "frames_saved": saved.images,

@@ -8,8 +8,11 @@ propagation (:mod:`stationcheck.labels.propagation`) runs and the frames it queu
 :data:`QUEUE_BATCH` at a time, until the click budget is spent or nothing is queued. A click is
 the renderer's truth plus 1 px of noise (Gaussian, per axis) on tip and rear (the rear also
 where it lies just outside the picture), or "tool not visible" where the truth says the tip is
-out of view. The labels are stored with :mod:`stationcheck.labels.coco_store`, as the tab's
-Save does.
+out of view. After each propagation the engineer looks over the strip of every unlabelled run
+beside a "not visible" click (:class:`~stationcheck.labels.propagation.HiddenRun`) and marks the
+part next to the click where no strip frame shows the tip (the strip's frames only, as a person
+sees them); a strip frame that shows the tip between two "not visible" clicks gets a click. The
+labels are stored with :mod:`stationcheck.labels.coco_store`, as the tab's Save does.
 """
 
 from __future__ import annotations
@@ -27,7 +30,7 @@ from stationcheck.demo_station.held_out_looks import UNSEEN_ARM, UNSEEN_TOOL
 from stationcheck.demo_station.rig import OperatorRig
 from stationcheck.errors import InputFileError
 from stationcheck.labels import coco_store
-from stationcheck.labels.propagation import SpanCache, propagate
+from stationcheck.labels.propagation import HiddenRun, SpanCache, propagate
 from stationcheck.labels.proposal import propose
 from stationcheck.labels.records import FrameLabel
 from stationcheck.labels.video_frames import VideoFrames
@@ -61,6 +64,25 @@ def click(row: TruthRow, rng: np.random.Generator) -> FrameLabel:
     )
 
 
+def look_over(run: HiddenRun, rows: Sequence[TruthRow]) -> tuple[list[tuple[int, int]], int | None]:
+    """What the engineer marks out of view in one run's strip, from each "not visible" side up
+    to the last strip frame before one that shows the tip; and a strip frame showing the tip
+    between two "not visible" clicks (to click), if any."""
+    strip = run.strip()
+    shows = [rows[index].tip_v != 0 for index in strip]
+    if not any(shows):
+        return [(run.first, run.last)], None
+    marks: list[tuple[int, int]] = []
+    if run.hidden_before and not shows[0]:
+        upto = shows.index(True) - 1
+        marks.append((run.first, strip[upto]))
+    if run.hidden_after and not shows[-1]:
+        back = shows[::-1].index(True) - 1
+        marks.append((strip[len(strip) - 1 - back], run.last))
+    to_click = strip[shows.index(True)] if run.hidden_before and run.hidden_after else None
+    return marks, to_click
+
+
 def grey_frames(video: Path) -> list[Grey]:
     frames = VideoFrames(video)
     try:
@@ -74,9 +96,9 @@ def grey_frames(video: Path) -> list[Grey]:
 
 def simulate_labelling(
     video: Path, rows: Sequence[TruthRow], budget: int, seed: int, proposals: int = PROPOSALS
-) -> tuple[list[FrameLabel], int]:
+) -> tuple[list[FrameLabel], int, int]:
     """Clicked and propagated labels of the recording from at most ``budget`` simulated clicks
-    (in frame order), and the number of clicks used."""
+    (in frame order), the number of clicks used and the number of out-of-view marks made."""
     grey = grey_frames(video)
     if len(grey) != len(rows):
         raise InputFileError(f"{video}: {len(grey)} frames, truth has {len(rows)} rows")
@@ -89,17 +111,34 @@ def simulate_labelling(
     every = ((i, grey[i]) for i in range(0, len(grey), PROPOSAL_STEP_FRAMES))
     clicked = {i: click(rows[i], rng) for i in propose(every, min(proposals, budget))}
     cache: SpanCache = {}
+    marks: list[tuple[int, int]] = []
     while True:
-        result = propagate(read_span, clicked.values(), cache=cache)
-        wanted = [i for i in result.queued() if i not in clicked]
+        result = propagate(read_span, clicked.values(), cache=cache, out_of_view=marks)
         room = budget - len(clicked)
+        new_marks: list[tuple[int, int]] = []
+        strip_clicks: list[int] = []
+        for run in result.hidden_runs:
+            marked, to_click = look_over(run, rows)
+            new_marks += marked
+            if to_click is not None and to_click not in clicked:
+                strip_clicks.append(to_click)
+        if new_marks:
+            marks += new_marks
+            continue
+        wanted = [*strip_clicks, *(i for i in result.queued() if i not in clicked)]
         if room <= 0 or not wanted:
             break
         for index in wanted[: min(QUEUE_BATCH, room)]:
             clicked[index] = click(rows[index], rng)
     labels = sorted([*clicked.values(), *result.labels], key=lambda label: label.frame_index)
-    logger.info("%d clicks labelled %d of %d frames", len(clicked), len(labels), len(grey))
-    return labels, len(clicked)
+    logger.info(
+        "%d clicks and %d out-of-view marks labelled %d of %d frames",
+        len(clicked),
+        len(marks),
+        len(labels),
+        len(grey),
+    )
+    return labels, len(clicked), len(marks)
 
 
 def save_labels(

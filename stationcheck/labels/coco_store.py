@@ -6,7 +6,9 @@ JSON is that bare name, relative to ``images/``, as COCO's own sets name theirs)
 ``tool`` with keypoints ``tip`` and ``rear``. Each image carries ``video`` (the recording's path
 relative to the station folder when it lies inside it, else its file name),
 ``frame_index``, ``t_s`` and ``tool_visible``; a frame where the tool is not visible is an image
-without annotation. Each annotation carries ``label_source`` (``clicked`` or ``propagated``).
+without annotation. Each annotation carries ``label_source`` (``clicked`` or ``propagated``);
+an image without one carries it itself (``propagated``: inside a run the engineer marked out
+of view).
 A rear outside the picture is stored as not labelled (``v`` 0), as COCO does.
 
 Saving merges: labels of the same (video, frame index) replace the stored ones, the rest stay.
@@ -89,7 +91,8 @@ def labels_of(folder: Path, video_name: str) -> list[FrameLabel]:
             continue
         note = notes.get(image.get("id"))
         if note is None:
-            out.append(FrameLabel(int(image["frame_index"]), None, None, "clicked"))
+            source = image.get("label_source", "clicked")
+            out.append(FrameLabel(int(image["frame_index"]), None, None, source))
             continue
         points = note["keypoints"]
         tip = (float(points[0]), float(points[1]))
@@ -156,6 +159,8 @@ def save(station_folder: Path, video: VideoFrames, labels: Iterable[FrameLabel])
             "t_s": round(index / video.fps, 4),
             "tool_visible": label.visible,
         }
+        if not label.visible:  # no annotation to say it: the image does
+            image["label_source"] = label.source
         kept.append((image, annotation(label, width, height) if label.visible else None))
     kept.sort(key=lambda pair: (str(pair[0].get("video")), int(pair[0].get("frame_index", 0))))
     written = _write_frames(video, images_dir, sorted(new))

@@ -12,6 +12,13 @@ loses the other direction).
 Between a visible click and a "not visible" click only the visible side tracks, so a
 "not visible" click stops propagation across it. Frames left without a label are returned as
 gaps: the screen asks for a click in the middle of the longest ones first.
+
+Flow cannot follow a tool that is not there, so the frames beside a "not visible" click are the
+engineer's to mark: each unlabelled run next to such a click is returned as a
+:class:`HiddenRun` with a strip of frames to look over, and the engineer marks the part of it
+next to the click where the tool stays out of view (``out_of_view``: (first, last) frame runs,
+each starting right after or ending right before a "not visible" click). Those frames become
+"not visible" labels; a run between two "not visible" clicks is never labelled without a mark.
 """
 
 from __future__ import annotations
@@ -48,12 +55,49 @@ class FlowSettings:
     max_scale_change: float = 0.08
 
 
+STRIP_FRAMES = 24  # thumbnails in a hidden run's strip
+
+
+@dataclass(frozen=True)
+class HiddenRun:
+    """Unlabelled frames ``first..last`` next to a "not visible" click: just before it
+    (``hidden_after``), just after it (``hidden_before``) or between two (both)."""
+
+    first: int
+    last: int
+    hidden_before: bool
+    hidden_after: bool
+
+    def strip(self, count: int = STRIP_FRAMES) -> tuple[int, ...]:
+        """At most ``count`` frames to look over, evenly spaced, in frame order; always the
+        frames next to the "not visible" clicks (a mark starts or ends at one of them), and
+        the run's two ends."""
+        length = self.last - self.first + 1
+        every = max(1, -(-length // max(1, count - 1)))
+        if self.hidden_after and not self.hidden_before:
+            frames = set(range(self.last, self.first - 1, -every))
+        else:
+            frames = set(range(self.first, self.last + 1, every))
+        return tuple(sorted(frames | {self.first, self.last}))
+
+    def to_json(self) -> dict[str, object]:
+        return {
+            "first": self.first,
+            "last": self.last,
+            "hidden_before": self.hidden_before,
+            "hidden_after": self.hidden_after,
+            "strip": list(self.strip()),
+        }
+
+
 @dataclass(frozen=True)
 class Propagation:
-    """Propagated labels (never the clicked ones) and the unlabelled runs between clicks."""
+    """Propagated labels (never the clicked ones), the unlabelled runs between clicks, and
+    the unlabelled runs beside "not visible" clicks for the engineer to mark."""
 
     labels: tuple[FrameLabel, ...]
     gaps: tuple[tuple[int, int], ...]  # (first, last) frame index, inclusive, longest first
+    hidden_runs: tuple[HiddenRun, ...] = ()
 
     def queued(self) -> tuple[int, ...]:
         """The frame in the middle of each gap: where a click helps most, most useful first."""
@@ -216,20 +260,25 @@ def propagate(
     clicked: Iterable[FrameLabel],
     settings: FlowSettings | None = None,
     cache: SpanCache | None = None,
+    out_of_view: Iterable[tuple[int, int]] = (),
 ) -> Propagation:
     """Propagated labels for every span between consecutive clicked frames.
 
     ``read_span(first, last)`` gives the frames ``first..last`` (BGR or grey) in order.
     ``cache`` keeps each span's result between calls (a span is worked out again only when one
-    of its two clicks changed).
+    of its two clicks changed). ``out_of_view`` are the engineer's marks (see the module);
+    a mark that does not start right after or end right before a "not visible" click, or
+    crosses a click, is ignored.
     """
     settings = settings or FlowSettings()
     anchors = sorted(
         {label.frame_index: label for label in clicked}.values(),
         key=lambda label: label.frame_index,
     )
+    marks = sorted(set(out_of_view))
     labels: list[FrameLabel] = []
     gaps: list[tuple[int, int]] = []
+    hidden: list[HiddenRun] = []
     for first, last in pairwise(anchors):
         inner = last.frame_index - first.frame_index - 1
         if inner <= 0:
@@ -242,12 +291,42 @@ def propagate(
             found = propagate_span(grey, first, last, settings)
         if cache is not None:
             cache[(first, last)] = found
+        marked = _marked_frames(first, last, marks)
+        if marked:
+            found = [label for label in found if label.frame_index not in marked]
+            found += [FrameLabel(index, None, None, "propagated") for index in sorted(marked)]
+            found.sort(key=lambda label: label.frame_index)
         labels.extend(found)
-        if first.visible or last.visible:
-            gaps.extend(_unlabelled_runs(first.frame_index, last.frame_index, found))
+        for low, high in _unlabelled_runs(first.frame_index, last.frame_index, found):
+            before = not first.visible and low == first.frame_index + 1
+            after = not last.visible and high == last.frame_index - 1
+            if before or after:
+                hidden.append(HiddenRun(low, high, before, after))
+            if first.visible or last.visible or not (before or after):
+                gaps.append((low, high))  # between two "not visible" clicks: the rest of a mark
     gaps.sort(key=lambda gap: (-(gap[1] - gap[0]), gap[0]))
-    log.info("propagated %d labels from %d clicks; %d gaps", len(labels), len(anchors), len(gaps))
-    return Propagation(tuple(labels), tuple(gaps))
+    log.info(
+        "propagated %d labels from %d clicks; %d gaps, %d runs beside 'not visible' clicks",
+        len(labels),
+        len(anchors),
+        len(gaps),
+        len(hidden),
+    )
+    return Propagation(tuple(labels), tuple(gaps), tuple(hidden))
+
+
+def _marked_frames(
+    first: FrameLabel, last: FrameLabel, marks: Sequence[tuple[int, int]]
+) -> set[int]:
+    """The frames strictly between two clicks that the engineer marked out of view."""
+    low, high = first.frame_index + 1, last.frame_index - 1
+    out: set[int] = set()
+    for start, end in marks:
+        if start > end or start < low or end > high:
+            continue
+        if (start == low and not first.visible) or (end == high and not last.visible):
+            out.update(range(start, end + 1))
+    return out
 
 
 def _grey(image: npt.NDArray[np.uint8]) -> Gray:

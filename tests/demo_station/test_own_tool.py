@@ -61,7 +61,7 @@ def test_a_few_clicks_label_most_frames_close_to_the_truth(
     recording: tuple[Path, list[sv.TruthRow]],
 ) -> None:
     video, rows = recording
-    labels, clicks = simulate_labelling(video, rows, budget=BUDGET, seed=1, proposals=10)
+    labels, clicks, _ = simulate_labelling(video, rows, budget=BUDGET, seed=1, proposals=10)
     assert clicks <= BUDGET and len(labels) >= 0.45 * FRAMES
     assert len({lab.frame_index for lab in labels}) == len(labels)
     clicked = _tip_errors(labels, rows, "clicked")
@@ -102,3 +102,31 @@ def test_the_bundled_model_misses_the_unseen_tool(
     report = evaluate(load_detector(None), frames)
     assert report.metrics.visible_frames > 100
     assert report.metrics.miss_rate > 0.2
+
+
+def _rows(shows: str) -> list[sv.TruthRow]:
+    """Rows whose only use here is ``tip_v``: "x" the tip shows, "." it does not."""
+    from types import SimpleNamespace
+    from typing import cast
+
+    return [cast(sv.TruthRow, SimpleNamespace(tip_v=2 if c == "x" else 0)) for c in shows]
+
+
+@pytest.mark.parametrize(
+    ("shows", "run", "marks", "to_click"),
+    [
+        # frames 0..9 lie before a "not visible" click at 10; the tool leaves at frame 4
+        ("xxxx......", (0, 9, False, True), [(4, 9)], None),
+        ("..........", (0, 9, False, True), [(0, 9)], None),
+        ("......xxxx", (0, 9, True, False), [(0, 5)], None),
+        # between two "not visible" clicks, the tool back in view for a moment
+        ("...xx.....", (0, 9, True, True), [(0, 2), (5, 9)], 3),
+    ],
+)
+def test_the_engineer_marks_what_the_strip_shows_out_of_view(
+    shows: str, run: tuple[int, int, bool, bool], marks: list[tuple[int, int]], to_click: int | None
+) -> None:
+    from stationcheck.demo_station.own_tool import look_over
+    from stationcheck.labels.propagation import HiddenRun
+
+    assert look_over(HiddenRun(*run), _rows(shows)) == (marks, to_click)

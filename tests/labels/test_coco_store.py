@@ -85,19 +85,21 @@ def test_saving_again_replaces_per_frame_and_keeps_the_rest(clip: Path, tmp_path
         [
             FrameLabel(1, (100.0, 100.0), (150.0, 250.0), "clicked"),
             FrameLabel(7, None, None, "clicked"),
+            FrameLabel(8, None, None, "propagated"),  # inside a run marked out of view
         ],
     )
     video.close()
-    assert (again.images, again.annotations, again.written) == (5, 3, 1)
+    assert (again.images, again.annotations, again.written) == (6, 3, 2)
     stored = {
         label.frame_index: label
         for label in coco_store.labels_of(tmp_path / "labels", "bench_a.mp4")
     }
-    assert sorted(stored) == [0, 1, 2, 5, 7]
+    assert sorted(stored) == [0, 1, 2, 5, 7, 8]
     assert stored[1] == FrameLabel(1, (100.0, 100.0), (150.0, 250.0), "clicked")
     assert stored[2].rear is None and not stored[7].visible
+    assert stored[7].source == "clicked" and stored[8] == FrameLabel(8, None, None, "propagated")
     doc = json.loads(again.path.read_text())
-    assert [image["id"] for image in doc["images"]] == [1, 2, 3, 4, 5]
+    assert [image["id"] for image in doc["images"]] == [1, 2, 3, 4, 5, 6]
     assert len({a["id"] for a in doc["annotations"]}) == 3
     assert not [p for p in (tmp_path / "labels").rglob(".*")]  # no temporary file left
 

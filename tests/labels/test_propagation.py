@@ -13,7 +13,7 @@ import numpy as np
 import numpy.typing as npt
 import pytest
 
-from stationcheck.labels.propagation import FlowSettings, propagate, propagate_span
+from stationcheck.labels.propagation import FlowSettings, HiddenRun, propagate, propagate_span
 from stationcheck.labels.records import FrameLabel
 from stationcheck.labels.video_frames import VideoFrames
 from tests.labels.conftest import VIDEO, Truth
@@ -93,7 +93,16 @@ def test_a_not_visible_click_stops_propagation(truth: Truth) -> None:
     # only one way from the visible click, and never across or between "not visible" clicks
     assert indices and max(indices) <= visible.frame_index + settings.max_one_way_frames
     assert all(truth.visible[i] for i in indices)
-    assert (HIDDEN_FIRST + 11, HIDDEN_LAST - 6) not in result.gaps  # nothing to ask in there
+    assert (HIDDEN_FIRST + 11, HIDDEN_LAST - 6) not in result.gaps  # nothing to click in there
+    # ... but the run between the two is the engineer's to look over, and so is the one after
+    # the visible click's reach, up to the first "not visible" click
+    runs = {(run.first, run.last): run for run in result.hidden_runs}
+    assert runs[(HIDDEN_FIRST + 11, HIDDEN_LAST - 6)] == HiddenRun(
+        HIDDEN_FIRST + 11, HIDDEN_LAST - 6, True, True
+    )
+    before = [run for run in result.hidden_runs if run.last == HIDDEN_FIRST + 9]
+    assert len(before) == 1 and before[0].hidden_after and not before[0].hidden_before
+    assert not any(l.frame_index > visible.frame_index + 15 for l in result.labels)  # no mark yet
     assert result.queued() and all(
         visible.frame_index < i < hidden_a.frame_index for i in result.queued()
     )
@@ -128,3 +137,50 @@ def test_one_direction_alone_is_trusted_only_near_its_click(
         assert label.tip is not None
         tip = truth.tip[label.frame_index]
         assert np.hypot(label.tip[0] - tip[0], label.tip[1] - tip[1]) <= 5.0
+
+
+def test_marked_runs_beside_not_visible_clicks_become_not_visible_labels(truth: Truth) -> None:
+    video = VideoFrames(VIDEO)
+    try:
+        frames = {
+            i: cv2.cvtColor(image, cv2.COLOR_BGR2GRAY)
+            for i, image in video.span(HIDDEN_FIRST - 40, HIDDEN_LAST + 5)
+        }
+    finally:
+        video.close()
+    rng = np.random.default_rng(3)
+    visible = truth.click(HIDDEN_FIRST - 40, rng)
+    hidden_a = FrameLabel(HIDDEN_FIRST + 10, None, None, "clicked")
+    hidden_b = FrameLabel(HIDDEN_LAST - 5, None, None, "clicked")
+    clicks = [visible, hidden_a, hidden_b]
+    marks = [
+        (HIDDEN_FIRST, HIDDEN_FIRST + 9),  # ends right before a "not visible" click
+        (HIDDEN_FIRST + 11, HIDDEN_LAST - 6),  # between two
+        (HIDDEN_FIRST - 30, HIDDEN_FIRST - 20),  # touches no "not visible" click: ignored
+        (HIDDEN_LAST - 10, HIDDEN_LAST + 2),  # crosses a click: ignored
+    ]
+    result = propagate(_reader(frames), clicks, out_of_view=marks)
+    hidden = sorted(l.frame_index for l in result.labels if l.tip is None)
+    expected = [*range(HIDDEN_FIRST, HIDDEN_FIRST + 10), *range(HIDDEN_FIRST + 11, HIDDEN_LAST - 5)]
+    assert hidden == expected
+    assert all(not truth.visible[i] for i in hidden)  # the renderer's truth agrees
+    assert all(l.source == "propagated" for l in result.labels)
+    assert not any(run.first <= HIDDEN_FIRST + 11 <= run.last for run in result.hidden_runs)
+    # what lies between the visible click's reach and the mark is still asked for
+    assert any(first < HIDDEN_FIRST <= last + 1 for first, last in result.gaps)
+
+
+@pytest.mark.parametrize(
+    ("run", "strip"),
+    [
+        (HiddenRun(10, 14, False, True), (10, 11, 12, 13, 14)),
+        # every 5th frame (100 frames over 23 steps, rounded up) counted from the click's side
+        (HiddenRun(0, 99, False, True), (0, *range(4, 100, 5))),
+        (HiddenRun(0, 99, True, False), (*range(0, 100, 5), 99)),
+        (HiddenRun(0, 99, True, True), (*range(0, 100, 5), 99)),
+    ],
+)
+def test_a_hidden_runs_strip_always_shows_the_frames_next_to_its_clicks(
+    run: HiddenRun, strip: tuple[int, ...]
+) -> None:
+    assert run.strip() == strip

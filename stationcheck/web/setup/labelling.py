@@ -167,13 +167,15 @@ class LabelService:
         body = _body(request)
         video = self._video(str(body.get("video") or ""))
         clicked = _labels(body.get("clicked"))
+        marks = _runs(body.get("out_of_view", []))
         cache = self._spans.setdefault(video.path, {})
-        result = propagate(video.span, clicked, cache=cache)
+        result = propagate(video.span, clicked, cache=cache, out_of_view=marks)
         return Response.json(
             {
                 "labels": [label.to_json() for label in result.labels],
                 "queued": list(result.queued()),
                 "gaps": [list(gap) for gap in result.gaps],
+                "hidden_runs": [run.to_json() for run in result.hidden_runs],
             }
         )
 
@@ -239,3 +241,18 @@ def _labels(value: Any) -> list[FrameLabel]:
         return [FrameLabel.from_json(item) for item in value]
     except (ValueError, TypeError) as exc:
         raise WebError(400, f"bad label: {exc}") from exc
+
+
+def _runs(value: Any) -> list[tuple[int, int]]:
+    """The engineer's out-of-view marks: a list of [first, last] frame indices."""
+    if not isinstance(value, list) or len(value) > MAX_LABELS:
+        raise WebError(400, f"send out_of_view as a list of [first, last] (at most {MAX_LABELS})")
+    runs: list[tuple[int, int]] = []
+    for item in value:
+        if not isinstance(item, list) or len(item) != 2:
+            raise WebError(400, f"an out_of_view run is [first, last], got {item!r}")
+        first, last = _whole(item[0], "out_of_view first"), _whole(item[1], "out_of_view last")
+        if first > last:
+            raise WebError(400, f"an out_of_view run ends before it starts: [{first}, {last}]")
+        runs.append((first, last))
+    return runs

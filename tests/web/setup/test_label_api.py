@@ -55,6 +55,29 @@ def test_frames_guesses_and_refusals(setup_server: ServerFactory, workspace: Pat
     assert status == 400 and "past the video's end" in out["error"]
     status, out = client.call("POST", "/api/label/train", {})
     assert status == 409 and "no labels saved yet" in out["error"]
+    for marks, words in (
+        ([[5, 3]], "ends before it starts"),
+        ([[1, 2, 3]], "is [first, last]"),
+        ([[-1, 2]], "must be a frame index"),
+        ("1-2", "list of [first, last]"),
+    ):
+        status, out = client.call("POST", "/api/label/propagate", {
+            "video": video, "clicked": [], "out_of_view": marks})
+        assert status == 400 and words in out["error"], out
+    # two "not visible" clicks (the sample's tool is out of view there) and a mark between
+    hidden = [{"frame_index": i, "tip": None, "rear": None, "source": "clicked"}
+              for i in (2905, 2915)]
+    status, out = client.call("POST", "/api/label/propagate", {"video": video, "clicked": hidden})
+    assert status == 200 and out["labels"] == [] and out["queued"] == []
+    (run,) = out["hidden_runs"]
+    assert (run["first"], run["last"], run["hidden_before"], run["hidden_after"]) == (
+        2906, 2914, True, True)
+    assert run["strip"] == list(range(2906, 2915))
+    status, out = client.call("POST", "/api/label/propagate", {
+        "video": video, "clicked": hidden, "out_of_view": [[2906, 2914]]})
+    assert status == 200 and out["hidden_runs"] == []
+    assert [(l["frame_index"], l["tip"], l["source"]) for l in out["labels"]] == [
+        (i, None, "propagated") for i in range(2906, 2915)]
 
 
 def test_a_new_config_is_saved_before_labels(setup_server: ServerFactory, workspace: Path) -> None:

@@ -1,7 +1,9 @@
 """The Label tab in a real browser (Debian's chromium, headless): open a clip of the demo
 renderer's video, click tip and rear on 5 frames (one of them zoomed in), propagate, mark one
 frame "not visible", save; the dataset loads with pycocotools (the COCO reference API) and the
-clicked points match the renderer's truth within 2 px. The Train button runs a stand-in child
+clicked points match the renderer's truth within 2 px. Then two more "not visible" frames and
+the strips beside them: the runs marked out of view are stored as tool-absent frames, and the
+renderer's truth agrees. The Train button runs a stand-in child
 (the product runs ``stationcheck train``) and its Cancel ends it."""
 
 from __future__ import annotations
@@ -29,6 +31,7 @@ CLIP_FIRST = 2840  # the tool is in view until sample frame 2898, then out of vi
 CLIP_FRAMES = 80
 CLICKED = (0, 12, 25, 38, 50)
 NOT_VISIBLE = 70
+NOT_VISIBLE_TOO = 78
 Truth = dict[int, tuple[tuple[float, float], tuple[float, float], bool]]
 
 
@@ -182,6 +185,42 @@ def test_label_five_frames_propagate_hide_one_and_save(
         picture = dataset.parent / "images" / image["file_name"]
         assert picture.is_file(), picture
     assert np.median(errors) <= 3.0, errors
+
+    # a second "not visible" frame: the run between the two is looked over in its strip
+    _go(page, NOT_VISIBLE_TOO)
+    page.keyboard.press("n")
+    page.keyboard.press("p")
+    page.wait_for_selector("#label-note:has-text('frames propagated from 7 clicked')")
+    _go(page, NOT_VISIBLE_TOO)
+    page.wait_for_selector("#label-hidden-strip figure[data-frame='77']")
+    page.keyboard.press("v")  # no tool in any of 71..77
+    page.wait_for_selector("#label-note:has-text('7 marked out of view')")
+    # the run before frame 70: mark from a picture that shows no tool up to 70
+    _go(page, NOT_VISIBLE - 1)
+    strip = [
+        int(f) for f in page.locator("#label-hidden-strip figure").evaluate_all(
+            "(cells) => cells.map((c) => c.dataset.frame)"
+        )
+    ]
+    assert strip and max(strip) == NOT_VISIBLE - 1
+    start = min(i for i in strip if not truth[i][2] and i >= 60)
+    page.click(f"#label-hidden-strip figure[data-frame='{start}']")
+    marked = 7 + NOT_VISIBLE - start
+    page.wait_for_selector(f"#label-note:has-text('{marked} marked out of view')")
+    page.click("#label-save")
+    page.wait_for_selector("#label-note:has-text('saved')")
+    coco = COCO(str(dataset))
+    absent = {
+        image["frame_index"]: image
+        for image in coco.dataset["images"]
+        if image["tool_visible"] is False
+    }
+    expected = {NOT_VISIBLE, NOT_VISIBLE_TOO, *range(71, 78), *range(start, NOT_VISIBLE)}
+    assert set(absent) == expected
+    assert all(not truth[i][2] for i in absent)  # the renderer's truth: no tip in view
+    assert {absent[i]["label_source"] for i in range(71, 78)} == {"propagated"}
+    assert absent[NOT_VISIBLE_TOO]["label_source"] == "clicked"
+    assert all(coco.getAnnIds(imgIds=[image["id"]]) == [] for image in absent.values())
 
 
 def test_train_button_shows_progress_and_cancel_ends_the_child(

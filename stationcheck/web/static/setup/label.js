@@ -13,13 +13,15 @@ export const KEYS = [
   ["click", "tip, then rear"], ["Enter / Space", "confirm the shown points"],
   ["N", "tool not visible"], ["\u2192 / D", "next frame"], ["\u2190 / A", "previous frame"],
   ["Z", "zoom in / out at the cursor (or the wheel)"], ["X", "clear this frame's clicks"],
-  ["P", "propagate"],
+  ["P", "propagate"], ["V", "the whole run in the out-of-view strip shows no tool"],
 ];
 
 const L = {
   video: "", info: null, order: [], pos: 0, note: null,
   clicked: new Map(),      // frame -> { tip, rear } (tip null: not visible)
-  propagated: new Map(),   // frame -> { tip, rear }
+  propagated: new Map(),   // frame -> { tip, rear } (tip null: inside a run marked out of view)
+  outOfView: [],           // [first, last] runs the engineer marked: the tool stays out of view
+  hiddenRuns: [],          // unlabelled runs beside "not visible" clicks, with their strips
   guesses: new Map(),      // frame -> { tip, rear, score, model }
   draft: [],               // points clicked on the current frame so far
   view: null, cursor: null, training: null, busy: false,
@@ -39,7 +41,8 @@ const legend = el("div", { id: "label-legend" },
   el("span", { class: "propagated" }, "\u25cb propagated"),
   el("span", { class: "guess" }, "\u25cc model guess (not a label until confirmed)"),
   el("span", { class: "keys" }, KEYS.map(([k, w]) => el("span", {}, el("kbd", {}, k), ` ${w}`))));
-box.append(el("div", { id: "label-head" }), svg, legend, bar, strip);
+const hiddenStrip = el("div", { id: "label-hidden-strip", hidden: true });
+box.append(el("div", { id: "label-head" }), svg, legend, bar, strip, hiddenStrip);
 
 function svgEl(tag, attrs) {
   const node = document.createElementNS(NS, tag);
@@ -113,7 +116,8 @@ function drawFrame() {
   drawPoints(marks, shown(index), scale);
   const label = shown(index);
   const state = L.clicked.has(index) ? (L.clicked.get(index).tip ? "clicked" : "clicked: tool not visible")
-    : L.propagated.has(index) ? "propagated" : L.guesses.has(index)
+    : L.propagated.has(index) ? (L.propagated.get(index).tip ? "propagated" : "marked out of view")
+      : L.guesses.has(index)
       ? `model guess (score ${L.guesses.get(index).score}), press Enter to confirm` : "no label";
   document.getElementById("label-head").replaceChildren(
     el("b", {}, `frame ${index}`), ` at ${(index / L.info.fps).toFixed(2)} s \u00b7 `,
@@ -122,6 +126,7 @@ function drawFrame() {
     ` \u00b7 ${L.pos + 1} of ${L.order.length} in the queue`);
   drawBar();
   drawStrip();
+  drawHiddenStrip();
 }
 
 function drawBar() {
@@ -129,7 +134,7 @@ function drawBar() {
   const cells = [];
   const mark = (index, cls) => cells.push(el("i", { class: cls,
     style: `left:${(100 * index / n).toFixed(3)}%` }));
-  for (const index of L.propagated.keys()) mark(index, "propagated");
+  for (const [index, label] of L.propagated) mark(index, label.tip ? "propagated" : "marked-out");
   for (const [index, label] of L.clicked) mark(index, label.tip ? "clicked" : "hidden-tool");
   mark(current(), "here");
   bar.replaceChildren(...cells);
@@ -137,7 +142,7 @@ function drawBar() {
 
 function drawStrip() {
   const here = current();
-  const near = [...L.propagated.keys()].sort((a, b) => Math.abs(a - here) - Math.abs(b - here))
+  const near = [...L.propagated.keys()].filter((index) => L.propagated.get(index).tip).sort((a, b) => Math.abs(a - here) - Math.abs(b - here))
     .slice(0, REVIEW_COUNT).sort((a, b) => a - b);
   strip.replaceChildren(...near.map((index) => {
     const label = L.propagated.get(index);
@@ -151,6 +156,54 @@ function drawStrip() {
     cell.addEventListener("click", () => goTo(index));
     return cell;
   }));
+}
+
+// The unlabelled run beside a "not visible" frame nearest the current frame, as a strip: the
+// engineer looks it over and marks where the tool stays out of view (flow has nothing to follow).
+function nearestHiddenRun() {
+  const here = current();
+  const away = (run) => (here < run.first ? run.first - here : here > run.last ? here - run.last : 0);
+  return [...L.hiddenRuns].sort((a, b) => away(a) - away(b))[0] || null;
+}
+
+function markOutOfView(first, last) {
+  L.outOfView = [...L.outOfView, [first, last]];
+  runPropagate();
+}
+
+function markFrom(run, index) {
+  // from the picked frame to the "not visible" click beside the run (the nearer one if both)
+  const toEnd = run.hidden_after && (!run.hidden_before || index - run.first > run.last - index);
+  if (toEnd) markOutOfView(index, run.last);
+  else markOutOfView(run.first, index);
+}
+
+function drawHiddenStrip() {
+  const run = nearestHiddenRun();
+  hiddenStrip.hidden = !run;
+  if (!run) { hiddenStrip.replaceChildren(); return; }
+  const beside = [run.hidden_before ? run.first - 1 : null, run.hidden_after ? run.last + 1 : null]
+    .filter((i) => i !== null).join(" and ");
+  const all = el("button", { id: "label-hidden-all" }, "No tool in any of them (V)");
+  all.addEventListener("click", () => markOutOfView(run.first, run.last));
+  const cells = run.strip.map((index) => {
+    const thumb = document.createElementNS(NS, "svg");
+    thumb.setAttribute("viewBox", `0 0 ${L.info.width_px} ${L.info.height_px}`);
+    thumb.append(svgEl("image", { href: frameUrl(index), width: L.info.width_px,
+                                  height: L.info.height_px }));
+    const cell = el("figure", { "data-frame": index,
+      title: `frame ${index}: click to mark out of view from here to the "not visible" frame; `
+        + "double-click to open it" }, thumb, el("figcaption", {}, `${index}`));
+    cell.addEventListener("click", () => markFrom(run, index));
+    cell.addEventListener("dblclick", () => goTo(index));
+    return cell;
+  });
+  hiddenStrip.replaceChildren(
+    el("p", { class: "note" }, `Frames ${run.first}\u2013${run.last} lie beside the "not visible" `
+      + `frame ${beside}; flow cannot follow a tool that is not there. Look them over: click the `
+      + "last picture that still shows no tool to mark the frames up to the \"not visible\" one, "
+      + "or, if none shows the tool, ", all, `. ${L.hiddenRuns.length} such run(s) left.`),
+    el("div", { class: "strip" }, ...cells));
 }
 
 // ---- actions ----
@@ -216,14 +269,18 @@ async function runPropagate() {
   render();
   try {
     const out = await api("POST", "/api/label/propagate", { video: L.info.video,
-      clicked: labelList(L.clicked, "clicked") });
+      clicked: labelList(L.clicked, "clicked"), out_of_view: L.outOfView });
     L.propagated = new Map(out.labels.map((l) => [l.frame_index, { tip: l.tip, rear: l.rear }]));
+    L.hiddenRuns = out.hidden_runs;
+    const marked = out.labels.filter((l) => !l.tip).length;
     const queued = out.queued.filter((i) => !L.clicked.has(i));
     L.order = [...new Set([...L.order, ...queued])].sort((a, b) => a - b);
     const visible = [...L.clicked.values()].filter((l) => l.tip).length;
-    L.note = { text: `${out.labels.length} frames propagated from ${L.clicked.size} clicked `
-      + `(${visible} with the tool); ${queued.length} frame(s) where the flow check failed are `
-      + "queued for a click", ok: true };
+    L.note = { text: `${out.labels.length - marked} frames propagated from ${L.clicked.size} `
+      + `clicked (${visible} with the tool), ${marked} marked out of view; ${queued.length} `
+      + "frame(s) where the flow check failed are queued for a click"
+      + (out.hidden_runs.length ? `; ${out.hidden_runs.length} run(s) beside "not visible" `
+        + "frames to look over (strip below the picture)" : ""), ok: true };
     // next: the middle of the longest unlabelled run (the server lists those first)
     if (queued.length) { L.pos = L.order.indexOf(queued[0]); L.draft = []; loadGuess(current()); }
   } catch (err) {
@@ -246,6 +303,18 @@ async function save() {
   render();
 }
 
+// The marks behind stored "not visible" propagated labels: their runs of consecutive frames.
+function storedMarks(stored) {
+  const frames = stored.filter((l) => l.source !== "clicked" && !l.tip).map((l) => l.frame_index)
+    .sort((a, b) => a - b);
+  const runs = [];
+  for (const index of frames) {
+    const last = runs[runs.length - 1];
+    if (last && last[1] === index - 1) last[1] = index; else runs.push([index, index]);
+  }
+  return runs;
+}
+
 async function openVideo() {
   L.note = { text: "reading the video\u2026", ok: true };
   render();
@@ -255,10 +324,12 @@ async function openVideo() {
     L.clicked = new Map();
     L.propagated = new Map();
     L.guesses = new Map();
+    L.hiddenRuns = [];
     for (const label of info.stored) {
       (label.source === "clicked" ? L.clicked : L.propagated).set(label.frame_index,
         { tip: label.tip, rear: label.rear });
     }
+    L.outOfView = storedMarks(info.stored);
     L.order = [...new Set([...info.proposals, ...L.clicked.keys()])].sort((a, b) => a - b);
     L.pos = 0;
     L.draft = [];
@@ -366,7 +437,8 @@ export function labelPanel() {
     L.info ? el("div", { class: "fields" }, el("label", {}, "go to frame"), jump) : null,
     note,
     L.info ? el("p", { class: "note", id: "label-counts" }, `${L.clicked.size} clicked (${visible} `
-      + `with the tool, ${L.clicked.size - visible} not visible), ${L.propagated.size} propagated. `
+      + `with the tool, ${L.clicked.size - visible} not visible), ${L.propagated.size} propagated `
+      + `(${[...L.propagated.values()].filter((l) => !l.tip).length} marked out of view). `
       + `Stored in ${L.info.folder || "(save the config first)"}`) : null,
     el("h2", {}, "Train"),
     el("p", { class: "note" }, "Fine-tunes the model on the saved labels (a few minutes on this "
@@ -387,6 +459,7 @@ export function labelKey(evt) {
     Enter: confirm, " ": confirm, n: () => setClicked({ tip: null, rear: null }),
     ArrowRight: () => step(1), d: () => step(1), ArrowLeft: () => step(-1), a: () => step(-1),
     x: () => { L.clicked.delete(current()); L.draft = []; render(); drawFrame(); },
+    v: () => { const run = nearestHiddenRun(); if (run) markOutOfView(run.first, run.last); },
     z: () => { if (L.view.w < L.info.width_px) fit(); else zoomAt(ZOOM_STEP, L.cursor); drawFrame(); },
     p: runPropagate, "0": () => { fit(); drawFrame(); },
   };
