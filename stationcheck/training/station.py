@@ -56,19 +56,33 @@ CALIBRATION_FRAMES = 400
 MOTION_FRAMES = 400
 
 
-class LabelSource:
-    """Frames of the station's labels, read from their PNG files when drawn."""
+# A station's labels may hold many frames with the tool out of view (whole runs are marked at
+# once); they are drawn at most this often, so most draws teach where the tool is. The renderer
+# frames in the mix add more tool-free benches.
+MAX_ABSENT_SHARE = 0.2
 
-    def __init__(self, labels: Sequence[StationLabel]) -> None:
+
+class LabelSource:
+    """Frames of the station's labels, read from their PNG files when drawn: tool-absent ones
+    at their share of the labels, but at most ``max_absent_share`` of the draws."""
+
+    def __init__(
+        self, labels: Sequence[StationLabel], max_absent_share: float = MAX_ABSENT_SHARE
+    ) -> None:
         if not labels:
             raise InputFileError("no labelled frames to draw from")
         self._labels = tuple(labels)
+        self._seen = tuple(label for label in labels if label.tool_visible)
+        self._absent = tuple(label for label in labels if not label.tool_visible)
+        share = len(self._absent) / len(self._labels)
+        self.absent_share = share if not self._seen else min(share, max_absent_share)
 
     def __len__(self) -> int:
         return len(self._labels)
 
     def sample(self, rng: np.random.Generator) -> tuple[ImageU8, FloatArray]:
-        item = self._labels[int(rng.integers(len(self._labels)))]
+        pool = self._absent if rng.random() < self.absent_share else self._seen
+        item = pool[int(rng.integers(len(pool)))]
         image = cv2.imread(str(item.image), cv2.IMREAD_COLOR)
         if image is None:
             raise InputFileError(f"cannot read labelled image {item.image}")

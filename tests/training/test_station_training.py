@@ -8,6 +8,7 @@ import json
 import shutil
 from pathlib import Path
 
+import cv2
 import numpy as np
 import pytest
 
@@ -17,6 +18,8 @@ from stationcheck.cli import main
 from stationcheck.config import load_config
 from stationcheck.config.model_proof import station_model_proof
 from stationcheck.demo_station.files import DEMO_CONFIG
+from stationcheck.labels.station_labels import StationLabel
+from stationcheck.training.station import LabelSource
 from tests.evaluation.station_label_fixture import FixtureFrame, write_labels
 from tests.training.conftest import toy_sample
 
@@ -86,3 +89,29 @@ def test_no_labels_ends_with_one_error_line(
     assert code == 3
     assert set(lines[-1]) == {"error"} and "no labelled frames yet" in str(lines[-1]["error"])
     assert "bundled" in config.read_text(encoding="utf-8")
+
+
+def _labels(tmp_path: Path, seen: int, absent: int) -> list[StationLabel]:
+    image = tmp_path / "frame.png"
+    cv2.imwrite(str(image), np.zeros((48, 64, 3), np.uint8))
+    out = []
+    for index in range(seen + absent):
+        points = np.zeros((2, 3))
+        if index < seen:
+            points[0] = (10.0, 20.0, 2.0)
+        out.append(StationLabel(image, "v.mp4", index, index / 30, points, ""))
+    return out
+
+
+@pytest.mark.parametrize(
+    ("seen", "absent", "share"), [(100, 900, 0.2), (900, 100, 0.1), (0, 50, 1.0), (50, 0, 0.0)]
+)
+def test_tool_absent_labels_are_drawn_at_most_a_fifth_of_the_time(
+    tmp_path: Path, seen: int, absent: int, share: float
+) -> None:
+    source = LabelSource(_labels(tmp_path, seen, absent))
+    assert source.absent_share == pytest.approx(share)
+    rng = np.random.default_rng(0)
+    drawn = [source.sample(rng)[1][0, 2] == 0 for _ in range(2000)]
+    # binomial, n = 2000, seeded: within 0.05 of the share (5 standard deviations at p = 0.2)
+    assert abs(float(np.mean(drawn)) - share) <= 0.05
