@@ -73,6 +73,8 @@ class ReferenceSequencer:
         self.zone_entry = 0
         self.last_seen = 0
         self.lost = False
+        self.lost_alarmed = False
+        self.seen_once = False
         self.enabled = False
         self.enabled_zone = ""
         self.running = False
@@ -189,6 +191,15 @@ class ReferenceSequencer:
             return
         if unit.step is not None:
             STEP_DECISIONS[unit.step.kind].observe(self, unit, unit.step, row)
+        self._alarm_if_lost()
+
+    def _alarm_if_lost(self) -> None:
+        """As the station: out of view is an alarm only while a fastener is due (picking a
+        part or acknowledging a check may take the tool out of the picture), once per loss,
+        after the frame's step decisions."""
+        if self.lost and self.seen_once and not self.lost_alarmed and self._fastening():
+            self.lost_alarmed = True
+            self.emit("alarm", alarm="tool_lost", last_seen_frame=self.last_seen)
 
     def _track_zone(self, row: TruthRow) -> None:
         point = (row.tip_ref_x_px, row.tip_ref_y_px)
@@ -198,14 +209,19 @@ class ReferenceSequencer:
             self.lost = False
             if not self.zone or not self._holds(self.zone, point):
                 new = zone_of(point, self.plan.zones)
+            self.seen_once = True
+            self.lost_alarmed = False
         elif not self.lost and self.frame - self.last_seen > self.grace_frames:
             self.lost = True
-            self.emit("alarm", alarm="tool_lost", last_seen_frame=self.last_seen)
             new = ""
         if new != self.zone:
             self.zone, self.zone_entry = new, self.frame
             if self.result_zone and new != self.result_zone:
                 self.result_zone = ""
+
+    def _fastening(self) -> bool:
+        unit = self.unit
+        return unit is not None and unit.step is not None and unit.step.kind == "fasten"
 
     def _holds(self, zone_id: str, point: tuple[float, float]) -> bool:
         polygon = self.plan.zone(zone_id).polygon_px

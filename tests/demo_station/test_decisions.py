@@ -11,6 +11,7 @@ from stationcheck.core.plan import (
     CheckStep,
     ConfirmStep,
     FastenStep,
+    PickStep,
     StationPlan,
     Thresholds,
     ZoneSpec,
@@ -203,3 +204,26 @@ def test_a_tip_on_the_pictures_edge_band_counts_as_gone(x_px: float, lost: bool)
     out = expected_decisions(plan(), truth, [started()], FPS, (640, 480))
     alarms = [d for d in kinds(out, "alarm") if d["alarm"] == "tool_lost"]
     assert [(a["frame"], a["last_seen_frame"]) for a in alarms] == ([(30, 20)] if lost else [])
+
+
+def test_out_of_view_while_picking_is_an_alarm_only_once_a_fastener_is_due() -> None:
+    """As the station's core: tool_lost is raised in the fasten phase only (the operator may
+    lay the tool aside to pick a part)."""
+    from dataclasses import replace
+
+    bins = StationPlan(
+        zones=(
+            ZoneSpec("screw_1", "fastener", SQUARE_1),
+            ZoneSpec("bin_gasket", "bin", ((400.0, 50.0), (450.0, 50.0), (450.0, 90.0), (400.0, 90.0))),  # noqa: E501
+        ),
+        steps=(PickStep("pick", "bin_gasket", 300.0), FastenStep("fasten", ("screw_1",))),
+        thresholds=Thresholds(dwell_ms=200.0, lost_track_grace_ms=300.0, hysteresis_px=4.0),
+    )
+    truth = rows(90, lambda f: (*AWAY, 2) if f <= 10 else (0.0, 0.0, 0))
+    truth = [replace(r, hand_in_bin_gasket=int(40 <= r.frame_index < 60)) for r in truth]
+    out = expected_decisions(bins, truth, [started()], FPS)
+    (picked,) = kinds(out, "step_done")
+    lost = [d for d in kinds(out, "alarm") if d["alarm"] == "tool_lost"]
+    # lost at frame 21 (the grace after frame 10) while picking: no alarm until the pick is done
+    assert [(d["frame"], d["last_seen_frame"]) for d in lost] == [(picked["frame"], 10)]
+    assert picked["frame"] > 21
