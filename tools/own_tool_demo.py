@@ -127,6 +127,9 @@ def main() -> int:
     parser.add_argument(
         "--minutes", type=float, default=None, help="training budget (default: train's own)"
     )
+    parser.add_argument(
+        "--steps", type=int, default=None, help="training steps (default: train's own)"
+    )
     parser.add_argument("--clicks", type=int, default=60)
     parser.add_argument(
         "--every",
@@ -201,6 +204,7 @@ def main() -> int:
         str(config),
         "--progress-json",
         *(["--minutes", str(args.minutes)] if args.minutes is not None else []),
+        *(["--steps", str(args.steps)] if args.steps is not None else []),
     ]
     result = subprocess.run(command, capture_output=True, text=True, check=False)
     lines = [json.loads(line) for line in result.stdout.splitlines() if line.startswith("{")]
