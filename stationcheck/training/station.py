@@ -60,6 +60,32 @@ MOTION_FRAMES = 400
 # once); they are drawn at most this often, so most draws teach where the tool is. The renderer
 # frames in the mix add more tool-free benches.
 MAX_ABSENT_SHARE = 0.2
+# Fast moves are where a fine-tuned model errs most and what labels have fewest of (flow loses a
+# blurred tool), so a frame whose tip moved fast since the neighbouring labelled frame is drawn
+# more often: weight 1 + speed / FAST_PX_PER_FRAME, at most MAX_FAST_WEIGHT.
+FAST_PX_PER_FRAME = 10.0
+MAX_FAST_WEIGHT = 4.0
+
+
+def tip_speeds(labels: Sequence[StationLabel]) -> list[float]:
+    """Each label's tip speed in px per frame, from the nearest labelled frame of the same video
+    within 2 frames before or after it with the tip in view (0 when there is none)."""
+    tips = {
+        (label.video, label.frame_index): label.keypoints[0, :2]
+        for label in labels
+        if label.tool_visible
+    }
+    speeds = []
+    for label in labels:
+        speed = 0.0
+        if label.tool_visible:
+            for step in (1, -1, 2, -2):
+                other = tips.get((label.video, label.frame_index + step))
+                if other is not None:
+                    speed = float(np.hypot(*(label.keypoints[0, :2] - other))) / abs(step)
+                    break
+        speeds.append(speed)
+    return speeds
 
 
 class LabelSource:
@@ -76,13 +102,19 @@ class LabelSource:
         self._absent = tuple(label for label in labels if not label.tool_visible)
         share = len(self._absent) / len(self._labels)
         self.absent_share = share if not self._seen else min(share, max_absent_share)
+        weights = np.array(
+            [min(MAX_FAST_WEIGHT, 1.0 + v / FAST_PX_PER_FRAME) for v in tip_speeds(self._seen)]
+        )
+        self._seen_p = weights / weights.sum() if len(weights) else weights
 
     def __len__(self) -> int:
         return len(self._labels)
 
     def sample(self, rng: np.random.Generator) -> tuple[ImageU8, FloatArray]:
-        pool = self._absent if rng.random() < self.absent_share else self._seen
-        item = pool[int(rng.integers(len(pool)))]
+        if rng.random() < self.absent_share:
+            item = self._absent[int(rng.integers(len(self._absent)))]
+        else:
+            item = self._seen[int(rng.choice(len(self._seen), p=self._seen_p))]
         image = cv2.imread(str(item.image), cv2.IMREAD_COLOR)
         if image is None:
             raise InputFileError(f"cannot read labelled image {item.image}")

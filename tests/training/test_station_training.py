@@ -115,3 +115,22 @@ def test_tool_absent_labels_are_drawn_at_most_a_fifth_of_the_time(
     drawn = [source.sample(rng)[1][0, 2] == 0 for _ in range(2000)]
     # binomial, n = 2000, seeded: within 0.05 of the share (5 standard deviations at p = 0.2)
     assert abs(float(np.mean(drawn)) - share) <= 0.05
+
+
+def test_fast_moving_tips_are_drawn_more_often(tmp_path: Path) -> None:
+    from stationcheck.training.station import tip_speeds
+
+    labels = _labels(tmp_path, 6, 0)
+    # frames 0..2 still at (10, 20); frame 3 at 40 px from frame 2; frames 4, 5 a video apart
+    for index, x in ((3, 50.0), (4, 90.0)):
+        labels[index].keypoints[0, 0] = x
+    labels[5] = StationLabel(labels[5].image, "w.mp4", 5, 5 / 30, labels[5].keypoints, "")
+    # each from its next labelled frame if there is one (frame 2 from frame 3), else its previous
+    assert tip_speeds(labels) == [0.0, 0.0, 40.0, 40.0, 40.0, 0.0]
+    source = LabelSource(labels)
+    rng = np.random.default_rng(1)
+    drawn = [int(source.sample(rng)[1][0, 0]) for _ in range(3000)]
+    # weights 1, 1, 4, 4, 4, 1 (1 + 40 / 10, capped at 4) of 15: x = 10 on frames 0, 1 and 2
+    assert abs(drawn.count(10) / 3000 - 6 / 15) <= 0.04
+    assert abs(drawn.count(50) / 3000 - 4 / 15) <= 0.04
+    assert abs(drawn.count(90) / 3000 - 4 / 15) <= 0.04
