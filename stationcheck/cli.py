@@ -52,8 +52,10 @@ SAFETY_NOTE = (
 PRIVACY_NOTE = (
     "The camera films the people who work here: tell staff and follow local workplace and "
     "data-protection rules. The live screen is seen on this PC only unless it listens on the "
-    "network (then by anyone there with its address and access token). No video is stored; "
-    "evidence images (off by default) are kept for the config's log.retention_days (90 unless set)."
+    "network (then by anyone there with its address and access token). No video is stored while "
+    "it runs (a video is written only by 'stationcheck record', to label the station's tool: "
+    "delete it when the model is trained); evidence images (off by default) are kept for the "
+    "config's log.retention_days (90 unless set)."
 )
 
 

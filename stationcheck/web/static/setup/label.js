@@ -9,6 +9,7 @@ const NS = "http://www.w3.org/2000/svg";
 const MARGIN = 0.12;  // the view shows this much around the picture: a rear may lie outside
 const ZOOM_STEP = 4;
 const REVIEW_COUNT = 12;
+const GUESS_SCORE = 0.5;  // a weaker guess is not drawn: the model sees no tool there
 export const KEYS = [
   ["click", "tip, then rear"], ["Enter / Space", "confirm the shown points"],
   ["N", "tool not visible"], ["\u2192 / D", "next frame"], ["\u2190 / A", "previous frame"],
@@ -79,7 +80,8 @@ function shown(index) {
   if (index === current() && L.draft.length) return { kind: "draft", tip: L.draft[0], rear: L.draft[1] };
   if (L.clicked.has(index)) return { kind: "clicked", ...L.clicked.get(index) };
   if (L.propagated.has(index)) return { kind: "propagated", ...L.propagated.get(index) };
-  if (L.guesses.has(index)) return { kind: "guess", ...L.guesses.get(index) };
+  const guess = L.guesses.get(index);
+  if (guess && guess.score >= GUESS_SCORE) return { kind: "guess", ...guess };
   return null;
 }
 
@@ -117,8 +119,10 @@ function drawFrame() {
   const label = shown(index);
   const state = L.clicked.has(index) ? (L.clicked.get(index).tip ? "clicked" : "clicked: tool not visible")
     : L.propagated.has(index) ? (L.propagated.get(index).tip ? "propagated" : "marked out of view")
-      : L.guesses.has(index)
-      ? `model guess (score ${L.guesses.get(index).score}), press Enter to confirm` : "no label";
+      : L.guesses.has(index) ? (L.guesses.get(index).score >= GUESS_SCORE
+        ? `model guess (score ${L.guesses.get(index).score}), press Enter to confirm`
+        : `the model sees no tool here (score ${L.guesses.get(index).score}): N if it is out `
+          + "of view, else click tip and rear") : "no label";
   document.getElementById("label-head").replaceChildren(
     el("b", {}, `frame ${index}`), ` at ${(index / L.info.fps).toFixed(2)} s \u00b7 `,
     el("span", { id: "label-state" }, label && label.kind === "draft"
