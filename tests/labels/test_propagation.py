@@ -74,15 +74,23 @@ def test_propagated_labels_follow_the_rendered_tip(
     assert all(l.source == "propagated" for l in result.labels)
 
 
-def test_a_not_visible_click_stops_propagation(truth: Truth) -> None:
+@pytest.fixture(scope="module")
+def around_hidden() -> dict[int, npt.NDArray[np.uint8]]:
+    """Grey frames from 40 before the tool goes out of view to 5 after it is back."""
     video = VideoFrames(VIDEO)
     try:
-        frames = {
+        return {
             i: cv2.cvtColor(image, cv2.COLOR_BGR2GRAY)
             for i, image in video.span(HIDDEN_FIRST - 40, HIDDEN_LAST + 5)
         }
     finally:
         video.close()
+
+
+def test_a_not_visible_click_stops_propagation(
+    truth: Truth, around_hidden: dict[int, npt.NDArray[np.uint8]]
+) -> None:
+    frames = around_hidden
     rng = np.random.default_rng(3)
     visible = truth.click(HIDDEN_FIRST - 40, rng)
     hidden_a = FrameLabel(HIDDEN_FIRST + 10, None, None, "clicked")
@@ -139,15 +147,10 @@ def test_one_direction_alone_is_trusted_only_near_its_click(
         assert np.hypot(label.tip[0] - tip[0], label.tip[1] - tip[1]) <= 5.0
 
 
-def test_marked_runs_beside_not_visible_clicks_become_not_visible_labels(truth: Truth) -> None:
-    video = VideoFrames(VIDEO)
-    try:
-        frames = {
-            i: cv2.cvtColor(image, cv2.COLOR_BGR2GRAY)
-            for i, image in video.span(HIDDEN_FIRST - 40, HIDDEN_LAST + 5)
-        }
-    finally:
-        video.close()
+def test_marked_runs_beside_not_visible_clicks_become_not_visible_labels(
+    truth: Truth, around_hidden: dict[int, npt.NDArray[np.uint8]]
+) -> None:
+    frames = around_hidden
     rng = np.random.default_rng(3)
     visible = truth.click(HIDDEN_FIRST - 40, rng)
     hidden_a = FrameLabel(HIDDEN_FIRST + 10, None, None, "clicked")
