@@ -149,14 +149,26 @@ def motion_blur_tool(
         return image
     length = rng.uniform(*settings.motion_blur_px)
     kernel = trailing_kernel(length, rng.uniform(0, 2 * np.pi))
-    smeared = _u8(cv2.filter2D(image, -1, kernel, borderType=cv2.BORDER_REFLECT_101))
     mask = np.zeros(image.shape[:2], np.float32)
     points = [tuple(int(v) for v in p) for p in labelled]
     width = int(40 + 2 * length)
     cv2.line(mask, points[0], points[-1], 1.0, width)
     cv2.circle(mask, points[0], width // 2, 1.0, -1)
-    soft = np.asarray(cv2.GaussianBlur(mask, (0, 0), 8.0), dtype=np.float32)[..., None]
-    out = image.astype(np.float32) * (1.0 - soft) + smeared.astype(np.float32) * soft
+    soft = np.asarray(cv2.GaussianBlur(mask, (0, 0), 8.0), dtype=np.float32)
+    # Only where the mask reaches is the smear used: filter that window (plus the kernel's
+    # reach, so its inside sees the same pixels as a whole-frame filter would), not the frame.
+    rows, cols = np.nonzero(soft > 0.0)
+    if len(rows) == 0:
+        return image
+    reach = kernel.shape[0] // 2 + 1
+    height, width_px = image.shape[:2]
+    top, bottom = max(0, rows.min() - reach), min(height, rows.max() + 1 + reach)
+    left, right = max(0, cols.min() - reach), min(width_px, cols.max() + 1 + reach)
+    window = image[top:bottom, left:right]
+    smeared = cv2.filter2D(window, cv2.CV_32F, kernel, borderType=cv2.BORDER_REFLECT_101)
+    weight = soft[top:bottom, left:right, None]
+    out = image.astype(np.float32)
+    out[top:bottom, left:right] = window * (1.0 - weight) + np.rint(smeared) * weight
     return _u8(np.clip(out + 0.5, 0, 255))
 
 

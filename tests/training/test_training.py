@@ -172,3 +172,32 @@ def test_trailing_motion_blur_keeps_the_label_at_the_leading_end() -> None:
     ys, xs = np.nonzero(streak > 1e-3)
     assert set(ys) <= {29, 30, 31}
     assert xs.max() == 30 and xs.min() == 20  # smeared behind (towards -x), not ahead
+
+
+@pytest.mark.parametrize("seed", [0, 1, 2, 3])
+def test_tool_motion_blur_equals_a_whole_frame_filter_under_its_mask(seed: int) -> None:
+    """The smear is filtered in a window around the tool only; reference: OpenCV's filter2D
+    over the whole frame, blended with the same mask."""
+    import cv2
+
+    from stationcheck.training.augment import AugmentSettings, motion_blur_tool, trailing_kernel
+
+    rng = np.random.default_rng(seed)
+    image = rng.integers(0, 256, (480, 640, 3), dtype=np.uint8)
+    tip = (rng.uniform(0, 640), rng.uniform(0, 480))  # anywhere, the picture's edges included
+    kps = np.array([[*tip, 2.0], [tip[0] + 90.0, tip[1] + 40.0, 2.0]])
+    settings = AugmentSettings()
+    got = motion_blur_tool(np.random.default_rng(seed), image, kps, settings)
+    again = np.random.default_rng(seed)  # the same draws as inside
+    length = again.uniform(*settings.motion_blur_px)
+    kernel = trailing_kernel(length, again.uniform(0, 2 * np.pi))
+    smeared = cv2.filter2D(image, -1, kernel, borderType=cv2.BORDER_REFLECT_101)
+    mask = np.zeros((480, 640), np.float32)
+    width = int(40 + 2 * length)
+    ends = [tuple(int(v) for v in p) for p in kps[:, :2]]
+    cv2.line(mask, ends[0], ends[1], 1.0, width)
+    cv2.circle(mask, ends[0], width // 2, 1.0, -1)
+    soft = cv2.GaussianBlur(mask, (0, 0), 8.0)[..., None]
+    expected = np.clip(image * (1.0 - soft) + smeared * soft + 0.5, 0, 255).astype(np.uint8)
+    assert np.abs(got.astype(int) - expected.astype(int)).max() <= 1
+    assert (got != image).any()
