@@ -15,6 +15,8 @@ Rules (E = error, W = warning):
   its folder, so other commands still work.
 * E a check zone's ``references.yaml`` unreadable, or an image it lists not a file.
 * W a check zone with no ``references.yaml``.
+* W a fastener zone reaching into the reference frame's edge band (4 px, the tracker's): a tip
+  there counts as out of view, so that position could never be enabled.
 """
 
 from __future__ import annotations
@@ -116,7 +118,31 @@ def lint_files(data: dict[str, Any], parts: ConfigParts, base_dir: Path) -> list
     findings: list[Finding] = []
     for ref in referenced_files(data, parts, base_dir):
         findings.extend(_file_findings(ref, base_dir))
+        if ref.what == "reference frame" and ref.path.is_file():
+            findings.extend(_edge_band_findings(parts, ref.path))
     return findings
+
+
+def _edge_band_findings(parts: ConfigParts, reference: Path) -> Iterator[Finding]:
+    import cv2
+
+    from stationcheck.core.tracker import PICTURE_EDGE_BAND_PX, at_picture_edge
+
+    image = cv2.imread(str(reference), cv2.IMREAD_UNCHANGED)
+    if image is None:
+        return  # an unreadable picture is reported where the picture is used
+    size = (int(image.shape[1]), int(image.shape[0]))
+    for zone in parts.zones:
+        if zone.kind != "fastener" or zone.polygon_px is None:
+            continue
+        if any(at_picture_edge(x, y, size, PICTURE_EDGE_BAND_PX) for x, y in zone.polygon_px):
+            yield warning(
+                zone.path,
+                f"fastener zone '{zone.id}' reaches within {PICTURE_EDGE_BAND_PX:g} px of the "
+                f"picture's edge ({size[0]} x {size[1]}): a tip there counts as out of view "
+                "(it cannot be told from one just beyond the edge); move the camera so the "
+                "position lies well inside the picture",
+            )
 
 
 def _file_findings(ref: ReferencedFile, base_dir: Path) -> Iterator[Finding]:

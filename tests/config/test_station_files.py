@@ -70,3 +70,24 @@ def test_check_command_fails_on_a_copied_config_without_its_files(
     assert main(["check", str(config)]) == 0  # the video is still missing: a warning
     assert capsys.readouterr().out.splitlines()[-1].endswith(
         "OK with warnings: 0 errors, 1 warning")
+
+
+@pytest.mark.parametrize(
+    ("corner", "warned"),
+    [((2.0, 100.0), True), ((610.0, 100.0), True), ((300.0, 452.0), True), ((4.0, 4.0), False)],
+)
+def test_a_fastener_zone_in_the_pictures_edge_band_is_warned_about(
+    check_changes: Callable[..., CheckResult], tmp_path: Path, corner: tuple[float, float],
+    warned: bool,
+) -> None:
+    import cv2
+    import numpy as np
+
+    cv2.imwrite(str(tmp_path / "ref.png"), np.zeros((480, 640, 3), np.uint8))
+    x, y = corner
+    square = [[x, y], [x + 26, y], [x + 26, y + 26], [x, y + 26]]  # 640 - 1 - 4 = 635 is in
+    result = check_changes([("zones[0].polygon", square)])
+    edge = [f for f in result.findings if "edge" in f.message]
+    assert [(f.severity, f.path_text) for f in edge] == ([("warning", "zones[0]")] if warned else [])
+    if warned:
+        assert "within 4 px of the picture's edge (640 x 480)" in edge[0].message
