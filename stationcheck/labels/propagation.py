@@ -47,6 +47,7 @@ class FlowSettings:
     pyramid_levels: int = 3
     max_round_trip_px: float = 0.7
     max_disagreement_px: float = 2.5
+    max_click_offset_px: float = 3.0  # two clicks' own disagreement that is discounted
     edge_margin_px: float = 3.0
     max_span_frames: int = 900  # longer spans between clicks are not tracked (too much drift)
     max_one_way_frames: int = 15  # a single direction is trusted this far from its click
@@ -225,12 +226,16 @@ def propagate_span(
         return []  # a visible click without its rear: the two directions cannot be checked
     count = len(frames) - 1
     both_ends = forward is not None and backward is not None
+    ends = _click_offsets(forward, backward, settings) if both_ends else None
     labels: list[FrameLabel] = []
     for offset in range(1, count):
         ahead = forward[offset] if forward is not None else None
         behind = backward[offset] if backward is not None else None
         if ahead is not None and behind is not None:
-            gap = np.linalg.norm(ahead - behind, axis=1)
+            apart = ahead - behind
+            if ends is not None:  # less the two clicks' own offset, carried along
+                apart = apart - ((1.0 - offset / count) * ends[0] + offset / count * ends[1])
+            gap = np.linalg.norm(apart, axis=1)
             if gap[0] > settings.max_disagreement_px or gap[1] > 2 * settings.max_disagreement_px:
                 continue
             weight = 1.0 - offset / count  # the forward track is better near the first click
@@ -250,6 +255,29 @@ def propagate_span(
             points = ahead if ahead is not None else behind  # type: ignore[assignment]
         labels.append(_label(first.frame_index + offset, points))
     return labels
+
+
+def _click_offsets(
+    forward: Sequence[Points | None] | None,
+    backward: Sequence[Points | None] | None,
+    settings: FlowSettings,
+) -> tuple[Points, Points] | None:
+    """How far each direction lands from the other direction's click when both crossed the
+    whole span: at the first frame, the first click less the backward track; at the last, the
+    forward track less the last click. Two clicks a person placed are each off by a pixel or
+    so, so the two tracks differ by that much all along even when both follow the tool
+    perfectly; only what changes along the span is drift. None (compare the tracks as they
+    are) when a direction was lost, or the clicks disagree by more than click error explains
+    (``max_click_offset_px``)."""
+    if forward is None or backward is None:
+        return None
+    start_fwd, start_back, end_fwd, end_back = forward[0], backward[0], forward[-1], backward[-1]
+    if start_fwd is None or start_back is None or end_fwd is None or end_back is None:
+        return None
+    start, end = start_fwd - start_back, end_fwd - end_back
+    if max(np.linalg.norm(start[0]), np.linalg.norm(end[0])) > settings.max_click_offset_px:
+        return None
+    return start, end
 
 
 SpanCache = dict[tuple[FrameLabel, FrameLabel], list[FrameLabel]]

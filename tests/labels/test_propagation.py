@@ -187,3 +187,28 @@ def test_a_hidden_runs_strip_always_shows_the_frames_next_to_its_clicks(
     run: HiddenRun, strip: tuple[int, ...]
 ) -> None:
     assert run.strip() == strip
+
+
+def test_two_clicks_a_little_apart_still_label_the_frames_between(
+    grey: dict[int, npt.NDArray[np.uint8]], truth: Truth
+) -> None:
+    """Each click is off by 1.4 px, in opposite directions: the two tracks differ by 2.8 px all
+    along (more than the 2.5 px allowed for drift), but that difference is the clicks' own, so
+    the frames between are labelled, between the two clicks' errors."""
+    first_i, last_i = FIRST + 60, FIRST + 90  # a stretch the flow follows from exact clicks
+
+    def off(index: int, dx: float) -> FrameLabel:
+        tip, rear = truth.tip[index], truth.rear[index]
+        return FrameLabel(index, (tip[0] + dx, tip[1]), (rear[0] + dx, rear[1]), "clicked")
+
+    frames = [grey[i] for i in range(first_i, last_i + 1)]
+    labels = propagate_span(frames, off(first_i, 1.4), off(last_i, -1.4), FlowSettings())
+    assert len(labels) >= 20
+    errors = [
+        np.hypot(l.tip[0] - truth.tip[l.frame_index][0], l.tip[1] - truth.tip[l.frame_index][1])
+        for l in labels
+        if l.tip is not None
+    ]
+    assert max(errors) <= 3.0  # the renderer's truth is the reference
+    strict = FlowSettings(max_click_offset_px=0.0)  # without discounting the clicks' offset
+    assert len(propagate_span(frames, off(first_i, 1.4), off(last_i, -1.4), strict)) < len(labels)
