@@ -122,7 +122,8 @@ def simulate_labelling(
             new_marks += marked
             if to_click is not None and to_click not in clicked:
                 strip_clicks.append(to_click)
-        if new_marks:
+        new_marks = [mark for mark in new_marks if mark not in marks]
+        if new_marks:  # (a mark made before and not taken would be made again: never loop)
             marks += new_marks
             continue
         wanted = [*strip_clicks, *(i for i in result.queued() if i not in clicked)]
