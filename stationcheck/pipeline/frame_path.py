@@ -108,7 +108,11 @@ class FramePath:
         *,
         tracker_settings: TrackerSettings | None = None,
         max_detector_faults: int = DEFAULT_MAX_DETECTOR_FAULTS,
+        picture_size: tuple[int, int] | None = None,
     ) -> None:
+        """``picture_size``: the (width, height) of the camera picture the keypoints are in, for
+        the tracker's edge band; None takes each frame's own image size (a caller that passes
+        stand-in images smaller than the camera's says the real size here)."""
         self.plan = plan
         self.detector = detector
         self.decisions = decisions
@@ -118,6 +122,7 @@ class FramePath:
         self.tracker_state: TrackerState = self.tracker.initial_state()
         self.visit: ZoneVisit = self.zone_map.initial_state()
         self.max_detector_faults = max_detector_faults
+        self.picture_size = picture_size
         self.faults_in_a_row = 0
         self.unusable_in_a_row = 0
         self.last_pose: ToolPose | None = None
@@ -148,7 +153,7 @@ class FramePath:
             keypoints_for_tracker = keypoints
         height, width = frame.image.shape[:2]
         self.tracker_state, pose = self.tracker.update(
-            self.tracker_state, keypoints_for_tracker, (width, height)
+            self.tracker_state, keypoints_for_tracker, self.picture_size or (width, height)
         )
         self.visit, zone_obs = self.zone_map.observe(self.visit, pose, frame_age_ms)
         frozen_ms = self.frozen_image.see(frame, frame.source_t_s)

@@ -18,6 +18,7 @@ from typing import Literal
 from stationcheck.config import load_config
 from stationcheck.core.observations import Observation
 from stationcheck.core.plan import StationPlan
+from stationcheck.errors import InputFileError
 from stationcheck.pipeline.station_inputs import read_station_inputs
 from stationcheck.pipeline.truth_sidecar import TruthTable, load_truth, truth_points
 from stationcheck.vision.table_detector import PointTable
@@ -39,6 +40,7 @@ class Footage:
     keypoints: KeypointChoice
     stale_frame_ms: float
     link_timeout_s: float
+    picture_size: tuple[int, int]  # (width, height) of the video the keypoints are in
 
 
 def load_footage(
@@ -61,7 +63,24 @@ def load_footage(
         keypoints=keypoints,
         stale_frame_ms=plan.thresholds.stale_frame_ms,
         link_timeout_s=link_limits(config).link_timeout_s,
+        picture_size=_picture_size(video),
     )
+
+
+def _picture_size(video: Path) -> tuple[int, int]:
+    import cv2
+
+    capture = cv2.VideoCapture(str(video))
+    try:
+        size = (
+            int(capture.get(cv2.CAP_PROP_FRAME_WIDTH)),
+            int(capture.get(cv2.CAP_PROP_FRAME_HEIGHT)),
+        )
+    finally:
+        capture.release()
+    if min(size) <= 0:
+        raise InputFileError(f"{video}: cannot read the video's picture size")
+    return size
 
 
 def _model_answers(video: Path, config: object) -> PointTable:

@@ -89,7 +89,13 @@ class Soak:
         self.failed: dict[str, tuple[PositionRef, ...]] = {}
         self.decisions = DecisionCore(self.plan, sinks=[self], rework_lookup=self._rework)
         self.judge = TruthJudge(footage.truth, self.plan)
-        self.path = FramePath(self.plan, self.detector, self.decisions, [self.judge])
+        self.path = FramePath(
+            self.plan,
+            self.detector,
+            self.decisions,
+            [self.judge],
+            picture_size=footage.picture_size,  # the stand-in images are smaller
+        )
         noise = np.random.default_rng(seed)
         base = noise.integers(40, 215, (*IMAGE_SIZE, 3)).astype(np.float32)
         self.bank = [
