@@ -27,13 +27,19 @@ DEMO_SAMPLE_FUNCTIONS = (
 # Named mixes of the demo renderer's frames. "randomised": the default above (4 in 10 station
 # frames show another station's tool). "own-tool": 3 in 10 frames more of the demo station with
 # its own tool, so about half of all frames show it, as before tools were randomised; every
-# randomised kind of frame stays in the mix.
+# randomised kind of frame stays in the mix. "mostly-own-tool": about 7 in 10 frames show the
+# station's own tool, for a last, low-rate stage after a randomised one.
 DEMO_MIXES: dict[str, tuple[tuple[str, float], ...]] = {
     "randomised": DEMO_SAMPLE_FUNCTIONS,
     "own-tool": (
         ("render_training_sample", 0.35),
         ("render_station_sample", 0.35),
         ("render_own_station_sample", 0.3),
+    ),
+    "mostly-own-tool": (
+        ("render_training_sample", 0.2),
+        ("render_station_sample", 0.2),
+        ("render_own_station_sample", 0.6),
     ),
 }
 
