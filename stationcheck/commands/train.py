@@ -66,6 +66,15 @@ def register(subparsers: argparse._SubParsersAction) -> None:  # type: ignore[ty
     )
     p.add_argument("--images", type=Path, default=None, help="image directory for --coco")
     p.add_argument(
+        "--demo-mix",
+        choices=("randomised", "own-tool", "mostly-own-tool"),
+        default="randomised",
+        help="demo renderer frames: 'randomised' (random scenes and the demo station, often "
+        "with other tools) or 'own-tool' (as many again of the demo station's own tool, about "
+        "half of all frames) or 'mostly-own-tool' (about 7 in 10 frames, for a last low-rate "
+        "stage) (default: %(default)s)",
+    )
+    p.add_argument(
         "--checkpoint", type=Path, default=None, help="checkpoint file (default: OUT/checkpoint.pt)"
     )
     p.add_argument("--resume", action="store_true", help="continue from the checkpoint")
@@ -128,7 +137,7 @@ def run(args: argparse.Namespace) -> int:
     else:
         from stationcheck.demo_station import training as demo_training
 
-        source, holdout = demo_sources(demo_training)
+        source, holdout = demo_sources(demo_training, args.demo_mix)
         moving_sample = demo_moving_sample(demo_training)
     config = TrainConfig(
         seed=args.seed,

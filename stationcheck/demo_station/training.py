@@ -11,6 +11,8 @@ x = y = 0 then), 1 labelled but hidden (under a hand), 2 visible.
   model sees it at run time (random operators' sleeves and gloves, small camera moves), and
   often as another station would show it: another tool, glove, lamp direction and level,
   camera mounting (zoom, tilt, roll) and resolution.
+- :func:`render_own_station_sample`: the demo station with its own tool only (the mountings
+  and operators still vary), to weigh the station's own tool more in a training mix.
 
 Tools, gloves, lamps and views are randomised (:mod:`~stationcheck.demo_station.randomise`)
 but never drawn from the held-out looks (:mod:`~stationcheck.demo_station.held_out_looks`).
@@ -186,6 +188,13 @@ def render_station_sample(rng: np.random.Generator) -> tuple[U8Image, Keypoints]
     return sample.image, sample.keypoints
 
 
+def render_own_station_sample(rng: np.random.Generator) -> tuple[U8Image, Keypoints]:
+    """A labelled frame of the demo station with its own tool in the hands of random operators
+    (the station's lamps, camera moves and other mountings; never another tool)."""
+    sample = _station_sample(rng, want_mask=False, other_tool_p=0.0)
+    return sample.image, sample.keypoints
+
+
 def render_moving_sample(
     rng: np.random.Generator,
 ) -> tuple[U8Image, Keypoints, tuple[float, float]]:
@@ -259,7 +268,10 @@ def _random_sample(
 
 
 def _station_sample(
-    rng: np.random.Generator, want_mask: bool, motion: MotionFn | None = None
+    rng: np.random.Generator,
+    want_mask: bool,
+    motion: MotionFn | None = None,
+    other_tool_p: float = OTHER_TOOL_P,
 ) -> Sample:
     pools = _pools()
     stage = ("empty", "gasket", "cover", "cover", "cover")[int(rng.integers(5))]
@@ -269,7 +281,7 @@ def _station_sample(
     )
     state = StationState(stage, screws, bool(rng.random() < 0.6))  # type: ignore[arg-type]
     frame = pools.scene.image(state).copy()
-    other = rng.random() < OTHER_TOOL_P
+    other = rng.random() < other_tool_p
     rig = pools.rigs.draw(rng) if other else pools.station_rigs.draw(rng)
     pose = _station_pose(rng) if rng.random() > NO_TOOL_P else None
     if pose is not None:

@@ -24,6 +24,24 @@ DEMO_SAMPLE_FUNCTIONS = (
     ("render_training_sample", 0.5),
     ("render_station_sample", 0.5),
 )
+# Named mixes of the demo renderer's frames. "randomised": the default above (4 in 10 station
+# frames show another station's tool). "own-tool": 3 in 10 frames more of the demo station with
+# its own tool, so about half of all frames show it, as before tools were randomised; every
+# randomised kind of frame stays in the mix. "mostly-own-tool": about 7 in 10 frames show the
+# station's own tool, for a last, low-rate stage after a randomised one.
+DEMO_MIXES: dict[str, tuple[tuple[str, float], ...]] = {
+    "randomised": DEMO_SAMPLE_FUNCTIONS,
+    "own-tool": (
+        ("render_training_sample", 0.35),
+        ("render_station_sample", 0.35),
+        ("render_own_station_sample", 0.3),
+    ),
+    "mostly-own-tool": (
+        ("render_training_sample", 0.2),
+        ("render_station_sample", 0.2),
+        ("render_own_station_sample", 0.6),
+    ),
+}
 
 
 def coco_sources(annotations: Path, image_dir: Path, seed: int) -> tuple[FrameSource, FrameSource]:
@@ -39,20 +57,25 @@ def demo_moving_sample(module: ModuleType) -> MovingSampleFn | None:
     return function
 
 
-def demo_sources(module: ModuleType) -> tuple[FrameSource, FrameSource]:
+def demo_sources(module: ModuleType, mix: str = "randomised") -> tuple[FrameSource, FrameSource]:
     """The demo renderer's training frames (``module``: the renderer's training module, passed
-    in by the command); the held-out part is the same generator on its own random stream (it is
-    infinite, so nothing is shared)."""
-    functions = demo_sample_functions(module)
+    in by the command; ``mix``: a name in :data:`DEMO_MIXES`); the held-out part is the same
+    generator on its own random stream (it is infinite, so nothing is shared)."""
+    functions = demo_sample_functions(module, mix)
     logger.info("demo training frames from %s", [f.__name__ for f, _ in functions])
     source = FunctionSource(functions)
     return source, source
 
 
-def demo_sample_functions(module: ModuleType) -> list[tuple[SampleFn, float]]:
-    """The demo renderer's sample functions with their share (weights sum to 1)."""
+def demo_sample_functions(
+    module: ModuleType, mix: str = "randomised"
+) -> list[tuple[SampleFn, float]]:
+    """The demo renderer's sample functions of the named mix with their share (weights sum
+    to 1)."""
+    if mix not in DEMO_MIXES:
+        raise InputFileError(f"unknown demo frame mix {mix!r}; one of {sorted(DEMO_MIXES)}")
     functions: list[tuple[SampleFn, float]] = []
-    for name, weight in DEMO_SAMPLE_FUNCTIONS:
+    for name, weight in DEMO_MIXES[mix]:
         function = getattr(module, name, None)
         if function is not None:
             functions.append((function, weight))

@@ -14,17 +14,24 @@ from pycocotools.coco import COCO
 from pycocotools.cocoeval import COCOeval
 
 from stationcheck.demo_station import layout
+from stationcheck.demo_station import training as demo_training
+from stationcheck.demo_station.rig import OperatorRig
 from stationcheck.demo_station.training import (
+    render_own_station_sample,
     render_sample,
     render_station_sample,
     render_training_sample,
     write_coco_dataset,
 )
+from stationcheck.errors import InputFileError
+from stationcheck.training.sources import DEMO_MIXES, demo_sample_functions
 
 W, H = layout.FRAME_WIDTH_PX, layout.FRAME_HEIGHT_PX
 
 
-@pytest.mark.parametrize("render", [render_training_sample, render_station_sample])
+@pytest.mark.parametrize(
+    "render", [render_training_sample, render_station_sample, render_own_station_sample]
+)
 def test_samples_have_the_promised_shape(render) -> None:  # type: ignore[no-untyped-def]
     rng = np.random.default_rng(11)
     seen = set()
@@ -64,6 +71,57 @@ def test_samples_are_deterministic() -> None:
     c = render_station_sample(np.random.default_rng(42))
     d = render_station_sample(np.random.default_rng(42))
     assert np.array_equal(c[0], d[0]) and np.array_equal(c[1], d[1])
+    e = render_own_station_sample(np.random.default_rng(42))
+    f = render_own_station_sample(np.random.default_rng(42))
+    assert np.array_equal(e[0], f[0]) and np.array_equal(e[1], f[1])
+
+
+def _drawn_rigs(render, count: int, monkeypatch: pytest.MonkeyPatch) -> list[OperatorRig]:  # type: ignore[no-untyped-def]
+    drawn: list[OperatorRig] = []
+    draw_on = OperatorRig.draw_on
+
+    def record(self: OperatorRig, *args, **kwargs):  # type: ignore[no-untyped-def]
+        drawn.append(self)
+        return draw_on(self, *args, **kwargs)
+
+    with monkeypatch.context() as patch:
+        patch.setattr(OperatorRig, "draw_on", record)
+        rng = np.random.default_rng(8)
+        for _ in range(count):
+            render(rng)
+    return drawn
+
+
+def test_own_station_frames_show_only_the_station_tool(monkeypatch: pytest.MonkeyPatch) -> None:
+    pools = demo_training._pools()
+    own = _drawn_rigs(render_own_station_sample, 30, monkeypatch)
+    mixed = _drawn_rigs(render_station_sample, 30, monkeypatch)
+    station_rigs = {id(pools.station_rigs[i]) for i in range(len(pools.station_rigs))}
+    assert len(own) > 20 and all(id(rig) in station_rigs for rig in own)
+    # the randomised station frames do show other stations' tools
+    assert any(id(rig) not in station_rigs for rig in mixed)
+
+
+@pytest.mark.parametrize("mix", sorted(DEMO_MIXES))
+def test_every_named_mix_finds_all_its_renderer_functions(mix: str) -> None:
+    functions = demo_sample_functions(demo_training, mix)
+    assert len(functions) == len(DEMO_MIXES[mix])
+    assert sum(weight for _, weight in functions) == pytest.approx(1.0)
+
+
+def test_own_tool_mix_shows_the_station_tool_in_about_half_the_frames() -> None:
+    # before tools were randomised, every station frame (half of all) showed the station's tool
+    weights = dict(DEMO_MIXES["own-tool"])
+    own_share = weights["render_own_station_sample"] + weights["render_station_sample"] * (
+        1.0 - demo_training.OTHER_TOOL_P
+    )
+    assert 0.45 <= own_share <= 0.55
+    assert weights["render_training_sample"] > 0 and weights["render_station_sample"] > 0
+
+
+def test_an_unknown_mix_is_refused_in_one_line() -> None:
+    with pytest.raises(InputFileError, match="unknown demo frame mix"):
+        demo_sample_functions(demo_training, "nothing")
 
 
 @pytest.fixture(scope="module")
