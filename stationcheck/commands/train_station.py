@@ -178,6 +178,7 @@ def train_station(args: Any) -> int:
             seed=args.seed,
             batch_size=args.batch_size,
             workers=args.workers,
+            threads=args.threads,
             calibration_frames=args.calibration_frames,
             motion_frames=args.motion_frames,
             station_share=1.0 - _share(args.rendered_share),

@@ -146,6 +146,7 @@ class FineTuneSettings:
     seed: int = 0
     batch_size: int = 32
     workers: int = 1
+    threads: int = 1  # torch threads beside the data worker
     station_share: float = STATION_SHARE
     calibration_frames: int = CALIBRATION_FRAMES
     motion_frames: int = MOTION_FRAMES
@@ -174,7 +175,7 @@ def fine_tune(
         warmup_steps=min(FINE_TUNE_WARMUP_STEPS, max(1, settings.max_steps // 4)),
         checkpoint_every=10**9,
         log_every=10,
-        threads=1,
+        threads=settings.threads,
         workers=settings.workers,
         model_name=MODEL_NAME,
         start_from=settings.start_from,
