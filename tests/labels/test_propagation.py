@@ -87,14 +87,20 @@ def around_hidden() -> dict[int, npt.NDArray[np.uint8]]:
         video.close()
 
 
+def _clicks_around_hidden(truth: Truth) -> tuple[FrameLabel, FrameLabel, FrameLabel]:
+    """A visible click 40 frames before the tool leaves, two "not visible" clicks while it is
+    out of view."""
+    visible = truth.click(HIDDEN_FIRST - 40, np.random.default_rng(3))
+    hidden_a = FrameLabel(HIDDEN_FIRST + 10, None, None, "clicked")
+    hidden_b = FrameLabel(HIDDEN_LAST - 5, None, None, "clicked")
+    return visible, hidden_a, hidden_b
+
+
 def test_a_not_visible_click_stops_propagation(
     truth: Truth, around_hidden: dict[int, npt.NDArray[np.uint8]]
 ) -> None:
     frames = around_hidden
-    rng = np.random.default_rng(3)
-    visible = truth.click(HIDDEN_FIRST - 40, rng)
-    hidden_a = FrameLabel(HIDDEN_FIRST + 10, None, None, "clicked")
-    hidden_b = FrameLabel(HIDDEN_LAST - 5, None, None, "clicked")
+    visible, hidden_a, hidden_b = _clicks_around_hidden(truth)
     result = propagate(_reader(frames), [visible, hidden_a, hidden_b])
     indices = {l.frame_index for l in result.labels}
     settings = FlowSettings()
@@ -151,10 +157,7 @@ def test_marked_runs_beside_not_visible_clicks_become_not_visible_labels(
     truth: Truth, around_hidden: dict[int, npt.NDArray[np.uint8]]
 ) -> None:
     frames = around_hidden
-    rng = np.random.default_rng(3)
-    visible = truth.click(HIDDEN_FIRST - 40, rng)
-    hidden_a = FrameLabel(HIDDEN_FIRST + 10, None, None, "clicked")
-    hidden_b = FrameLabel(HIDDEN_LAST - 5, None, None, "clicked")
+    visible, hidden_a, hidden_b = _clicks_around_hidden(truth)
     clicks = [visible, hidden_a, hidden_b]
     marks = [
         (HIDDEN_FIRST, HIDDEN_FIRST + 9),  # ends right before a "not visible" click
