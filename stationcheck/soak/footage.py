@@ -18,7 +18,6 @@ from typing import Literal
 from stationcheck.config import load_config
 from stationcheck.core.observations import Observation
 from stationcheck.core.plan import StationPlan
-from stationcheck.errors import InputFileError
 from stationcheck.pipeline.station_inputs import read_station_inputs
 from stationcheck.pipeline.truth_sidecar import TruthTable, load_truth, truth_points
 from stationcheck.vision.table_detector import PointTable
@@ -68,19 +67,13 @@ def load_footage(
 
 
 def _picture_size(video: Path) -> tuple[int, int]:
-    import cv2
+    from stationcheck.sources.video_file import VideoFileSource
 
-    capture = cv2.VideoCapture(str(video))
+    source = VideoFileSource(video)  # names what is wrong with a missing or damaged file
     try:
-        size = (
-            int(capture.get(cv2.CAP_PROP_FRAME_WIDTH)),
-            int(capture.get(cv2.CAP_PROP_FRAME_HEIGHT)),
-        )
+        return source.width_px, source.height_px
     finally:
-        capture.release()
-    if min(size) <= 0:
-        raise InputFileError(f"{video}: cannot read the video's picture size")
-    return size
+        source.close()
 
 
 def _model_answers(video: Path, config: object) -> PointTable:
