@@ -13,6 +13,14 @@ Between a visible click and a "not visible" click only the visible side tracks, 
 "not visible" click stops propagation across it. Frames left without a label are returned as
 gaps: the screen asks for a click in the middle of the longest ones first.
 
+A moving tool is smeared over the exposure, and flow follows the smear's middle, which trails
+the tool's position at the end of the exposure (where a person clicks the tip, at the streak's
+leading end) by a share of the frame's move: the *smear lag*. Tracked points are moved on by
+that share of their own move (less the move at the click they started from, which the click
+already placed). The share depends on the camera's exposure, so it is measured on the clicks
+themselves: where a track crosses a whole span, the click at its end shows how far the track
+trails (:func:`smear_lag`). Too few moving clicks to measure: no correction.
+
 Flow cannot follow a tool that is not there, so the frames beside a "not visible" click are the
 engineer's to mark: each unlabelled run next to such a click is returned as a
 :class:`HiddenRun` with a strip of frames to look over, and the engineer marks the part of it
@@ -54,6 +62,10 @@ class FlowSettings:
     min_body_points: int = 8
     min_inlier_share: float = 0.5
     max_scale_change: float = 0.08
+    correct_smear: bool = True
+    min_smear_observations: int = 6  # moving clicks reached by a track, to measure the lag
+    min_smear_move_px: float = 4.0  # a click's move (against its track's start) that counts
+    max_smear_lag: float = 0.5  # an exposure as long as the frame interval
 
 
 STRIP_FRAMES = 24  # thumbnails in a hidden run's strip
@@ -99,6 +111,7 @@ class Propagation:
     labels: tuple[FrameLabel, ...]
     gaps: tuple[tuple[int, int], ...]  # (first, last) frame index, inclusive, longest first
     hidden_runs: tuple[HiddenRun, ...] = ()
+    smear: SmearLag | None = None
 
     def queued(self) -> tuple[int, ...]:
         """The frame in the middle of each gap: where a click helps most, most useful first."""
@@ -214,17 +227,53 @@ def _trackable(label: FrameLabel) -> bool:
     return label.tip is not None and label.rear is not None
 
 
-def propagate_span(
+Track = list[Points | None]
+
+
+@dataclass(frozen=True)
+class SpanTracks:
+    """Both directions' poses over one span (``frames[0]`` is the first click's frame), in
+    frame order; None for a direction that has no click to start from."""
+
+    forward: Track | None
+    backward: Track | None
+
+
+def track_span(
     frames: Sequence[Gray], first: FrameLabel, last: FrameLabel, settings: FlowSettings
+) -> SpanTracks:
+    forward = track(frames, _as_points(first), settings) if _trackable(first) else None
+    backward = track(frames[::-1], _as_points(last), settings)[::-1] if _trackable(last) else None
+    return SpanTracks(forward, backward)
+
+
+def propagate_span(
+    frames: Sequence[Gray],
+    first: FrameLabel,
+    last: FrameLabel,
+    settings: FlowSettings,
+    smear_lag: float = 0.0,
 ) -> list[FrameLabel]:
     """Labels for the frames strictly between ``first`` and ``last`` (``frames`` runs from the
     first's frame to the last's, both included). A click needs tip and rear to be followed
-    (the rear gives the tool's axis, whose body points carry the motion)."""
-    forward = track(frames, _as_points(first), settings) if _trackable(first) else None
-    backward = track(frames[::-1], _as_points(last), settings)[::-1] if _trackable(last) else None
+    (the rear gives the tool's axis, whose body points carry the motion). ``smear_lag``: the
+    share of a frame's move by which the tracks trail the tool (see the module)."""
+    return span_labels(track_span(frames, first, last, settings), first, last, settings, smear_lag)
+
+
+def span_labels(
+    tracks: SpanTracks,
+    first: FrameLabel,
+    last: FrameLabel,
+    settings: FlowSettings,
+    smear_lag: float = 0.0,
+) -> list[FrameLabel]:
+    """The labels of one tracked span (see :func:`propagate_span`)."""
+    forward = _led(tracks.forward, smear_lag, at_end=False)
+    backward = _led(tracks.backward, smear_lag, at_end=True)
     if (forward is None) != (backward is None) and first.visible and last.visible:
         return []  # a visible click without its rear: the two directions cannot be checked
-    count = len(frames) - 1
+    count = last.frame_index - first.frame_index
     both_ends = forward is not None and backward is not None
     ends = _click_offsets(forward, backward, settings) if both_ends else None
     labels: list[FrameLabel] = []
@@ -257,6 +306,95 @@ def propagate_span(
     return labels
 
 
+def _moves(poses: Track) -> list[Points | None]:
+    """Each pose's move since the frame before (the one after where that is unknown: the
+    first pose of a backward track that was lost before it)."""
+    moves: list[Points | None] = []
+    for index, pose in enumerate(poses):
+        before = poses[index - 1] if index > 0 else None
+        after = poses[index + 1] if index + 1 < len(poses) else None
+        if pose is not None and before is not None:
+            moves.append(pose - before)
+        elif pose is not None and after is not None:
+            moves.append(after - pose)
+        else:
+            moves.append(None)
+    return moves
+
+
+def _led(poses: Track | None, lag: float, at_end: bool) -> Track | None:
+    """A track moved on by ``lag`` of each pose's move, less the move at its click (the
+    click is where the tool is, its streak's leading end, not where the smear's middle is)."""
+    if poses is None or lag == 0.0:
+        return poses
+    moves = _moves(poses)
+    anchor = moves[-1] if at_end else moves[0]
+    if anchor is None:
+        return poses
+    return [
+        pose if pose is None or move is None else (pose + lag * (move - anchor)).astype(np.float32)
+        for pose, move in zip(poses, moves, strict=True)
+    ]
+
+
+@dataclass(frozen=True)
+class SmearLag:
+    """The measured share of a frame's move by which flow trails the clicked tool, and how
+    many moving clicks it was measured on (0: not measured, no correction)."""
+
+    share: float
+    observations: int
+
+    def to_json(self) -> dict[str, object]:
+        return {"share": round(self.share, 3), "observations": self.observations}
+
+
+def smear_observations(
+    tracks: SpanTracks, first: FrameLabel, last: FrameLabel
+) -> list[tuple[Points, Points]]:
+    """(click less the track arriving at it, the click's move less the move at the track's
+    start) at each end of a span that the other direction's track crossed whole. Without
+    smear both are unrelated (the offset is click error); with it the offset is the lag times
+    the move difference."""
+    out: list[tuple[Points, Points]] = []
+    forward, backward = tracks.forward, tracks.backward
+    if forward is not None and len(forward) >= 3 and _trackable(last):
+        moves = _moves(forward)
+        if forward[-1] is not None and moves[-1] is not None and moves[0] is not None:
+            out.append((_as_points(last) - forward[-1], moves[-1] - moves[0]))
+    if backward is not None and len(backward) >= 3 and _trackable(first):
+        moves = _moves(backward)
+        if backward[0] is not None and moves[0] is not None and moves[-1] is not None:
+            out.append((_as_points(first) - backward[0], moves[0] - moves[-1]))
+    return out
+
+
+def smear_lag(observations: Sequence[tuple[Points, Points]], settings: FlowSettings) -> SmearLag:
+    """The lag that best explains the clicks' offsets from the tracks arriving at them: the
+    median of each point's offset along its move difference, over the move difference, weighted
+    by the move difference squared (a least-squares fit that one misclick cannot pull far).
+    Only clicks whose tip moved at least ``min_smear_move_px`` more than at the track's start
+    count; with fewer than ``min_smear_observations`` of them the lag is 0 (not measured)."""
+    ratios: list[float] = []
+    weights: list[float] = []
+    used = 0
+    for offset, move in observations:
+        if float(np.linalg.norm(move[0])) < settings.min_smear_move_px:
+            continue
+        used += 1
+        for point_offset, point_move in zip(offset, move, strict=True):
+            size = float(np.dot(point_move, point_move))
+            if size > 0.0:
+                ratios.append(float(np.dot(point_offset, point_move)) / size)
+                weights.append(size)
+    if used < settings.min_smear_observations:
+        return SmearLag(0.0, 0)
+    order = np.argsort(ratios)
+    cumulative = np.cumsum(np.asarray(weights)[order])
+    middle = float(np.asarray(ratios)[order][np.searchsorted(cumulative, cumulative[-1] / 2.0)])
+    return SmearLag(min(max(middle, 0.0), settings.max_smear_lag), used)
+
+
 def _click_offsets(
     forward: Sequence[Points | None] | None,
     backward: Sequence[Points | None] | None,
@@ -280,7 +418,7 @@ def _click_offsets(
     return start, end
 
 
-SpanCache = dict[tuple[FrameLabel, FrameLabel], list[FrameLabel]]
+SpanCache = dict[tuple[FrameLabel, FrameLabel], SpanTracks | None]
 
 
 def propagate(
@@ -293,8 +431,8 @@ def propagate(
     """Propagated labels for every span between consecutive clicked frames.
 
     ``read_span(first, last)`` gives the frames ``first..last`` (BGR or grey) in order.
-    ``cache`` keeps each span's result between calls (a span is worked out again only when one
-    of its two clicks changed). ``out_of_view`` are the engineer's marks (see the module);
+    ``cache`` keeps each span's tracks between calls (a span is tracked again only when one
+    of its two clicks changed; the smear lag is measured again over all spans every time). ``out_of_view`` are the engineer's marks (see the module);
     a mark that does not start right after or end right before a "not visible" click, or
     crosses a click, is ignored.
     """
@@ -304,21 +442,38 @@ def propagate(
         key=lambda label: label.frame_index,
     )
     marks = sorted(set(out_of_view))
-    labels: list[FrameLabel] = []
-    gaps: list[tuple[int, int]] = []
-    hidden: list[HiddenRun] = []
+    spans: list[tuple[FrameLabel, FrameLabel, SpanTracks | None]] = []
     for first, last in pairwise(anchors):
         inner = last.frame_index - first.frame_index - 1
         if inner <= 0:
             continue
-        found: list[FrameLabel] = []
+        tracks: SpanTracks | None = None
         if cache is not None and (first, last) in cache:
-            found = cache[(first, last)]
+            tracks = cache[(first, last)]
         elif (first.visible or last.visible) and inner < settings.max_span_frames:
             grey = [_grey(image) for _, image in read_span(first.frame_index, last.frame_index)]
-            found = propagate_span(grey, first, last, settings)
+            tracks = track_span(grey, first, last, settings)
         if cache is not None:
-            cache[(first, last)] = found
+            cache[(first, last)] = tracks
+        spans.append((first, last, tracks))
+    smear = SmearLag(0.0, 0)
+    if settings.correct_smear:
+        smear = smear_lag(
+            [
+                observation
+                for first, last, tracks in spans
+                if tracks is not None
+                for observation in smear_observations(tracks, first, last)
+            ],
+            settings,
+        )
+    labels: list[FrameLabel] = []
+    gaps: list[tuple[int, int]] = []
+    hidden: list[HiddenRun] = []
+    for first, last, tracks in spans:
+        found: list[FrameLabel] = []
+        if tracks is not None:
+            found = span_labels(tracks, first, last, settings, smear.share)
         marked = _marked_frames(first, last, marks)
         if marked:
             found = [label for label in found if label.frame_index not in marked]
@@ -334,13 +489,16 @@ def propagate(
                 gaps.append((low, high))  # between two "not visible" clicks: the rest of a mark
     gaps.sort(key=lambda gap: (-(gap[1] - gap[0]), gap[0]))
     log.info(
-        "propagated %d labels from %d clicks; %d gaps, %d runs beside 'not visible' clicks",
+        "propagated %d labels from %d clicks; %d gaps, %d runs beside 'not visible' clicks; "
+        "smear lag %.2f of a move (from %d moving clicks)",
         len(labels),
         len(anchors),
         len(gaps),
         len(hidden),
+        smear.share,
+        smear.observations,
     )
-    return Propagation(tuple(labels), tuple(gaps), tuple(hidden))
+    return Propagation(tuple(labels), tuple(gaps), tuple(hidden), smear)
 
 
 def _marked_frames(

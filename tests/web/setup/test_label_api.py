@@ -70,6 +70,7 @@ def test_frames_guesses_and_refusals(setup_server: ServerFactory, workspace: Pat
     status, out = client.call("POST", "/api/label/propagate", {"video": video, "clicked": hidden})
     assert status == 200 and out["labels"] == [] and out["queued"] == []
     (run,) = out["hidden_runs"]
+    assert out["smear"] == {"share": 0.0, "observations": 0}  # no moving click: not measured
     assert (run["first"], run["last"], run["hidden_before"], run["hidden_after"]) == (
         2906, 2914, True, True)
     assert run["strip"] == list(range(2906, 2915))

@@ -284,7 +284,10 @@ async function runPropagate() {
       + `clicked (${visible} with the tool), ${marked} marked out of view; ${queued.length} `
       + "frame(s) where the flow check failed are queued for a click"
       + (out.hidden_runs.length ? `; ${out.hidden_runs.length} run(s) beside "not visible" `
-        + "frames to look over (strip below the picture)" : ""), ok: true };
+        + "frames to look over (strip below the picture)" : "")
+      + (out.smear && out.smear.observations ? `; moving tool: points set ${out.smear.share} `
+        + `of a frame's move ahead of the smear, as ${out.smear.observations} moving clicks show`
+        : ""), ok: true };
     // next: the middle of the longest unlabelled run (the server lists those first)
     if (queued.length) { L.pos = L.order.indexOf(queued[0]); L.draft = []; loadGuess(current()); }
   } catch (err) {
