@@ -130,6 +130,7 @@ def main() -> int:
     parser.add_argument(
         "--steps", type=int, default=None, help="training steps (default: train's own)"
     )
+    parser.add_argument("--seed", type=int, default=0, help="the fine-tune's random seed")
     parser.add_argument("--clicks", type=int, default=60)
     parser.add_argument(
         "--every",
@@ -205,6 +206,8 @@ def main() -> int:
         "--progress-json",
         *(["--minutes", str(args.minutes)] if args.minutes is not None else []),
         *(["--steps", str(args.steps)] if args.steps is not None else []),
+        "--seed",
+        str(args.seed),
     ]
     result = subprocess.run(command, capture_output=True, text=True, check=False)
     lines = [json.loads(line) for line in result.stdout.splitlines() if line.startswith("{")]

@@ -63,16 +63,23 @@ def augment_frame(
     keypoints: FloatArray,
     noise: NoiseBank,
     settings: AugmentSettings = AugmentSettings(),
+    background: ImageU8 | None = None,
 ) -> tuple[ImageU8, FloatArray]:
-    """One randomly augmented copy of a labelled frame."""
+    """One randomly augmented copy of a labelled frame. With ``background`` (the same view
+    without the tool), motion blur smears the tool alone over the still bench
+    (:func:`smear_foreground`, first, as the camera would); without it, a window around the
+    tool (:func:`motion_blur_tool`)."""
     kps = np.array(keypoints, dtype=np.float64, copy=True)
     out = image
+    smear = background is not None and rng.random() < settings.p_motion_blur
+    if smear and background is not None and background.shape == image.shape:
+        out = smear_foreground(rng, out, kps, background, settings)
     if rng.random() < settings.p_affine:
         out, kps = random_affine(rng, out, kps, settings)
     if rng.random() < settings.p_occlusion:
         out, kps = occlude(rng, out, kps)
     out = adjust_lighting(rng, out)
-    if rng.random() < settings.p_motion_blur:
+    if background is None and rng.random() < settings.p_motion_blur:
         out = motion_blur_tool(rng, out, kps, settings)
     if rng.random() < settings.p_blur:
         out = blur(rng, out)
@@ -170,6 +177,66 @@ def motion_blur_tool(
     out = image.astype(np.float32)
     out[top:bottom, left:right] = window * (1.0 - weight) + np.rint(smeared) * weight
     return _u8(np.clip(out + 0.5, 0, 255))
+
+
+FOREGROUND_DIFFERENCE = 24  # grey levels off the empty picture that count as the tool or hand
+
+
+def foreground_mask(image: ImageU8, kps: FloatArray, background: ImageU8) -> FloatArray:
+    """Where ``image`` shows something in front of the empty ``background`` (the tool, the
+    glove), near the tool: within a band around the tip-rear axis as wide as a fifth of the
+    tool's length (at least 8 px either side). Soft-edged, 0..1."""
+    labelled = kps[kps[:, 2] > 0, :2]
+    height, width = image.shape[:2]
+    band = np.zeros((height, width), np.uint8)
+    if len(labelled) == 0:
+        return band.astype(np.float32)
+    points = [(round(float(p[0])), round(float(p[1]))) for p in labelled]
+    length = float(np.hypot(*(labelled[-1] - labelled[0]))) if len(labelled) > 1 else 0.0
+    half = int(8 + 0.2 * length)
+    cv2.line(band, points[0], points[-1], 1, 2 * half + 1)
+    cv2.circle(band, points[0], half, 1, -1)
+    difference = cv2.absdiff(image, background).max(axis=2)
+    moving = (difference > FOREGROUND_DIFFERENCE).astype(np.uint8) & band
+    kernel = np.ones((3, 3), np.uint8)
+    moving = cv2.dilate(cv2.morphologyEx(moving, cv2.MORPH_OPEN, kernel), kernel)
+    return np.asarray(cv2.GaussianBlur(moving.astype(np.float32), (0, 0), 1.0), np.float32)
+
+
+def smear_foreground(
+    rng: np.random.Generator,
+    image: ImageU8,
+    kps: FloatArray,
+    background: ImageU8,
+    settings: AugmentSettings,
+) -> ImageU8:
+    """Motion blur as a camera records a moving tool in front of a still bench: the tool and
+    glove (what differs from ``background``, the same view without them, near the tool) are
+    averaged over the exposure along a random motion direction, ending where they are in
+    ``image`` (so the sharp label stays at the streak's leading end); the bench behind stays
+    sharp and shows through where the tool was for part of the exposure. ``image`` is the
+    layer ``F`` over the bench ``B`` with coverage ``m``; over the exposure this is
+    ``B * (1 - S(m)) + S(F * m)``, ``S`` the mean along the path."""
+    mask = foreground_mask(image, kps, background)
+    rows, cols = np.nonzero(mask > 0.0)
+    if len(rows) == 0:
+        return image
+    length = rng.uniform(*settings.motion_blur_px)
+    kernel = trailing_kernel(length, rng.uniform(0, 2 * np.pi))
+    reach = kernel.shape[0] // 2 + 1
+    height, width = image.shape[:2]
+    top, bottom = max(0, rows.min() - reach), min(height, rows.max() + 1 + reach)
+    left, right = max(0, cols.min() - reach), min(width, cols.max() + 1 + reach)
+    frame = image[top:bottom, left:right].astype(np.float32)
+    bench = background[top:bottom, left:right].astype(np.float32)
+    cover = mask[top:bottom, left:right, None]
+    behind = frame * (1.0 - cover) + bench * cover  # the bench where the tool is now
+    smeared_cover = cv2.filter2D(cover[..., 0], -1, kernel, borderType=cv2.BORDER_CONSTANT)
+    smeared_tool = cv2.filter2D(frame * cover, -1, kernel, borderType=cv2.BORDER_CONSTANT)
+    out = image.copy()
+    window = behind * (1.0 - smeared_cover[..., None]) + smeared_tool
+    out[top:bottom, left:right] = _u8(np.clip(window + 0.5, 0, 255))
+    return out
 
 
 def occlude(

@@ -1,7 +1,9 @@
 """Labelled frames in, training batches for both stages out.
 
 A *frame source* yields ``(image_bgr, keypoints K x 3)`` for a random generator: the demo
-renderer's training frames, or a COCO keypoint dataset (a user's own labelled frames). Each
+renderer's training frames, or a COCO keypoint dataset (a user's own labelled frames). A source
+that also knows the empty view behind a frame (a station's recording) offers
+``sample_with_background``, so the motion-blur augmentation can smear the tool alone. Each
 source frame is augmented and turned into a coarse example (whole frame, all keypoints) and a
 refine example (a crop around a jittered tip, or a negative crop elsewhere, tip only), built
 with the runtime's own preprocessing so training and station see the same pixels.
@@ -11,10 +13,10 @@ from __future__ import annotations
 
 import json
 import logging
-from collections.abc import Callable
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Protocol
+from typing import Protocol, runtime_checkable
 
 import cv2
 import numpy as np
@@ -31,6 +33,8 @@ logger = logging.getLogger(__name__)
 ImageU8 = npt.NDArray[np.uint8]
 FloatArray = npt.NDArray[np.float64]
 SampleFn = Callable[[np.random.Generator], tuple[ImageU8, FloatArray]]
+# a frame with the same view without the tool (None when unknown)
+BackgroundSampleFn = Callable[[np.random.Generator], tuple[ImageU8, FloatArray, ImageU8 | None]]
 # a frame of a fast move: (image, keypoints, the tip's step (dx, dy) px since the previous frame)
 MovingSampleFn = Callable[
     [np.random.Generator], tuple[ImageU8, npt.NDArray[np.floating], tuple[float, float]]
@@ -41,20 +45,51 @@ class FrameSource(Protocol):
     def sample(self, rng: np.random.Generator) -> tuple[ImageU8, FloatArray]: ...
 
 
-class FunctionSource:
-    """Wraps one or more ``sample(rng) -> (image, keypoints)`` functions, mixed by weight."""
+@runtime_checkable
+class BackgroundFrameSource(Protocol):
+    def sample_with_background(
+        self, rng: np.random.Generator
+    ) -> tuple[ImageU8, FloatArray, ImageU8 | None]: ...
 
-    def __init__(self, functions: list[tuple[SampleFn, float]]) -> None:
-        if not functions:
+
+class FunctionSource:
+    """Wraps one or more ``sample(rng) -> (image, keypoints)`` functions, mixed by weight;
+    ``background_functions`` also give the empty view behind their frame."""
+
+    def __init__(
+        self,
+        functions: Sequence[tuple[SampleFn, float]],
+        background_functions: Sequence[tuple[BackgroundSampleFn, float]] = (),
+    ) -> None:
+        if not functions and not background_functions:
             raise ValueError("FunctionSource needs at least one sample function")
-        self._functions = [f for f, _ in functions]
-        weights = np.array([w for _, w in functions], dtype=np.float64)
+        self._functions: list[BackgroundSampleFn] = [
+            *(_without_background(f) for f, _ in functions),
+            *(f for f, _ in background_functions),
+        ]
+        weights = np.array(
+            [w for _, w in functions] + [w for _, w in background_functions], dtype=np.float64
+        )
         self._p = weights / weights.sum()
 
     def sample(self, rng: np.random.Generator) -> tuple[ImageU8, FloatArray]:
+        image, kps, _ = self.sample_with_background(rng)
+        return image, kps
+
+    def sample_with_background(
+        self, rng: np.random.Generator
+    ) -> tuple[ImageU8, FloatArray, ImageU8 | None]:
         index = int(rng.choice(len(self._functions), p=self._p))
-        image, kps = self._functions[index](rng)
-        return image, np.asarray(kps, dtype=np.float64).reshape(-1, 3)
+        image, kps, background = self._functions[index](rng)
+        return image, np.asarray(kps, dtype=np.float64).reshape(-1, 3), background
+
+
+def _without_background(function: SampleFn) -> BackgroundSampleFn:
+    def sample(rng: np.random.Generator) -> tuple[ImageU8, FloatArray, ImageU8 | None]:
+        image, kps = function(rng)
+        return image, kps, None
+
+    return sample
 
 
 class CocoSource:
@@ -167,11 +202,16 @@ class BatchMaker:
     def batch(self, index: int) -> Batch:
         rng = np.random.default_rng([self.seed, index])
         cx, cy, rx, ry = [], [], [], []
-        frame: tuple[ImageU8, FloatArray] | None = None
+        frame: tuple[ImageU8, FloatArray, ImageU8 | None] | None = None
         for i in range(self.batch_size):
             if frame is None or i % self.settings.reuse == 0:
-                frame = self.source.sample(rng)
-            image, kps = augment_frame(rng, frame[0], frame[1], self._noise, self.settings.augment)
+                if isinstance(self.source, BackgroundFrameSource):
+                    frame = self.source.sample_with_background(rng)
+                else:
+                    frame = (*self.source.sample(rng), None)
+            image, kps = augment_frame(
+                rng, frame[0], frame[1], self._noise, self.settings.augment, background=frame[2]
+            )
             x, y = self._coarse_example(image, kps)
             cx.append(x)
             cy.append(y)

@@ -65,6 +65,33 @@ MAX_ABSENT_SHARE = 0.2
 # more often: weight 1 + speed / FAST_PX_PER_FRAME, at most MAX_FAST_WEIGHT.
 FAST_PX_PER_FRAME = 10.0
 MAX_FAST_WEIGHT = 4.0
+# The empty view behind a video's frames (for smearing the tool alone in the motion-blur
+# augmentation): the per-pixel median of this many of its tool-absent frames, evenly spread;
+# a video with fewer has none and gets the window blur.
+PLATE_FRAMES = 40
+MIN_PLATE_FRAMES = 5
+
+
+def background_plates(labels: Sequence[StationLabel]) -> dict[str, ImageU8]:
+    """Per video, the per-pixel median of up to :data:`PLATE_FRAMES` of its tool-absent
+    labelled frames (the station's fixed camera sees the same bench in all of them; a hand
+    or part passing in a few is voted out)."""
+    absent: dict[str, list[StationLabel]] = {}
+    for label in labels:
+        if not label.tool_visible:
+            absent.setdefault(label.video, []).append(label)
+    plates: dict[str, ImageU8] = {}
+    for video, items in absent.items():
+        if len(items) < MIN_PLATE_FRAMES:
+            continue
+        picked = sorted({round(i) for i in np.linspace(0, len(items) - 1, PLATE_FRAMES)})
+        read = [cv2.imread(str(items[i].image), cv2.IMREAD_COLOR) for i in picked]
+        images = [np.asarray(image, np.uint8) for image in read if image is not None]
+        if len(images) != len(read) or len({image.shape for image in images}) != 1:
+            logger.warning("%s: tool-absent frames unreadable or of mixed sizes; no plate", video)
+            continue
+        plates[video] = np.median(np.stack(images), axis=0).astype(np.uint8)
+    return plates
 
 
 def tip_speeds(labels: Sequence[StationLabel]) -> list[float]:
@@ -106,11 +133,19 @@ class LabelSource:
             [min(MAX_FAST_WEIGHT, 1.0 + v / FAST_PX_PER_FRAME) for v in tip_speeds(self._seen)]
         )
         self._seen_p = weights / weights.sum() if len(weights) else weights
+        self.plates = background_plates(self._labels) if self._seen else {}
 
     def __len__(self) -> int:
         return len(self._labels)
 
     def sample(self, rng: np.random.Generator) -> tuple[ImageU8, FloatArray]:
+        image, kps, _ = self.sample_with_background(rng)
+        return image, kps
+
+    def sample_with_background(
+        self, rng: np.random.Generator
+    ) -> tuple[ImageU8, FloatArray, ImageU8 | None]:
+        """A labelled frame and its video's empty view (None if it has none)."""
         if rng.random() < self.absent_share:
             item = self._absent[int(rng.integers(len(self._absent)))]
         else:
@@ -118,7 +153,7 @@ class LabelSource:
         image = cv2.imread(str(item.image), cv2.IMREAD_COLOR)
         if image is None:
             raise InputFileError(f"cannot read labelled image {item.image}")
-        return np.asarray(image, np.uint8), item.keypoints.copy()
+        return np.asarray(image, np.uint8), item.keypoints.copy(), self.plates.get(item.video)
 
 
 def mixed_source(
@@ -129,12 +164,12 @@ def mixed_source(
     """The station's frames at ``station_share``, the renderer's training frames (``renderer``:
     its training module, passed in by the command) for the rest."""
     own = LabelSource(labels)
-    functions: list[tuple[SampleFn, float]] = [(own.sample, station_share)]
+    functions: list[tuple[SampleFn, float]] = []
     if station_share < 1.0 and renderer is not None:
         rendered = demo_sample_functions(renderer)
         total = sum(w for _, w in rendered)
         functions += [(f, (1.0 - station_share) * w / total) for f, w in rendered]
-    return FunctionSource(functions)
+    return FunctionSource(functions, [(own.sample_with_background, station_share)])
 
 
 @dataclass(frozen=True)
