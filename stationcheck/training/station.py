@@ -34,6 +34,7 @@ from stationcheck.training.samples import (
     FrameSource,
     FunctionSource,
     ImageU8,
+    MovingSampleFn,
     SampleFn,
 )
 from stationcheck.training.sources import demo_moving_sample, demo_sample_functions
@@ -43,6 +44,10 @@ logger = logging.getLogger(__name__)
 MODEL_DIR = "model"
 MODEL_NAME = "tool_tip"
 STATION_SHARE = 0.7  # the rest: renderer frames, so the model does not forget
+# Of the renderer's frames, this share shows fast moves drawn over their exposure: a station's
+# labels hold few fast frames (flow loses a blurred tool), and where a thin bit's smear fades out
+# in front of it is learnt from many tools' moves.
+FAST_SHARE = 1.0 / 3.0
 # Defaults sized for ~1,000 labelled frames in <= 10 minutes on 2 CPU cores (one torch thread
 # plus one data worker): the time budget usually ends the run.
 DEFAULT_STEPS = 1500
@@ -160,16 +165,31 @@ def mixed_source(
     labels: Sequence[StationLabel],
     station_share: float = STATION_SHARE,
     renderer: ModuleType | None = None,
+    fast_share: float = 0.0,
 ) -> FrameSource:
     """The station's frames at ``station_share``, the renderer's training frames (``renderer``:
-    its training module, passed in by the command) for the rest."""
+    its training module, passed in by the command) for the rest, ``fast_share`` of those the
+    renderer's frames of fast moves (the tool drawn over its exposure, as a camera smears it)."""
     own = LabelSource(labels)
     functions: list[tuple[SampleFn, float]] = []
     if station_share < 1.0 and renderer is not None:
+        rest = 1.0 - station_share
+        moving = demo_moving_sample(renderer)
+        if moving is not None and fast_share > 0.0:
+            functions.append((_without_step(moving), rest * fast_share))
+            rest -= rest * fast_share
         rendered = demo_sample_functions(renderer)
         total = sum(w for _, w in rendered)
-        functions += [(f, (1.0 - station_share) * w / total) for f, w in rendered]
+        functions += [(f, rest * w / total) for f, w in rendered]
     return FunctionSource(functions, [(own.sample_with_background, station_share)])
+
+
+def _without_step(moving: MovingSampleFn) -> SampleFn:
+    def sample(rng: np.random.Generator) -> tuple[ImageU8, FloatArray]:
+        image, kps, _ = moving(rng)
+        return image, np.asarray(kps, np.float64)
+
+    return sample
 
 
 @dataclass(frozen=True)
@@ -183,6 +203,7 @@ class FineTuneSettings:
     workers: int = 1
     threads: int = 1  # torch threads beside the data worker
     station_share: float = STATION_SHARE
+    fast_share: float = FAST_SHARE
     calibration_frames: int = CALIBRATION_FRAMES
     motion_frames: int = MOTION_FRAMES
     # the demo renderer's training module (frames mixed in, fast moves for the motion lead);
@@ -215,7 +236,9 @@ def fine_tune(
         model_name=MODEL_NAME,
         start_from=settings.start_from,
     )
-    source = mixed_source(split.train, settings.station_share, settings.renderer)
+    source = mixed_source(
+        split.train, settings.station_share, settings.renderer, settings.fast_share
+    )
     if on_phase is not None:
         on_phase("training", 0, config.max_steps)
     examples = ExampleSettings(augment=AugmentSettings(p_motion_blur=FINE_TUNE_MOTION_BLUR_P))

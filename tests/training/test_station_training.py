@@ -134,3 +134,27 @@ def test_fast_moving_tips_are_drawn_more_often(tmp_path: Path) -> None:
     assert abs(drawn.count(10) / 3000 - 7 / 15) <= 0.04
     assert abs(drawn.count(50) / 3000 - 4 / 15) <= 0.04
     assert abs(drawn.count(90) / 3000 - 4 / 15) <= 0.04
+
+
+def test_a_third_of_the_rendered_frames_show_fast_moves(tmp_path: Path) -> None:
+    from types import SimpleNamespace
+
+    from stationcheck.training.station import mixed_source
+
+    def kind(value: int):  # type: ignore[no-untyped-def]
+        def sample(rng: np.random.Generator):  # type: ignore[no-untyped-def]
+            return np.full((4, 4, 3), value, np.uint8), np.zeros((2, 3))
+
+        return sample
+
+    renderer = SimpleNamespace(
+        render_training_sample=kind(1),
+        render_station_sample=kind(2),
+        render_moving_sample=lambda rng: (*kind(3)(rng), (20.0, 0.0)),
+    )
+    source = mixed_source(_labels(tmp_path, 10, 0), 0.7, renderer, fast_share=1 / 3)  # type: ignore[arg-type]
+    rng = np.random.default_rng(1)
+    draws = [int(source.sample(rng)[0][0, 0, 0]) for _ in range(3000)]
+    shares = {value: draws.count(value) / len(draws) for value in (1, 2, 3)}
+    assert shares[3] == pytest.approx(0.1, abs=0.02)  # a third of the rendered 30 %
+    assert shares[1] == pytest.approx(0.1, abs=0.02) and shares[2] == pytest.approx(0.1, abs=0.02)
