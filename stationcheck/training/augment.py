@@ -71,8 +71,11 @@ def augment_frame(
     tool (:func:`motion_blur_tool`)."""
     kps = np.array(keypoints, dtype=np.float64, copy=True)
     out = image
-    smear = background is not None and rng.random() < settings.p_motion_blur
-    if smear and background is not None and background.shape == image.shape:
+    if (
+        background is not None
+        and rng.random() < settings.p_motion_blur
+        and background.shape == image.shape
+    ):
         out = smear_foreground(rng, out, kps, background, settings)
     if rng.random() < settings.p_affine:
         out, kps = random_affine(rng, out, kps, settings)
@@ -146,6 +149,25 @@ def trailing_kernel(length_px: float, angle_rad: float) -> npt.NDArray[np.float3
     return kernel / max(float(kernel.sum()), 1e-6)
 
 
+def _kernel_window(
+    mask: npt.NDArray[np.float32], kernel: npt.NDArray[np.float32]
+) -> tuple[int, int, int, int] | None:
+    """(top, bottom, left, right) of where ``mask`` is above 0, grown by the kernel's reach, so
+    a filter on that window sees inside it the same pixels as a whole-frame filter would; None
+    for an empty mask. Only there is the smear used, so only there is it computed."""
+    rows, cols = np.nonzero(mask > 0.0)
+    if len(rows) == 0:
+        return None
+    reach = kernel.shape[0] // 2 + 1
+    height, width = mask.shape[:2]
+    return (
+        max(0, int(rows.min()) - reach),
+        min(height, int(rows.max()) + 1 + reach),
+        max(0, int(cols.min()) - reach),
+        min(width, int(cols.max()) + 1 + reach),
+    )
+
+
 def motion_blur_tool(
     rng: np.random.Generator, image: ImageU8, kps: FloatArray, settings: AugmentSettings
 ) -> ImageU8:
@@ -162,15 +184,10 @@ def motion_blur_tool(
     cv2.line(mask, points[0], points[-1], 1.0, width)
     cv2.circle(mask, points[0], width // 2, 1.0, -1)
     soft = np.asarray(cv2.GaussianBlur(mask, (0, 0), 8.0), dtype=np.float32)
-    # Only where the mask reaches is the smear used: filter that window (plus the kernel's
-    # reach, so its inside sees the same pixels as a whole-frame filter would), not the frame.
-    rows, cols = np.nonzero(soft > 0.0)
-    if len(rows) == 0:
+    reached = _kernel_window(soft, kernel)
+    if reached is None:
         return image
-    reach = kernel.shape[0] // 2 + 1
-    height, width_px = image.shape[:2]
-    top, bottom = max(0, rows.min() - reach), min(height, rows.max() + 1 + reach)
-    left, right = max(0, cols.min() - reach), min(width_px, cols.max() + 1 + reach)
+    top, bottom, left, right = reached
     window = image[top:bottom, left:right]
     smeared = cv2.filter2D(window, cv2.CV_32F, kernel, borderType=cv2.BORDER_REFLECT_101)
     weight = soft[top:bottom, left:right, None]
@@ -182,7 +199,9 @@ def motion_blur_tool(
 FOREGROUND_DIFFERENCE = 24  # grey levels off the empty picture that count as the tool or hand
 
 
-def foreground_mask(image: ImageU8, kps: FloatArray, background: ImageU8) -> FloatArray:
+def foreground_mask(
+    image: ImageU8, kps: FloatArray, background: ImageU8
+) -> npt.NDArray[np.float32]:
     """Where ``image`` shows something in front of the empty ``background`` (the tool, the
     glove), near the tool: within a band around the tip-rear axis as wide as a fifth of the
     tool's length (at least 8 px either side). Soft-edged, 0..1."""
@@ -218,15 +237,14 @@ def smear_foreground(
     layer ``F`` over the bench ``B`` with coverage ``m``; over the exposure this is
     ``B * (1 - S(m)) + S(F * m)``, ``S`` the mean along the path."""
     mask = foreground_mask(image, kps, background)
-    rows, cols = np.nonzero(mask > 0.0)
-    if len(rows) == 0:
+    if not mask.any():
         return image
     length = rng.uniform(*settings.motion_blur_px)
     kernel = trailing_kernel(length, rng.uniform(0, 2 * np.pi))
-    reach = kernel.shape[0] // 2 + 1
-    height, width = image.shape[:2]
-    top, bottom = max(0, rows.min() - reach), min(height, rows.max() + 1 + reach)
-    left, right = max(0, cols.min() - reach), min(width, cols.max() + 1 + reach)
+    reached = _kernel_window(mask, kernel)
+    if reached is None:  # (the mask is not empty: for the type checker)
+        return image
+    top, bottom, left, right = reached
     frame = image[top:bottom, left:right].astype(np.float32)
     bench = background[top:bottom, left:right].astype(np.float32)
     cover = mask[top:bottom, left:right, None]
