@@ -104,6 +104,21 @@ class HiddenRun:
 
 
 @dataclass(frozen=True)
+class SmearLag:
+    """The measured share of a frame's move by which flow trails the clicked tool, and how
+    many moving clicks it was measured on (0: not measured, no correction)."""
+
+    share: float
+    observations: int
+
+    def to_json(self) -> dict[str, object]:
+        return {"share": round(self.share, 3), "observations": self.observations}
+
+
+NO_SMEAR = SmearLag(0.0, 0)
+
+
+@dataclass(frozen=True)
 class Propagation:
     """Propagated labels (never the clicked ones), the unlabelled runs between clicks, and
     the unlabelled runs beside "not visible" clicks for the engineer to mark."""
@@ -111,7 +126,7 @@ class Propagation:
     labels: tuple[FrameLabel, ...]
     gaps: tuple[tuple[int, int], ...]  # (first, last) frame index, inclusive, longest first
     hidden_runs: tuple[HiddenRun, ...] = ()
-    smear: SmearLag | None = None
+    smear: SmearLag = NO_SMEAR
 
     def queued(self) -> tuple[int, ...]:
         """The frame in the middle of each gap: where a click helps most, most useful first."""
@@ -337,18 +352,6 @@ def _led(poses: Track | None, lag: float, at_end: bool) -> Track | None:
     ]
 
 
-@dataclass(frozen=True)
-class SmearLag:
-    """The measured share of a frame's move by which flow trails the clicked tool, and how
-    many moving clicks it was measured on (0: not measured, no correction)."""
-
-    share: float
-    observations: int
-
-    def to_json(self) -> dict[str, object]:
-        return {"share": round(self.share, 3), "observations": self.observations}
-
-
 def smear_observations(
     tracks: SpanTracks, first: FrameLabel, last: FrameLabel
 ) -> list[tuple[Points, Points]]:
@@ -388,7 +391,7 @@ def smear_lag(observations: Sequence[tuple[Points, Points]], settings: FlowSetti
                 ratios.append(float(np.dot(point_offset, point_move)) / size)
                 weights.append(size)
     if used < settings.min_smear_observations:
-        return SmearLag(0.0, 0)
+        return NO_SMEAR
     order = np.argsort(ratios)
     cumulative = np.cumsum(np.asarray(weights)[order])
     middle = float(np.asarray(ratios)[order][np.searchsorted(cumulative, cumulative[-1] / 2.0)])
@@ -456,7 +459,7 @@ def propagate(
         if cache is not None:
             cache[(first, last)] = tracks
         spans.append((first, last, tracks))
-    smear = SmearLag(0.0, 0)
+    smear = NO_SMEAR
     if settings.correct_smear:
         smear = smear_lag(
             [

@@ -111,7 +111,7 @@ def test_the_lag_measured_on_the_clicks_is_half_the_exposure(exposure: float) ->
     clicks = [_click(index, rng) for index in range(0, FRAMES, 11)]  # at rest, at full speed
     corrected = propagate(_reader(exposed(exposure)), clicks)
     plain = propagate(_reader(exposed(exposure)), clicks, FlowSettings(correct_smear=False))
-    assert corrected.smear is not None and corrected.smear.observations >= 6
+    assert corrected.smear.observations >= 6
     assert corrected.smear.share == pytest.approx(exposure / 2.0, abs=0.07)
     assert plain.smear == SmearLag(0.0, 0)
     fixed, raw = _tip_errors(corrected.labels), _tip_errors(plain.labels)
@@ -184,7 +184,6 @@ def test_on_the_sample_video_the_correction_brings_labels_closer_to_the_truth(tr
         return np.array(out)
 
     fixed, raw = moving_errors(corrected.labels), moving_errors(plain.labels)
-    assert corrected.smear is not None
     print(
         f"lag {corrected.smear.share:.3f} from {corrected.smear.observations} clicks; moving "
         f"frames {len(raw)} -> {len(fixed)}, tip error median {np.median(raw):.2f} -> "

@@ -176,7 +176,7 @@ class LabelService:
                 "queued": list(result.queued()),
                 "gaps": [list(gap) for gap in result.gaps],
                 "hidden_runs": [run.to_json() for run in result.hidden_runs],
-                "smear": result.smear.to_json() if result.smear is not None else None,
+                "smear": result.smear.to_json(),
             }
         )
 
