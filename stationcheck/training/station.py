@@ -122,10 +122,14 @@ def tip_speeds(labels: Sequence[StationLabel]) -> list[float]:
 
 class LabelSource:
     """Frames of the station's labels, read from their PNG files when drawn: tool-absent ones
-    at their share of the labels, but at most ``max_absent_share`` of the draws."""
+    at their share of the labels, but at most ``max_absent_share`` of the draws; with
+    ``plates``, each frame with its video's empty view (:func:`background_plates`)."""
 
     def __init__(
-        self, labels: Sequence[StationLabel], max_absent_share: float = MAX_ABSENT_SHARE
+        self,
+        labels: Sequence[StationLabel],
+        max_absent_share: float = MAX_ABSENT_SHARE,
+        plates: bool = True,
     ) -> None:
         if not labels:
             raise InputFileError("no labelled frames to draw from")
@@ -138,7 +142,7 @@ class LabelSource:
             [min(MAX_FAST_WEIGHT, 1.0 + v / FAST_PX_PER_FRAME) for v in tip_speeds(self._seen)]
         )
         self._seen_p = weights / weights.sum() if len(weights) else weights
-        self.plates = background_plates(self._labels) if self._seen else {}
+        self.plates = background_plates(self._labels) if self._seen and plates else {}
 
     def __len__(self) -> int:
         return len(self._labels)
@@ -166,11 +170,14 @@ def mixed_source(
     station_share: float = STATION_SHARE,
     renderer: ModuleType | None = None,
     fast_share: float = 0.0,
+    plates: bool = True,
 ) -> FrameSource:
     """The station's frames at ``station_share``, the renderer's training frames (``renderer``:
     its training module, passed in by the command) for the rest, ``fast_share`` of those the
-    renderer's frames of fast moves (the tool drawn over its exposure, as a camera smears it)."""
-    own = LabelSource(labels)
+    renderer's frames of fast moves (the tool drawn over its exposure, as a camera smears it).
+    ``plates``: work out each video's empty view, for the motion-blur augmentation (a source
+    whose frames are drawn without it, as calibration's, needs none)."""
+    own = LabelSource(labels, plates=plates)
     functions: list[tuple[SampleFn, float]] = []
     if station_share < 1.0 and renderer is not None:
         rest = 1.0 - station_share
@@ -245,7 +252,7 @@ def fine_tune(
     result = train(source, config, on_progress=on_progress, example_settings=examples)
     calibration_labels = split.calibration or split.train
     calibration = mixed_source(
-        calibration_labels, max(settings.station_share, 0.5), settings.renderer
+        calibration_labels, max(settings.station_share, 0.5), settings.renderer, plates=False
     )
     staging = settings.out_dir.with_name(settings.out_dir.name + ".new")
     if staging.exists():
