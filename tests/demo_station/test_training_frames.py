@@ -109,6 +109,15 @@ def test_every_named_mix_finds_all_its_renderer_functions(mix: str) -> None:
     assert sum(weight for _, weight in functions) == pytest.approx(1.0)
 
 
+def test_train_offers_exactly_the_named_mixes() -> None:
+    from stationcheck.cli import build_parser
+
+    train = build_parser()._subparsers._group_actions[0].choices["train"]  # type: ignore[union-attr]
+    option = next(action for action in train._actions if action.dest == "demo_mix")
+    assert tuple(option.choices) == tuple(DEMO_MIXES)
+    assert option.default in DEMO_MIXES
+
+
 def test_own_tool_mix_shows_the_station_tool_in_about_half_the_frames() -> None:
     # before tools were randomised, every station frame (half of all) showed the station's tool
     weights = dict(DEMO_MIXES["own-tool"])
